@@ -1,0 +1,70 @@
+/**
+ * The solver's data contract (SPEC §5). Rows are demand, columns are supply. Only
+ * allowed pairs exist. Each row is matched once, or left unmatched at its own cost
+ * `unmatchedCost[row]` (δ); with no `unmatchedCost` every row must be matched. Each
+ * column is matched at most once, unmatched at cost 0.
+ */
+
+/** Allowed pairs in CSR form: row r's pairs are `colIdx[rowPtr[r] .. rowPtr[r+1])`. */
+export interface SparseInstance {
+  readonly nRows: number;
+  readonly nCols: number;
+  /** Length nRows + 1. */
+  readonly rowPtr: Int32Array;
+  /** Length nnz; column of each pair. No duplicate column within a row. */
+  readonly colIdx: Int32Array;
+  /** Length nnz; cost of each pair (finite; negative and fractional allowed). */
+  readonly cost: Float64Array;
+  /** δ per row (length nRows), or null/undefined when every row must be matched. */
+  readonly unmatchedCost?: Float64Array | null;
+}
+
+/** A dense row-major cost matrix; `Infinity` (or NaN) marks a pair that is not allowed. */
+export interface DenseInstance {
+  readonly nRows: number;
+  readonly nCols: number;
+  /** Length nRows * nCols, row-major. */
+  readonly cost: Float64Array;
+  readonly unmatchedCost?: Float64Array | null;
+}
+
+/** Warm-start hints from a previous solve, already mapped onto this instance's indices. */
+export interface WarmStart {
+  /** Column prices v (length nCols); NaN where unknown (a new column). */
+  readonly colPrices?: Float64Array;
+  /** Row prices u (length nRows); NaN where unknown. */
+  readonly rowPrices?: Float64Array;
+  /** A previous assignment: column per row, -1 where none (length nRows). Pairs that are not allowed are ignored. */
+  readonly rowToCol?: Int32Array;
+}
+
+export interface SolveOptions {
+  readonly warm?: WarmStart;
+  /** Clock for `stats.ms`; injected so the core does no I/O. @default performance.now */
+  readonly now?: () => number;
+}
+
+export interface SolveStats {
+  /** Shortest augmenting paths run. */
+  augmentations: number;
+  /** Pairs whose reduced cost was looked at. */
+  scannedPairs: number;
+  /** Wall time of the solve, by the injected clock. */
+  ms: number;
+  /** Whether a warm start was used. */
+  warm: boolean;
+}
+
+export interface SolveResult {
+  /** Σ matched costs + Σ δ over unmatched rows. */
+  readonly cost: number;
+  /** Column per row, -1 when unmatched (length nRows). */
+  readonly rowToCol: Int32Array;
+  /** Row per column, -1 when unmatched (length nCols). */
+  readonly colToRow: Int32Array;
+  /** u per row: the certificate of SPEC §5 holds for (rowDuals, colDuals). */
+  readonly rowDuals: Float64Array;
+  /** v per column, every one ≤ 0. */
+  readonly colDuals: Float64Array;
+  readonly stats: SolveStats;
+}
