@@ -1,0 +1,608 @@
+#!/usr/bin/env node
+/**
+ * A local single-node Apache Kafka broker (KRaft) for development and tests, built from
+ * the `org.apache.kafka:kafka_2.13` artifacts that Maven resolves into a cache outside
+ * the repository. Plain JavaScript so it runs before (and without) a build.
+ *
+ *   node scripts/kafka.mjs fetch            resolve the artifacts only (CI warms the cache)
+ *   node scripts/kafka.mjs up               start (or reuse) the broker, print KAFKA_BROKERS=…
+ *   node scripts/kafka.mjs down [--all]     stop it and delete its data
+ *   node scripts/kafka.mjs status           print the running instances as JSON
+ *
+ * Environment: PAIRFLOW_KAFKA_VERSION (default {@link DEFAULT_KAFKA_VERSION}),
+ * PAIRFLOW_CACHE_DIR (default ~/.cache/pairflow), PAIRFLOW_JAVA_HOME or JAVA_HOME (else
+ * `java` on PATH), PAIRFLOW_MVN (else `mvn` on PATH), PAIRFLOW_KAFKA_HEAP (default 512m),
+ * PAIRFLOW_KAFKA_START_TIMEOUT_MS (default 120000). See docs/kafka.md.
+ */
+import { spawn, spawnSync } from 'node:child_process';
+import { randomBytes } from 'node:crypto';
+import {
+  closeSync, existsSync, mkdirSync, openSync, readdirSync, readFileSync, renameSync, rmSync,
+  statSync, writeFileSync,
+} from 'node:fs';
+import { createServer } from 'node:net';
+import { homedir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+/** The broker version used when PAIRFLOW_KAFKA_VERSION is unset (docs/kafka.md says why). */
+export const DEFAULT_KAFKA_VERSION = '3.9.2';
+
+/** The instance name `up`/`down` use; test setups use their own names. */
+export const DEFAULT_INSTANCE = 'default';
+
+/** Same code as PAIRFLOW_ERR_KAFKA_BROKER_SETUP in src/errors.ts (this file runs unbuilt). */
+export const BROKER_SETUP_CODE = 'PAIRFLOW_ERR_KAFKA_BROKER_SETUP';
+
+/** An error of the local broker tooling; `code` matches the registry in src/errors.ts. */
+export class BrokerSetupError extends Error {
+  constructor(message, cause) {
+    super(message, cause === undefined ? undefined : { cause });
+    this.name = 'BrokerSetupError';
+    this.code = BROKER_SETUP_CODE;
+    this.retriable = true;
+  }
+}
+
+const progress = (msg) => process.stderr.write(`kafka: ${msg}\n`);
+const sleep = (ms) => new Promise((r) => setTimeout(r, ms));
+
+/**
+ * Every setting of the local broker, read from the environment in this one place.
+ * @param {NodeJS.ProcessEnv} [env]
+ */
+export function brokerSettings(env = process.env) {
+  const version = env.PAIRFLOW_KAFKA_VERSION || DEFAULT_KAFKA_VERSION;
+  if (!/^\d+\.\d+\.\d+$/.test(version)) {
+    throw new BrokerSetupError(`PAIRFLOW_KAFKA_VERSION=${version}: expected a release like ${DEFAULT_KAFKA_VERSION}`);
+  }
+  const cacheRoot = resolve(env.PAIRFLOW_CACHE_DIR || join(homedir(), '.cache', 'pairflow'));
+  const javaHome = env.PAIRFLOW_JAVA_HOME || env.JAVA_HOME || '';
+  const timeout = Number(env.PAIRFLOW_KAFKA_START_TIMEOUT_MS || 120_000);
+  return {
+    version,
+    cacheRoot,
+    kafkaDir: join(cacheRoot, 'kafka'),
+    versionDir: join(cacheRoot, 'kafka', version),
+    instancesDir: join(cacheRoot, 'kafka', 'instances'),
+    java: javaHome ? join(javaHome, 'bin', 'java') : 'java',
+    mvn: env.PAIRFLOW_MVN || 'mvn',
+    heap: env.PAIRFLOW_KAFKA_HEAP || '512m',
+    startTimeoutMs: Number.isFinite(timeout) && timeout > 0 ? timeout : 120_000,
+  };
+}
+
+function majorOf(version) {
+  return Number(version.split('.')[0]);
+}
+
+/** Java feature release on the given command, e.g. 17; throws when Java is missing. */
+export function javaMajor(java) {
+  const r = spawnSync(java, ['-version'], { encoding: 'utf8' });
+  if (r.error) {
+    throw new BrokerSetupError(
+      `Java not found (${java}: ${r.error.code ?? r.error.message}); install a JDK 17+ or set JAVA_HOME / PAIRFLOW_JAVA_HOME`,
+      r.error,
+    );
+  }
+  const m = /version "(\d+)(?:\.(\d+))?/.exec(`${r.stderr}${r.stdout}`);
+  if (!m) throw new BrokerSetupError(`cannot read the Java version from "${java} -version": ${r.stderr.trim()}`);
+  // Java 8 reports itself as "1.8".
+  return m[1] === '1' ? Number(m[2]) : Number(m[1]);
+}
+
+function requireJava(settings) {
+  const have = javaMajor(settings.java);
+  // Kafka 4 brokers need Java 17 (KIP-750/1013); 3.x brokers run on 11+ (8 is deprecated).
+  const need = majorOf(settings.version) >= 4 ? 17 : 11;
+  if (have < need) {
+    throw new BrokerSetupError(
+      `Kafka ${settings.version} needs Java ${need}+, but ${settings.java} is Java ${have}; set PAIRFLOW_JAVA_HOME to a newer JDK`,
+    );
+  }
+  return have;
+}
+
+/**
+ * The pom that makes Maven copy the broker's runtime class path. The logging binding
+ * matches the slf4j generation each Kafka line was built against.
+ */
+function pomFor(version) {
+  const logging = majorOf(version) >= 4
+    ? `<dependency><groupId>org.slf4j</groupId><artifactId>slf4j-simple</artifactId><version>2.0.17</version></dependency>`
+    : `<dependency><groupId>org.slf4j</groupId><artifactId>slf4j-reload4j</artifactId><version>1.7.36</version></dependency>`;
+  return `<?xml version="1.0" encoding="UTF-8"?>
+<!-- Generated by pairflow scripts/kafka.mjs: the class path of a local Kafka ${version} broker. -->
+<project xmlns="http://maven.apache.org/POM/4.0.0">
+  <modelVersion>4.0.0</modelVersion>
+  <groupId>local.pairflow</groupId>
+  <artifactId>kafka-broker-classpath</artifactId>
+  <version>${version}</version>
+  <packaging>pom</packaging>
+  <dependencies>
+    <dependency><groupId>org.apache.kafka</groupId><artifactId>kafka_2.13</artifactId><version>${version}</version></dependency>
+    ${logging}
+  </dependencies>
+</project>
+`;
+}
+
+function tail(text, lines = 40) {
+  return text.split('\n').slice(-lines).join('\n');
+}
+
+/**
+ * Resolves the broker's jars with Maven into `<cache>/kafka/<version>/libs` (once; later
+ * calls reuse them). @returns {{ version: string, libDir: string, downloaded: boolean, ms: number }}
+ */
+export function fetchArtifacts(settings = brokerSettings()) {
+  const t0 = Date.now();
+  const libDir = join(settings.versionDir, 'libs');
+  const marker = join(settings.versionDir, 'resolved.json');
+  if (existsSync(marker) && existsSync(libDir)) {
+    return { version: settings.version, libDir, downloaded: false, ms: Date.now() - t0 };
+  }
+  const mv = spawnSync(settings.mvn, ['-v'], { encoding: 'utf8' });
+  if (mv.error) {
+    throw new BrokerSetupError(
+      `Maven not found (${settings.mvn}: ${mv.error.code ?? mv.error.message}); install Maven 3 or set PAIRFLOW_MVN`,
+      mv.error,
+    );
+  }
+  mkdirSync(settings.versionDir, { recursive: true });
+  const pom = join(settings.versionDir, 'pom.xml');
+  writeFileSync(pom, pomFor(settings.version));
+  // A private output dir renamed at the end, so two concurrent fetches cannot mix files.
+  const tmp = `${libDir}.tmp-${process.pid}`;
+  rmSync(tmp, { recursive: true, force: true });
+  progress(`resolving org.apache.kafka:kafka_2.13:${settings.version} with Maven (first run downloads ~50 MB)…`);
+  const r = spawnSync(
+    settings.mvn,
+    ['-B', '-q', '-f', pom, 'dependency:copy-dependencies', `-DoutputDirectory=${tmp}`, '-DincludeScope=runtime'],
+    { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024 },
+  );
+  if (r.status !== 0 || !existsSync(join(tmp, `kafka_2.13-${settings.version}.jar`))) {
+    rmSync(tmp, { recursive: true, force: true });
+    throw new BrokerSetupError(
+      `Maven could not resolve org.apache.kafka:kafka_2.13:${settings.version} (exit ${r.status}):\n${tail(`${r.stdout}\n${r.stderr}`)}`,
+    );
+  }
+  if (existsSync(libDir)) rmSync(tmp, { recursive: true, force: true });
+  else renameSync(tmp, libDir);
+  const jars = readdirSync(libDir).filter((f) => f.endsWith('.jar')).sort();
+  writeFileSync(marker, JSON.stringify({ version: settings.version, jars, resolvedAt: new Date().toISOString() }, null, 2));
+  const ms = Date.now() - t0;
+  progress(`resolved ${jars.length} jars into ${libDir} in ${(ms / 1000).toFixed(1)} s`);
+  return { version: settings.version, libDir, downloaded: true, ms };
+}
+
+function freePorts(n) {
+  // Hold every listener open until all are bound, so the ports are distinct.
+  return new Promise((resolvePorts, reject) => {
+    const servers = [];
+    const ports = [];
+    const next = () => {
+      if (ports.length === n) {
+        let open = servers.length;
+        for (const s of servers) s.close(() => { if (--open === 0) resolvePorts(ports); });
+        return;
+      }
+      const s = createServer();
+      s.once('error', reject);
+      s.listen(0, '127.0.0.1', () => {
+        servers.push(s);
+        ports.push(s.address().port);
+        next();
+      });
+    };
+    next();
+  });
+}
+
+/** A KRaft cluster id: 16 random bytes in URL-safe base64 without padding, like Kafka's Uuid. */
+function clusterId() {
+  for (;;) {
+    const id = randomBytes(16).toString('base64url');
+    // Kafka avoids ids starting with '-' because command lines read them as options.
+    if (!id.startsWith('-')) return id;
+  }
+}
+
+function serverProperties({ brokerPort, controllerPort, dataDir }) {
+  return [
+    '# Generated by pairflow scripts/kafka.mjs: a single-node KRaft broker on 127.0.0.1.',
+    'process.roles=broker,controller',
+    'node.id=1',
+    `controller.quorum.voters=1@127.0.0.1:${controllerPort}`,
+    `listeners=PLAINTEXT://127.0.0.1:${brokerPort},CONTROLLER://127.0.0.1:${controllerPort}`,
+    `advertised.listeners=PLAINTEXT://127.0.0.1:${brokerPort}`,
+    'controller.listener.names=CONTROLLER',
+    'inter.broker.listener.name=PLAINTEXT',
+    'listener.security.protocol.map=CONTROLLER:PLAINTEXT,PLAINTEXT:PLAINTEXT',
+    `log.dirs=${dataDir}`,
+    'num.partitions=1',
+    // One node: every internal topic has one replica, and one partition so it starts fast.
+    'offsets.topic.replication.factor=1',
+    'offsets.topic.num.partitions=1',
+    'transaction.state.log.replication.factor=1',
+    'transaction.state.log.min.isr=1',
+    'transaction.state.log.num.partitions=1',
+    'share.coordinator.state.topic.replication.factor=1',
+    'share.coordinator.state.topic.min.isr=1',
+    'default.replication.factor=1',
+    'min.insync.replicas=1',
+    'group.initial.rebalance.delay.ms=0',
+    'auto.create.topics.enable=true',
+    // Short-lived test data: small segments, no long flush or retention bookkeeping.
+    'log.segment.bytes=16777216',
+    'log.retention.check.interval.ms=60000',
+    '',
+  ].join('\n');
+}
+
+function log4jProperties(logFile) {
+  return [
+    'log4j.rootLogger=INFO, file',
+    'log4j.appender.file=org.apache.log4j.FileAppender',
+    `log4j.appender.file.File=${logFile}`,
+    'log4j.appender.file.layout=org.apache.log4j.PatternLayout',
+    'log4j.appender.file.layout.ConversionPattern=[%d] %p %m (%c)%n',
+    'log4j.logger.org.apache.kafka.clients=WARN',
+    'log4j.logger.kafka.request.logger=WARN',
+    '',
+  ].join('\n');
+}
+
+function instancePaths(settings, instance) {
+  if (!/^[\w.-]+$/.test(instance)) throw new BrokerSetupError(`instance name "${instance}": use letters, digits, '.', '_' or '-'`);
+  const dir = join(settings.instancesDir, instance);
+  return {
+    dir,
+    stateFile: join(dir, 'state.json'),
+    dataDir: join(dir, 'data'),
+    logFile: join(dir, 'broker.log'),
+    props: join(dir, 'server.properties'),
+    log4j: join(dir, 'log4j.properties'),
+    lock: join(settings.instancesDir, `${instance}.lock`),
+  };
+}
+
+/** True when `pid` is a live (not zombie) process whose command line contains `marker`. */
+function processMatches(pid, marker) {
+  if (!Number.isInteger(pid) || pid <= 0) return false;
+  try {
+    process.kill(pid, 0);
+  } catch {
+    return false;
+  }
+  try {
+    // A zombie has an empty command line; a reused pid has someone else's.
+    return readFileSync(`/proc/${pid}/cmdline`, 'utf8').includes(marker);
+  } catch {
+    return process.platform !== 'linux';
+  }
+}
+
+function readState(paths) {
+  try {
+    return JSON.parse(readFileSync(paths.stateFile, 'utf8'));
+  } catch {
+    return undefined;
+  }
+}
+
+function logTail(file, lines = 30) {
+  try {
+    return tail(readFileSync(file, 'utf8').trimEnd(), lines);
+  } catch {
+    return '(no broker log)';
+  }
+}
+
+async function withLock(lock, fn) {
+  mkdirSync(resolve(lock, '..'), { recursive: true });
+  const deadline = Date.now() + 300_000;
+  for (;;) {
+    try {
+      mkdirSync(lock);
+      writeFileSync(join(lock, 'owner'), String(process.pid));
+      break;
+    } catch (err) {
+      if (err.code !== 'EEXIST') throw err;
+      let owner = 0;
+      try { owner = Number(readFileSync(join(lock, 'owner'), 'utf8')); } catch { /* being created */ }
+      let age = 0;
+      try { age = Date.now() - statSync(lock).mtimeMs; } catch { /* just released */ }
+      const ownerGone = owner > 0 && !processMatches(owner, '');
+      if (ownerGone || age > 280_000) rmSync(lock, { recursive: true, force: true });
+      else if (Date.now() > deadline) throw new BrokerSetupError(`timed out waiting for the lock ${lock}`);
+      else await sleep(250);
+    }
+  }
+  try {
+    return await fn();
+  } finally {
+    rmSync(lock, { recursive: true, force: true });
+  }
+}
+
+/** One metadata round trip; resolves to the broker count or throws. */
+async function describeCluster(brokers, timeoutMs = 5000) {
+  const { Kafka, logLevel } = (await import('kafkajs')).default;
+  const kafka = new Kafka({
+    clientId: 'pairflow-broker-probe',
+    brokers,
+    logLevel: logLevel.NOTHING,
+    connectionTimeout: Math.min(2000, timeoutMs),
+    requestTimeout: timeoutMs,
+    retry: { retries: 0 },
+  });
+  const admin = kafka.admin();
+  try {
+    await admin.connect();
+    const cluster = await admin.describeCluster();
+    return cluster.brokers.length;
+  } finally {
+    await admin.disconnect().catch(() => {});
+  }
+}
+
+/** True when a broker answers a metadata request within `timeoutMs`. */
+export async function brokerAnswers(brokers, timeoutMs = 5000) {
+  try {
+    return (await describeCluster(brokers, timeoutMs)) > 0;
+  } catch {
+    return false;
+  }
+}
+
+function javaArgs(settings, paths, libDir, mainClass, extra) {
+  const args = [
+    `-Xms128m`, `-Xmx${settings.heap}`,
+    '-XX:+UseG1GC', '-XX:MaxGCPauseMillis=20',
+    '-Djava.awt.headless=true',
+    `-Dlog4j.configuration=file:${paths.log4j}`,
+    // slf4j-simple (Kafka 4.x class path) writes to stderr, which goes to the log file.
+    '-Dorg.slf4j.simpleLogger.defaultLogLevel=info',
+    '-Dorg.slf4j.simpleLogger.showDateTime=true',
+    '-Dorg.slf4j.simpleLogger.log.org.apache.kafka.clients=warn',
+    '-Dorg.slf4j.simpleLogger.log.kafka.request.logger=warn',
+    `-Dpairflow.instance=${paths.dir}`,
+    '-cp', join(libDir, '*'),
+    mainClass,
+  ];
+  return args.concat(extra);
+}
+
+function cleanInstance(paths) {
+  rmSync(paths.dataDir, { recursive: true, force: true });
+  rmSync(paths.stateFile, { force: true });
+}
+
+/**
+ * Starts the local broker (or reuses the instance if it is already up) and waits until it
+ * answers a metadata request.
+ *
+ * @param {object} [options]
+ * @param {string} [options.instance] instance name; each has its own ports and data. @default 'default'
+ * @param {number} [options.ownerPid] stop the broker when this process dies (test setups)
+ * @param {NodeJS.ProcessEnv} [options.env] where settings are read from. @default process.env
+ * @returns {Promise<{ brokers: string, started: boolean, pid: number, version: string,
+ *   instance: string, logFile: string, stateFile: string, fetchMs: number, startMs: number }>}
+ * @example const { brokers } = await startBroker(); // '127.0.0.1:40123'
+ */
+export async function startBroker(options = {}) {
+  const settings = brokerSettings(options.env);
+  const instance = options.instance ?? DEFAULT_INSTANCE;
+  const paths = instancePaths(settings, instance);
+  return withLock(paths.lock, async () => {
+    const t0 = Date.now();
+    const old = readState(paths);
+    if (old && processMatches(old.pid, paths.dir)) {
+      const brokers = `127.0.0.1:${old.brokerPort}`;
+      if (await brokerAnswers([brokers])) {
+        progress(`reusing instance ${instance} (Kafka ${old.version}, pid ${old.pid}) at ${brokers}`);
+        return { ...describe(old, paths), started: false, fetchMs: 0, startMs: Date.now() - t0 };
+      }
+      progress(`instance ${instance} (pid ${old.pid}) does not answer; restarting it`);
+      await stopProcess(old.pid, paths.dir);
+    }
+    cleanInstance(paths);
+    sweepStaleInstances(settings, instance);
+
+    requireJava(settings);
+    const fetched = fetchArtifacts(settings);
+    const [brokerPort, controllerPort] = await freePorts(2);
+    mkdirSync(paths.dir, { recursive: true });
+    writeFileSync(paths.props, serverProperties({ brokerPort, controllerPort, dataDir: paths.dataDir }));
+    writeFileSync(paths.log4j, log4jProperties(paths.logFile));
+    writeFileSync(paths.logFile, '');
+
+    const format = spawnSync(
+      settings.java,
+      javaArgs(settings, paths, fetched.libDir, 'kafka.tools.StorageTool',
+        ['format', '-t', clusterId(), '-c', paths.props, '--ignore-formatted']),
+      { encoding: 'utf8' },
+    );
+    if (format.status !== 0) {
+      throw new BrokerSetupError(
+        `formatting the KRaft storage failed (exit ${format.status}):\n${tail(`${format.stdout}\n${format.stderr}`)}\n${logTail(paths.logFile)}`,
+      );
+    }
+
+    const startT = Date.now();
+    const out = openSync(paths.logFile, 'a');
+    const child = spawn(settings.java, javaArgs(settings, paths, fetched.libDir, 'kafka.Kafka', [paths.props]), {
+      detached: true,
+      stdio: ['ignore', out, out],
+    });
+    closeSync(out);
+    let exited = null;
+    child.once('exit', (code, signal) => { exited = { code, signal }; });
+    child.once('error', (err) => { exited = { code: null, signal: null, err }; });
+    child.unref();
+
+    let watchdog = 0;
+    if (options.ownerPid) {
+      // If the owner dies without tearing down (a killed test run), stop the broker anyway.
+      const w = spawn('sh', ['-c',
+        `while kill -0 ${options.ownerPid} 2>/dev/null && kill -0 ${child.pid} 2>/dev/null; do sleep 1; done; kill ${child.pid} 2>/dev/null; exit 0`],
+      { detached: true, stdio: 'ignore' });
+      w.unref();
+      watchdog = w.pid ?? 0;
+    }
+    const state = {
+      instance, version: settings.version, pid: child.pid, watchdog, brokerPort, controllerPort,
+      dataDir: paths.dataDir, logFile: paths.logFile, props: paths.props, startedAt: new Date().toISOString(),
+    };
+    writeFileSync(paths.stateFile, JSON.stringify(state, null, 2));
+    progress(`starting Kafka ${settings.version} (pid ${child.pid}) on 127.0.0.1:${brokerPort}, log ${paths.logFile}`);
+
+    const brokers = `127.0.0.1:${brokerPort}`;
+    const deadline = startT + settings.startTimeoutMs;
+    for (;;) {
+      if (exited) {
+        cleanInstance(paths);
+        throw new BrokerSetupError(
+          `the Kafka broker exited during start-up (${exited.err ? exited.err.message : `code ${exited.code}, signal ${exited.signal}`}); last lines of ${paths.logFile}:\n${logTail(paths.logFile)}`,
+        );
+      }
+      if (await brokerAnswers([brokers], 2000)) break;
+      if (Date.now() > deadline) {
+        await stopProcess(child.pid, paths.dir);
+        cleanInstance(paths);
+        throw new BrokerSetupError(
+          `the Kafka broker did not answer within ${settings.startTimeoutMs} ms; last lines of ${paths.logFile}:\n${logTail(paths.logFile)}`,
+        );
+      }
+      await sleep(300);
+    }
+    const startMs = Date.now() - startT;
+    progress(`Kafka ${settings.version} answers at ${brokers} after ${(startMs / 1000).toFixed(1)} s`);
+    return { ...describe(state, paths), started: true, fetchMs: fetched.ms, startMs };
+  });
+}
+
+function describe(state, paths) {
+  return {
+    brokers: `127.0.0.1:${state.brokerPort}`,
+    pid: state.pid,
+    version: state.version,
+    instance: state.instance,
+    logFile: paths.logFile,
+    stateFile: paths.stateFile,
+  };
+}
+
+async function stopProcess(pid, marker, graceMs = 30_000) {
+  if (!processMatches(pid, marker)) return false;
+  try { process.kill(pid, 'SIGTERM'); } catch { return false; }
+  const deadline = Date.now() + graceMs;
+  while (processMatches(pid, marker)) {
+    if (Date.now() > deadline) {
+      try { process.kill(pid, 'SIGKILL'); } catch { /* already gone */ }
+      await sleep(200);
+      break;
+    }
+    await sleep(100);
+  }
+  return true;
+}
+
+/** Removes instances whose broker is gone (a crashed or killed run left them behind). */
+function sweepStaleInstances(settings, except) {
+  let names = [];
+  try { names = readdirSync(settings.instancesDir, { withFileTypes: true }).filter((d) => d.isDirectory()).map((d) => d.name); } catch { return; }
+  for (const name of names) {
+    if (name === except || name.endsWith('.lock')) continue;
+    const paths = instancePaths(settings, name);
+    const state = readState(paths);
+    if (state && !processMatches(state.pid, paths.dir)) cleanInstance(paths);
+  }
+}
+
+/**
+ * Stops a local broker instance (SIGTERM, then SIGKILL after 30 s) and deletes its data.
+ * @param {{ instance?: string, env?: NodeJS.ProcessEnv }} [options]
+ * @returns {Promise<{ stopped: boolean, instance: string }>}
+ */
+export async function stopBroker(options = {}) {
+  const settings = brokerSettings(options.env);
+  const instance = options.instance ?? DEFAULT_INSTANCE;
+  const paths = instancePaths(settings, instance);
+  const state = readState(paths);
+  let stopped = false;
+  if (state) {
+    stopped = await stopProcess(state.pid, paths.dir);
+    if (state.watchdog) { try { process.kill(state.watchdog, 'SIGTERM'); } catch { /* already gone */ } }
+  }
+  cleanInstance(paths);
+  return { stopped, instance };
+}
+
+/** Instance names found in the cache, running or not. */
+export function listInstances(options = {}) {
+  const settings = brokerSettings(options.env);
+  try {
+    return readdirSync(settings.instancesDir, { withFileTypes: true })
+      .filter((d) => d.isDirectory() && !d.name.endsWith('.lock'))
+      .map((d) => d.name);
+  } catch {
+    return [];
+  }
+}
+
+/** The state of every instance with a state file, with whether its process is alive. */
+export function brokerStatus(options = {}) {
+  const settings = brokerSettings(options.env);
+  const out = [];
+  for (const name of listInstances(options)) {
+    const paths = instancePaths(settings, name);
+    const state = readState(paths);
+    if (state) out.push({ ...state, alive: processMatches(state.pid, paths.dir) });
+  }
+  return out;
+}
+
+async function main(argv) {
+  const [cmd, ...rest] = argv;
+  switch (cmd) {
+    case 'fetch': {
+      const settings = brokerSettings();
+      requireJava(settings);
+      const r = fetchArtifacts(settings);
+      progress(r.downloaded ? `fetched Kafka ${r.version}` : `Kafka ${r.version} already in ${r.libDir}`);
+      return 0;
+    }
+    case 'up': {
+      const r = await startBroker();
+      process.stdout.write(`KAFKA_BROKERS=${r.brokers}\n`);
+      return 0;
+    }
+    case 'down': {
+      const names = rest.includes('--all') ? listInstances() : [DEFAULT_INSTANCE];
+      for (const instance of names) {
+        const r = await stopBroker({ instance });
+        progress(r.stopped ? `stopped instance ${instance}` : `instance ${instance} was not running; its data is cleaned`);
+      }
+      return 0;
+    }
+    case 'status': {
+      process.stdout.write(`${JSON.stringify(brokerStatus(), null, 2)}\n`);
+      return 0;
+    }
+    default:
+      process.stderr.write('usage: node scripts/kafka.mjs fetch | up | down [--all] | status\n');
+      return 2;
+  }
+}
+
+if (process.argv[1] && resolve(process.argv[1]) === fileURLToPath(import.meta.url)) {
+  main(process.argv.slice(2)).then(
+    (code) => { process.exitCode = code; },
+    (err) => {
+      process.stderr.write(`kafka: ${err.message}${err.code ? ` [${err.code}]` : ''}\n`);
+      process.exitCode = 1;
+    },
+  );
+}
