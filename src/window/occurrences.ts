@@ -1,0 +1,191 @@
+/**
+ * Unit occurrences (SPEC §1): the log alone decides them, whatever any policy did.
+ * The online engine and the hindsight benchmark both build them with the same
+ * {@link OccurrenceLedger}, so they can never disagree on what a unit is. Pure.
+ *
+ * "Still available at w" means `w ≤ end`. SPEC §1 calls `until` the *last instant*
+ * the unit is available, and `end = min(until, time it was ended)` has the same
+ * meaning, so availability includes the instant `end` itself. This is also the pool
+ * rule of SPEC §3 (`t < τ ≤ end`) and the hindsight rule of SPEC §4
+ * (`max(s.t, d.t) ≤ min(end_s, end_d)`). Consequences:
+ * - a withdraw at exactly `until` applies (it changes nothing but is not counted as
+ *   ignored); a withdraw one millisecond after `until` is ignored and counted;
+ * - a second withdraw at the same millisecond as the first applies again (a no-op)
+ *   and is not counted; one at a later millisecond is counted.
+ */
+import { type ArrivalEvent, type PairflowConfig, type Side, type SourcedEvent, untilOf } from '../model.js';
+
+/** One unit occurrence (SPEC §1). `end` only ever decreases as the ledger learns more. */
+export interface Occurrence {
+  /** Position in the ledger's creation order; dense from 0. */
+  readonly index: number;
+  readonly side: Side;
+  readonly id: string;
+  readonly market: string;
+  /** Arrival time (ms). */
+  readonly t: number;
+  /** Last available instant from the arrival: its `until`, or `t + patience`. */
+  readonly until: number;
+  /** `min(until, time it was ended)`: the last instant it is available. */
+  end: number;
+  readonly lat?: number;
+  readonly lon?: number;
+  readonly x?: number;
+  readonly y?: number;
+  readonly has?: readonly string[];
+  readonly needs?: readonly string[];
+  /** The `seq` of the arrival event (stable file order). */
+  readonly seq: number;
+}
+
+/** What one event did to the ledger. */
+export type LedgerOutcome =
+  /** A new occurrence; `ended` is an earlier occurrence of the same unit whose `end` this arrival cut short. */
+  | { readonly kind: 'arrival'; readonly occurrence: Occurrence; readonly ended: Occurrence | null }
+  /** Same side, id and t as an earlier arrival: ignored and counted. */
+  | { readonly kind: 'duplicate'; readonly of: Occurrence }
+  /** `ended` is the occurrence the withdraw applied to; `changed` whether its `end` moved. */
+  | { readonly kind: 'withdraw'; readonly ended: Occurrence; readonly changed: boolean }
+  /** No occurrence with `t ≤ w` still available at `w`: ignored and counted. */
+  | { readonly kind: 'ignored-withdraw' };
+
+/**
+ * Incremental occurrence builder: apply events one at a time. Meant for time order
+ * (stable by `seq`); an event applied out of time order (a late event in live mode)
+ * is placed in its unit's history by time: it ends the occurrence before it if that
+ * one is still available, and is itself ended by the arrival after it. Withdraws
+ * already applied are not revisited. Markets and sides are separate namespaces.
+ */
+export class OccurrenceLedger {
+  /** Every occurrence so far, by index. */
+  readonly occurrences: Occurrence[] = [];
+  /** Arrivals ignored as duplicates. */
+  duplicates = 0;
+  /** Withdraws that found no occurrence still available. */
+  ignoredWithdraws = 0;
+
+  private readonly config: PairflowConfig;
+  /** Per unit (side, market, id): the index of its occurrence with the largest `t`. */
+  private readonly tails = new Map<string, Map<string, number>>();
+  /** prev[i]: the unit's occurrence before occurrence i in time, or -1. */
+  private prev: Int32Array = new Int32Array(1024);
+
+  constructor(config: PairflowConfig) {
+    this.config = config;
+  }
+
+  /** Applies one event and says what it did. */
+  apply(sourced: SourcedEvent): LedgerOutcome {
+    const ev = sourced.event;
+    if (ev.type === 'withdraw') return this.withdraw(this.unitsOf(ev.side, ev.market), ev.id, ev.t);
+    return this.arrive(ev, sourced.seq);
+  }
+
+  /** The unit's occurrences, oldest first (for tests and diagnostics). */
+  historyOf(side: Side, market: string, id: string): Occurrence[] {
+    const out: Occurrence[] = [];
+    let i = this.tails.get(keyOf(side, market))?.get(id) ?? -1;
+    while (i >= 0) {
+      out.push(this.occurrences[i]!);
+      i = this.prev[i]!;
+    }
+    return out.reverse();
+  }
+
+  private unitsOf(side: Side, market: string): Map<string, number> {
+    const key = keyOf(side, market);
+    let units = this.tails.get(key);
+    if (units === undefined) {
+      units = new Map();
+      this.tails.set(key, units);
+    }
+    return units;
+  }
+
+  private arrive(ev: ArrivalEvent, seq: number): LedgerOutcome {
+    const units = this.unitsOf(ev.type, ev.market);
+    const tail = units.get(ev.id) ?? -1;
+    // Walk back from the newest occurrence to the last one with t ≤ ev.t; in time order
+    // this stops at once.
+    let after = -1;
+    let before = tail;
+    while (before >= 0 && this.occurrences[before]!.t > ev.t) {
+      after = before;
+      before = this.prev[before]!;
+    }
+    // The history holds at most one occurrence per t (duplicates are never inserted),
+    // so an earlier arrival at the same t can only be `before`.
+    if (before >= 0 && this.occurrences[before]!.t === ev.t) {
+      this.duplicates++;
+      return { kind: 'duplicate', of: this.occurrences[before]! };
+    }
+    const index = this.occurrences.length;
+    const until = untilOf(ev, this.config);
+    let end = until;
+    if (after >= 0) {
+      // A late arrival: the next arrival of the unit ends it, if it is still available then.
+      const nextT = this.occurrences[after]!.t;
+      if (nextT <= end) end = nextT;
+    }
+    const occ: Occurrence = {
+      index, side: ev.type, id: ev.id, market: ev.market, t: ev.t, until, end, seq,
+      ...(ev.lat !== undefined ? { lat: ev.lat } : {}),
+      ...(ev.lon !== undefined ? { lon: ev.lon } : {}),
+      ...(ev.x !== undefined ? { x: ev.x } : {}),
+      ...(ev.y !== undefined ? { y: ev.y } : {}),
+      ...(ev.has !== undefined ? { has: ev.has } : {}),
+      ...(ev.needs !== undefined ? { needs: ev.needs } : {}),
+    };
+    this.occurrences.push(occ);
+    if (index >= this.prev.length) {
+      const grown = new Int32Array(this.prev.length * 2);
+      grown.set(this.prev);
+      this.prev = grown;
+    }
+    this.prev[index] = before;
+    if (after >= 0) this.prev[after] = index;
+    else units.set(ev.id, index);
+
+    let ended: Occurrence | null = null;
+    if (before >= 0) {
+      const p = this.occurrences[before]!;
+      if (ev.t < p.end) {
+        p.end = ev.t;
+        ended = p;
+      }
+    }
+    return { kind: 'arrival', occurrence: occ, ended };
+  }
+
+  private withdraw(units: Map<string, number>, id: string, w: number): LedgerOutcome {
+    let i = units.get(id) ?? -1;
+    while (i >= 0 && this.occurrences[i]!.t > w) i = this.prev[i]!;
+    if (i < 0 || w > this.occurrences[i]!.end) {
+      this.ignoredWithdraws++;
+      return { kind: 'ignored-withdraw' };
+    }
+    const occ = this.occurrences[i]!;
+    const changed = w < occ.end;
+    if (changed) occ.end = w;
+    return { kind: 'withdraw', ended: occ, changed };
+  }
+}
+
+function keyOf(side: Side, market: string): string {
+  return side === 'supply' ? 's' + market : 'd' + market;
+}
+
+/**
+ * All occurrences of a log whose events are sorted by `t` (stable by `seq`), with the
+ * counts of ignored duplicates and withdraws. Built on {@link OccurrenceLedger}, so the
+ * batch and the incremental views agree.
+ * @example const { occurrences } = buildOccurrences(events, DEFAULT_CONFIG)
+ */
+export function buildOccurrences(
+  sortedEvents: readonly SourcedEvent[],
+  config: PairflowConfig,
+): { occurrences: Occurrence[]; duplicates: number; ignoredWithdraws: number } {
+  const ledger = new OccurrenceLedger(config);
+  for (let i = 0; i < sortedEvents.length; i++) ledger.apply(sortedEvents[i]!);
+  return { occurrences: ledger.occurrences, duplicates: ledger.duplicates, ignoredWithdraws: ledger.ignoredWithdraws };
+}
