@@ -25,10 +25,12 @@ export const ERROR_CODES = {
   PAIRFLOW_ERR_INPUT_FORMAT: { kind: 'input', template: '{file}:{line}: {detail}' },
   PAIRFLOW_ERR_INPUT_EMPTY: { kind: 'input', template: '{file}: {detail}' },
   PAIRFLOW_ERR_INPUT_REJECT: { kind: 'input', template: '{file}:{line}: {detail}' },
+  PAIRFLOW_ERR_INPUT_UNSUPPORTED: { kind: 'input', template: '{file}: {detail}' },
   PAIRFLOW_ERR_SOLVER_INFEASIBLE: { kind: 'input', template: '{detail}' },
   PAIRFLOW_ERR_SOLVER_INPUT: { kind: 'input', template: '{detail}' },
   PAIRFLOW_ERR_KAFKA_CONNECT: { kind: 'runtime', template: 'cannot reach Kafka at {brokers}: {detail}', retriable: true },
   PAIRFLOW_ERR_KAFKA_BROKER_SETUP: { kind: 'runtime', template: '{detail}', retriable: true },
+  PAIRFLOW_ERR_KAFKA_AVRO: { kind: 'input', template: '{where}: {detail}' },
   PAIRFLOW_ERR_OUTPUT_WRITE: { kind: 'runtime', template: '{file}: cannot write output: {detail}', retriable: true },
   PAIRFLOW_ERR_INTERNAL_BUG: { kind: 'runtime', template: '{detail}' },
 } as const satisfies Record<string, CodeSpec>;

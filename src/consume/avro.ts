@@ -1,0 +1,248 @@
+/**
+ * A streaming reader of Avro object container files that survives damage.
+ *
+ * avsc's own BlockDecoder stops at the first bad block. Here the container layout
+ * (Avro 1.11 specification, "Object Container Files": magic `Obj\x01`, a metadata map,
+ * a 16-byte sync marker, then blocks of `long count, long size, data, sync`) is
+ * walked by hand, and each block's records are decoded with avsc's types. A block
+ * whose framing, sync marker, compression or records are damaged becomes one
+ * `corrupt` piece, and reading resumes after the next sync marker, so later blocks
+ * still decode. Memory stays bounded by the largest block.
+ */
+import { inflateRawSync } from 'node:zlib';
+import avro from 'avsc';
+
+const MAGIC = Buffer.from('Obj\x01', 'latin1');
+const SYNC_BYTES = 16;
+
+/** Largest block (compressed or not) the reader accepts; larger sizes mean damage. */
+export const MAX_BLOCK_BYTES = 64 << 20;
+
+// A long read without avsc's "potential precision loss" exception: an absurd time
+// (say 2^62 ms) is then a validation reject of one record, not a decode failure that
+// loses its whole block. Values beyond 2^53 lose precision, but all of them lie far
+// outside the range of dates and are rejected anyway.
+const LenientLong = avro.types.LongType.__with({
+  fromBuffer: (buf: Buffer) => Number(buf.readBigInt64LE(0)),
+  toBuffer: (n: number) => {
+    const buf = Buffer.alloc(8);
+    buf.writeBigInt64LE(BigInt(Math.trunc(n)), 0);
+    return buf;
+  },
+  fromJSON: (v: unknown) => Number(v),
+  toJSON: (n: number) => n,
+  isValid: (n: unknown) => typeof n === 'number' && Number.isInteger(n),
+  compare: (a: number, b: number) => (a < b ? -1 : a > b ? 1 : 0),
+});
+
+/** One piece of a container file, in file order. `block` is 0-based. */
+export type AvroPiece =
+  | { readonly kind: 'record'; readonly block: number; readonly record: number; readonly value: unknown }
+  | { readonly kind: 'corrupt'; readonly block: number; readonly records: number | null; readonly reason: string }
+  | { readonly kind: 'fatal'; readonly reason: string };
+
+/** Reads one zig-zag varint long at `pos`; null when the buffer ends first, NaN when over-long. */
+function readLong(buf: Buffer, pos: number): { value: number; next: number } | null {
+  let result = 0;
+  let scale = 1;
+  for (let i = 0; i < 10; i += 1) {
+    if (pos + i >= buf.length) return null;
+    const b = buf[pos + i]!;
+    result += (b & 0x7f) * scale;
+    scale *= 128;
+    if ((b & 0x80) === 0) {
+      // zig-zag: even → n/2, odd → -(n+1)/2; arithmetic stays exact up to 2^53.
+      const value = result % 2 === 0 ? result / 2 : -(result + 1) / 2;
+      return { value, next: pos + i + 1 };
+    }
+  }
+  return { value: Number.NaN, next: pos + 10 };
+}
+
+interface Header {
+  readonly type: avro.Type;
+  readonly codec: string;
+  readonly sync: Buffer;
+  readonly end: number;
+}
+
+const HEADER_TYPE = avro.Type.forSchema({
+  type: 'record',
+  name: 'Header',
+  namespace: 'org.apache.avro.file',
+  fields: [
+    { name: 'magic', type: { type: 'fixed', name: 'Magic', size: 4 } },
+    { name: 'meta', type: { type: 'map', values: 'bytes' } },
+    { name: 'sync', type: { type: 'fixed', name: 'Sync', size: 16 } },
+  ],
+});
+
+/** Largest header accepted: a real one is a schema of a few kB. */
+const MAX_HEADER_BYTES = 4 << 20;
+
+function parseHeader(buf: Buffer, atEnd: boolean): Header | 'more' | string {
+  if (buf.length < MAGIC.length) return atEnd ? 'not an Avro object container file (shorter than its magic bytes)' : 'more';
+  if (!buf.subarray(0, MAGIC.length).equals(MAGIC)) return 'not an Avro object container file (bad magic bytes)';
+  let decoded: { value: unknown; offset: number };
+  try {
+    decoded = HEADER_TYPE.decode(buf, 0);
+  } catch (err) {
+    return `damaged Avro header: ${(err as Error).message}`;
+  }
+  if (decoded.offset < 0) {
+    if (atEnd) return 'Avro header truncated';
+    if (buf.length > MAX_HEADER_BYTES) return `damaged Avro header (no end within ${MAX_HEADER_BYTES} bytes)`;
+    return 'more';
+  }
+  const header = decoded.value as { meta: Record<string, Buffer>; sync: Buffer };
+  const codec = header.meta['avro.codec']?.toString('utf8') || 'null';
+  if (codec !== 'null' && codec !== 'deflate') return `Avro codec '${codec}' is not supported (expected null or deflate)`;
+  const schemaText = header.meta['avro.schema'];
+  if (!schemaText) return 'Avro header has no avro.schema';
+  let type: avro.Type;
+  try {
+    type = avro.Type.forSchema(JSON.parse(schemaText.toString('utf8')), {
+      typeHook: (schema) => (schema === 'long' || (typeof schema === 'object' && schema !== null && (schema as { type?: unknown }).type === 'long' && !('logicalType' in schema)) ? LenientLong : undefined),
+    });
+  } catch (err) {
+    return `Avro header holds an unusable schema: ${(err as Error).message}`;
+  }
+  return { type, codec, sync: Buffer.from(header.sync), end: decoded.offset };
+}
+
+/** Decodes every record of one block, or says why the block is damaged. */
+function decodeBlock(header: Header, data: Buffer, count: number): unknown[] | string {
+  let body = data;
+  if (header.codec === 'deflate') {
+    try {
+      body = inflateRawSync(data, { maxOutputLength: MAX_BLOCK_BYTES * 4 });
+    } catch (err) {
+      return `deflate data damaged (${(err as Error).message})`;
+    }
+  }
+  const values: unknown[] = [];
+  let pos = 0;
+  for (let i = 0; i < count; i += 1) {
+    let res: { value: unknown; offset: number };
+    try {
+      res = header.type.decode(body, pos);
+    } catch (err) {
+      return `record ${i} of the block cannot be decoded (${(err as Error).message})`;
+    }
+    if (res.offset < 0) return `block data ends inside record ${i} of ${count}`;
+    values.push(res.value);
+    pos = res.offset;
+  }
+  if (pos !== body.length) return `${body.length - pos} bytes left over after ${count} records`;
+  return values;
+}
+
+/**
+ * Yields the records of a container file, given its bytes as a stream of chunks.
+ * A damaged header ends the file with one `fatal` piece; a damaged block gives one
+ * `corrupt` piece (with the block's declared record count when its framing could be
+ * read) and decoding resumes at the next sync marker. A read error of the stream is
+ * a `fatal` piece too; this generator never throws.
+ */
+export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGenerator<AvroPiece> {
+  const iterator = chunks[Symbol.asyncIterator]();
+  let buf: Buffer = Buffer.alloc(0);
+  let pos = 0;
+  let ended = false;
+
+  // Appends chunks until at least `need` more bytes arrived or the stream ended (one
+  // concatenation per call, so waiting for a large block is not quadratic); false
+  // when nothing could be added.
+  async function more(need = 1): Promise<boolean> {
+    if (ended) return false;
+    const parts: Buffer[] = [buf.subarray(pos)];
+    let added = 0;
+    while (added < need) {
+      const next = await iterator.next();
+      if (next.done) {
+        ended = true;
+        break;
+      }
+      parts.push(next.value);
+      added += next.value.length;
+    }
+    if (added === 0) return false;
+    buf = Buffer.concat(parts);
+    pos = 0;
+    return true;
+  }
+
+  try {
+    let header: Header | null = null;
+    while (header === null) {
+      const parsed = parseHeader(buf.subarray(pos), ended);
+      if (parsed === 'more') {
+        await more();
+        continue;
+      }
+      if (typeof parsed === 'string') {
+        yield { kind: 'fatal', reason: parsed };
+        return;
+      }
+      header = parsed;
+      pos += parsed.end;
+    }
+
+    let block = 0;
+    for (;;) {
+      if (pos >= buf.length && !(await more())) return;
+      // Framing: count and size, both varint longs.
+      const count = readLong(buf, pos);
+      const size = count && !Number.isNaN(count.value) ? readLong(buf, count.next) : count;
+      if ((count === null || size === null) && (await more())) continue;
+      let reason: string | null = null;
+      if (count === null || size === null) reason = 'file ends inside a block header';
+      else if (Number.isNaN(count.value) || Number.isNaN(size.value)) reason = 'block header holds an over-long varint';
+      else if (count.value < 0 || size.value < 0) reason = `block header holds a negative ${count.value < 0 ? 'count' : 'size'}`;
+      else if (size.value > MAX_BLOCK_BYTES) reason = `block size ${size.value} exceeds ${MAX_BLOCK_BYTES} bytes`;
+      else if (count.value > 0 && size.value === 0) reason = `block of ${count.value} records has no data`;
+
+      let records: number | null = reason === null && count !== null ? count.value : null;
+      if (reason === null && count !== null && size !== null) {
+        const dataStart = size.next;
+        const dataEnd = dataStart + size.value;
+        if (buf.length < dataEnd + SYNC_BYTES && (await more(dataEnd + SYNC_BYTES - buf.length))) continue;
+        if (buf.length < dataEnd + SYNC_BYTES) {
+          // A damaged size can point past the end; a later sync marker, if any, resyncs.
+          reason = `file ends inside the block (${buf.length - pos} of ${dataEnd + SYNC_BYTES - pos} bytes)`;
+        } else if (!buf.subarray(dataEnd, dataEnd + SYNC_BYTES).equals(header.sync)) {
+          reason = 'sync marker after the block does not match the header';
+        } else {
+          const decoded = decodeBlock(header, buf.subarray(dataStart, dataEnd), count.value);
+          if (typeof decoded === 'string') reason = decoded;
+          else {
+            for (let i = 0; i < decoded.length; i += 1) yield { kind: 'record', block, record: i, value: decoded[i] };
+            pos = dataEnd + SYNC_BYTES;
+            block += 1;
+            continue;
+          }
+        }
+      }
+      if (records !== null && records > MAX_BLOCK_BYTES) records = null;
+      yield { kind: 'corrupt', block, records, reason: reason ?? 'damaged block' };
+      block += 1;
+      // Resync: the next block starts right after the next sync marker.
+      let from = pos + 1;
+      for (;;) {
+        const at = buf.indexOf(header.sync, from);
+        if (at !== -1) {
+          pos = at + SYNC_BYTES;
+          break;
+        }
+        // Keep only a possible partial marker at the end, so scanning stays bounded.
+        pos = Math.max(pos, buf.length - (SYNC_BYTES - 1));
+        from = 0;
+        if (!(await more())) return;
+      }
+    }
+  } catch (err) {
+    yield { kind: 'fatal', reason: `read failed: ${(err as Error).message}` };
+  } finally {
+    await iterator.return?.();
+  }
+}
