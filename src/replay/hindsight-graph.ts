@@ -1,0 +1,351 @@
+/**
+ * The allowed-pair graph of one market for the hindsight optimum (SPEC §4), built
+ * from packed unit occurrences. Pure: no I/O, plain typed arrays in and out, so the
+ * same code runs in a worker thread.
+ *
+ * A pair (supply s, demand d) may be matched iff it is allowed (`travel ≤
+ * maxTravelMin`, `needs ⊆ has`) and the two are present together at some instant:
+ * `max(s.t, d.t) ≤ min(end_s, end_d)`. Its cost is
+ * `travel + waitWeight · max(0, s.t − d.t) / 60000`.
+ *
+ * Pairs are enumerated by a time sweep over arrivals with one spatial grid per side:
+ * each arrival looks up the still-present units of the other side in the 3×3 cells
+ * around it, then joins its own side's grid. A pair is thus found exactly once, by
+ * whichever of the two arrives later, and never by comparing all pairs.
+ */
+
+import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
+import type { PairflowConfig } from '../model.js';
+
+/** The fields of a unit occurrence the hindsight needs (a window `Occurrence` fits). */
+export interface HindsightUnit {
+  readonly side: 'supply' | 'demand';
+  readonly t: number;
+  readonly end: number;
+  readonly lat?: number;
+  readonly lon?: number;
+  readonly x?: number;
+  readonly y?: number;
+  readonly has?: readonly string[];
+  readonly needs?: readonly string[];
+}
+
+/**
+ * One market's occurrences as plain typed arrays (structured-clone and transfer
+ * friendly). Demand and supply keep the order they had in the occurrence list.
+ * Locations are `lat`/`lon` in degrees or `x`/`y` in km, by the config's metric;
+ * a missing coordinate is NaN (such a unit can match nothing).
+ */
+export interface PackedMarket {
+  readonly nDemand: number;
+  readonly nSupply: number;
+  readonly demandT: Float64Array;
+  readonly demandEnd: Float64Array;
+  /** lat or x per demand. */
+  readonly demandA: Float64Array;
+  /** lon or y per demand. */
+  readonly demandB: Float64Array;
+  readonly supplyT: Float64Array;
+  readonly supplyEnd: Float64Array;
+  readonly supplyA: Float64Array;
+  readonly supplyB: Float64Array;
+  /** 32-bit words per unit in the capability bitsets (0 when no unit names any). */
+  readonly capWords: number;
+  /** nDemand × capWords bits of `needs`. */
+  readonly demandNeeds: Uint32Array;
+  /** nSupply × capWords bits of `has`. */
+  readonly supplyHas: Uint32Array;
+}
+
+/** The allowed pairs in CSR form, rows = demand, columns = supply, with their costs. */
+export interface AllowedGraph {
+  readonly nRows: number;
+  readonly nCols: number;
+  readonly rowPtr: Int32Array;
+  readonly colIdx: Int32Array;
+  readonly cost: Float64Array;
+}
+
+/**
+ * Packs one market's occurrences (any order; demand and supply keep their relative
+ * order) into typed arrays. Capability names become bits of a per-market bitset.
+ */
+export function packMarket(units: readonly HindsightUnit[], config: PairflowConfig): PackedMarket {
+  const euclid = config.metric === 'euclidean';
+  const caps = new Map<string, number>();
+  let nDemand = 0;
+  let nSupply = 0;
+  for (const u of units) {
+    if (u.side === 'demand') {
+      nDemand++;
+      for (const c of u.needs ?? []) if (!caps.has(c)) caps.set(c, caps.size);
+    } else {
+      nSupply++;
+      for (const c of u.has ?? []) if (!caps.has(c)) caps.set(c, caps.size);
+    }
+  }
+  const capWords = (caps.size + 31) >>> 5;
+  const p = {
+    nDemand,
+    nSupply,
+    demandT: new Float64Array(nDemand),
+    demandEnd: new Float64Array(nDemand),
+    demandA: new Float64Array(nDemand),
+    demandB: new Float64Array(nDemand),
+    supplyT: new Float64Array(nSupply),
+    supplyEnd: new Float64Array(nSupply),
+    supplyA: new Float64Array(nSupply),
+    supplyB: new Float64Array(nSupply),
+    capWords,
+    demandNeeds: new Uint32Array(nDemand * capWords),
+    supplyHas: new Uint32Array(nSupply * capWords),
+  };
+  let d = 0;
+  let s = 0;
+  for (const u of units) {
+    const a = (euclid ? u.x : u.lat) ?? NaN;
+    const b = (euclid ? u.y : u.lon) ?? NaN;
+    if (u.side === 'demand') {
+      p.demandT[d] = u.t;
+      p.demandEnd[d] = u.end;
+      p.demandA[d] = a;
+      p.demandB[d] = b;
+      for (const c of u.needs ?? []) {
+        const bit = caps.get(c)!;
+        p.demandNeeds[d * capWords + (bit >>> 5)]! |= 1 << (bit & 31);
+      }
+      d++;
+    } else {
+      p.supplyT[s] = u.t;
+      p.supplyEnd[s] = u.end;
+      p.supplyA[s] = a;
+      p.supplyB[s] = b;
+      for (const c of u.has ?? []) {
+        const bit = caps.get(c)!;
+        p.supplyHas[s * capWords + (bit >>> 5)]! |= 1 << (bit & 31);
+      }
+      s++;
+    }
+  }
+  return p;
+}
+
+/** The largest distance in km of an allowed pair: `maxTravelMin` at `speedKmh`. */
+export function maxDistanceKm(config: PairflowConfig): number {
+  return (config.maxTravelMin * config.speedKmh) / 60;
+}
+
+/** Integer grid cells per unit, sized so that an allowed pair is at most one cell apart on each axis. */
+interface Cells {
+  readonly demandCell: Float64Array;
+  readonly supplyCell: Float64Array;
+  /** Cells on the second axis; the cell key is `cx · ny + cy`. */
+  readonly ny: number;
+  /** Whether the second axis wraps around (longitude). */
+  readonly wrap: boolean;
+}
+
+// Keeps cell keys exact in a double (2^24 cells per axis at most): a coarser cell is
+// still a correct filter, only a less selective one.
+const MAX_CELLS_PER_AXIS = 1 << 24;
+// Head-room over the pair-distance bound against rounding in the distance formulas.
+const SLACK = 1 + 1e-9;
+
+function assignCells(m: PackedMarket, config: PairflowConfig): Cells {
+  const reach = maxDistanceKm(config) * SLACK;
+  const demandCell = new Float64Array(m.nDemand).fill(NaN);
+  const supplyCell = new Float64Array(m.nSupply).fill(NaN);
+  if (config.metric === 'euclidean') {
+    let lo = Infinity;
+    let hi = -Infinity;
+    for (const arr of [m.demandA, m.demandB, m.supplyA, m.supplyB]) {
+      for (let i = 0; i < arr.length; i++) {
+        const v = arr[i]!;
+        if (v < lo) lo = v;
+        if (v > hi) hi = v;
+      }
+    }
+    if (!(hi >= lo)) return { demandCell, supplyCell, ny: 1, wrap: false };
+    const cell = Math.max(reach, (hi - lo) / (MAX_CELLS_PER_AXIS - 2), 1e-12);
+    const ny = Math.floor((hi - lo) / cell) + 1;
+    const put = (xs: Float64Array, ys: Float64Array, out: Float64Array): void => {
+      for (let i = 0; i < xs.length; i++) {
+        const x = xs[i]!;
+        const y = ys[i]!;
+        if (Number.isFinite(x) && Number.isFinite(y)) {
+          out[i] = Math.floor((x - lo) / cell) * ny + Math.floor((y - lo) / cell);
+        }
+      }
+    };
+    put(m.demandA, m.demandB, demandCell);
+    put(m.supplyA, m.supplyB, supplyCell);
+    return { demandCell, supplyCell, ny, wrap: false };
+  }
+  // Sphere: a great circle of length d spans at most d/R radians of latitude, and,
+  // since hav(d/R) ≥ cos φ1 · cos φ2 · hav(Δλ), at most 2·asin(sin(d/2R) / cos φmax)
+  // of longitude, φmax being the market's largest |latitude|.
+  const theta = reach / EARTH_RADIUS_KM;
+  let cosMin = 1;
+  for (const arr of [m.demandA, m.supplyA]) {
+    for (let i = 0; i < arr.length; i++) {
+      const c = Math.cos((arr[i]! * Math.PI) / 180);
+      if (c < cosMin) cosMin = c;
+    }
+  }
+  const cellLat = Math.max(theta, Math.PI / (MAX_CELLS_PER_AXIS - 2));
+  const nx = Math.floor(Math.PI / cellLat) + 1;
+  const sinHalf = Math.sin(theta / 2) / Math.max(cosMin, 1e-300);
+  const lonSpan = sinHalf >= 1 ? 2 * Math.PI : 2 * Math.asin(sinHalf) * SLACK;
+  // Columns of equal width ≥ lonSpan around the whole circle; fewer than 3 means one.
+  let ny = Math.floor((2 * Math.PI) / Math.max(lonSpan, (2 * Math.PI) / MAX_CELLS_PER_AXIS));
+  if (ny < 3) ny = 1;
+  const cellLon = (2 * Math.PI) / ny;
+  const put = (lats: Float64Array, lons: Float64Array, out: Float64Array): void => {
+    for (let i = 0; i < lats.length; i++) {
+      const la = lats[i]!;
+      const lo = lons[i]!;
+      if (Number.isFinite(la) && Number.isFinite(lo)) {
+        const cx = Math.min(nx - 1, Math.floor(((la * Math.PI) / 180 + Math.PI / 2) / cellLat));
+        const cy = Math.floor(((lo * Math.PI) / 180 + Math.PI) / cellLon) % ny;
+        out[i] = cx * ny + cy;
+      }
+    }
+  };
+  put(m.demandA, m.demandB, demandCell);
+  put(m.supplyA, m.supplyB, supplyCell);
+  return { demandCell, supplyCell, ny, wrap: ny > 1 };
+}
+
+/** Growable COO list of pairs. */
+class PairList {
+  rows = new Int32Array(1024);
+  cols = new Int32Array(1024);
+  costs = new Float64Array(1024);
+  n = 0;
+
+  push(r: number, c: number, cost: number): void {
+    if (this.n === this.rows.length) {
+      const cap = this.n * 2;
+      const rows = new Int32Array(cap);
+      rows.set(this.rows);
+      this.rows = rows;
+      const cols = new Int32Array(cap);
+      cols.set(this.cols);
+      this.cols = cols;
+      const costs = new Float64Array(cap);
+      costs.set(this.costs);
+      this.costs = costs;
+    }
+    this.rows[this.n] = r;
+    this.cols[this.n] = c;
+    this.costs[this.n] = cost;
+    this.n++;
+  }
+}
+
+/**
+ * Every allowed, time-overlapping pair of one market with its hindsight cost, by the
+ * time sweep described above. Within a row, pairs are in sweep order.
+ *
+ * @example
+ * const g = buildAllowedGraph(packMarket(units, config), config);
+ * // pairs of demand r: g.colIdx[g.rowPtr[r] .. g.rowPtr[r + 1])
+ */
+export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig): AllowedGraph {
+  const { nDemand, nSupply, capWords } = m;
+  const { demandCell, supplyCell, ny, wrap } = assignCells(m, config);
+  const euclid = config.metric === 'euclidean';
+  const speed = config.speedKmh;
+  const maxTravel = config.maxTravelMin;
+  const waitPerMs = config.waitWeight / 60_000;
+
+  // Arrivals in time order; demand index k ↦ k, supply index k ↦ nDemand + k.
+  const n = nDemand + nSupply;
+  const order = new Int32Array(n);
+  const at = new Float64Array(n);
+  for (let i = 0; i < nDemand; i++) at[i] = m.demandT[i]!;
+  for (let i = 0; i < nSupply; i++) at[nDemand + i] = m.supplyT[i]!;
+  for (let i = 0; i < n; i++) order[i] = i;
+  order.sort((a, b) => at[a]! - at[b]! || a - b);
+
+  const demandGrid = new Map<number, number[]>();
+  const supplyGrid = new Map<number, number[]>();
+  const pairs = new PairList();
+  const neighbours: number[] = [];
+
+  for (let k = 0; k < n; k++) {
+    const u = order[k]!;
+    const isDemand = u < nDemand;
+    const i = isDemand ? u : u - nDemand;
+    const t = isDemand ? m.demandT[i]! : m.supplyT[i]!;
+    const end = isDemand ? m.demandEnd[i]! : m.supplyEnd[i]!;
+    const key = isDemand ? demandCell[i]! : supplyCell[i]!;
+    // A unit with no location, or ended before it began, can meet nobody.
+    if (Number.isNaN(key) || end < t) continue;
+    const cx = Math.floor(key / ny);
+    const cy = key - cx * ny;
+    neighbours.length = 0;
+    for (let dx = -1; dx <= 1; dx++) {
+      if (ny === 1) {
+        neighbours.push(cx + dx);
+        continue;
+      }
+      for (let dy = -1; dy <= 1; dy++) {
+        let y = cy + dy;
+        if (wrap) y = (y + ny) % ny;
+        else if (y < 0 || y >= ny) continue;
+        neighbours.push((cx + dx) * ny + y);
+      }
+    }
+    const other = isDemand ? supplyGrid : demandGrid;
+    const otherEnd = isDemand ? m.supplyEnd : m.demandEnd;
+    for (let q = 0; q < neighbours.length; q++) {
+      const bucket = other.get(neighbours[q]!);
+      if (bucket === undefined) continue;
+      let keep = 0;
+      for (let b = 0; b < bucket.length; b++) {
+        const j = bucket[b]!;
+        // Sweep times only grow, so a unit gone before now is gone for good.
+        if (otherEnd[j]! < t) continue;
+        bucket[keep++] = j;
+        const dd = isDemand ? i : j;
+        const ss = isDemand ? j : i;
+        let ok = true;
+        for (let w = 0; w < capWords; w++) {
+          if ((m.demandNeeds[dd * capWords + w]! & ~m.supplyHas[ss * capWords + w]!) !== 0) {
+            ok = false;
+            break;
+          }
+        }
+        if (!ok) continue;
+        const dist = euclid
+          ? euclideanKm(m.supplyA[ss]!, m.supplyB[ss]!, m.demandA[dd]!, m.demandB[dd]!)
+          : haversineKm(m.supplyA[ss]!, m.supplyB[ss]!, m.demandA[dd]!, m.demandB[dd]!);
+        const travel = travelMin(dist, speed);
+        if (!(travel <= maxTravel)) continue;
+        const wait = m.supplyT[ss]! - m.demandT[dd]!;
+        pairs.push(dd, ss, travel + (wait > 0 ? wait * waitPerMs : 0));
+      }
+      bucket.length = keep;
+    }
+    const own = isDemand ? demandGrid : supplyGrid;
+    const bucket = own.get(key);
+    if (bucket === undefined) own.set(key, [i]);
+    else bucket.push(i);
+  }
+
+  // Counting sort of the pairs by row.
+  const nnz = pairs.n;
+  const rowPtr = new Int32Array(nDemand + 1);
+  for (let e = 0; e < nnz; e++) rowPtr[pairs.rows[e]! + 1]!++;
+  for (let r = 0; r < nDemand; r++) rowPtr[r + 1]! += rowPtr[r]!;
+  const fill = rowPtr.slice(0, nDemand);
+  const colIdx = new Int32Array(nnz);
+  const cost = new Float64Array(nnz);
+  for (let e = 0; e < nnz; e++) {
+    const at2 = fill[pairs.rows[e]!]!++;
+    colIdx[at2] = pairs.cols[e]!;
+    cost[at2] = pairs.costs[e]!;
+  }
+  return { nRows: nDemand, nCols: nSupply, rowPtr, colIdx, cost };
+}

@@ -1,0 +1,49 @@
+/**
+ * Worker-thread entry of the hindsight optimum: solves one packed market per message.
+ * Loaded from the compiled `dist/replay/hindsight-worker.js` by hindsight.ts; only
+ * plain data (typed arrays, the config object) crosses the thread boundary.
+ */
+
+import { parentPort } from 'node:worker_threads';
+
+import { PairflowError } from '../errors.js';
+import { solveSparse } from '../matching/index.js';
+import type { PairflowConfig } from '../model.js';
+import type { PackedMarket } from './hindsight-graph.js';
+import {
+  solvePackedMarket,
+  type HindsightDemandCosts,
+  type HindsightMarketOptions,
+  type HindsightMarketResult,
+} from './hindsight-solve.js';
+
+/** One market to solve. */
+export interface WorkerTask {
+  readonly index: number;
+  readonly market: string;
+  readonly packed: PackedMarket;
+  readonly config: PairflowConfig;
+  readonly opts: HindsightMarketOptions;
+}
+
+/** The answer to a {@link WorkerTask}. */
+export type WorkerReply =
+  | { readonly ok: true; readonly index: number; readonly result: HindsightMarketResult & HindsightDemandCosts }
+  | { readonly ok: false; readonly index: number; readonly message: string; readonly code?: string; readonly params?: unknown };
+
+const port = parentPort;
+if (port !== null) {
+  port.on('message', (task: WorkerTask) => {
+    try {
+      const { detail: _detail, ...result } = solvePackedMarket(task.market, task.packed, task.config, solveSparse, task.opts);
+      const reply: WorkerReply = { ok: true, index: task.index, result };
+      port.postMessage(reply, [result.demandT.buffer as ArrayBuffer, result.demandCost.buffer as ArrayBuffer]);
+    } catch (err) {
+      const reply: WorkerReply =
+        err instanceof PairflowError
+          ? { ok: false, index: task.index, message: err.message, code: err.code, params: err.params }
+          : { ok: false, index: task.index, message: err instanceof Error ? (err.stack ?? err.message) : String(err) };
+      port.postMessage(reply);
+    }
+  });
+}

@@ -1,0 +1,261 @@
+/**
+ * The hindsight benchmark (SPEC §4): the exact minimum-cost matching of a whole log
+ * with every event known in advance, per market, markets in parallel on worker
+ * threads. See hindsight-solve.ts for the method and its proof of exactness.
+ */
+
+import { existsSync } from 'node:fs';
+import { availableParallelism } from 'node:os';
+import { fileURLToPath } from 'node:url';
+import { Worker } from 'node:worker_threads';
+
+import { ERROR_CODES, pairflowError, PairflowError, type ErrorCode, type ErrorParams } from '../errors.js';
+import { solveSparse } from '../matching/index.js';
+import type { PairflowConfig, SourcedEvent } from '../model.js';
+import { buildOccurrences, type Occurrence } from '../window/occurrences.js';
+import { packMarket, type PackedMarket } from './hindsight-graph.js';
+import {
+  solvePackedMarket,
+  type HindsightDemandCosts,
+  type HindsightMarketDetail,
+  type HindsightMarketOptions,
+  type HindsightMarketResult,
+} from './hindsight-solve.js';
+import type { WorkerReply, WorkerTask } from './hindsight-worker.js';
+
+export type { HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail };
+export { DEFAULT_CANDIDATES_PER_DEMAND } from './hindsight-solve.js';
+
+/** The hindsight optimum of a whole log: totals over markets, then each market. */
+export interface HindsightResult {
+  cost: number;
+  matched: number;
+  abandoned: number;
+  demandUnits: number;
+  supplyUnits: number;
+  /** Allowed pairs over all markets. */
+  pairsPriced: number;
+  /** Pairs in the final restricted solves over all markets. */
+  pairsSolved: number;
+  /** The most pricing rounds any market needed. */
+  pricingRounds: number;
+  /** Σ over markets of the maximum-cardinality matching of the allowed graph. */
+  ceiling: number;
+  /** Wall time of the whole solve. */
+  ms: number;
+  /** Per market, in market order (markets sorted by their key, code-unit order). */
+  markets: HindsightMarketResult[];
+  /**
+   * Per demand occurrence (in buildOccurrences order of that market, concatenated in
+   * market order): its event time and its hindsight cost (matched cost or P). The
+   * sweep's bootstrap over days buckets these.
+   */
+  demandT: Float64Array;
+  demandCost: Float64Array;
+}
+
+/** Options of {@link solveHindsight}. */
+export interface HindsightOptions extends HindsightMarketOptions {
+  /**
+   * Worker threads, one market at a time each. 0 or 1 solves in this thread.
+   * @default min(markets, available cores)
+   */
+  threads?: number;
+  /** Called after each market is solved. */
+  onProgress?: (done: number, total: number) => void;
+  /** Where a warning goes (e.g. the compiled worker is missing). @default process.emitWarning */
+  onWarning?: (message: string) => void;
+}
+
+/**
+ * The exact hindsight optimum of one market's occurrences, in this thread. Pure and
+ * synchronous; `ms` is measured by `opts.now`.
+ * @example
+ * const { occurrences } = buildOccurrences(events, config);
+ * const r = solveHindsightMarket(occurrences.filter((o) => o.market === 'nyc'), config);
+ */
+export function solveHindsightMarket(
+  occurrences: readonly Occurrence[],
+  config: PairflowConfig,
+  opts: HindsightMarketOptions = {},
+): HindsightMarketResult & HindsightDemandCosts {
+  const { detail: _detail, ...result } = solveHindsightMarketDetailed(occurrences, config, opts);
+  return result;
+}
+
+/**
+ * {@link solveHindsightMarket} plus what proves it: the full allowed graph, the final
+ * dual prices and the assignment (for certificate checks).
+ */
+export function solveHindsightMarketDetailed(
+  occurrences: readonly Occurrence[],
+  config: PairflowConfig,
+  opts: HindsightMarketOptions = {},
+): HindsightMarketResult & HindsightDemandCosts & { detail: HindsightMarketDetail } {
+  const market = occurrences[0]?.market ?? '';
+  return solvePackedMarket(market, packMarket(occurrences, config), config, solveSparse, opts);
+}
+
+/** The compiled worker entry: `dist/replay/` seen from both `src/replay/` and `dist/replay/`. */
+const WORKER_URL = new URL('../../dist/replay/hindsight-worker.js', import.meta.url);
+
+/** Whether the compiled worker exists, so threads can be used. */
+export function hindsightWorkerAvailable(): boolean {
+  return existsSync(fileURLToPath(WORKER_URL));
+}
+
+/**
+ * The exact hindsight optimum (SPEC §4) of a log: occurrences by SPEC §1, then each
+ * market solved on its own, on worker threads when more than one is asked for.
+ * Results do not depend on the number of threads.
+ *
+ * @param events sorted by `t`, stable by file order
+ * @example
+ * const h = await solveHindsight(events, DEFAULT_CONFIG, { threads: 2 });
+ * console.log(h.cost, h.matched, h.ceiling);
+ */
+export async function solveHindsight(
+  events: readonly SourcedEvent[],
+  config: PairflowConfig,
+  opts: HindsightOptions = {},
+): Promise<HindsightResult> {
+  const t0 = performance.now();
+  const { occurrences } = buildOccurrences(events, config);
+  const byMarket = new Map<string, Occurrence[]>();
+  for (const o of occurrences) {
+    let list = byMarket.get(o.market);
+    if (list === undefined) byMarket.set(o.market, (list = []));
+    list.push(o);
+  }
+  const markets = [...byMarket.keys()].sort();
+  const packed = markets.map((mk) => packMarket(byMarket.get(mk)!, config));
+  byMarket.clear();
+
+  let threads = opts.threads ?? Math.min(markets.length, availableParallelism());
+  threads = Math.max(0, Math.min(Math.floor(threads), markets.length));
+  const marketOpts: HindsightMarketOptions = {};
+  if (opts.candidatesPerDemand !== undefined) marketOpts.candidatesPerDemand = opts.candidatesPerDemand;
+  if (threads > 1 && !hindsightWorkerAvailable()) {
+    const warn = opts.onWarning ?? ((msg: string) => process.emitWarning(msg, 'PairflowWarning'));
+    warn(`hindsight: ${fileURLToPath(WORKER_URL)} is missing (run \`npm run build\`); solving in this thread`);
+    threads = 1;
+  }
+
+  const results: Array<HindsightMarketResult & HindsightDemandCosts> = new Array(markets.length);
+  let done = 0;
+  if (threads <= 1) {
+    if (opts.now !== undefined) marketOpts.now = opts.now;
+    for (let i = 0; i < markets.length; i++) {
+      const { detail: _detail, ...r } = solvePackedMarket(markets[i]!, packed[i]!, config, solveSparse, marketOpts);
+      results[i] = r;
+      opts.onProgress?.(++done, markets.length);
+    }
+  } else {
+    await runOnWorkers(threads, markets, packed, config, marketOpts, (i, r) => {
+      results[i] = r;
+      opts.onProgress?.(++done, markets.length);
+    });
+  }
+
+  let nDemand = 0;
+  for (const r of results) nDemand += r.demandT.length;
+  const demandT = new Float64Array(nDemand);
+  const demandCost = new Float64Array(nDemand);
+  const out: HindsightResult = {
+    cost: 0,
+    matched: 0,
+    abandoned: 0,
+    demandUnits: 0,
+    supplyUnits: 0,
+    pairsPriced: 0,
+    pairsSolved: 0,
+    pricingRounds: 0,
+    ceiling: 0,
+    ms: 0,
+    markets: [],
+    demandT,
+    demandCost,
+  };
+  let at = 0;
+  for (const r of results) {
+    const { demandT: dt, demandCost: dc, ...m } = r;
+    demandT.set(dt, at);
+    demandCost.set(dc, at);
+    at += dt.length;
+    out.cost += m.cost;
+    out.matched += m.matched;
+    out.abandoned += m.abandoned;
+    out.demandUnits += m.demandUnits;
+    out.supplyUnits += m.supplyUnits;
+    out.pairsPriced += m.pairsPriced;
+    out.pairsSolved += m.pairsSolved;
+    out.pricingRounds = Math.max(out.pricingRounds, m.pricingRounds);
+    out.ceiling += m.ceiling;
+    out.markets.push(m);
+  }
+  out.ms = performance.now() - t0;
+  return out;
+}
+
+function transferables(p: PackedMarket): ArrayBuffer[] {
+  return [
+    p.demandT, p.demandEnd, p.demandA, p.demandB, p.supplyT, p.supplyEnd, p.supplyA, p.supplyB,
+    p.demandNeeds, p.supplyHas,
+  ].map((a) => a.buffer as ArrayBuffer);
+}
+
+function errorFromWorker(reply: Extract<WorkerReply, { ok: false }>): Error {
+  if (reply.code !== undefined && reply.code in ERROR_CODES) {
+    return pairflowError(reply.code as ErrorCode, (reply.params ?? {}) as ErrorParams);
+  }
+  return pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight worker failed: ${reply.message}` });
+}
+
+/** Hands markets to `threads` workers, largest first, each taking the next when done. */
+async function runOnWorkers(
+  threads: number,
+  markets: readonly string[],
+  packed: readonly PackedMarket[],
+  config: PairflowConfig,
+  marketOpts: HindsightMarketOptions,
+  onResult: (index: number, r: HindsightMarketResult & HindsightDemandCosts) => void,
+): Promise<void> {
+  // Largest markets first, so no thread is left alone with a big one at the end.
+  const queue = markets.map((_, i) => i).sort((a, b) => packed[b]!.nDemand + packed[b]!.nSupply - (packed[a]!.nDemand + packed[a]!.nSupply) || a - b);
+  const workers: Worker[] = [];
+  try {
+    await Promise.all(
+      Array.from({ length: threads }, () => {
+        const w = new Worker(WORKER_URL);
+        workers.push(w);
+        return new Promise<void>((resolve, reject) => {
+          const next = (): void => {
+            const i = queue.shift();
+            if (i === undefined) {
+              resolve();
+              return;
+            }
+            const p = packed[i]!;
+            const task: WorkerTask = { index: i, market: markets[i]!, packed: p, config, opts: marketOpts };
+            w.postMessage(task, transferables(p));
+          };
+          w.on('message', (reply: WorkerReply) => {
+            if (!reply.ok) {
+              reject(errorFromWorker(reply));
+              return;
+            }
+            onResult(reply.index, reply.result);
+            next();
+          });
+          w.on('error', (err) => reject(err instanceof PairflowError ? err : pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight worker failed: ${String(err)}` }, err)));
+          w.on('exit', (code) => {
+            if (code !== 0) reject(pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight worker exited with code ${code}` }));
+          });
+          next();
+        });
+      }),
+    );
+  } finally {
+    await Promise.all(workers.map((w) => w.terminate()));
+  }
+}
