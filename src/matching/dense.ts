@@ -1,0 +1,263 @@
+import type { DenseInstance, SolveOptions, SolveResult } from './types.js';
+import { validateDense, validateWarm } from './validate.js';
+import { defaultNow, finishResult, Sum } from './result.js';
+import { infeasibleRow } from './sparse.js';
+
+/*
+ * The dense twin of sparse.ts: the same invariants (see there), but each search
+ * scans whole rows against a shrinking list of unsettled columns instead of a heap,
+ * which is what pays off when every pair is allowed. A pair is allowed iff its cost
+ * is < +Infinity (NaN compares false everywhere, so it is skipped the same way).
+ */
+
+const PRIVATE = -2;
+const NONE = -1;
+
+export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveResult {
+  const now = opts.now ?? defaultNow;
+  const t0 = now();
+  validateDense(inst);
+  const warm = opts.warm;
+  validateWarm(warm, inst.nRows, inst.nCols);
+
+  const { nRows, nCols, cost } = inst;
+  const delta = inst.unmatchedCost ?? null;
+
+  const v = new Float64Array(nCols);
+  const u = new Float64Array(nRows);
+  const rowToCol = new Int32Array(nRows).fill(NONE);
+  const colToRow = new Int32Array(nCols).fill(NONE);
+  let scannedPairs = 0;
+  let augmentations = 0;
+  let usedWarm = false;
+
+  let j = 0;
+  let r = 0;
+  let x = 0;
+  let base = 0;
+
+  if (warm !== undefined && warm.rowToCol !== undefined) {
+    const wCol = warm.colPrices;
+    const wRow = warm.rowPrices;
+    const wPair = warm.rowToCol;
+    for (r = 0; r < nRows; r++) {
+      j = wPair[r]!;
+      if (j < 0 || j >= nCols || colToRow[j] !== NONE) continue;
+      const c = cost[r * nCols + j]!;
+      if (!(c < Infinity)) continue;
+      let p = wCol !== undefined ? wCol[j]! : NaN;
+      if (!Number.isFinite(p)) {
+        const q = wRow !== undefined ? wRow[r]! : NaN;
+        p = Number.isFinite(q) ? c - q : 0;
+      }
+      v[j] = p < 0 ? p : 0;
+      colToRow[j] = r;
+      rowToCol[r] = j;
+      usedWarm = true;
+    }
+    for (r = 0; r < nRows; r++) {
+      const jr = rowToCol[r]!;
+      if (jr === NONE) continue;
+      base = r * nCols;
+      let m = delta !== null ? delta[r]! : Infinity;
+      for (j = 0; j < nCols; j++) {
+        if (j === jr) continue;
+        x = cost[base + j]! - v[j]!;
+        if (x < m) m = x;
+      }
+      scannedPairs += nCols;
+      const c = cost[base + jr]!;
+      const a = c - v[jr]!;
+      if (a > m) {
+        v[jr] = c - m;
+        u[r] = m;
+      } else {
+        u[r] = a;
+      }
+    }
+  }
+
+  let freeRows = new Int32Array(nRows);
+  let nFree = 0;
+  for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
+  let nextRows = new Int32Array(nRows);
+  for (let pass = 0; pass < 2 && nFree > 0; pass++) {
+    let nNext = 0;
+    let k = 0;
+    let budget = nRows;
+    while (k < nFree) {
+      r = freeRows[k++]!;
+      let u1 = Infinity;
+      let j1 = NONE;
+      if (delta !== null && delta[r]! < Infinity) {
+        u1 = delta[r]!;
+        j1 = PRIVATE;
+      }
+      let u2 = Infinity;
+      let j2 = NONE;
+      base = r * nCols;
+      for (j = 0; j < nCols; j++) {
+        x = cost[base + j]! - v[j]!;
+        if (x < u2) {
+          if (x < u1) {
+            u2 = u1;
+            j2 = j1;
+            u1 = x;
+            j1 = j;
+          } else {
+            u2 = x;
+            j2 = j;
+          }
+        }
+      }
+      scannedPairs += nCols;
+      if (j1 === NONE) throw infeasibleRow(r);
+      if (j1 === PRIVATE) {
+        u[r] = u1;
+        continue;
+      }
+      let target = j1;
+      let ur = u1;
+      if (u1 < u2) {
+        if (u2 < Infinity) {
+          v[j1] = v[j1]! - (u2 - u1);
+          ur = u2;
+        }
+      } else if (colToRow[j1] !== NONE && j2 !== NONE && (j2 === PRIVATE || colToRow[j2] === NONE)) {
+        target = j2;
+      }
+      if (target === PRIVATE) {
+        u[r] = ur;
+        continue;
+      }
+      const prev = colToRow[target]!;
+      colToRow[target] = r;
+      rowToCol[r] = target;
+      u[r] = ur;
+      if (prev !== NONE) {
+        rowToCol[prev] = NONE;
+        if (u1 < u2 && budget > 0) {
+          budget--;
+          freeRows[--k] = prev;
+        } else {
+          nextRows[nNext++] = prev;
+        }
+      }
+    }
+    const tmp = freeRows;
+    freeRows = nextRows;
+    nextRows = tmp;
+    nFree = nNext;
+  }
+
+  if (nFree > 0) {
+    const dist = new Float64Array(nCols);
+    const pred = new Int32Array(nCols);
+    const remaining = new Int32Array(nCols);
+    const done = new Int32Array(nCols);
+
+    for (let f = 0; f < nFree; f++) {
+      const r0 = freeRows[f]!;
+      augmentations++;
+      dist.fill(Infinity);
+      for (j = 0; j < nCols; j++) remaining[j] = j;
+      let nRem = nCols;
+      let nDone = 0;
+      let bestPriv = Infinity;
+      let privRow = NONE;
+      let sink = NONE;
+      let minVal = 0;
+      let i = r0;
+      let ui = 0;
+      base = 0;
+      for (;;) {
+        if (delta !== null) {
+          x = base + delta[i]! - ui;
+          if (x < bestPriv) {
+            bestPriv = x;
+            privRow = i;
+          }
+        }
+        const rowBase = i * nCols;
+        const off = base - ui;
+        let lowest = Infinity;
+        let at = NONE;
+        for (let t = 0; t < nRem; t++) {
+          j = remaining[t]!;
+          x = off + cost[rowBase + j]! - v[j]!;
+          let s = dist[j]!;
+          if (x < s) {
+            pred[j] = i;
+            dist[j] = x;
+            s = x;
+          }
+          if (s < lowest || (s === lowest && s < Infinity && colToRow[j] === NONE)) {
+            lowest = s;
+            at = t;
+          }
+        }
+        scannedPairs += nRem;
+        if (at === NONE || lowest > bestPriv) {
+          if (bestPriv === Infinity) throw infeasibleRow(r0);
+          minVal = bestPriv;
+          break;
+        }
+        j = remaining[at]!;
+        if (colToRow[j] === NONE) {
+          sink = j;
+          minVal = lowest;
+          break;
+        }
+        remaining[at] = remaining[--nRem]!;
+        done[nDone++] = j;
+        i = colToRow[j]!;
+        base = lowest;
+        ui = u[i]!;
+      }
+
+      for (let t = 0; t < nDone; t++) {
+        j = done[t]!;
+        const d = minVal - dist[j]!;
+        v[j] = v[j]! - d;
+        const ri = colToRow[j]!;
+        u[ri] = u[ri]! + d;
+      }
+      u[r0] = minVal;
+
+      if (sink === NONE) {
+        j = privRow === r0 ? NONE : rowToCol[privRow]!;
+        rowToCol[privRow] = NONE;
+        u[privRow] = delta![privRow]!;
+        if (j !== NONE) colToRow[j] = NONE;
+        sink = j;
+      }
+      j = sink;
+      while (j !== NONE) {
+        i = pred[j]!;
+        const prevCol = i === r0 ? NONE : rowToCol[i]!;
+        rowToCol[i] = j;
+        colToRow[j] = i;
+        j = prevCol;
+      }
+    }
+  }
+
+  const primal = new Sum();
+  for (r = 0; r < nRows; r++) {
+    j = rowToCol[r]!;
+    if (j === NONE) {
+      u[r] = delta![r]!;
+      primal.add(u[r]!);
+    } else {
+      const c = cost[r * nCols + j]!;
+      u[r] = c - v[j]!;
+      primal.add(c);
+    }
+  }
+  return finishResult(primal.value, rowToCol, colToRow, u, v, {
+    augmentations,
+    scannedPairs,
+    ms: now() - t0,
+    warm: usedWarm,
+  });
+}

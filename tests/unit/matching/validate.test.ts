@@ -1,0 +1,101 @@
+import { describe, expect, it } from 'vitest';
+import { solveDense, solveSparse } from '../../../src/matching/index.js';
+import type { SparseInstance } from '../../../src/matching/types.js';
+
+const INPUT = expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' });
+
+function base(): SparseInstance {
+  return {
+    nRows: 2,
+    nCols: 2,
+    rowPtr: Int32Array.of(0, 2, 3),
+    colIdx: Int32Array.of(0, 1, 1),
+    cost: Float64Array.of(1, 2, 3),
+  };
+}
+
+describe('validateSparse() via solveSparse()', () => {
+  it('accepts the well-formed base instance', () => {
+    expect(solveSparse(base()).cost).toBe(4);
+  });
+
+  it.each([
+    ['NaN cost', { cost: Float64Array.of(1, NaN, 3) }],
+    ['+Infinity cost', { cost: Float64Array.of(1, Infinity, 3) }],
+    ['-Infinity cost', { cost: Float64Array.of(-Infinity, 2, 3) }],
+    ['duplicate pair', { colIdx: Int32Array.of(0, 0, 1) }],
+    ['column out of range', { colIdx: Int32Array.of(0, 2, 1) }],
+    ['negative column', { colIdx: Int32Array.of(0, -1, 1) }],
+    ['rowPtr too short', { rowPtr: Int32Array.of(0, 3) }],
+    ['rowPtr not starting at 0', { rowPtr: Int32Array.of(1, 2, 3) }],
+    ['rowPtr decreasing', { rowPtr: Int32Array.of(0, 3, 2), colIdx: Int32Array.of(0, 1, 1), cost: Float64Array.of(1, 2, 3) }],
+    ['rowPtr end ≠ nnz', { rowPtr: Int32Array.of(0, 2, 2) }],
+    ['cost length ≠ nnz', { cost: Float64Array.of(1, 2) }],
+    ['colIdx not an Int32Array', { colIdx: [0, 1, 1] as unknown as Int32Array }],
+    ['fractional nRows', { nRows: 1.5 }],
+    ['negative nCols', { nCols: -1 }],
+    ['unmatchedCost wrong length', { unmatchedCost: Float64Array.of(1) }],
+    ['unmatchedCost NaN', { unmatchedCost: Float64Array.of(1, NaN) }],
+    ['unmatchedCost -Infinity', { unmatchedCost: Float64Array.of(1, -Infinity) }],
+  ])('rejects %s with PAIRFLOW_ERR_SOLVER_INPUT', (_name, patch) => {
+    expect(() => solveSparse({ ...base(), ...patch } as SparseInstance)).toThrow(INPUT);
+  });
+
+  it('rejects warm arrays of the wrong length with PAIRFLOW_ERR_SOLVER_INPUT', () => {
+    expect(() => solveSparse(base(), { warm: { colPrices: new Float64Array(3) } })).toThrow(INPUT);
+    expect(() => solveSparse(base(), { warm: { rowPrices: new Float64Array(1) } })).toThrow(INPUT);
+    expect(() => solveSparse(base(), { warm: { rowToCol: new Int32Array(5) } })).toThrow(INPUT);
+  });
+});
+
+describe('validateDense() via solveDense()', () => {
+  it('treats +Infinity and NaN as pairs that are not allowed', () => {
+    // Hand-worked: only (0,1) and (1,0) are allowed: 5 + 7.
+    const res = solveDense({ nRows: 2, nCols: 2, cost: Float64Array.of(Infinity, 5, 7, NaN) });
+    expect(res.cost).toBe(12);
+    expect([...res.rowToCol]).toEqual([1, 0]);
+  });
+
+  it('rejects -Infinity costs and wrong lengths with PAIRFLOW_ERR_SOLVER_INPUT', () => {
+    expect(() => solveDense({ nRows: 1, nCols: 2, cost: Float64Array.of(-Infinity, 1) })).toThrow(INPUT);
+    expect(() => solveDense({ nRows: 2, nCols: 2, cost: Float64Array.of(1, 2, 3) })).toThrow(INPUT);
+    expect(() => solveDense({ nRows: 1, nCols: 1, cost: Float64Array.of(1), unmatchedCost: Float64Array.of(1, 2) })).toThrow(INPUT);
+  });
+});
+
+describe('infeasible instances', () => {
+  const INFEASIBLE = expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' });
+
+  it('solveDense() throws PAIRFLOW_ERR_SOLVER_INFEASIBLE when rows outnumber columns without δ', () => {
+    expect(() => solveDense({ nRows: 3, nCols: 2, cost: new Float64Array(6) })).toThrow(INFEASIBLE);
+  });
+
+  it('solveSparse() throws PAIRFLOW_ERR_SOLVER_INFEASIBLE when two rows share their only column', () => {
+    const inst = { nRows: 2, nCols: 3, rowPtr: Int32Array.of(0, 1, 2), colIdx: Int32Array.of(2, 2), cost: Float64Array.of(1, 1) };
+    expect(() => solveSparse(inst)).toThrow(INFEASIBLE);
+  });
+
+  it('a row whose δ is +Infinity must be matched even when others may stay unmatched', () => {
+    // Hand-worked: row 1 (δ = ∞) takes the only column; row 0 pays δ = 2.
+    const inst = {
+      nRows: 2,
+      nCols: 1,
+      rowPtr: Int32Array.of(0, 1, 2),
+      colIdx: Int32Array.of(0, 0),
+      cost: Float64Array.of(1, 50),
+      unmatchedCost: Float64Array.of(2, Infinity),
+    };
+    const res = solveSparse(inst);
+    expect(res.cost).toBe(52);
+    expect([...res.rowToCol]).toEqual([-1, 0]);
+    const both = { ...inst, unmatchedCost: Float64Array.of(Infinity, Infinity) };
+    expect(() => solveSparse(both)).toThrow(INFEASIBLE);
+  });
+
+  it('empty instances solve to cost 0', () => {
+    expect(solveDense({ nRows: 0, nCols: 0, cost: new Float64Array(0) }).cost).toBe(0);
+    const none = solveSparse({ nRows: 0, nCols: 3, rowPtr: Int32Array.of(0), colIdx: new Int32Array(0), cost: new Float64Array(0) });
+    expect(none.cost).toBe(0);
+    expect([...none.colDuals]).toEqual([0, 0, 0]);
+  });
+});
