@@ -1,0 +1,337 @@
+/**
+ * A spatial index of points for "every point within r km of here" (candidate pairs).
+ * Cells are about `cellKm` wide, so a query of radius `cellKm` looks at a 3×3 block;
+ * every candidate found in a cell is then checked with the exact distance, so the
+ * cells only decide speed, never the answer. Points can be inserted and removed one
+ * at a time (the engine's pools change every epoch) or built in one go (hindsight).
+ * Pure.
+ *
+ * Haversine layout: rows are bands of latitude `cellKm / R` radians high; each band is
+ * cut into as many equal longitude cells as fit at its poleward edge (at least one, so
+ * bands touching a pole are a single cell). A query covers the rows of
+ * `[φ − ρ, φ + ρ]` and, in each, the longitudes `λ ± asin(sin ρ / cos φ)` — the widest
+ * longitude offset of any point of the spherical cap of angular radius ρ (spherical
+ * trigonometry, from memory) — taken modulo 360° so the ±180° meridian is seamless.
+ * A cap that reaches a pole covers every longitude.
+ */
+import type { Metric } from '../model.js';
+import { EARTH_RADIUS_KM } from './geo.js';
+
+/** Options of a {@link SpatialGrid}. */
+export interface GridOptions {
+  /** `haversine`: points are (lat, lon) in degrees; `euclidean`: (x, y) in km. */
+  readonly metric: Metric;
+  /**
+   * Cell size in km: the usual query radius, `maxTravelMin * speedKmh / 60`. Any
+   * query radius is answered correctly; this one is answered fastest.
+   */
+  readonly cellKm: number;
+  /** Sphere radius for haversine. @default EARTH_RADIUS_KM */
+  readonly earthRadiusKm?: number;
+}
+
+const DEG = Math.PI / 180;
+/** Smallest cell, so that a zero travel radius still gives a finite grid. */
+const MIN_CELL_DEG = 1e-3;
+const MIN_CELL_KM = 1e-6;
+/** Column field width in a haversine cell key: row * COLS + col. */
+const COLS = 2 ** 22;
+const MAX_COLS = 2 ** 21;
+/** Euclidean cell indices are clamped to ±HALF so a key fits a double exactly. */
+const HALF = 2 ** 25;
+/** Rounding slack on the cell ranges (degrees); the exact distance check follows. */
+const PAD_DEG = 1e-9;
+
+/**
+ * Points with non-negative integer ids (occurrence indices) in cells.
+ * @example
+ * const g = new SpatialGrid({ metric: 'haversine', cellKm: 6.25 });
+ * g.insert(7, 52.52, 13.40);
+ * const n = g.queryInto(52.53, 13.41, 6.25, ids, dists); // ids[0] === 7
+ */
+export class SpatialGrid {
+  private readonly haversine: boolean;
+  private readonly radius: number;
+  private readonly cellKm: number;
+  /** Haversine: band height in degrees and number of bands. */
+  private readonly dLat: number;
+  private readonly nRows: number;
+  /** Haversine: longitude cells per band, filled lazily. */
+  private readonly rowCols: Int32Array;
+
+  private readonly cells = new Map<number, number[]>();
+  /** Per id: coordinates, cos(lat) for haversine, cell key (NaN = absent, -1 = no location), slot in its cell. */
+  private pa = new Float64Array(0);
+  private pb = new Float64Array(0);
+  private pc = new Float64Array(0);
+  private key = new Float64Array(0);
+  private slot = new Int32Array(0);
+  private count = 0;
+
+  constructor(opts: GridOptions) {
+    this.haversine = opts.metric === 'haversine';
+    this.radius = opts.earthRadiusKm ?? EARTH_RADIUS_KM;
+    this.cellKm = Math.max(Number.isFinite(opts.cellKm) ? opts.cellKm : 0, MIN_CELL_KM);
+    this.dLat = Math.min(180, Math.max((this.cellKm / this.radius) / DEG, MIN_CELL_DEG));
+    this.nRows = this.haversine ? Math.ceil(180 / this.dLat) : 0;
+    this.rowCols = new Int32Array(this.nRows);
+  }
+
+  /**
+   * Builds a grid from parallel arrays: `a`/`b` are lat/lon (haversine) or x/y.
+   * @example SpatialGrid.fromPoints({ metric: 'euclidean', cellKm: 2 }, [0, 1], [0, 5], [0, 5])
+   */
+  static fromPoints(opts: GridOptions, ids: ArrayLike<number>, a: ArrayLike<number>, b: ArrayLike<number>): SpatialGrid {
+    const g = new SpatialGrid(opts);
+    let maxId = -1;
+    for (let i = 0; i < ids.length; i++) if (ids[i]! > maxId) maxId = ids[i]!;
+    g.ensure(maxId);
+    for (let i = 0; i < ids.length; i++) g.insert(ids[i]!, a[i]!, b[i]!);
+    return g;
+  }
+
+  /** Number of points held. */
+  get size(): number {
+    return this.count;
+  }
+
+  /** Whether id is held. */
+  has(id: number): boolean {
+    return id < this.key.length && !Number.isNaN(this.key[id]!);
+  }
+
+  /**
+   * Adds a point (replacing the id's earlier point, if any). A point with a
+   * non-finite coordinate is held but never found by a query.
+   */
+  insert(id: number, a: number, b: number): void {
+    if (this.has(id)) this.remove(id);
+    this.ensure(id);
+    let k: number;
+    if (this.haversine) {
+      this.pa[id] = a;
+      this.pb[id] = b;
+      this.pc[id] = Math.cos(a * DEG);
+      k = Number.isFinite(a) && Number.isFinite(b) ? this.cellKeyDeg(a, b) : -1;
+    } else {
+      this.pa[id] = a;
+      this.pb[id] = b;
+      k = Number.isFinite(a) && Number.isFinite(b) ? this.cellKeyKm(a, b) : -1;
+    }
+    let bucket = this.cells.get(k);
+    if (bucket === undefined) {
+      bucket = [];
+      this.cells.set(k, bucket);
+    }
+    this.key[id] = k;
+    this.slot[id] = bucket.length;
+    bucket.push(id);
+    this.count++;
+  }
+
+  /** Removes a point; false when the id was not held. */
+  remove(id: number): boolean {
+    if (!this.has(id)) return false;
+    const k = this.key[id]!;
+    const bucket = this.cells.get(k)!;
+    const at = this.slot[id]!;
+    const last = bucket.pop()!;
+    if (last !== id) {
+      bucket[at] = last;
+      this.slot[last] = at;
+    }
+    if (bucket.length === 0) this.cells.delete(k);
+    this.key[id] = NaN;
+    this.count--;
+    return true;
+  }
+
+  /**
+   * Every point within `radiusKm` (inclusive) of (a, b): writes ids and exact distances
+   * in km to `outIds`/`outDist` from index 0 (the arrays grow as needed) and returns
+   * how many. Order is unspecified but deterministic for the same history of inserts
+   * and removes.
+   */
+  queryInto(a: number, b: number, radiusKm: number, outIds: number[], outDist: number[]): number {
+    if (!(radiusKm >= 0) || !Number.isFinite(a) || !Number.isFinite(b)) return 0;
+    return this.haversine ? this.querySphere(a, b, radiusKm, outIds, outDist) : this.queryPlane(a, b, radiusKm, outIds, outDist);
+  }
+
+  private ensure(id: number): void {
+    if (id < this.key.length) return;
+    const n = Math.max(id + 1, this.key.length * 2, 64);
+    const grow = (old: Float64Array): Float64Array => {
+      const x = new Float64Array(n);
+      x.set(old);
+      return x;
+    };
+    this.pa = grow(this.pa);
+    this.pb = grow(this.pb);
+    this.pc = grow(this.pc);
+    const key = new Float64Array(n).fill(NaN);
+    key.set(this.key);
+    this.key = key;
+    const slot = new Int32Array(n);
+    slot.set(this.slot);
+    this.slot = slot;
+  }
+
+  private rowOf(latDeg: number): number {
+    const r = Math.floor((latDeg + 90) / this.dLat);
+    return r < 0 ? 0 : r >= this.nRows ? this.nRows - 1 : r;
+  }
+
+  private colsOf(row: number): number {
+    let n = this.rowCols[row]!;
+    if (n === 0) {
+      const lo = -90 + row * this.dLat;
+      const hi = Math.min(90, lo + this.dLat);
+      const poleward = Math.max(Math.abs(lo), Math.abs(hi));
+      const c = Math.cos(poleward * DEG);
+      n = Math.floor((360 * c) / this.dLat);
+      n = n < 1 || !Number.isFinite(n) ? 1 : n > MAX_COLS ? MAX_COLS : n;
+      this.rowCols[row] = n;
+    }
+    return n;
+  }
+
+  private colOf(lonDeg: number, n: number): number {
+    const c = Math.floor(((lonDeg + 180) * n) / 360) % n;
+    return c < 0 ? c + n : c;
+  }
+
+  private cellKeyDeg(latDeg: number, lonDeg: number): number {
+    const row = this.rowOf(latDeg);
+    return row * COLS + this.colOf(lonDeg, this.colsOf(row));
+  }
+
+  private cellIndexKm(v: number): number {
+    const i = Math.floor(v / this.cellKm);
+    return i < -HALF + 1 ? -HALF + 1 : i > HALF - 1 ? HALF - 1 : i;
+  }
+
+  private cellKeyKm(x: number, y: number): number {
+    return (this.cellIndexKm(x) + HALF) * 2 * HALF + (this.cellIndexKm(y) + HALF);
+  }
+
+  private querySphere(lat: number, lon: number, r: number, outIds: number[], outDist: number[]): number {
+    const rho = r / this.radius;
+    const rhoDeg = rho / DEG + PAD_DEG;
+    const latLo = lat - rhoDeg;
+    const latHi = lat + rhoDeg;
+    const r0 = this.rowOf(latLo);
+    const r1 = this.rowOf(latHi);
+    // Longitude half-width of the cap; the whole circle when the cap reaches a pole.
+    let dLon = 360;
+    if (rho < Math.PI && latLo > -90 && latHi < 90) {
+      const s = Math.sin(rho) / Math.cos(lat * DEG);
+      if (s < 1) dLon = Math.asin(s) / DEG * (1 + 1e-9) + PAD_DEG;
+    }
+    let found = 0;
+    // A huge radius over few points: scanning the occupied cells beats walking the range.
+    let visits = 0;
+    for (let row = r0; row <= r1; row++) visits += this.colRange(row, lon, dLon, 1);
+    if (visits > 4 * this.cells.size) {
+      for (const [k, bucket] of this.cells) {
+        if (k >= 0) found = this.scanSphere(bucket, lat, lon, r, outIds, outDist, found);
+      }
+      return found;
+    }
+    for (let row = r0; row <= r1; row++) {
+      const n = this.colsOf(row);
+      const c0 = this.colRange(row, lon, dLon, 0);
+      const c1 = this.colRange(row, lon, dLon, 2);
+      for (let c = c0; c <= c1; c++) {
+        const col = ((c % n) + n) % n;
+        const bucket = this.cells.get(row * COLS + col);
+        if (bucket !== undefined) found = this.scanSphere(bucket, lat, lon, r, outIds, outDist, found);
+      }
+    }
+    return found;
+  }
+
+  /** For a band: what 0 = first column, 1 = column count, 2 = last column (unwrapped) a query covers. */
+  private colRange(row: number, lon: number, dLon: number, what: 0 | 1 | 2): number {
+    const n = this.colsOf(row);
+    let c0 = 0;
+    let c1 = n - 1;
+    if (dLon < 180) {
+      c0 = Math.floor(((lon - dLon + 180) * n) / 360);
+      c1 = Math.floor(((lon + dLon + 180) * n) / 360);
+      if (c1 - c0 + 1 >= n) {
+        c0 = 0;
+        c1 = n - 1;
+      }
+    }
+    return what === 0 ? c0 : what === 2 ? c1 : c1 - c0 + 1;
+  }
+
+  private scanSphere(bucket: number[], lat: number, lon: number, r: number, outIds: number[], outDist: number[], found: number): number {
+    const pa = this.pa, pb = this.pb, pc = this.pc;
+    const twoR = 2 * this.radius;
+    const cosLat = Math.cos(lat * DEG);
+    for (let i = 0; i < bucket.length; i++) {
+      const id = bucket[i]!;
+      // haversineKm(lat, lon, pointLat, pointLon) term by term, so that the grid and a
+      // brute-force scan agree to the last bit at the radius boundary.
+      const sLat = Math.sin(((pa[id]! - lat) * DEG) / 2);
+      const sLon = Math.sin(((pb[id]! - lon) * DEG) / 2);
+      let h = sLat * sLat + cosLat * pc[id]! * sLon * sLon;
+      if (h > 1) h = 1;
+      const d = twoR * Math.atan2(Math.sqrt(h), Math.sqrt(1 - h));
+      if (d <= r) {
+        outIds[found] = id;
+        outDist[found] = d;
+        found++;
+      }
+    }
+    return found;
+  }
+
+  private queryPlane(x: number, y: number, r: number, outIds: number[], outDist: number[]): number {
+    const ix0 = this.cellIndexKm(x - r), ix1 = this.cellIndexKm(x + r);
+    const iy0 = this.cellIndexKm(y - r), iy1 = this.cellIndexKm(y + r);
+    const pa = this.pa, pb = this.pb;
+    let found = 0;
+    // A huge radius over few points: scanning every cell beats walking the key range.
+    if ((ix1 - ix0 + 1) * (iy1 - iy0 + 1) > 4 * this.cells.size) {
+      for (const [k, bucket] of this.cells) {
+        if (k < 0) continue;
+        found = this.scanPlane(bucket, x, y, r, pa, pb, outIds, outDist, found);
+      }
+      return found;
+    }
+    for (let ix = ix0; ix <= ix1; ix++) {
+      const base = (ix + HALF) * 2 * HALF + HALF;
+      for (let iy = iy0; iy <= iy1; iy++) {
+        const bucket = this.cells.get(base + iy);
+        if (bucket !== undefined) found = this.scanPlane(bucket, x, y, r, pa, pb, outIds, outDist, found);
+      }
+    }
+    return found;
+  }
+
+  private scanPlane(
+    bucket: number[], x: number, y: number, r: number, pa: Float64Array, pb: Float64Array,
+    outIds: number[], outDist: number[], found: number,
+  ): number {
+    for (let i = 0; i < bucket.length; i++) {
+      const id = bucket[i]!;
+      const d = Math.hypot(pa[id]! - x, pb[id]! - y);
+      if (d <= r) {
+        outIds[found] = id;
+        outDist[found] = d;
+        found++;
+      }
+    }
+    return found;
+  }
+}
+
+/**
+ * The cell size for a configuration: the largest allowed travel distance,
+ * `maxTravelMin * speedKmh / 60` km.
+ */
+export function cellKmFor(config: { readonly maxTravelMin: number; readonly speedKmh: number }): number {
+  return (config.maxTravelMin * config.speedKmh) / 60;
+}
