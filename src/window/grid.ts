@@ -61,11 +61,11 @@ export class SpatialGrid {
 
   private readonly cells = new Map<number, number[]>();
   /** Per id: coordinates, cos(lat) for haversine, cell key (NaN = absent, -1 = no location), slot in its cell. */
-  private pa = new Float64Array(0);
-  private pb = new Float64Array(0);
-  private pc = new Float64Array(0);
-  private key = new Float64Array(0);
-  private slot = new Int32Array(0);
+  private pa: Float64Array = new Float64Array(0);
+  private pb: Float64Array = new Float64Array(0);
+  private pc: Float64Array = new Float64Array(0);
+  private key: Float64Array = new Float64Array(0);
+  private slot: Int32Array = new Int32Array(0);
   private count = 0;
 
   constructor(opts: GridOptions) {
