@@ -1,0 +1,5 @@
+/** Kafka edge of pairflow: client factory and Avro message values (docs/kafka.md). */
+export { createKafka, parseBrokers, pinoLogCreator, kafkaLogLevelFor, marketPartitioner } from './client.js';
+export type { CreateKafkaOptions } from './client.js';
+export { createAvroSerde, crc64Avro, canonicalSchema, SINGLE_OBJECT_MARKER, SINGLE_OBJECT_HEADER_BYTES } from './avro.js';
+export type { AvroSerde } from './avro.js';
