@@ -1,0 +1,97 @@
+import { describe, expect, it } from 'vitest';
+import { bootstrapWindows, bucketOf, bucketPlan, bucketSums, seededRandom } from '../../../src/replay/bootstrap.js';
+import { mulberry32 } from '../../helpers/random.js';
+
+const DAY = 86_400_000;
+const HOUR = 3_600_000;
+
+describe('bucketPlan()', () => {
+  it('uses UTC days for logs spanning two days or more, hours for shorter ones', () => {
+    const start = Date.UTC(2026, 2, 2, 6); // 06:00 on a Monday
+    const week = bucketPlan(start, start + 7 * DAY - 1);
+    expect(week).toEqual({ unit: 'day', unitMs: DAY, origin: Date.UTC(2026, 2, 2), count: 8 });
+    const day = bucketPlan(Date.UTC(2026, 2, 2), Date.UTC(2026, 2, 2, 23, 59));
+    expect(day).toEqual({ unit: 'hour', unitMs: HOUR, origin: Date.UTC(2026, 2, 2), count: 24 });
+    expect(bucketPlan(start, start + 2 * DAY - 1).unit).toBe('hour');
+    expect(bucketPlan(start, start + 2 * DAY).unit).toBe('day');
+  });
+
+  it('bucketOf() and bucketSums() put each cost in the bucket of its time', () => {
+    const plan = bucketPlan(0, 5 * HOUR + 1);
+    expect(plan.count).toBe(6);
+    expect(bucketOf(plan, HOUR - 1)).toBe(0);
+    expect(bucketOf(plan, HOUR)).toBe(1);
+    expect([...bucketSums(plan, [0, 10, HOUR, 5 * HOUR], [1, 2, 3, 4])]).toEqual([3, 3, 0, 0, 0, 4]);
+  });
+});
+
+describe('seededRandom()', () => {
+  it('is reproducible from its seed, differs between seeds, and looks uniform', () => {
+    const a = seededRandom(7);
+    const b = seededRandom(7);
+    const c = seededRandom(8);
+    const xs = Array.from({ length: 20_000 }, () => a());
+    expect(Array.from({ length: 20_000 }, () => b())).toEqual(xs);
+    expect(Array.from({ length: 5 }, () => c())).not.toEqual(xs.slice(0, 5));
+    expect(xs.every((x) => x >= 0 && x < 1)).toBe(true);
+    // Common practice: the mean of n uniforms has sd 1/sqrt(12 n) ≈ 0.002 here; 5 sd bounds.
+    const mean = xs.reduce((s, x) => s + x, 0) / xs.length;
+    expect(Math.abs(mean - 0.5)).toBeLessThan(0.01);
+    // Every tenth of [0, 1) gets about n/10 draws (binomial sd ≈ 42; 6 sd bounds).
+    const bins = new Array(10).fill(0);
+    for (const x of xs) bins[Math.floor(x * 10)] += 1;
+    for (const n of bins) expect(Math.abs(n - 2000)).toBeLessThan(250);
+  });
+});
+
+describe('bootstrapWindows()', () => {
+  const makeBuckets = (seed: number, nWindows: number, k: number): Float64Array[] => {
+    const rand = mulberry32(seed);
+    return Array.from({ length: nWindows }, (_, w) => Float64Array.from({ length: k }, () => 100 + 10 * w * rand() + 50 * rand()));
+  };
+
+  it('is deterministic for a seed and its intervals contain the point estimate', () => {
+    for (const seed of [1, 2, 3, 17, 99]) {
+      const windows = makeBuckets(seed, 4, 7);
+      const hindsight = Float64Array.from({ length: 7 }, (_, i) => 80 + i);
+      const r1 = bootstrapWindows(windows, hindsight, { resamples: 500, seed });
+      const r2 = bootstrapWindows(windows, hindsight, { resamples: 500, seed });
+      expect(r2, `seed ${seed}`).toEqual(r1);
+      const h = hindsight.reduce((s, x) => s + x, 0);
+      windows.forEach((b, w) => {
+        const total = b.reduce((s, x) => s + x, 0);
+        const iv = r1.windows[w]!;
+        expect(iv.cost[0], `seed ${seed} window ${w}`).toBeLessThanOrEqual(total);
+        expect(iv.cost[1], `seed ${seed} window ${w}`).toBeGreaterThanOrEqual(total);
+        expect(iv.regret![0]).toBeLessThanOrEqual(total - h);
+        expect(iv.regret![1]).toBeGreaterThanOrEqual(total - h);
+      });
+      const shares = r1.windows.reduce((s, w) => s + w.bestShare, 0);
+      expect(shares).toBeCloseTo(1, 12);
+      expect(bootstrapWindows(windows, hindsight, { resamples: 500, seed: seed + 1000 })).not.toEqual(r1);
+    }
+  });
+
+  it('a window cheaper on every day is best in every resample', () => {
+    const base = Float64Array.of(10, 50, 20, 90, 40);
+    const cheaper = base.map((x) => x - 1);
+    const r = bootstrapWindows([base, cheaper, base.map((x) => x + 5)], null, { resamples: 300, seed: 5 });
+    expect(r.windows.map((w) => w.bestShare)).toEqual([0, 1, 0]);
+    expect(r.windows[0]!.regret).toBeNull();
+  });
+
+  it('ties go to the earlier window, and identical days give a zero-width interval', () => {
+    const flat = Float64Array.of(5, 5, 5);
+    const r = bootstrapWindows([flat, flat.slice()], null, { resamples: 100, seed: 3 });
+    expect(r.windows[0]!.bestShare).toBe(1);
+    expect(r.windows[0]!.cost).toEqual([15, 15]);
+  });
+
+  it('the interval width shrinks as the days agree more (percentile bootstrap, Efron & Tibshirani 1993 §13)', () => {
+    const rand = mulberry32(11);
+    const noisy = Float64Array.from({ length: 10 }, () => 100 + 80 * (rand() - 0.5));
+    const calm = noisy.map((x) => 100 + (x - 100) / 10);
+    const [a, b] = bootstrapWindows([noisy, calm], null, { resamples: 1000, seed: 11 }).windows;
+    expect(a!.cost[1] - a!.cost[0]).toBeGreaterThan(5 * (b!.cost[1] - b!.cost[0]));
+  });
+});
