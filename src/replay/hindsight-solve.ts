@@ -18,6 +18,8 @@
  */
 
 import { maxCardinalityMatching } from '../matching/cardinality.js';
+import { checkCertificate } from '../matching/certificate.js';
+import { pairflowError } from '../errors.js';
 import type { SolveOptions, SolveResult, SparseInstance } from '../matching/types.js';
 import type { PairflowConfig } from '../model.js';
 import { buildAllowedGraph, type AllowedGraph, type PackedMarket } from './hindsight-graph.js';
@@ -78,6 +80,10 @@ export interface HindsightMarketDetail {
   colDuals: Float64Array;
   /** Supply per demand, -1 when unmatched. */
   rowToCol: Int32Array;
+  /** Component solves (all rounds). */
+  solves: number;
+  /** Warm re-solves whose prices failed the certificate and were redone cold. */
+  warmRetries: number;
 }
 
 /** @default candidatesPerDemand */
@@ -203,6 +209,8 @@ export function solvePackedMarket(
   const solved = new Uint8Array(nComp);
   const dirty = new Uint8Array(nComp).fill(1);
   let pricingRounds = 0;
+  let warmRetries = 0;
+  let solves = 0;
 
   for (;;) {
     for (let q = 0; q < nComp; q++) {
@@ -263,7 +271,7 @@ export function solvePackedMarket(
     ms: now() - t0,
     demandT: m.demandT.slice(),
     demandCost,
-    detail: { graph: g, rowDuals, colDuals, rowToCol },
+    detail: { graph: g, rowDuals, colDuals, rowToCol, solves, warmRetries },
   };
 
   function solveComponent(q: number): void {
@@ -308,7 +316,7 @@ export function solvePackedMarket(
       cost: costs,
       unmatchedCost: new Float64Array(nr).fill(P),
     };
-    let solveOpts: SolveOptions | undefined;
+    let solveOpts: SolveOptions;
     if (solved[q] === 1) {
       const rowPrices = new Float64Array(nr);
       const prevMatch = new Int32Array(nr);
@@ -324,7 +332,23 @@ export function solvePackedMarket(
     } else {
       solveOpts = { now };
     }
-    const res = solve(inst, solveOpts);
+    let res = solve(inst, solveOpts);
+    solves++;
+    // The exactness proof rests on these prices, so each solve's certificate is
+    // checked (O(pairs), cheap next to the solve). A warm start that fails it is
+    // retried cold; a cold solve that fails it is a solver bug.
+    if (!checkCertificate(inst, res).ok) {
+      if (solveOpts.warm !== undefined) {
+        warmRetries++;
+        res = solve(inst, { now });
+      }
+      const rep = checkCertificate(inst, res);
+      if (!rep.ok) {
+        throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', {
+          detail: `hindsight market ${market}: solver prices do not certify optimality: ${rep.problems.slice(0, 3).join('; ')}`,
+        });
+      }
+    }
     for (let i = 0; i < nr; i++) {
       const r = rows[i]!;
       rowDuals[r] = res.rowDuals[i]!;
