@@ -10,6 +10,7 @@ export type * from './types.js';
 export { checkCertificate } from './certificate.js';
 export type { CertificateOptions, CertificateReport } from './certificate.js';
 export { maximizeDense, maximizeSparse } from './maximize.js';
+export { maxCardinalityMatching, minVertexCover, type BipartiteGraph, type CardinalityMatching, type VertexCover } from './cardinality.js';
 
 /**
  * Min-cost assignment on a CSR instance, exactly, by shortest augmenting paths with
