@@ -2,7 +2,14 @@
  * The windowed online policy of SPEC §3. Pure: time is an input (event time, and an
  * injected clock used only to measure solve time).
  */
-import type { Side } from '../model.js';
+import { pairflowError } from '../errors.js';
+import { checkCertificate, solveSparse } from '../matching/index.js';
+import type { SolveResult, SparseInstance, WarmStart } from '../matching/index.js';
+import { type PairflowConfig, reserveOf, type Side, type SourcedEvent } from '../model.js';
+import { capabilitiesAllow, travelMin } from './geo.js';
+import { cellKmFor, type GridOptions, SpatialGrid } from './grid.js';
+import { KeyedHeap } from './heap.js';
+import { type Occurrence, OccurrenceLedger } from './occurrences.js';
 
 /** One executed pair (SPEC §3): decided at epoch `decidedAt`, at cost `travelMin + waitWeight·waitMin`. */
 export interface AssignmentRecord {
@@ -92,4 +99,560 @@ export interface EngineOptions {
   now?: () => number;
   /** Run `checkCertificate` on every solve and throw on failure (for tests). @default false */
   verify?: boolean;
+}
+
+/** A unit of a {@link PoolSnapshot}: an occurrence the engine still holds (pending or in the pool). */
+export interface SnapshotUnit {
+  side: Side;
+  id: string;
+  t: number;
+  until: number;
+  end: number;
+  seq: number;
+  lat?: number;
+  lon?: number;
+  x?: number;
+  y?: number;
+  has?: readonly string[];
+  needs?: readonly string[];
+  /** Carried dual price, null when none. */
+  price: number | null;
+  /** `pending` = known but not yet in the pool: it joins at `joinEpoch`. */
+  state: 'pending' | 'pool';
+  joinEpoch: number;
+}
+
+/** Serialisable pool state of one market (live mode stores it on the compacted pool topic). */
+export interface PoolSnapshot {
+  version: 1;
+  market: string;
+  windowMs: number;
+  /** Last closed epoch of the market; -Infinity is written as null. */
+  lastClosed: number | null;
+  units: SnapshotUnit[];
+  /** Tentative pairs (commit "due") as [demand unit, supply unit] positions in `units`. */
+  tentative: Array<[number, number]>;
+}
+
+/** Where an occurrence is, as far as the engine is concerned. */
+const ST_PENDING = 1;
+const ST_POOL = 2;
+const ST_MATCHED = 3;
+const ST_GONE = 4;
+
+/** One side's pool of a market: slots (reused) hold occurrence indices; the grid indexes the slots. */
+class SidePool {
+  slotOcc: Int32Array = new Int32Array(16).fill(-1);
+  /** Slots in use are below `high`; freed ones are reused last-freed first. */
+  high = 0;
+  size = 0;
+  private readonly free: number[] = [];
+  readonly grid: SpatialGrid;
+
+  constructor(gridOpts: GridOptions) {
+    this.grid = new SpatialGrid(gridOpts);
+  }
+
+  add(occ: number, a: number, b: number): number {
+    let slot: number;
+    if (this.free.length > 0) slot = this.free.pop()!;
+    else {
+      slot = this.high++;
+      if (slot >= this.slotOcc.length) {
+        const grown = new Int32Array(this.slotOcc.length * 2).fill(-1);
+        grown.set(this.slotOcc);
+        this.slotOcc = grown;
+      }
+    }
+    this.slotOcc[slot] = occ;
+    this.grid.insert(slot, a, b);
+    this.size++;
+    return slot;
+  }
+
+  remove(slot: number): void {
+    this.slotOcc[slot] = -1;
+    this.grid.remove(slot);
+    this.free.push(slot);
+    this.size--;
+  }
+}
+
+/** Per-market state: pools, timed triggers and the last closed epoch. */
+class MarketState {
+  readonly name: string;
+  lastClosed: number;
+  readonly demand: SidePool;
+  readonly supply: SidePool;
+  /** Known arrivals waiting for their first epoch, keyed by it. */
+  readonly pending = new KeyedHeap();
+  /** Pool units keyed by the first epoch after their end (lazy: stale entries are skipped). */
+  readonly expiry = new KeyedHeap();
+  /** Pool units keyed by the first epoch at which they are at their last chance. */
+  readonly lastChance = new KeyedHeap();
+  /** Something changed since the last solve that can change the optimum. */
+  dirty = false;
+
+  constructor(name: string, lastClosed: number, gridOpts: GridOptions) {
+    this.name = name;
+    this.lastClosed = lastClosed;
+    this.demand = new SidePool(gridOpts);
+    this.supply = new SidePool(gridOpts);
+  }
+}
+
+function growF64(a: Float64Array, n: number, fill = 0): Float64Array {
+  if (n <= a.length) return a;
+  const b = new Float64Array(Math.max(n, a.length * 2)).fill(fill);
+  b.set(a);
+  return b;
+}
+
+function growI32(a: Int32Array, n: number, fill = 0): Int32Array {
+  if (n <= a.length) return a;
+  const b = new Int32Array(Math.max(n, a.length * 2)).fill(fill);
+  b.set(a);
+  return b;
+}
+
+/**
+ * The windowed online policy (SPEC §3), for every market at once.
+ *
+ * Epochs are the multiples of `windowMs`. At epoch τ the pool holds the occurrences
+ * with `t < τ ≤ end` not matched yet; the engine solves the window's min-cost
+ * assignment exactly (`solveSparse`), with deferral cost P for demand at its last
+ * chance (`until < τ + W`) and R otherwise, and executes every pair (`commit: "all"`)
+ * or only those with a unit at its last chance (`"due"`, the rest stay tentative).
+ *
+ * Epochs where nothing can change the optimum are skipped without a solve: no unit
+ * joined, and no demand reached its last chance (for `"due"` also: no unit left and
+ * no supply reached its last chance). Such an epoch's solution is the previous one,
+ * because pair costs only grow with τ while deferral costs stay, so the pairs left
+ * unexecuted stay unprofitable. An {@link EpochRecord} is written for every solve.
+ *
+ * @example
+ * const engine = new WindowEngine(config, sink);
+ * for (const ev of sortedEvents) { engine.advanceTo(ev.event.t); engine.ingest(ev); }
+ * engine.finish();
+ */
+export class WindowEngine {
+  private readonly config: PairflowConfig;
+  private readonly sink: EngineSink;
+  private readonly W: number;
+  private readonly P: number;
+  private readonly R: number;
+  private readonly due: boolean;
+  private readonly warmOn: boolean;
+  private readonly verify: boolean;
+  private readonly now: (() => number) | undefined;
+  private readonly haversine: boolean;
+  private readonly gridOpts: GridOptions;
+  /** Grid query radius: the largest allowed travel distance plus rounding slack. */
+  private readonly queryKm: number;
+  /** Whether a demand's last-chance transition can change the optimum. */
+  private readonly demandLastChanceMatters: boolean;
+
+  private readonly ledger: OccurrenceLedger;
+  private readonly markets = new Map<string, MarketState>();
+  private readonly marketList: MarketState[] = [];
+  private globalClosed = -Infinity;
+
+  // Per occurrence, by index.
+  private state: Uint8Array = new Uint8Array(1024);
+  private slotOf: Int32Array = new Int32Array(1024).fill(-1);
+  private price: Float64Array = new Float64Array(1024).fill(NaN);
+  private partner: Int32Array = new Int32Array(1024).fill(-1);
+  /** Demand only: allowed supply seen so far, flat [supplyOcc, travelMin, ...]; stale entries are dropped at use. */
+  private cand: Array<number[] | undefined> = [];
+
+  // Solve buffers, reused across epochs.
+  private rowPtr: Int32Array = new Int32Array(64);
+  private colIdx: Int32Array = new Int32Array(256);
+  private cost: Float64Array = new Float64Array(256);
+  private travel: Float64Array = new Float64Array(256);
+  private delta: Float64Array = new Float64Array(64);
+  private rowOcc: Int32Array = new Int32Array(64);
+  private colOcc: Int32Array = new Int32Array(64);
+  private colOfSlot: Int32Array = new Int32Array(64);
+  private rowPrices: Float64Array = new Float64Array(64);
+  private colPrices: Float64Array = new Float64Array(64);
+  private warmPairs: Int32Array = new Int32Array(64);
+  private readonly qIds: number[] = [];
+  private readonly qDist: number[] = [];
+
+  private readonly tot: EngineTotals = {
+    demandUnits: 0, supplyUnits: 0, matched: 0, abandoned: 0, cost: 0, duplicates: 0, ignoredWithdraws: 0, late: 0,
+  };
+
+  constructor(config: PairflowConfig, sink: EngineSink, opts: EngineOptions = {}) {
+    this.config = config;
+    this.sink = sink;
+    this.W = config.windowMs;
+    this.P = config.abandonPenalty;
+    this.R = reserveOf(config);
+    this.due = config.commit === 'due';
+    this.warmOn = opts.warm ?? true;
+    this.verify = opts.verify ?? false;
+    this.now = opts.now;
+    this.haversine = config.metric === 'haversine';
+    const cellKm = cellKmFor(config);
+    this.gridOpts = { metric: config.metric, cellKm };
+    this.queryKm = cellKm * (1 + 1e-9) + 1e-9;
+    this.demandLastChanceMatters = this.due || this.P !== this.R;
+    this.ledger = new OccurrenceLedger(config);
+  }
+
+  /**
+   * Takes one event. In replay, call `advanceTo(ev.t)` first, so that an event at
+   * exactly an epoch τ is not known at τ. An event whose time is before an epoch
+   * already closed for its market is late: counted, and its unit joins from the next
+   * epoch if still available.
+   */
+  ingest(sourced: SourcedEvent): void {
+    const ev = sourced.event;
+    const m = this.marketOf(ev.market);
+    if (ev.t < m.lastClosed) this.tot.late++;
+    const out = this.ledger.apply(sourced);
+    if (out.kind === 'arrival') {
+      const occ = out.occurrence;
+      this.ensure(occ.index + 1);
+      if (occ.side === 'demand') this.tot.demandUnits++;
+      else this.tot.supplyUnits++;
+      this.state[occ.index] = ST_PENDING;
+      m.pending.push(Math.max(this.epochAfter(occ.t), m.lastClosed + this.W), occ.index);
+      if (out.ended !== null) this.endMoved(m, out.ended);
+    } else if (out.kind === 'withdraw') {
+      if (out.changed) this.endMoved(m, out.ended);
+    }
+  }
+
+  /**
+   * Closes every epoch τ ≤ `watermark` of every market (or of `market` alone), in τ
+   * order. Epochs where nothing can change are skipped at no cost.
+   */
+  advanceTo(watermark: number, market?: string): void {
+    const closed = Math.floor(watermark / this.W) * this.W;
+    if (market !== undefined) {
+      const m = this.marketOf(market);
+      this.run([m], watermark);
+      if (closed > m.lastClosed) m.lastClosed = closed;
+      return;
+    }
+    this.run(this.marketList, watermark);
+    for (const m of this.marketList) if (closed > m.lastClosed) m.lastClosed = closed;
+    if (closed > this.globalClosed) this.globalClosed = closed;
+  }
+
+  /** The log has ended: closes epochs until every pool is empty. */
+  finish(): void {
+    this.run(this.marketList, Infinity);
+  }
+
+  /** Running totals; `cost` is the online total cost so far (SPEC §3). */
+  totals(): EngineTotals {
+    return { ...this.tot, duplicates: this.ledger.duplicates, ignoredWithdraws: this.ledger.ignoredWithdraws };
+  }
+
+  /** Markets seen so far, in first-seen order. */
+  marketNames(): string[] {
+    return this.marketList.map((m) => m.name);
+  }
+
+  // ---------------------------------------------------------------- internals
+
+  private marketOf(name: string): MarketState {
+    let m = this.markets.get(name);
+    if (m === undefined) {
+      m = new MarketState(name, this.globalClosed, this.gridOpts);
+      this.markets.set(name, m);
+      this.marketList.push(m);
+    }
+    return m;
+  }
+
+  private ensure(n: number): void {
+    if (n <= this.state.length) return;
+    const size = Math.max(n, this.state.length * 2);
+    const st = new Uint8Array(size);
+    st.set(this.state);
+    this.state = st;
+    this.slotOf = growI32(this.slotOf, size, -1);
+    this.price = growF64(this.price, size, NaN);
+    this.partner = growI32(this.partner, size, -1);
+  }
+
+  /** First epoch τ with `x < τ`. */
+  private epochAfter(x: number): number {
+    return (Math.floor(x / this.W) + 1) * this.W;
+  }
+
+  private endMoved(m: MarketState, occ: Occurrence): void {
+    if (this.state[occ.index] === ST_POOL) {
+      m.expiry.push(Math.max(this.epochAfter(occ.end), m.lastClosed + this.W), occ.index);
+    }
+  }
+
+  /** The next epoch at which something happens in `m`, dropping stale triggers. */
+  private nextTrigger(m: MarketState): number {
+    const st = this.state;
+    while (m.expiry.size > 0 && st[m.expiry.peekId()] !== ST_POOL) m.expiry.pop();
+    while (m.lastChance.size > 0 && st[m.lastChance.peekId()] !== ST_POOL) m.lastChance.pop();
+    return Math.min(m.pending.peekKey(), m.expiry.peekKey(), m.lastChance.peekKey());
+  }
+
+  private run(ms: readonly MarketState[], limit: number): void {
+    for (;;) {
+      let best: MarketState | null = null;
+      let bestKey = Infinity;
+      for (let i = 0; i < ms.length; i++) {
+        const k = this.nextTrigger(ms[i]!);
+        if (k < bestKey) {
+          bestKey = k;
+          best = ms[i]!;
+        }
+      }
+      if (best === null || bestKey > limit) return;
+      this.closeEpoch(best, bestKey);
+    }
+  }
+
+  private closeEpoch(m: MarketState, tau: number): void {
+    const occs = this.ledger.occurrences;
+    while (m.pending.peekKey() <= tau) this.join(m, m.pending.pop(), tau);
+    while (m.expiry.peekKey() <= tau) {
+      const id = m.expiry.pop();
+      if (this.state[id] === ST_POOL && occs[id]!.end < tau) this.leaveUnmatched(m, id, tau);
+    }
+    while (m.lastChance.peekKey() <= tau) {
+      const id = m.lastChance.pop();
+      if (this.state[id] === ST_POOL) m.dirty = true;
+    }
+    if (m.dirty && m.demand.size > 0 && m.supply.size > 0) this.solve(m, tau);
+    m.dirty = false;
+    m.lastClosed = tau;
+  }
+
+  private coords(o: Occurrence): [number, number] {
+    return this.haversine ? [o.lat ?? NaN, o.lon ?? NaN] : [o.x ?? NaN, o.y ?? NaN];
+  }
+
+  private join(m: MarketState, id: number, tau: number): void {
+    const o = this.ledger.occurrences[id]!;
+    if (o.end < tau) {
+      // Ended before it could ever be in a pool: never matched.
+      this.state[id] = ST_GONE;
+      this.emitExpiry(m, o, tau);
+      return;
+    }
+    this.state[id] = ST_POOL;
+    m.dirty = true;
+    const [a, b] = this.coords(o);
+    const speed = this.config.speedKmh;
+    const maxTravel = this.config.maxTravelMin;
+    const occs = this.ledger.occurrences;
+    if (o.side === 'demand') {
+      this.slotOf[id] = m.demand.add(id, a, b);
+      const list: number[] = [];
+      const n = m.supply.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
+      for (let k = 0; k < n; k++) {
+        const s = m.supply.slotOcc[this.qIds[k]!]!;
+        const tr = travelMin(this.qDist[k]!, speed);
+        if (tr <= maxTravel && capabilitiesAllow(o.needs, occs[s]!.has)) list.push(s, tr);
+      }
+      this.cand[id] = list;
+      if (this.demandLastChanceMatters) this.pushLastChance(m, o, tau);
+    } else {
+      this.slotOf[id] = m.supply.add(id, a, b);
+      const n = m.demand.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
+      for (let k = 0; k < n; k++) {
+        const d = m.demand.slotOcc[this.qIds[k]!]!;
+        const tr = travelMin(this.qDist[k]!, speed);
+        if (tr <= maxTravel && capabilitiesAllow(occs[d]!.needs, o.has)) this.cand[d]!.push(id, tr);
+      }
+      if (this.due) this.pushLastChance(m, o, tau);
+    }
+    m.expiry.push(this.epochAfter(o.end), id);
+  }
+
+  private pushLastChance(m: MarketState, o: Occurrence, tau: number): void {
+    // First epoch with until < τ + W; one already passed needs no trigger (the join is one).
+    const at = this.epochAfter(o.until - this.W);
+    if (at > tau) m.lastChance.push(at, o.index);
+  }
+
+  private removeFromPool(m: MarketState, o: Occurrence, next: number): void {
+    const id = o.index;
+    this.state[id] = next;
+    (o.side === 'demand' ? m.demand : m.supply).remove(this.slotOf[id]!);
+    this.slotOf[id] = -1;
+    this.cand[id] = undefined;
+    const p = this.partner[id]!;
+    if (p >= 0) {
+      this.partner[p] = -1;
+      this.partner[id] = -1;
+    }
+  }
+
+  private leaveUnmatched(m: MarketState, id: number, tau: number): void {
+    const o = this.ledger.occurrences[id]!;
+    this.removeFromPool(m, o, ST_GONE);
+    if (this.due) m.dirty = true;
+    this.emitExpiry(m, o, tau);
+  }
+
+  private emitExpiry(m: MarketState, o: Occurrence, tau: number): void {
+    const demand = o.side === 'demand';
+    if (demand) {
+      this.tot.abandoned++;
+      this.tot.cost += this.P;
+    }
+    this.sink.expiry({ market: m.name, side: o.side, id: o.id, t: o.t, end: o.end, epoch: tau, cost: demand ? this.P : 0 });
+  }
+
+  private solve(m: MarketState, tau: number): void {
+    const occs = this.ledger.occurrences;
+    const W = this.W;
+    // Columns: the supply pool in slot order.
+    const sup = m.supply;
+    this.colOfSlot = growI32(this.colOfSlot, sup.high);
+    this.colOcc = growI32(this.colOcc, sup.size);
+    this.colPrices = growF64(this.colPrices, sup.size);
+    let nCols = 0;
+    for (let slot = 0; slot < sup.high; slot++) {
+      const s = sup.slotOcc[slot]!;
+      if (s < 0) continue;
+      this.colOfSlot[slot] = nCols;
+      this.colOcc[nCols] = s;
+      this.colPrices[nCols] = this.price[s]!;
+      nCols++;
+    }
+    // Rows: the demand pool in slot order, pairs from each demand's candidate list.
+    const dem = m.demand;
+    let bound = 0;
+    for (let slot = 0; slot < dem.high; slot++) {
+      const d = dem.slotOcc[slot]!;
+      if (d >= 0) bound += this.cand[d]!.length >> 1;
+    }
+    this.rowPtr = growI32(this.rowPtr, dem.size + 1);
+    this.rowOcc = growI32(this.rowOcc, dem.size);
+    this.delta = growF64(this.delta, dem.size);
+    this.rowPrices = growF64(this.rowPrices, dem.size);
+    this.warmPairs = growI32(this.warmPairs, dem.size);
+    this.colIdx = growI32(this.colIdx, bound);
+    this.cost = growF64(this.cost, bound);
+    this.travel = growF64(this.travel, bound);
+    const { rowPtr, colIdx, cost, travel, delta, rowOcc, rowPrices, warmPairs, colOfSlot } = this;
+    const st = this.state, slotOf = this.slotOf, partner = this.partner;
+    const waitPerMs = this.config.waitWeight / 60_000;
+    const lastChanceBefore = tau + W;
+    let nRows = 0;
+    let nnz = 0;
+    for (let slot = 0; slot < dem.high; slot++) {
+      const d = dem.slotOcc[slot]!;
+      if (d < 0) continue;
+      const od = occs[d]!;
+      rowOcc[nRows] = d;
+      rowPtr[nRows] = nnz;
+      const wait = waitPerMs * (tau - od.t);
+      const list = this.cand[d]!;
+      let w = 0;
+      for (let k = 0; k < list.length; k += 2) {
+        const s = list[k]!;
+        if (st[s] !== ST_POOL) continue;
+        const tr = list[k + 1]!;
+        list[w] = s;
+        list[w + 1] = tr;
+        w += 2;
+        colIdx[nnz] = colOfSlot[slotOf[s]!]!;
+        cost[nnz] = tr + wait;
+        travel[nnz] = tr;
+        nnz++;
+      }
+      list.length = w;
+      delta[nRows] = od.until < lastChanceBefore ? this.P : this.R;
+      rowPrices[nRows] = this.price[d]!;
+      const p = partner[d]!;
+      warmPairs[nRows] = p >= 0 && st[p] === ST_POOL ? colOfSlot[slotOf[p]!]! : -1;
+      nRows++;
+    }
+    rowPtr[nRows] = nnz;
+    const inst: SparseInstance = {
+      nRows, nCols,
+      rowPtr: rowPtr.subarray(0, nRows + 1),
+      colIdx: colIdx.subarray(0, nnz),
+      cost: cost.subarray(0, nnz),
+      unmatchedCost: delta.subarray(0, nRows),
+    };
+    let warm: WarmStart | undefined;
+    if (this.warmOn) {
+      warm = this.due
+        ? { colPrices: this.colPrices.subarray(0, nCols), rowPrices: rowPrices.subarray(0, nRows), rowToCol: warmPairs.subarray(0, nRows) }
+        : { colPrices: this.colPrices.subarray(0, nCols), rowPrices: rowPrices.subarray(0, nRows) };
+    }
+    const res: SolveResult = solveSparse(inst, this.now !== undefined ? { warm, now: this.now } : { warm });
+    if (this.verify) {
+      const rep = checkCertificate(inst, res);
+      if (!rep.ok) {
+        throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', {
+          detail: `market ${m.name} epoch ${tau}: solver certificate failed: ${rep.problems.join('; ')}`,
+        });
+      }
+    }
+
+    // Carry prices by occurrence; clear the old tentative pairs (the new solution replaces them).
+    let dualObjective = 0;
+    for (let i = 0; i < nRows; i++) {
+      const d = rowOcc[i]!;
+      this.price[d] = res.rowDuals[i]!;
+      dualObjective += res.rowDuals[i]!;
+      partner[d] = -1;
+    }
+    let pMin = Infinity, pMax = -Infinity, pSum = 0;
+    for (let j = 0; j < nCols; j++) {
+      const s = this.colOcc[j]!;
+      const v = res.colDuals[j]!;
+      this.price[s] = v;
+      partner[s] = -1;
+      dualObjective += v;
+      pSum += v;
+      if (v < pMin) pMin = v;
+      if (v > pMax) pMax = v;
+    }
+
+    let matched = 0;
+    let tentative = 0;
+    for (let i = 0; i < nRows; i++) {
+      const j = res.rowToCol[i]!;
+      if (j < 0) continue;
+      const d = rowOcc[i]!;
+      const s = this.colOcc[j]!;
+      const od = occs[d]!;
+      const os = occs[s]!;
+      if (this.due && od.until >= lastChanceBefore && os.until >= lastChanceBefore) {
+        partner[d] = s;
+        partner[s] = d;
+        tentative++;
+        continue;
+      }
+      let e = rowPtr[i]!;
+      const end = rowPtr[i + 1]!;
+      while (e < end && colIdx[e] !== j) e++;
+      const c = cost[e]!;
+      this.sink.assignment({
+        market: m.name, epoch: tau, demandId: od.id, supplyId: os.id, demandT: od.t, supplyT: os.t,
+        decidedAt: tau, travelMin: travel[e]!, waitMin: (tau - od.t) / 60_000, cost: c,
+      });
+      this.tot.matched++;
+      this.tot.cost += c;
+      matched++;
+      this.removeFromPool(m, od, ST_MATCHED);
+      this.removeFromPool(m, os, ST_MATCHED);
+    }
+    this.sink.epoch({
+      market: m.name, epoch: tau, poolDemand: nRows, poolSupply: nCols, candidatePairs: nnz, matched, tentative,
+      solveMs: res.stats.ms, warm: res.stats.warm, augmentations: res.stats.augmentations,
+      primalCost: res.cost, dualObjective,
+      priceMin: nCols > 0 ? pMin : 0, priceMean: nCols > 0 ? pSum / nCols : 0, priceMax: nCols > 0 ? pMax : 0,
+    });
+  }
 }
