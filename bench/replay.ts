@@ -1,0 +1,230 @@
+/**
+ * `npm run bench:replay`: the replay pipeline end to end, as users run it (the built
+ * `bin/pairflow.js` in child processes, so peak memory is a whole process's). On a
+ * generated city log (`pairflow gen --days N`, about 43k demand and 43k supply
+ * occurrences per day over 4 markets) it measures
+ *   - replay at W = 10 s (online alone, then with the hindsight optimum alongside),
+ *   - the exact hindsight optimum (alone, as the sweep computes it once),
+ *   - a six-window sweep, and warm versus cold epoch solves,
+ *   - peak RSS of each child (/usr/bin/time -v, else the child's own maxRSS),
+ * for 1, 2, 4 and 7 days, and writes the table between the bench:replay markers of
+ * docs/benchmarks.md. `--quick` runs a tiny log (smoke test); `--no-write` prints only.
+ */
+import { spawnSync } from 'node:child_process';
+import { existsSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
+import { cpus, totalmem } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+const ROOT = fileURLToPath(new URL('..', import.meta.url));
+const BIN = join(ROOT, 'bin', 'pairflow.js');
+const DOC = join(ROOT, 'docs', 'benchmarks.md');
+const START = '<!-- bench:replay:start -->';
+const END = '<!-- bench:replay:end -->';
+
+/** Options of {@link runReplayBench}. */
+export interface ReplayBenchOptions {
+  /** Tiny sizes, for the smoke test. @default false */
+  quick?: boolean;
+  /** Rewrite the section of docs/benchmarks.md. @default true */
+  write?: boolean;
+  /** Where generated logs are kept between runs. @default bench/out */
+  outDir?: string;
+  /** Day counts for the growth table. @default [1, 2, 4, 7] (quick: [1]) */
+  days?: number[];
+  /** Progress lines. @default stderr */
+  log?: (line: string) => void;
+}
+
+/** One child process run. */
+export interface ChildRun {
+  wallMs: number;
+  peakRssMb: number | null;
+  json: Record<string, unknown>;
+}
+
+export interface SizeRow {
+  days: number;
+  demandUnits: number;
+  supplyUnits: number;
+  logMb: number;
+  onlineMs: number;
+  onlineWallMs: number;
+  onlineRssMb: number | null;
+  replayWallMs: number;
+  replayRssMb: number | null;
+  hindsightMs: number;
+  pairsPriced: number;
+  pairsSolved: number;
+  pricingRounds: number;
+  onlineCost: number;
+  hindsightCost: number;
+  warm: { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
+}
+
+export interface ReplayBenchResult {
+  machine: { cpu: string; cores: number; memGb: number; node: string; date: string };
+  quick: boolean;
+  sizes: SizeRow[];
+  largest: {
+    days: number;
+    cold: { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
+    coldOnlineMs: number;
+    sweep: { windows: string; wallMs: number; rssMb: number | null; hindsightMs: number | null; windowsMs: number; threads: number; best: number };
+  };
+  markdown: string;
+}
+
+const haveTimeV = ((): boolean => {
+  if (!existsSync('/usr/bin/time')) return false;
+  return spawnSync('/usr/bin/time', ['-v', 'true'], { encoding: 'utf8' }).status === 0;
+})();
+
+/** Runs `pairflow ARGS` in a child; the JSON on its stdout, wall time, and peak RSS. */
+export function runChild(args: string[]): ChildRun {
+  const t0 = performance.now();
+  const cmd = haveTimeV ? '/usr/bin/time' : process.execPath;
+  const argv = haveTimeV ? ['-v', process.execPath, BIN, ...args] : [BIN, ...args];
+  const r = spawnSync(cmd, argv, { encoding: 'utf8', maxBuffer: 1 << 28 });
+  const wallMs = performance.now() - t0;
+  if (r.status !== 0) throw new Error(`pairflow ${args.join(' ')} exited ${r.status}: ${r.stderr.slice(-2000)}`);
+  const rss = /Maximum resident set size \(kbytes\): (\d+)/.exec(r.stderr);
+  const lines = r.stdout.trimEnd().split('\n');
+  return { wallMs, peakRssMb: rss ? Number(rss[1]) / 1024 : null, json: lines[0] ? (JSON.parse(lines[lines.length - 1]!) as Record<string, unknown>) : {} };
+}
+
+const get = (o: unknown, path: string): unknown => path.split('.').reduce<unknown>((v, k) => (v as Record<string, unknown> | null)?.[k], o);
+const num = (o: unknown, path: string): number => Number(get(o, path));
+
+function ensureLog(outDir: string, days: number, scale: number): string {
+  const file = join(outDir, `city-${days}d-s${scale}.jsonl.gz`);
+  if (!existsSync(file)) runChild(['gen', '--days', String(days), '--seed', '1', '--scale', String(scale), '--out', file]);
+  return file;
+}
+
+const f1 = (v: number | null | undefined): string => (v === null || v === undefined || Number.isNaN(v) ? '–' : v.toFixed(1));
+const f2 = (v: number | null | undefined): string => (v === null || v === undefined || Number.isNaN(v) ? '–' : v.toFixed(2));
+const f3 = (v: number | null | undefined): string => (v === null || v === undefined || Number.isNaN(v) ? '–' : v.toFixed(3));
+const s1 = (ms: number | null | undefined): string => (ms === null || ms === undefined ? '–' : (ms / 1000).toFixed(1));
+const int = (v: number): string => v.toLocaleString('en-US');
+
+/** Runs the benchmark and returns its figures and the markdown section. */
+export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult {
+  const quick = opts.quick ?? false;
+  const log = opts.log ?? ((line: string) => process.stderr.write(`${line}\n`));
+  const outDir = opts.outDir ?? join(ROOT, 'bench', 'out');
+  mkdirSync(outDir, { recursive: true });
+  const scale = quick ? 0.01 : 1;
+  const daysList = opts.days ?? (quick ? [1] : [1, 2, 4, 7]);
+  const sizes: SizeRow[] = [];
+  for (const days of daysList) {
+    log(`bench:replay: ${days} day(s): generating`);
+    const file = ensureLog(outDir, days, scale);
+    log(`bench:replay: ${days} day(s): online replay at W = 10 s`);
+    const online = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight']);
+    log(`bench:replay: ${days} day(s): replay with the hindsight optimum`);
+    const full = runChild(['replay', file, '--window', '10s', '--json']);
+    sizes.push({
+      days,
+      demandUnits: num(full.json, 'demandUnits'),
+      supplyUnits: num(full.json, 'supplyUnits'),
+      logMb: statSync(file).size / 1e6,
+      onlineMs: num(online.json, 'timings.onlineMs'),
+      onlineWallMs: online.wallMs,
+      onlineRssMb: online.peakRssMb,
+      replayWallMs: full.wallMs,
+      replayRssMb: full.peakRssMb,
+      hindsightMs: num(full.json, 'timings.hindsightMs'),
+      pairsPriced: num(full.json, 'hindsight.pairsPriced'),
+      pairsSolved: num(full.json, 'hindsight.pairsSolved'),
+      pricingRounds: num(full.json, 'hindsight.pricingRounds'),
+      onlineCost: num(full.json, 'online.cost'),
+      hindsightCost: num(full.json, 'hindsight.cost'),
+      warm: get(online.json, 'timings.epochSolve.warm') as SizeRow['warm'],
+    });
+  }
+  const last = sizes[sizes.length - 1]!;
+  const file = ensureLog(outDir, last.days, scale);
+  log(`bench:replay: ${last.days} day(s): cold epoch solves`);
+  const cold = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight', '--no-warm']);
+  const windows = quick ? '5s,30s' : '1s,2s,5s,10s,30s,60s';
+  log(`bench:replay: ${last.days} day(s): sweep ${windows}`);
+  const sweep = runChild(['sweep', file, '--windows', windows, '--json', '--bootstrap', quick ? '100' : '1000']);
+
+  const machine = {
+    cpu: cpus()[0]?.model.trim() ?? 'unknown',
+    cores: cpus().length,
+    memGb: Math.round(totalmem() / 2 ** 30),
+    node: process.version,
+    date: new Date().toISOString().slice(0, 16).replace('T', ' ') + ' UTC',
+  };
+  const largest: ReplayBenchResult['largest'] = {
+    days: last.days,
+    cold: get(cold.json, 'timings.epochSolve.cold') as SizeRow['warm'],
+    coldOnlineMs: num(cold.json, 'timings.onlineMs'),
+    sweep: {
+      windows,
+      wallMs: sweep.wallMs,
+      rssMb: sweep.peakRssMb,
+      hindsightMs: get(sweep.json, 'timings.hindsightMs') as number | null,
+      windowsMs: num(sweep.json, 'timings.windowsMs'),
+      threads: num(sweep.json, 'timings.threads'),
+      best: num(sweep.json, 'best.windowMs'),
+    },
+  };
+
+  const md: string[] = [];
+  md.push(START);
+  md.push(`### Replay pipeline (\`npm run bench:replay\`${quick ? ' --quick' : ''})`);
+  md.push('');
+  md.push(`Generated by \`bench/replay.ts\` on ${machine.date}: ${machine.cpu}, ${machine.cores} cores, ${machine.memGb} GB, Node ${machine.node}. ` +
+    'Each figure is one run of the built CLI in a child process (`pairflow gen --days N --seed 1`, 4 markets, default config, W = 10 s); ' +
+    'peak memory is the child\'s maximum RSS. The machine is shared with other work, so figures carry noise of that kind.');
+  md.push('');
+  md.push('| days | demand | supply | log MB (gz) | online replay s | online peak MB | hindsight s | replay + hindsight wall s | peak MB | pairs priced | pairs solved | pricing rounds | online cost | hindsight cost | ratio |');
+  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+  for (const r of sizes) {
+    md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${f1(r.logMb)} | ${s1(r.onlineMs)} | ${f1(r.onlineRssMb)} | ${s1(r.hindsightMs)} | ${s1(r.replayWallMs)} | ${f1(r.replayRssMb)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${r.pricingRounds} | ${f2(r.onlineCost)} | ${f2(r.hindsightCost)} | ${f3(r.onlineCost / r.hindsightCost)} |`);
+  }
+  md.push('');
+  md.push('"online replay s" is the engine loop alone (`timings.onlineMs`, log parsing excluded); "hindsight s" is the exact optimum\'s wall time while the online replay runs alongside on the same two cores; "replay + hindsight wall s" is the whole `pairflow replay` process, parsing included.');
+  md.push('');
+  const w = last.warm;
+  const c = largest.cold;
+  md.push(`Epoch solves, ${last.days} day(s), W = 10 s: warm ${int(w.count)} solves, mean ${f3(w.meanMs)} ms, p95 ${f3(w.p95Ms)} ms, total ${s1(w.totalMs)} s (online loop ${s1(last.onlineMs)} s); ` +
+    `cold (\`--no-warm\`) ${int(c.count)} solves, mean ${f3(c.meanMs)} ms, p95 ${f3(c.p95Ms)} ms, total ${s1(c.totalMs)} s (online loop ${s1(largest.coldOnlineMs)} s).`);
+  md.push('');
+  const sw = largest.sweep;
+  md.push(`Sweep, ${last.days} day(s), windows ${sw.windows}, ${sw.threads} worker threads, bootstrap ${quick ? 100 : 1000} resamples: ${s1(sw.wallMs)} s wall ` +
+    `(hindsight alone ${s1(sw.hindsightMs)} s, windows ${s1(sw.windowsMs)} s), peak ${f1(sw.rssMb)} MB; best window ${sw.best / 1000} s.`);
+  md.push('');
+  if (!quick) {
+    const t = sizes.find((r) => r.days === 7) ?? last;
+    const ok = (v: number | null, limit: number): string => (v === null ? 'not measured' : v <= limit ? 'met' : 'MISSED');
+    md.push(`Targets (${t.days} days): replay at W = 10 s ≤ 60 s — ${s1(t.onlineWallMs)} s for the whole process (${ok(t.onlineWallMs, 60_000)}); ` +
+      `exact hindsight ≤ 60 s — ${s1(sw.hindsightMs)} s alone (${ok(sw.hindsightMs, 60_000)}); six-window sweep ≤ 4 min — ${s1(sw.wallMs)} s (${ok(sw.wallMs, 240_000)}); ` +
+      `peak memory ≤ 2 GB — ${f1(Math.max(t.replayRssMb ?? 0, sw.rssMb ?? 0))} MB (${ok(Math.max(t.replayRssMb ?? 0, sw.rssMb ?? 0), 2048)}).`);
+    md.push('');
+  }
+  md.push(END);
+  const markdown = md.join('\n');
+  if (opts.write ?? true) writeSection(markdown);
+  return { machine, quick, sizes, largest, markdown };
+}
+
+/** Replaces the bench:replay section of docs/benchmarks.md (creating the file or the section). */
+export function writeSection(markdown: string, doc = DOC): void {
+  let text = existsSync(doc) ? readFileSync(doc, 'utf8') : '# Benchmarks\n\nTables below are written by the benchmarks themselves (`npm run bench:*`); nobody types them in.\n';
+  const a = text.indexOf(START);
+  const b = text.indexOf(END);
+  if (a >= 0 && b > a) text = text.slice(0, a) + markdown + text.slice(b + END.length);
+  else text = `${text.trimEnd()}\n\n${markdown}\n`;
+  writeFileSync(doc, text);
+}
+
+const isMain = process.argv[1] !== undefined && fileURLToPath(import.meta.url) === process.argv[1];
+if (isMain) {
+  const args = process.argv.slice(2);
+  const result = runReplayBench({ quick: args.includes('--quick'), write: !args.includes('--no-write') });
+  process.stdout.write(`${result.markdown}\n`);
+}
