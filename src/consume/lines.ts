@@ -49,6 +49,7 @@ export async function* splitLines(chunks: AsyncIterable<Buffer>, maxBytes: numbe
   function keep(piece: Buffer): void {
     if (piece.length === 0) return;
     if (overlong) {
+      if (head.length < HEAD_BYTES) head = Buffer.concat([head, piece.subarray(0, HEAD_BYTES - head.length)]);
       partBytes += piece.length;
       return;
     }
@@ -67,7 +68,7 @@ export async function* splitLines(chunks: AsyncIterable<Buffer>, maxBytes: numbe
       let nl = chunk.indexOf(0x0a, start);
       while (nl !== -1) {
         if (overlong) {
-          partBytes += nl - start;
+          keep(chunk.subarray(start, nl));
           yield take(Buffer.alloc(0));
         } else if (partBytes + (nl - start) > maxBytes) {
           keep(chunk.subarray(start, nl));

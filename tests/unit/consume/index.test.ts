@@ -1,0 +1,167 @@
+import { createHash } from 'node:crypto';
+import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { gzipSync } from 'node:zlib';
+import { afterAll, describe, expect, it } from 'vitest';
+import { formatReject, loadLog, logFormatOf, readLogFile, type LogItem } from '../../../src/consume/index.js';
+import { toEventRecord } from '../../../src/consume/schema.js';
+import type { PairflowEvent } from '../../../src/model.js';
+import { writeAvro } from './avro-files.js';
+
+const dir = mkdtempSync(join(tmpdir(), 'pairflow-consume-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+const T0 = 1_772_409_600_000; // 2026-03-02T00:00:00Z
+const sup = (id: string, t: number): PairflowEvent => ({ type: 'supply', id, market: 'm', t, until: null, lat: 46.5, lon: -31.25 });
+const dem = (id: string, t: number): PairflowEvent => ({ type: 'demand', id, market: 'm', t, until: null, lat: 46.51, lon: -31.2 });
+
+async function items(path: string, seqStart?: number): Promise<LogItem[]> {
+  const out: LogItem[] = [];
+  for await (const it of readLogFile(path, { metric: 'haversine', ...(seqStart === undefined ? {} : { seqStart }) })) out.push(it);
+  return out;
+}
+
+function write(name: string, content: string | Buffer): string {
+  const path = join(dir, name);
+  writeFileSync(path, content);
+  return path;
+}
+
+const mixed = [
+  JSON.stringify(sup('s1', T0 + 5000)),
+  '',
+  '   ',
+  '{"type":"demand","id":"d1","market":"m","t":"2026-03-02T00:00:01Z","lat":46.5,"lon":-31.25}',
+  '{"type":"demand","id":"d2","market":"m","t":1,"lat":95,"lon":0}',
+  'not json',
+  '{"type":"withdraw","id":"d1","market":"m","t":1772409603000,"side":"demand"}',
+].join('\n');
+
+describe('readLogFile()', () => {
+  it('streams JSON Lines as events and rejects in file order with 1-based lines, skipping blank lines', async () => {
+    const got = await items(write('mixed.jsonl', `${mixed}\n`), 10);
+    expect(got.map((it) => (it.kind === 'event' ? `e${it.ev.pos.line}:${it.ev.seq}` : `r${it.reject.pos.line}`))).toEqual(['e1:10', 'e4:11', 'r5', 'r6', 'e7:12']);
+    const r5 = got[2]!;
+    expect(r5.kind === 'reject' && r5.reject.reason).toMatch(/field 'lat'/);
+    expect(r5.kind === 'reject' && r5.reject.raw).toBe('{"type":"demand","id":"d2","market":"m","t":1,"lat":95,"lon":0}');
+    const e4 = got[1]!;
+    expect(e4.kind === 'event' && e4.ev.event.t).toBe(T0 + 1000);
+  });
+
+  it('reads a .jsonl.gz file to the same items as the plain file, and CRLF the same as LF', async () => {
+    const plain = await items(write('a.jsonl', mixed));
+    const gz = await items(write('a.jsonl.gz', gzipSync(mixed.replaceAll('\n', '\r\n'))));
+    const strip = (xs: LogItem[]): unknown[] => xs.map((it) => (it.kind === 'event' ? { e: it.ev.event, l: it.ev.pos.line } : { r: it.reject.reason, l: it.reject.pos.line }));
+    expect(strip(gz)).toEqual(strip(plain));
+  });
+
+  it('ends a truncated gzip file with a reject after the lines read before the damage', async () => {
+    const lines = Array.from({ length: 3000 }, (_, i) => JSON.stringify(sup(`s${i}`, T0 + i)));
+    const full = gzipSync(lines.join('\n'));
+    const got = await items(write('cut.jsonl.gz', full.subarray(0, Math.floor(full.length * 0.6))));
+    const rejects = got.filter((it) => it.kind === 'reject');
+    const events = got.filter((it) => it.kind === 'event');
+    expect(events.length).toBeGreaterThan(100);
+    expect(events.length).toBeLessThan(3000);
+    // The last reject reports the damage; a cut-off last line may be one reject before it.
+    expect(rejects.length).toBeGreaterThanOrEqual(1);
+    expect(rejects.length).toBeLessThanOrEqual(2);
+    const last = got[got.length - 1]!;
+    expect(last.kind === 'reject' && last.reject.reason).toMatch(/gzip/);
+    // Every event kept is exactly the line it came from.
+    for (const it of events) if (it.kind === 'event') expect(JSON.stringify(it.ev.event)).toBe(lines[it.ev.pos.line - 1]);
+  });
+
+  it('rejects a .jsonl.gz file that is not gzip at all, without throwing', async () => {
+    const got = await items(write('fake.jsonl.gz', 'just text\n'));
+    expect(got).toHaveLength(1);
+    expect(got[0]!.kind === 'reject' && got[0]!.reject.pos.line).toBe(1);
+  });
+
+  it('rejects a line that is not UTF-8 and a line over 1 MiB, and goes on', async () => {
+    const bad = Buffer.concat([Buffer.from([0xff, 0xfe, 0x7b, 0x0a]), Buffer.from(`${'x'.repeat((1 << 20) + 10)}\n`), Buffer.from(JSON.stringify(dem('d', T0)))]);
+    const got = await items(write('bytes.jsonl', bad));
+    expect(got.map((it) => it.kind)).toEqual(['reject', 'reject', 'event']);
+    expect(got[0]!.kind === 'reject' && got[0]!.reject.reason).toMatch(/UTF-8/);
+    expect(got[1]!.kind === 'reject' && got[1]!.reject.raw.length).toBe(2048);
+  });
+
+  it('reads an Avro file to the same events as the JSON Lines file of the same events', async () => {
+    const evs: PairflowEvent[] = [sup('s1', T0), dem('d1', T0 + 1), { type: 'withdraw', id: 'd1', market: 'm', t: T0 + 2, side: 'demand' }, { ...sup('s2', T0 + 3), has: ['cold-bag'], until: T0 + 60_000 }];
+    const avroPath = join(dir, 'same.avro');
+    await writeAvro(avroPath, [...evs.map(toEventRecord), { ...toEventRecord(dem('d9', T0)), type: 'order' }]);
+    const got = await items(avroPath);
+    expect(got.flatMap((it) => (it.kind === 'event' ? [it.ev.event] : []))).toEqual(evs);
+    const rej = got.find((it) => it.kind === 'reject');
+    expect(rej?.kind === 'reject' && rej.reject.pos).toEqual({ file: avroPath, line: 5, block: 0, record: 4 });
+  });
+
+  it('sets input with size, sha256 and line count once iterated', async () => {
+    const path = write('hash.jsonl.gz', gzipSync(`${mixed}\n`));
+    const reader = readLogFile(path, { metric: 'haversine' });
+    expect(reader.input).toBeNull();
+    for await (const _ of reader) void _;
+    const bytes = readFileSync(path);
+    // Reference: node:crypto over the file read whole.
+    expect(reader.input).toEqual({ file: path, bytes: bytes.length, sha256: createHash('sha256').update(bytes).digest('hex'), lines: 7 });
+  });
+
+  it('throws PAIRFLOW_ERR_INPUT_NOT_FOUND for a missing file or a directory, and PAIRFLOW_ERR_INPUT_UNSUPPORTED for an unknown extension', async () => {
+    await expect(items(join(dir, 'nope.jsonl'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_NOT_FOUND' });
+    mkdirSync(join(dir, 'd.jsonl'), { recursive: true });
+    await expect(items(join(dir, 'd.jsonl'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_NOT_FOUND' });
+    await expect(items(write('x.csv', 'a,b\n'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_UNSUPPORTED' });
+  });
+});
+
+describe('logFormatOf()', () => {
+  it('chooses the format by extension, case-insensitively', () => {
+    expect(logFormatOf('a/b.JSONL')).toBe('jsonl');
+    expect(logFormatOf('x.jsonl.gz')).toBe('jsonl.gz');
+    expect(logFormatOf('x.Avro')).toBe('avro');
+    expect(() => logFormatOf('x.gz')).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_INPUT_UNSUPPORTED' }));
+  });
+});
+
+describe('loadLog()', () => {
+  it('sorts events by t, ties in file order then seq, and keeps rejects in input order', async () => {
+    const a = write('la.jsonl', [JSON.stringify(sup('a1', T0 + 30)), 'bad-a', JSON.stringify(sup('a2', T0 + 10)), JSON.stringify(dem('a3', T0 + 10))].join('\n'));
+    const b = write('lb.jsonl', [JSON.stringify(dem('b1', T0 + 10)), JSON.stringify(dem('b2', T0)), 'bad-b'].join('\n'));
+    const seen: number[] = [];
+    const { events, rejects, inputs } = await loadLog([a, b], { metric: 'haversine', onReject: (r) => seen.push(r.pos.line) });
+    expect(events.map((e) => e.event.id)).toEqual(['b2', 'a2', 'a3', 'b1', 'a1']);
+    expect(events.map((e) => e.seq)).toEqual([4, 1, 2, 3, 0]);
+    expect(rejects.map((r) => `${r.pos.file === a ? 'a' : 'b'}:${r.pos.line}`)).toEqual(['a:2', 'b:3']);
+    expect(seen).toEqual([2, 3]);
+    expect(inputs.map((i) => [i.file, i.lines])).toEqual([[a, 4], [b, 3]]);
+  });
+
+  it('with strict, throws PAIRFLOW_ERR_INPUT_REJECT naming the file and line of the first reject', async () => {
+    const a = write('strict.jsonl', [JSON.stringify(sup('a1', T0)), '{"type":"supply"}', 'bad'].join('\n'));
+    const err = await loadLog([a], { metric: 'haversine', strict: true }).catch((e: unknown) => e);
+    expect(err).toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_REJECT', params: { file: a, line: 2 } });
+  });
+
+  it('checks every path before reading any', async () => {
+    const a = write('first.jsonl', JSON.stringify(sup('a1', T0)));
+    await expect(loadLog([a, join(dir, 'missing.avro')], { metric: 'haversine' })).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_NOT_FOUND' });
+    await expect(loadLog([a, join(dir, 'x.txt')], { metric: 'haversine' })).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_UNSUPPORTED' });
+  });
+
+  it('applies the metric: euclidean logs need x/y', async () => {
+    const a = write('xy.jsonl', ['{"type":"supply","id":"s","market":"m","t":5,"x":1,"y":2}', JSON.stringify(sup('s2', T0))].join('\n'));
+    const eu = await loadLog([a], { metric: 'euclidean' });
+    expect(eu.events.map((e) => e.event.id)).toEqual(['s']);
+    expect(eu.rejects.map((r) => r.pos.line)).toEqual([2]);
+  });
+});
+
+describe('formatReject()', () => {
+  it('renders one JSON object per reject with the position, reason and raw text', () => {
+    const line = formatReject({ pos: { file: 'f.avro', line: 3, block: 1, record: 0 }, reason: 'why', raw: '{"a":1}' });
+    expect(JSON.parse(line)).toEqual({ file: 'f.avro', line: 3, block: 1, record: 0, reason: 'why', raw: '{"a":1}' });
+    expect(line).not.toContain('\n');
+    expect(JSON.parse(formatReject({ pos: { file: 'f.jsonl', line: 9 }, reason: 'r', raw: 'x\ny' }))).toEqual({ file: 'f.jsonl', line: 9, reason: 'r', raw: 'x\ny' });
+  });
+});
