@@ -83,7 +83,7 @@ describe('validateEvent()', () => {
     const xy = validateEvent({ ...noLatLon, x: 3.5, y: -2 }, 'euclidean');
     expect(xy).toEqual({ ok: true, event: { type: 'supply', id: 's1', market: 'north', t: supply.t, until: null, x: 3.5, y: -2 } });
     // Euclidean x/y have no range, but must be finite.
-    expect(reasonOf({ ...noLatLon, x: 1e400, y: 0 }, 'euclidean')).toMatch(/field 'x'/);
+    expect(reasonOf({ ...noLatLon, x: Number('1e400'), y: 0 }, 'euclidean')).toMatch(/field 'x'/);
   });
 
   it('rejects has/needs that are not arrays of strings', () => {
