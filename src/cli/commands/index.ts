@@ -1,11 +1,15 @@
 import type { Command } from 'commander';
 import { registerGen } from './gen.js';
+import { registerReplay } from './replay.js';
 import { registerSolve } from './solve.js';
+import { registerSweep } from './sweep.js';
 
 /** A subcommand registers itself on the program. Add one line per command below. */
 export type RegisterCommand = (program: Command) => void;
 
 export const COMMANDS: RegisterCommand[] = [
   registerGen,
+  registerReplay,
   registerSolve,
+  registerSweep,
 ];

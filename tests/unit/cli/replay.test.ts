@@ -1,0 +1,123 @@
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { toJsonLine } from '../../../src/consume/index.js';
+import { generateEvents } from '../../../src/replay/gen.js';
+
+// The CLI is tested as users run it: the built bin (npm test builds first).
+const bin = new URL('../../../bin/pairflow.js', import.meta.url).pathname;
+const run = (args: string[]) => spawnSync(process.execPath, [bin, ...args], { encoding: 'utf8' });
+
+const dir = mkdtempSync(join(tmpdir(), 'pairflow-cli-replay-'));
+const good = join(dir, 'day.jsonl');
+writeFileSync(good, [...generateEvents({ days: 1, seed: 12, scale: 0.005 })].map(toJsonLine).join('\n') + '\n');
+const withBad = join(dir, 'bad.jsonl');
+writeFileSync(withBad, readFileSync(good, 'utf8').split('\n').slice(0, 40).join('\n') + '\n{"type":"demand","id":"","market":"m","t":1}\n');
+
+describe('pairflow replay', () => {
+  it('--json prints exactly one JSON object with the SPEC §6 keys on stdout', () => {
+    const r = run(['replay', good, '--window', '5s', '--json', '--threads', '1']);
+    expect(r.status, r.stderr).toBe(0);
+    const lines = r.stdout.trimEnd().split('\n');
+    expect(lines).toHaveLength(1);
+    const s = JSON.parse(lines[0]!) as Record<string, unknown>;
+    for (const k of ['windowMs', 'demandUnits', 'supplyUnits', 'online', 'hindsight', 'regret', 'ratio', 'rejects']) expect(s, k).toHaveProperty(k);
+    expect(s.windowMs).toBe(5000);
+    expect(Object.keys(s.online as object)).toEqual(expect.arrayContaining(['cost', 'matched', 'abandoned', 'meanWaitMin', 'p95WaitMin']));
+    expect(Object.keys(s.hindsight as object)).toEqual(expect.arrayContaining(['cost', 'matched', 'abandoned']));
+  });
+
+  it('windows accept 5000, 5s and 1.5m; --window overrides the config file', () => {
+    const cfg = join(dir, 'cfg.json');
+    writeFileSync(cfg, '{"windowMs": 20000}');
+    const ms = (args: string[]): number => (JSON.parse(run(['replay', good, '--json', '--no-hindsight', ...args]).stdout) as { windowMs: number }).windowMs;
+    expect(ms(['--window', '5000'])).toBe(5000);
+    expect(ms(['--window', '1.5m'])).toBe(90_000);
+    expect(ms(['--config', cfg])).toBe(20_000);
+    expect(ms(['--config', cfg, '--window', '5s'])).toBe(5000);
+  });
+
+  it('prints a human summary by default', () => {
+    const r = run(['replay', good, '--threads', '1']);
+    expect(r.status, r.stderr).toBe(0);
+    for (const word of ['online', 'hindsight', 'regret', 'ratio', 'rejects', 'p95 wait']) expect(r.stdout).toContain(word);
+  });
+
+  it('exit 2 for usage and input errors, with one line naming the problem on stderr', () => {
+    const missing = run(['replay', join(dir, 'nope.jsonl'), '--json']);
+    expect(missing.status).toBe(2);
+    expect(missing.stdout).toBe('');
+    expect(missing.stderr).toContain('PAIRFLOW_ERR_INPUT_NOT_FOUND');
+    const badWindow = run(['replay', good, '--window', 'soon']);
+    expect(badWindow.status).toBe(2);
+    expect(badWindow.stderr).toContain('PAIRFLOW_ERR_CLI_OPTION');
+    const cfg = join(dir, 'bad-config.json');
+    writeFileSync(cfg, '{"maxTravelMin": "far"}');
+    const badConfig = run(['replay', good, '--config', cfg]);
+    expect(badConfig.status).toBe(2);
+    expect(badConfig.stderr).toContain('PAIRFLOW_ERR_CONFIG_INVALID');
+    expect(badConfig.stderr).toContain(cfg);
+    expect(badConfig.stderr).toContain('maxTravelMin');
+  });
+
+  it('--strict stops at the first reject with exit 2 and its file:line; without it the reject is counted', () => {
+    const strict = run(['replay', withBad, '--strict', '--json']);
+    expect(strict.status).toBe(2);
+    expect(strict.stdout).toBe('');
+    expect(strict.stderr).toContain('PAIRFLOW_ERR_INPUT_REJECT');
+    expect(strict.stderr).toContain(`${withBad}:41`);
+    const lax = run(['replay', withBad, '--json', '--no-hindsight']);
+    expect(lax.status, lax.stderr).toBe(0);
+    expect((JSON.parse(lax.stdout) as { rejects: number }).rejects).toBe(1);
+    expect(lax.stderr).toContain(`${withBad}:41`);
+  });
+
+  it('exit 1 when the run directory cannot be written', () => {
+    const file = join(dir, 'plain-file');
+    writeFileSync(file, 'x');
+    const r = run(['replay', good, '--out', join(file, 'run'), '--no-hindsight']);
+    expect(r.status).toBe(1);
+    expect(r.stderr).toContain('PAIRFLOW_ERR_OUTPUT_WRITE');
+  });
+
+  it('--out writes the run directory and --no-warm solves every epoch cold', () => {
+    const out = join(dir, 'run');
+    const r = run(['replay', good, '--out', out, '--json', '--no-warm', '--no-hindsight']);
+    expect(r.status, r.stderr).toBe(0);
+    const s = JSON.parse(r.stdout) as { warm: boolean; epochs: { warm: number; cold: number } };
+    expect(s.warm).toBe(false);
+    expect(s.epochs.warm).toBe(0);
+    expect(JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8'))).toEqual(s);
+    const manifest = JSON.parse(readFileSync(join(out, 'manifest.json'), 'utf8')) as { command: string[] };
+    expect(manifest.command).toEqual(['pairflow', 'replay', good, '--out', out, '--json', '--no-warm', '--no-hindsight']);
+  });
+});
+
+describe('pairflow sweep', () => {
+  it('--json prints one object with every window, the best one, and bootstrap intervals; --csv writes the table', () => {
+    const csv = join(dir, 'sweep.csv');
+    const r = run(['sweep', good, '--windows', '2s,10s,1m', '--json', '--threads', '1', '--bootstrap', '200', '--seed', '3', '--csv', csv]);
+    expect(r.status, r.stderr).toBe(0);
+    const lines = r.stdout.trimEnd().split('\n');
+    expect(lines).toHaveLength(1);
+    const s = JSON.parse(lines[0]!) as { windows: { windowMs: number; online: { cost: number } }[]; best: { windowMs: number }; bootstrap: { resamples: number; seed: number } };
+    expect(s.windows.map((w) => w.windowMs)).toEqual([2000, 10_000, 60_000]);
+    expect(s.bootstrap).toMatchObject({ resamples: 200, seed: 3 });
+    const min = Math.min(...s.windows.map((w) => w.online.cost));
+    expect(s.windows.find((w) => w.windowMs === s.best.windowMs)!.online.cost).toBe(min);
+    const rows = readFileSync(csv, 'utf8').split('\r\n').filter((l) => l !== '');
+    expect(rows).toHaveLength(4);
+    expect(rows[0]!.startsWith('window_ms,online_cost,')).toBe(true);
+  });
+
+  it('prints a table by default and rejects a bad --windows list with exit 2', () => {
+    const r = run(['sweep', good, '--windows', '5s,30s', '--threads', '1', '--bootstrap', '50']);
+    expect(r.status, r.stderr).toBe(0);
+    expect(r.stdout).toContain('best window');
+    const bad = run(['sweep', good, '--windows', '5s,often']);
+    expect(bad.status).toBe(2);
+    expect(bad.stderr).toContain('PAIRFLOW_ERR_CLI_OPTION');
+  });
+});

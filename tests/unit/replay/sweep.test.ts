@@ -1,0 +1,91 @@
+import { existsSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { describe, expect, it } from 'vitest';
+import { loadLog, toJsonLine } from '../../../src/consume/index.js';
+import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
+import { generateEvents } from '../../../src/replay/gen.js';
+import { solveHindsight } from '../../../src/replay/hindsight.js';
+import { runReplay } from '../../../src/replay/run.js';
+import { runSweep, sweepLoaded, sweepWorkerUrl, type SweepResult } from '../../../src/replay/sweep.js';
+
+const dir = mkdtempSync(join(tmpdir(), 'pairflow-sweep-'));
+
+function writeLog(name: string, days: number, seed: number, scale: number): string {
+  const path = join(dir, name);
+  writeFileSync(path, [...generateEvents({ days, seed, scale })].map(toJsonLine).join('\n') + '\n');
+  return path;
+}
+
+const config: PairflowConfig = { ...DEFAULT_CONFIG };
+const windows = [2000, 10_000, 60_000];
+
+function withoutTimings(r: SweepResult): unknown {
+  return { ...r, timings: null, windows: r.windows.map((w) => ({ ...w, timings: null })) };
+}
+
+describe('runSweep()', () => {
+  const week = writeLog('week.jsonl', 3, 21, 0.004);
+
+  it('gives each window the figures of a separate runReplay, sharing one hindsight optimum', async () => {
+    const r = await runSweep([week], config, { windows, threads: 1, bootstrap: 200, seed: 4 });
+    expect(r.windows.map((w) => w.windowMs)).toEqual(windows);
+    for (const w of r.windows) {
+      const single = await runReplay([week], { ...config, windowMs: w.windowMs }, { threads: 0 });
+      expect(w.online, `W ${w.windowMs}`).toEqual(single.online);
+      expect(w.regret, `W ${w.windowMs}`).toBe(single.regret);
+      expect(w.ratio, `W ${w.windowMs}`).toBe(single.ratio);
+      expect(r.hindsight).toEqual(single.hindsight);
+      expect(r.demandUnits).toBe(single.demandUnits);
+    }
+    const best = r.windows.reduce((b, w) => (w.online.cost < b.online.cost ? w : b));
+    expect(r.best.windowMs).toBe(best.windowMs);
+  });
+
+  it('bootstraps over days for a multi-day log: intervals contain the point estimates, the same seed gives the same result', async () => {
+    const a = await runSweep([week], config, { windows, threads: 1, bootstrap: 300, seed: 9 });
+    const b = await runSweep([week], config, { windows, threads: 1, bootstrap: 300, seed: 9 });
+    expect(withoutTimings(b)).toEqual(withoutTimings(a));
+    expect(a.bootstrap).toMatchObject({ resamples: 300, seed: 9, unit: 'day', buckets: 3 });
+    for (const w of a.windows) {
+      expect(w.interval!.cost[0], `W ${w.windowMs}`).toBeLessThanOrEqual(w.online.cost);
+      expect(w.interval!.cost[1], `W ${w.windowMs}`).toBeGreaterThanOrEqual(w.online.cost);
+      expect(w.interval!.regret[0]).toBeLessThanOrEqual(w.regret + 1e-6);
+      expect(w.interval!.regret[1]).toBeGreaterThanOrEqual(w.regret - 1e-6);
+    }
+    expect(a.windows.reduce((s, w) => s + w.bestShare!, 0)).toBeCloseTo(1, 12);
+    const c = await runSweep([week], config, { windows, threads: 1, bootstrap: 300, seed: 10 });
+    expect(c.windows.map((w) => w.interval)).not.toEqual(a.windows.map((w) => w.interval));
+  });
+
+  it('resamples hours for a log shorter than two days', async () => {
+    const day = writeLog('day.jsonl', 1, 22, 0.01);
+    const r = await runSweep([day], config, { windows: [5000, 30_000], threads: 1, bootstrap: 100 });
+    expect(r.bootstrap?.unit).toBe('hour');
+    expect(r.bootstrap?.buckets).toBe(24);
+  });
+
+  it('with a shared hindsight result and no bootstrap it skips both', async () => {
+    const loaded = await loadLog([week], { metric: config.metric });
+    const h = await solveHindsight(loaded.events, config, { threads: 0 });
+    const r = await sweepLoaded(loaded, config, { windows: [5000], threads: 1, bootstrap: 0, hindsight: h });
+    expect(r.bootstrap).toBeNull();
+    expect(r.windows[0]!.interval).toBeNull();
+    expect(r.timings.hindsightMs).toBeNull();
+    expect(r.hindsight.cost).toBe(h.cost);
+  });
+
+  const haveWorker = existsSync(fileURLToPath(sweepWorkerUrl()));
+  it.skipIf(!haveWorker && process.env.CI !== 'true')('worker threads give the same result as one thread (needs the build in dist/)', async () => {
+    const one = await runSweep([week], config, { windows, threads: 1, bootstrap: 200, seed: 2 });
+    const two = await runSweep([week], config, { windows, threads: 2, bootstrap: 200, seed: 2 });
+    expect(two.timings.threads).toBe(2);
+    expect(withoutTimings(two)).toEqual({ ...(withoutTimings(one) as object), timings: null });
+  });
+
+  it('rejects an empty window list', async () => {
+    const loaded = await loadLog([week], { metric: config.metric });
+    await expect(sweepLoaded(loaded, config, { windows: [], threads: 1 })).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_CLI_USAGE' });
+  });
+});
