@@ -81,7 +81,7 @@ const haveTimeV = ((): boolean => {
 })();
 
 /** Runs `pairflow ARGS` in a child; the JSON on its stdout, wall time, and peak RSS. */
-export function runChild(args: string[]): ChildRun {
+export function runChild(args: string[], parseJson = true): ChildRun {
   const t0 = performance.now();
   const cmd = haveTimeV ? '/usr/bin/time' : process.execPath;
   const argv = haveTimeV ? ['-v', process.execPath, BIN, ...args] : [BIN, ...args];
@@ -90,7 +90,7 @@ export function runChild(args: string[]): ChildRun {
   if (r.status !== 0) throw new Error(`pairflow ${args.join(' ')} exited ${r.status}: ${r.stderr.slice(-2000)}`);
   const rss = /Maximum resident set size \(kbytes\): (\d+)/.exec(r.stderr);
   const lines = r.stdout.trimEnd().split('\n');
-  return { wallMs, peakRssMb: rss ? Number(rss[1]) / 1024 : null, json: lines[0] ? (JSON.parse(lines[lines.length - 1]!) as Record<string, unknown>) : {} };
+  return { wallMs, peakRssMb: rss ? Number(rss[1]) / 1024 : null, json: parseJson && lines[0] ? (JSON.parse(lines[lines.length - 1]!) as Record<string, unknown>) : {} };
 }
 
 const get = (o: unknown, path: string): unknown => path.split('.').reduce<unknown>((v, k) => (v as Record<string, unknown> | null)?.[k], o);
@@ -98,7 +98,7 @@ const num = (o: unknown, path: string): number => Number(get(o, path));
 
 function ensureLog(outDir: string, days: number, scale: number): string {
   const file = join(outDir, `city-${days}d-s${scale}.jsonl.gz`);
-  if (!existsSync(file)) runChild(['gen', '--days', String(days), '--seed', '1', '--scale', String(scale), '--out', file]);
+  if (!existsSync(file)) runChild(['gen', '--days', String(days), '--seed', '1', '--scale', String(scale), '--out', file], false);
   return file;
 }
 

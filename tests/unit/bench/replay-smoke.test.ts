@@ -1,0 +1,35 @@
+import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { runReplayBench, writeSection } from '../../../bench/replay.js';
+
+// The bench runs the built CLI (npm test builds first), so it cannot rot unnoticed.
+const built = existsSync(new URL('../../../dist/cli/main.js', import.meta.url));
+
+describe('bench/replay.ts', () => {
+  it.skipIf(!built && process.env.CI !== 'true')('--quick --no-write runs every step and reports consistent figures', () => {
+    const outDir = mkdtempSync(join(tmpdir(), 'pairflow-bench-'));
+    const r = runReplayBench({ quick: true, write: false, outDir, log: () => {} });
+    expect(r.sizes).toHaveLength(1);
+    const row = r.sizes[0]!;
+    expect(row.demandUnits).toBeGreaterThan(0);
+    expect(row.pairsPriced).toBeGreaterThanOrEqual(row.pairsSolved);
+    expect(row.hindsightCost).toBeLessThanOrEqual(row.onlineCost);
+    expect(r.largest.sweep.best === 5000 || r.largest.sweep.best === 30_000).toBe(true);
+    expect(r.markdown.startsWith('<!-- bench:replay:start -->')).toBe(true);
+    expect(r.markdown.endsWith('<!-- bench:replay:end -->')).toBe(true);
+  });
+
+  it('writeSection() replaces only its own marked section', () => {
+    const doc = join(mkdtempSync(join(tmpdir(), 'pairflow-bench-doc-')), 'benchmarks.md');
+    writeFileSync(doc, '# Benchmarks\n\n<!-- bench:solver:start -->\nsolver table\n<!-- bench:solver:end -->\n');
+    writeSection('<!-- bench:replay:start -->\nfirst\n<!-- bench:replay:end -->', doc);
+    writeSection('<!-- bench:replay:start -->\nsecond\n<!-- bench:replay:end -->', doc);
+    const text = readFileSync(doc, 'utf8');
+    expect(text).toContain('solver table');
+    expect(text).toContain('second');
+    expect(text).not.toContain('first');
+    expect(text.match(/bench:replay:start/g)).toHaveLength(1);
+  });
+});
