@@ -224,11 +224,15 @@ function growI32(a: Int32Array, n: number, fill = 0): Int32Array {
  * chance (`until < τ + W`) and R otherwise, and executes every pair (`commit: "all"`)
  * or only those with a unit at its last chance (`"due"`, the rest stay tentative).
  *
- * Epochs where nothing can change the optimum are skipped without a solve: no unit
- * joined, and no demand reached its last chance (for `"due"` also: no unit left and
- * no supply reached its last chance). Such an epoch's solution is the previous one,
- * because pair costs only grow with τ while deferral costs stay, so the pairs left
- * unexecuted stay unprofitable. An {@link EpochRecord} is written for every solve.
+ * Epochs where nothing executable can change are skipped without a solve: those
+ * where no unit joined and no unit reached its last chance (for `"all"`, only a
+ * demand's last chance counts, and only when P ≠ R). Under `"all"` the units left
+ * after a solve were unmatched in an optimum, and from one epoch to the next pair
+ * costs only grow while deferral costs stay, so they stay unmatched; units leaving
+ * cannot make a pair profitable either. Under `"due"` nothing executes unless a unit
+ * is at its last chance, which lasts exactly one epoch (τ ∈ (until − W, until]) and
+ * is itself a trigger. Ties aside, skipping therefore changes no executed pair. An
+ * {@link EpochRecord} is written for every solve.
  *
  * @example
  * const engine = new WindowEngine(config, sink);
@@ -496,7 +500,6 @@ export class WindowEngine {
   private leaveUnmatched(m: MarketState, id: number, tau: number): void {
     const o = this.ledger.occurrences[id]!;
     this.removeFromPool(m, o, ST_GONE);
-    if (this.due) m.dirty = true;
     this.emitExpiry(m, o, tau);
   }
 
