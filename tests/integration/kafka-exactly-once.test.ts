@@ -166,7 +166,13 @@ describe.skipIf(!BROKERS)(`Kafka round trips (broker ${BROKERS || 'none'}, seed 
     const rawView = (await collect(rawReader, output, untilSentinel)).map(({ message }) => serde.decode(message.value as Buffer));
     expect(rawView).toEqual([...events.map(transform), sentinel]);
 
-    const offsets = await admin.fetchOffsets({ groupId, topics: [input] });
+    // commit() returns once the coordinator has logged the decision; the marker on the
+    // offsets topic follows asynchronously, so wait (bounded) until some offset shows.
+    let offsets = await admin.fetchOffsets({ groupId, topics: [input] });
+    for (let i = 0; i < 100 && offsets[0]?.partitions[0]?.offset === '-1'; i++) {
+      await new Promise((r) => setTimeout(r, 100));
+      offsets = await admin.fetchOffsets({ groupId, topics: [input] });
+    }
     expect(offsets).toEqual([{ topic: input, partitions: [{ partition: 0, offset: String(committedCount), metadata: null }] }]);
 
     // A restarted member of the group resumes after the committed transaction: it gets the
