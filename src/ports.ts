@@ -16,6 +16,8 @@ export type SourceItem = { kind: 'event'; ev: SourcedEvent } | { kind: 'reject';
  * Kafka source yields records as they arrive (possibly late).
  */
 export interface EventSource {
+  /** How many items the source expects to deliver, when it knows (for progress). */
+  readonly expected?: number;
   /** Items in delivery order. The iterator ends when the input is exhausted. */
   items(): AsyncIterable<SourceItem>;
   /** Releases what the source holds (files, consumers). Safe to call twice. */

@@ -125,3 +125,20 @@ export async function openRunDir(dir: string, opts: TextFileWriterOptions = {}):
     },
   };
 }
+
+/**
+ * A sink that keeps only the rejects, as JSON Lines in `path`: what replay writes
+ * with `--rejects FILE` when there is no run directory.
+ */
+export function openRejectsFile(path: string, opts: TextFileWriterOptions = {}): OutputSink {
+  const w = new TextFileWriter(path, opts);
+  return {
+    assignment: () => {},
+    expiry: () => {},
+    epoch: () => {},
+    reject: (r) => w.write(rejectLine(r)),
+    get pressure() { return w.pressure; },
+    drain: () => w.drain(),
+    close: () => w.close(),
+  };
+}

@@ -8,9 +8,9 @@
  */
 import { basename } from 'node:path';
 import { loadLog } from '../consume/index.js';
-import { buildManifest, openRunDir, RUN_FILES, TextFileWriter, rejectLine, type RunDirSink } from '../emit/index.js';
+import { buildManifest, openRejectsFile, openRunDir, RUN_FILES, type RunDirSink } from '../emit/index.js';
 import type { PairflowConfig, Reject, SourcedEvent } from '../model.js';
-import { type AssignmentRecord, type EngineSink, type EpochRecord, type ExpiryRecord, type OutputSink } from '../ports.js';
+import type { AssignmentRecord, EngineSink, EpochRecord, EventSource, ExpiryRecord, OutputSink } from '../ports.js';
 import { WindowEngine, type EngineTotals } from '../window/engine.js';
 import { bucketOf, type BucketPlan } from './bootstrap.js';
 import { solveHindsight, type HindsightResult } from './hindsight.js';
@@ -141,12 +141,41 @@ class Collector implements EngineSink {
 const PRESSURE_CHECK_EVERY = 256;
 
 /**
+ * A file source over a loaded log: its rejects first (they were found while reading),
+ * then its events in event-time order, stable by file order. Live mode puts a Kafka
+ * source behind the same port.
+ */
+export function fileSource(loaded: { events: readonly SourcedEvent[]; rejects: readonly Reject[] }): EventSource {
+  return {
+    expected: loaded.events.length + loaded.rejects.length,
+    async *items() {
+      for (const reject of loaded.rejects) yield { kind: 'reject', reject };
+      for (const ev of loaded.events) yield { kind: 'event', ev };
+    },
+    close: async () => {},
+  };
+}
+
+/**
  * Replays loaded events (sorted by t, stable) through the window engine with
  * `config.windowMs`. The core of both `runReplay` and each sweep worker, so a sweep's
  * figures for a window equal a separate replay's.
  */
 export async function replayEvents(
   events: readonly SourcedEvent[],
+  config: PairflowConfig,
+  opts: ReplayEventsOptions = {},
+): Promise<OnlineRun> {
+  return replaySource(fileSource({ events, rejects: [] }), config, opts);
+}
+
+/**
+ * Drives the window engine from a source in delivery order — `advanceTo(t)` then
+ * `ingest` for each event, rejects to the sink — then `finish()`, awaiting the sink
+ * whenever it reports backpressure.
+ */
+export async function replaySource(
+  source: EventSource,
   config: PairflowConfig,
   opts: ReplayEventsOptions = {},
 ): Promise<OnlineRun> {
@@ -162,18 +191,25 @@ export async function replayEvents(
       }
     : collector;
   const engine = new WindowEngine(config, sink, { warm: opts.warm ?? true, now, verify: opts.verify ?? false });
-  const total = events.length;
+  const total = source.expected ?? 0;
   const progressEvery = Math.max(1, Math.floor(total / 200));
-  for (let i = 0; i < total; i++) {
-    const ev = events[i]!;
-    engine.advanceTo(ev.event.t);
-    engine.ingest(ev);
-    if (out && i % PRESSURE_CHECK_EVERY === 0 && out.pressure) await out.drain();
-    if (opts.onProgress && i % progressEvery === 0) opts.onProgress({ phase: 'online', done: i, total });
+  let i = 0;
+  try {
+    for await (const item of source.items()) {
+      if (item.kind === 'event') {
+        engine.advanceTo(item.ev.event.t);
+        engine.ingest(item.ev);
+      } else if (out) out.reject(item.reject);
+      if (out && i % PRESSURE_CHECK_EVERY === 0 && out.pressure) await out.drain();
+      if (opts.onProgress && i % progressEvery === 0) opts.onProgress({ phase: 'online', done: i, total });
+      i += 1;
+    }
+  } finally {
+    await source.close();
   }
   engine.finish();
   if (out && out.pressure) await out.drain();
-  opts.onProgress?.({ phase: 'online', done: total, total });
+  opts.onProgress?.({ phase: 'online', done: i, total: Math.max(i, total) });
 
   const totals = engine.totals();
   const waits = collector.waits.view();
@@ -295,13 +331,6 @@ export function buildSummary(args: {
   };
 }
 
-async function writeRejects(sink: { reject(r: Reject): void; pressure: boolean; drain(): Promise<void> }, rejects: readonly Reject[]): Promise<void> {
-  for (let i = 0; i < rejects.length; i++) {
-    sink.reject(rejects[i]!);
-    if (i % PRESSURE_CHECK_EVERY === 0 && sink.pressure) await sink.drain();
-  }
-}
-
 /**
  * Replays log files through the windowed online policy and compares with the
  * hindsight optimum (SPEC §3–4, §6).
@@ -311,20 +340,17 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
   const now = opts.now ?? defaultNow;
   const start = now();
   let runDir: RunDirSink | null = null;
-  let rejectsOut: TextFileWriter | null = null;
+  let sink: OutputSink | null = null;
   try {
-    if (opts.outDir !== undefined) runDir = await openRunDir(opts.outDir);
-    else if (opts.rejectsFile !== undefined) rejectsOut = new TextFileWriter(opts.rejectsFile);
+    if (opts.outDir !== undefined) sink = runDir = await openRunDir(opts.outDir);
+    else if (opts.rejectsFile !== undefined) sink = openRejectsFile(opts.rejectsFile);
     const loaded = await loadLog([...paths], { metric: config.metric, strict: opts.strict ?? false, onReject: opts.onReject });
     const loadMs = now() - start;
-    if (runDir) await writeRejects(runDir, loaded.rejects);
-    if (rejectsOut) {
-      const w = rejectsOut;
-      await writeRejects({ reject: (r) => w.write(rejectLine(r)), get pressure() { return w.pressure; }, drain: () => w.drain() }, loaded.rejects);
-    }
-    const summary = await replayLoaded(loaded, config, { ...opts, now, sink: runDir ?? undefined, loadMs, start });
+    const summary = await replayLoaded(loaded, config, { ...opts, now, ...(sink ? { sink } : {}), loadMs, start });
+    const closing = sink;
+    sink = null;
+    await closing?.close();
     if (runDir) {
-      await runDir.close();
       await runDir.writeJson(RUN_FILES.summary, summary);
       await runDir.writeJson(RUN_FILES.manifest, buildManifest({
         command: opts.command ?? ['runReplay', ...paths],
@@ -333,21 +359,15 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
         options: {
           warm: opts.warm ?? true,
           strict: opts.strict ?? false,
-          hindsight: opts.hindsight === false ? false : true,
+          hindsight: opts.hindsight !== false,
         },
         outputs: Object.values(RUN_FILES),
       }));
-      runDir = null;
-    }
-    if (rejectsOut) {
-      await rejectsOut.close();
-      rejectsOut = null;
     }
     return summary;
   } finally {
     // On failure, still close what was opened; the first error is the one reported.
-    if (runDir) await runDir.close().catch(() => {});
-    if (rejectsOut) await rejectsOut.close().catch(() => {});
+    if (sink) await sink.close().catch(() => {});
   }
 }
 
@@ -373,7 +393,7 @@ export async function replayLoaded(
   }
   // Without a handler now, a hindsight failure during the online replay would be "unhandled".
   hindsightPromise.catch(() => {});
-  const run = await replayEvents(loaded.events, config, {
+  const run = await replaySource(fileSource(loaded), config, {
     ...(opts.sink ? { sink: opts.sink } : {}),
     warm,
     now,

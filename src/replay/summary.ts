@@ -110,7 +110,7 @@ const fmtNum = (v: number | null | undefined, digits = 2): string =>
   v === null || v === undefined ? '–' : v.toLocaleString('en-US', { minimumFractionDigits: digits, maximumFractionDigits: digits });
 const fmtInt = (v: number | null | undefined): string => (v === null || v === undefined ? '–' : v.toLocaleString('en-US'));
 const fmtMs = (ms: number | null | undefined): string =>
-  ms === null || ms === undefined ? '–' : ms >= 1000 ? `${(ms / 1000).toFixed(2)} s` : `${ms.toFixed(1)} ms`;
+  ms === null || ms === undefined ? '–' : ms >= 1000 ? `${(ms / 1000).toFixed(2)} s` : ms >= 1 ? `${ms.toFixed(1)} ms` : `${ms.toFixed(3)} ms`;
 
 /** Renders rows of cells as a left/right aligned text table (first column left, the rest right). */
 export function textTable(rows: readonly (readonly string[])[]): string {
