@@ -80,6 +80,7 @@ export function createAvroSerde<T>(schema: avro.Schema): AvroSerde<T> {
   const header = Buffer.alloc(SINGLE_OBJECT_HEADER_BYTES);
   SINGLE_OBJECT_MARKER.copy(header, 0);
   header.writeBigUInt64LE(fingerprint, 2);
+  const isRecord = type.typeName === 'record';
   const schemaName = 'name' in type && typeof type.name === 'string' ? type.name : String(type.typeName);
 
   return {
@@ -112,8 +113,8 @@ export function createAvroSerde<T>(schema: avro.Schema): AvroSerde<T> {
         });
       }
       try {
-        const value = type.fromBuffer(buf.subarray(SINGLE_OBJECT_HEADER_BYTES)) as object;
-        return { ...value } as T;
+        const value: unknown = type.fromBuffer(buf.subarray(SINGLE_OBJECT_HEADER_BYTES));
+        return (isRecord ? { ...(value as object) } : value) as T;
       } catch (err) {
         throw pairflowError('PAIRFLOW_ERR_KAFKA_AVRO', { where, detail: `Avro body does not decode: ${(err as Error).message}` }, err);
       }
