@@ -62,6 +62,9 @@ export interface SizeRow {
   warm: { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
 }
 
+type Solves = { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
+type DueSolves = { warm: Solves; cold: Solves };
+
 export interface ReplayBenchResult {
   machine: { cpu: string; cores: number; memGb: number; node: string; date: string };
   quick: boolean;
@@ -70,6 +73,8 @@ export interface ReplayBenchResult {
     days: number;
     cold: { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
     coldOnlineMs: number;
+    /** commit "due": epoch solves of the warm run (split by whether the solver used the warm start) and of the cold run. */
+    due: { warm: DueSolves; cold: DueSolves; warmOnlineMs: number; coldOnlineMs: number; warmCost: number; coldCost: number };
     sweep: { windows: string; wallMs: number; rssMb: number | null; hindsightMs: number | null; windowsMs: number; threads: number; best: number };
   };
   markdown: string;
@@ -147,6 +152,12 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   const file = ensureLog(outDir, last.days, scale);
   log(`bench:replay: ${last.days} day(s): cold epoch solves`);
   const cold = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight', '--no-warm']);
+  // Warm starts pay off when tentative pairs survive between epochs: commit "due" (SPEC §3).
+  const dueConfig = join(outDir, 'commit-due.json');
+  writeFileSync(dueConfig, '{"commit": "due"}\n');
+  log(`bench:replay: ${last.days} day(s): commit "due", warm then cold`);
+  const dueWarm = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight', '--config', dueConfig]);
+  const dueCold = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight', '--config', dueConfig, '--no-warm']);
   const windows = quick ? '5s,30s' : '1s,2s,5s,10s,30s,60s';
   log(`bench:replay: ${last.days} day(s): sweep ${windows}`);
   const sweep = runChild(['sweep', file, '--windows', windows, '--json', '--bootstrap', quick ? '100' : '1000']);
@@ -162,6 +173,14 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
     days: last.days,
     cold: get(cold.json, 'timings.epochSolve.cold') as SizeRow['warm'],
     coldOnlineMs: num(cold.json, 'timings.onlineMs'),
+    due: {
+      warm: get(dueWarm.json, 'timings.epochSolve') as DueSolves,
+      cold: get(dueCold.json, 'timings.epochSolve') as DueSolves,
+      warmOnlineMs: num(dueWarm.json, 'timings.onlineMs'),
+      coldOnlineMs: num(dueCold.json, 'timings.onlineMs'),
+      warmCost: num(dueWarm.json, 'online.cost'),
+      coldCost: num(dueCold.json, 'online.cost'),
+    },
     sweep: {
       windows,
       wallMs: sweep.wallMs,
@@ -191,8 +210,21 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   md.push('');
   const w = last.warm;
   const c = largest.cold;
-  md.push(`Epoch solves, ${last.days} day(s), W = 10 s: warm ${int(w.count)} solves, mean ${f3(w.meanMs)} ms, p95 ${f3(w.p95Ms)} ms, total ${s1(w.totalMs)} s (online loop ${s1(last.onlineMs)} s); ` +
+  md.push(`Epoch solves, ${last.days} day(s), W = 10 s, commit "all" (the default): warm run ${int(w.count)} solves, mean ${f3(w.meanMs)} ms, p95 ${f3(w.p95Ms)} ms, total ${s1(w.totalMs)} s (online loop ${s1(last.onlineMs)} s); ` +
     `cold (\`--no-warm\`) ${int(c.count)} solves, mean ${f3(c.meanMs)} ms, p95 ${f3(c.p95Ms)} ms, total ${s1(c.totalMs)} s (online loop ${s1(largest.coldOnlineMs)} s).`);
+  md.push('');
+  const d = largest.due;
+  const both = (x: DueSolves): Solves => {
+    const count = x.warm.count + x.cold.count;
+    const totalMs = x.warm.totalMs + x.cold.totalMs;
+    return { count, totalMs, meanMs: count > 0 ? totalMs / count : null, p95Ms: null };
+  };
+  const dw = both(d.warm);
+  const dc = both(d.cold);
+  md.push(`With \`commit: "due"\` (tentative pairs re-optimised each epoch, the previous solution as warm start): warm run ${int(dw.count)} solves ` +
+    `(${int(d.warm.warm.count)} used the warm start, mean ${f3(d.warm.warm.meanMs)} ms; ${int(d.warm.cold.count)} had nothing to start from, mean ${f3(d.warm.cold.meanMs)} ms), ` +
+    `total ${s1(dw.totalMs)} s, online loop ${s1(d.warmOnlineMs)} s; cold run ${int(dc.count)} solves, mean ${f3(dc.meanMs)} ms, total ${s1(dc.totalMs)} s, online loop ${s1(d.coldOnlineMs)} s ` +
+    `(cold/warm solve time ${f2(dc.totalMs / dw.totalMs)}×; online cost warm ${f2(d.warmCost)}, cold ${f2(d.coldCost)}).`);
   md.push('');
   const sw = largest.sweep;
   md.push(`Sweep, ${last.days} day(s), windows ${sw.windows}, ${sw.threads} worker threads, bootstrap ${quick ? 100 : 1000} resamples: ${s1(sw.wallMs)} s wall ` +
