@@ -1,0 +1,117 @@
+/**
+ * scripts/kafka.mjs, the local broker tooling: its failure messages, and a full
+ * start/reuse/stop cycle of a private instance (with the cached artifacts; no network
+ * beyond 127.0.0.1).
+ */
+import { spawn, spawnSync } from 'node:child_process';
+import { existsSync, mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, describe, expect, it } from 'vitest';
+import {
+  BROKER_SETUP_CODE,
+  brokerAnswers,
+  brokerSettings,
+  brokerStatus,
+  fetchArtifacts,
+  javaMajor,
+  startBroker,
+  stopBroker,
+} from '../../scripts/kafka.mjs';
+import { uniqueName } from './helpers/kafka.js';
+
+const scratch = mkdtempSync(join(tmpdir(), 'pairflow-broker-test-'));
+afterAll(() => rmSync(scratch, { recursive: true, force: true }));
+
+const isCi = process.env.CI === 'true' || process.env.CI === '1';
+const hasJava = spawnSync('java', ['-version']).status === 0 || Boolean(process.env.JAVA_HOME || process.env.PAIRFLOW_JAVA_HOME);
+const setupError = expect.objectContaining({ code: BROKER_SETUP_CODE });
+
+async function waitGone(pid: number, maxPolls = 300): Promise<boolean> {
+  for (let i = 0; i < maxPolls; i++) {
+    try {
+      process.kill(pid, 0);
+    } catch {
+      return true;
+    }
+    await new Promise((r) => setTimeout(r, 100));
+  }
+  return false;
+}
+
+describe('brokerSettings()', () => {
+  it('reads version and cache from the environment, with defaults', () => {
+    const s = brokerSettings({ PAIRFLOW_KAFKA_VERSION: '4.4.0', PAIRFLOW_CACHE_DIR: scratch });
+    expect(s.version).toBe('4.4.0');
+    expect(s.versionDir).toBe(join(scratch, 'kafka', '4.4.0'));
+    expect(brokerSettings({ HOME: '/home/u' }).version).toBe('3.9.2');
+  });
+
+  it('refuses a version that is not a release number', () => {
+    expect(() => brokerSettings({ PAIRFLOW_KAFKA_VERSION: 'latest' })).toThrowError(setupError);
+  });
+});
+
+describe('failures name their cause', () => {
+  it('javaMajor() of a missing Java throws PAIRFLOW_ERR_KAFKA_BROKER_SETUP', () => {
+    expect(() => javaMajor(join(scratch, 'no-such-java'))).toThrowError(setupError);
+  });
+
+  it('fetchArtifacts() without Maven throws PAIRFLOW_ERR_KAFKA_BROKER_SETUP naming Maven', () => {
+    const s = brokerSettings({ PAIRFLOW_CACHE_DIR: join(scratch, 'empty-cache'), PAIRFLOW_MVN: join(scratch, 'no-such-mvn') });
+    expect(() => fetchArtifacts(s)).toThrowError(expect.objectContaining({ code: BROKER_SETUP_CODE, message: expect.stringMatching(/Maven/) }));
+  });
+
+  it('startBroker() with a JDK path that does not exist fails before touching Maven', async () => {
+    const env = { ...process.env, PAIRFLOW_CACHE_DIR: join(scratch, 'nojava'), PAIRFLOW_JAVA_HOME: join(scratch, 'no-jdk') };
+    await expect(startBroker({ instance: 'nojava', env })).rejects.toEqual(setupError);
+    expect(existsSync(join(scratch, 'nojava', 'kafka', '3.9.2'))).toBe(false);
+  });
+
+  it.skipIf(!hasJava && !isCi)('startBroker() with a JVM that cannot start reports the JVM\'s own words', async () => {
+    const env = { ...process.env, PAIRFLOW_KAFKA_HEAP: '1k' };
+    await expect(startBroker({ instance: uniqueName('tiny-heap'), env })).rejects.toEqual(
+      expect.objectContaining({ code: BROKER_SETUP_CODE, message: expect.stringMatching(/heap/i) }),
+    );
+  });
+});
+
+describe.skipIf(!hasJava && !isCi)('a private broker instance', () => {
+  it('startBroker() starts, reuses while running, and stopBroker() leaves no process and no data', async () => {
+    const instance = uniqueName('cycle');
+    const first = await startBroker({ instance });
+    try {
+      expect(first.started).toBe(true);
+      expect(first.brokers).toMatch(/^127\.0\.0\.1:\d+$/);
+      expect(await brokerAnswers([first.brokers])).toBe(true);
+
+      const again = await startBroker({ instance });
+      expect(again.started).toBe(false);
+      expect(again.brokers).toBe(first.brokers);
+      expect(again.pid).toBe(first.pid);
+      expect(brokerStatus().find((s) => s.instance === instance)).toMatchObject({ alive: true, pid: first.pid });
+    } finally {
+      const stop = await stopBroker({ instance });
+      expect(stop.stopped).toBe(true);
+    }
+    expect(await waitGone(first.pid)).toBe(true);
+    expect(brokerStatus().find((s) => s.instance === instance)).toBeUndefined();
+    expect(existsSync(join(brokerSettings().instancesDir, instance, 'data'))).toBe(false);
+    expect((await stopBroker({ instance })).stopped).toBe(false);
+  });
+
+  it('a broker started for an owner process stops by itself when the owner dies', async () => {
+    const owner = spawn('sleep', ['600'], { stdio: 'ignore' });
+    const instance = uniqueName('owned');
+    let pid = 0;
+    try {
+      const r = await startBroker({ instance, ownerPid: owner.pid! });
+      pid = r.pid;
+      owner.kill('SIGKILL');
+      expect(await waitGone(pid)).toBe(true);
+    } finally {
+      owner.kill('SIGKILL');
+      await stopBroker({ instance });
+    }
+  });
+});
