@@ -138,13 +138,14 @@ function decodeBlock(header: Header, data: Buffer, count: number): unknown[] | s
 }
 
 /**
- * Yields the records of a container file, given its bytes as a stream of chunks.
+ * Yields the records of a container file, given its bytes as a stream of chunks, one
+ * array per block.
  * A damaged header ends the file with one `fatal` piece; a damaged block gives one
  * `corrupt` piece (with the block's declared record count when its framing could be
  * read) and decoding resumes at the next sync marker. A read error of the stream is
  * a `fatal` piece too; this generator never throws.
  */
-export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGenerator<AvroPiece> {
+export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGenerator<AvroPiece[]> {
   const iterator = chunks[Symbol.asyncIterator]();
   let buf: Buffer = Buffer.alloc(0);
   let pos = 0;
@@ -181,7 +182,7 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
         continue;
       }
       if (typeof parsed === 'string') {
-        yield { kind: 'fatal', reason: parsed };
+        yield [{ kind: 'fatal', reason: parsed }];
         return;
       }
       header = parsed;
@@ -216,7 +217,9 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
           const decoded = decodeBlock(header, buf.subarray(dataStart, dataEnd), count.value);
           if (typeof decoded === 'string') reason = decoded;
           else {
-            for (let i = 0; i < decoded.length; i += 1) yield { kind: 'record', block, record: i, value: decoded[i] };
+            const batch: AvroPiece[] = new Array(decoded.length);
+            for (let i = 0; i < decoded.length; i += 1) batch[i] = { kind: 'record', block, record: i, value: decoded[i] };
+            if (batch.length > 0) yield batch;
             pos = dataEnd + SYNC_BYTES;
             block += 1;
             continue;
@@ -224,7 +227,7 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
         }
       }
       if (records !== null && records > MAX_BLOCK_BYTES) records = null;
-      yield { kind: 'corrupt', block, records, reason: reason ?? 'damaged block' };
+      yield [{ kind: 'corrupt', block, records, reason: reason ?? 'damaged block' }];
       block += 1;
       // Resync: the next block starts right after the next sync marker.
       let from = pos + 1;
@@ -241,7 +244,7 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
       }
     }
   } catch (err) {
-    yield { kind: 'fatal', reason: `read failed: ${(err as Error).message}` };
+    yield [{ kind: 'fatal', reason: `read failed: ${(err as Error).message}` }];
   } finally {
     await iterator.return?.();
   }

@@ -11,7 +11,7 @@ import { createGunzip } from 'node:zlib';
 import { pairflowError } from '../errors.js';
 import type { Metric, Reject, SourcedEvent, SourcePosition } from '../model.js';
 import { readAvroContainer } from './avro.js';
-import { splitLines } from './lines.js';
+import { splitLines, type LinePiece } from './lines.js';
 import { shortValue, validateEvent } from './validate.js';
 
 export { validateEvent, parseRfc3339 } from './validate.js';
@@ -106,6 +106,27 @@ const utf8 = new TextDecoder('utf-8', { fatal: true });
  * @example for await (const item of readLogFile('day.jsonl.gz', { metric: 'haversine' })) { … }
  */
 export function readLogFile(path: string, opts: ReadLogOptions): LogFileReader {
+  const batches = readLogBatches(path, opts);
+  return {
+    get input() {
+      return batches.input;
+    },
+    async *[Symbol.asyncIterator]() {
+      for await (const batch of batches) yield* batch;
+    },
+  };
+}
+
+/** A log file read in batches (one per chunk or Avro block); `input` is set at the end. */
+export interface LogBatchReader extends AsyncIterable<LogItem[]> {
+  readonly input: LogInput | null;
+}
+
+/**
+ * {@link readLogFile} in batches of items, in file order: for consumers that handle
+ * many items per await (one await per line would cost more than parsing the line).
+ */
+export function readLogBatches(path: string, opts: ReadLogOptions): LogBatchReader {
   const reader = {
     input: null as LogInput | null,
     [Symbol.asyncIterator]: () => iterate(path, opts, (input) => {
@@ -115,7 +136,7 @@ export function readLogFile(path: string, opts: ReadLogOptions): LogFileReader {
   return reader;
 }
 
-async function* iterate(path: string, opts: ReadLogOptions, done: (input: LogInput) => void): AsyncGenerator<LogItem> {
+async function* iterate(path: string, opts: ReadLogOptions, done: (input: LogInput) => void): AsyncGenerator<LogItem[]> {
   const format = logFormatOf(path);
   await assertReadableFile(path);
   let seq = opts.seqStart ?? 0;
@@ -145,56 +166,44 @@ async function* iterate(path: string, opts: ReadLogOptions, done: (input: LogInp
   try {
     if (format === 'avro') {
       let records = 0;
-      for await (const piece of readAvroContainer(body)) {
-        if (piece.kind === 'record') {
-          records += 1;
-          const pos: SourcePosition = { file: path, line: records, block: piece.block, record: piece.record };
-          const res = validateEvent(piece.value, metric);
-          if (res.ok) yield { kind: 'event', ev: { event: res.event, pos, seq: seq++ } };
-          else yield { kind: 'reject', reject: { pos, reason: res.reason, raw: cut(renderRecord(piece.value)) } };
-        } else if (piece.kind === 'corrupt') {
-          const pos: SourcePosition = { file: path, line: records + 1, block: piece.block, record: 0 };
-          const lost = piece.records === null ? 'an unknown number of records' : `${piece.records} records`;
-          yield { kind: 'reject', reject: { pos, reason: `Avro block ${piece.block} damaged: ${piece.reason}; ${lost} lost`, raw: '' } };
-          if (piece.records !== null) records += piece.records;
-        } else {
-          yield { kind: 'reject', reject: { pos: { file: path, line: records + 1 }, reason: piece.reason, raw: '' } };
+      for await (const pieces of readAvroContainer(body)) {
+        const batch: LogItem[] = [];
+        for (const piece of pieces) {
+          if (piece.kind === 'record') {
+            records += 1;
+            const pos: SourcePosition = { file: path, line: records, block: piece.block, record: piece.record };
+            const res = validateEvent(piece.value, metric);
+            if (res.ok) batch.push({ kind: 'event', ev: { event: res.event, pos, seq: seq++ } });
+            else batch.push({ kind: 'reject', reject: { pos, reason: res.reason, raw: cut(renderRecord(piece.value)) } });
+          } else if (piece.kind === 'corrupt') {
+            const pos: SourcePosition = { file: path, line: records + 1, block: piece.block, record: 0 };
+            const lost = piece.records === null ? 'an unknown number of records' : `${piece.records} records`;
+            batch.push({ kind: 'reject', reject: { pos, reason: `Avro block ${piece.block} damaged: ${piece.reason}; ${lost} lost`, raw: '' } });
+            if (piece.records !== null) records += piece.records;
+          } else {
+            batch.push({ kind: 'reject', reject: { pos: { file: path, line: records + 1 }, reason: piece.reason, raw: '' } });
+          }
         }
+        if (batch.length > 0) yield batch;
       }
       lines = records;
     } else {
-      for await (const piece of splitLines(body)) {
-        if (piece.kind === 'error') {
-          const what = format === 'jsonl.gz' ? 'gzip stream truncated or damaged' : 'read failed';
-          const message = piece.error instanceof Error ? piece.error.message : String(piece.error);
-          yield { kind: 'reject', reject: { pos: { file: path, line: piece.line }, reason: `${what} (${message}); nothing after this point was read`, raw: '' } };
-          continue;
+      for await (const pieces of splitLines(body)) {
+        const batch: LogItem[] = [];
+        for (const piece of pieces) {
+          if (piece.kind === 'error') {
+            const what = format === 'jsonl.gz' ? 'gzip stream truncated or damaged' : 'read failed';
+            const message = piece.error instanceof Error ? piece.error.message : String(piece.error);
+            batch.push({ kind: 'reject', reject: { pos: { file: path, line: piece.line }, reason: `${what} (${message}); nothing after this point was read`, raw: '' } });
+            continue;
+          }
+          lines = piece.line;
+          const item = lineItem(path, piece, metric, seq);
+          if (item === null) continue;
+          if (item.kind === 'event') seq += 1;
+          batch.push(item);
         }
-        lines = piece.line;
-        const pos: SourcePosition = { file: path, line: piece.line };
-        if (piece.kind === 'long') {
-          const raw = cut(piece.head.toString('utf8'));
-          yield { kind: 'reject', reject: { pos, reason: `line of ${piece.length} bytes exceeds the 1 MiB limit`, raw } };
-          continue;
-        }
-        let text: string;
-        try {
-          text = utf8.decode(piece.bytes);
-        } catch {
-          yield { kind: 'reject', reject: { pos, reason: 'line is not valid UTF-8', raw: cut(piece.bytes.toString('utf8')) } };
-          continue;
-        }
-        if (text.trim() === '') continue;
-        let value: unknown;
-        try {
-          value = JSON.parse(text);
-        } catch (err) {
-          yield { kind: 'reject', reject: { pos, reason: `bad JSON: ${(err as Error).message}`, raw: cut(text) } };
-          continue;
-        }
-        const res = validateEvent(value, metric);
-        if (res.ok) yield { kind: 'event', ev: { event: res.event, pos, seq: seq++ } };
-        else yield { kind: 'reject', reject: { pos, reason: res.reason, raw: cut(text) } };
+        if (batch.length > 0) yield batch;
       }
     }
     await sourceDone;
@@ -202,6 +211,30 @@ async function* iterate(path: string, opts: ReadLogOptions, done: (input: LogInp
   } finally {
     source.destroy();
   }
+}
+
+/** The item of one JSON line: an event, a reject, or null for a blank line. */
+function lineItem(path: string, piece: LinePiece & { kind: 'line' | 'long' }, metric: Metric, seq: number): LogItem | null {
+  const pos: SourcePosition = { file: path, line: piece.line };
+  if (piece.kind === 'long') {
+    return { kind: 'reject', reject: { pos, reason: `line of ${piece.length} bytes exceeds the 1 MiB limit`, raw: cut(piece.head.toString('utf8')) } };
+  }
+  let text: string;
+  try {
+    text = utf8.decode(piece.bytes);
+  } catch {
+    return { kind: 'reject', reject: { pos, reason: 'line is not valid UTF-8', raw: cut(piece.bytes.toString('utf8')) } };
+  }
+  if (text.trim() === '') return null;
+  let value: unknown;
+  try {
+    value = JSON.parse(text);
+  } catch (err) {
+    return { kind: 'reject', reject: { pos, reason: `bad JSON: ${(err as Error).message}`, raw: cut(text) } };
+  }
+  const res = validateEvent(value, metric);
+  if (res.ok) return { kind: 'event', ev: { event: res.event, pos, seq } };
+  return { kind: 'reject', reject: { pos, reason: res.reason, raw: cut(text) } };
 }
 
 /** Options of {@link loadLog}. */
@@ -236,8 +269,8 @@ export async function loadLog(paths: string[], opts: LoadLogOptions): Promise<{ 
   let sorted = true;
   let lastT = -Infinity;
   for (const path of paths) {
-    const reader = readLogFile(path, { metric: opts.metric, seqStart: events.length });
-    for await (const item of reader) {
+    const reader = readLogBatches(path, { metric: opts.metric, seqStart: events.length });
+    for await (const batch of reader) for (const item of batch) {
       if (item.kind === 'event') {
         if (item.ev.event.t < lastT) sorted = false;
         lastT = item.ev.event.t;

@@ -18,11 +18,13 @@ const HEAD_BYTES = 2048;
 
 /**
  * Yields the lines of `chunks`, split at `\n` (a trailing `\r` is dropped, so CRLF
- * files read the same). A last line without a newline is still a line. If the
- * stream fails (a truncated gzip member, a read error), the bytes received before the
- * failure are yielded as a line and then one `error` piece follows; it never throws.
+ * files read the same), in batches: one array per input chunk, because one await
+ * per line would cost more than parsing it. A last line without a newline is still
+ * a line. If the stream fails (a truncated gzip member, a read error), the bytes
+ * received before the failure are yielded as a line and then one `error` piece
+ * follows; it never throws.
  */
-export async function* splitLines(chunks: AsyncIterable<Buffer>, maxBytes: number = MAX_LINE_BYTES): AsyncGenerator<LinePiece> {
+export async function* splitLines(chunks: AsyncIterable<Buffer>, maxBytes: number = MAX_LINE_BYTES): AsyncGenerator<LinePiece[]> {
   let parts: Buffer[] = [];
   let partBytes = 0;
   let overlong = false;
@@ -64,28 +66,31 @@ export async function* splitLines(chunks: AsyncIterable<Buffer>, maxBytes: numbe
 
   try {
     for await (const chunk of chunks) {
+      const batch: LinePiece[] = [];
       let start = 0;
       let nl = chunk.indexOf(0x0a, start);
       while (nl !== -1) {
         if (overlong) {
           keep(chunk.subarray(start, nl));
-          yield take(Buffer.alloc(0));
+          batch.push(take(Buffer.alloc(0)));
         } else if (partBytes + (nl - start) > maxBytes) {
           keep(chunk.subarray(start, nl));
-          yield take(Buffer.alloc(0));
+          batch.push(take(Buffer.alloc(0)));
         } else {
-          yield take(chunk.subarray(start, nl));
+          batch.push(take(chunk.subarray(start, nl)));
         }
         start = nl + 1;
         nl = chunk.indexOf(0x0a, start);
       }
       // Copy the unfinished tail so the stream's chunk can be freed.
       if (start < chunk.length) keep(Buffer.from(chunk.subarray(start)));
+      if (batch.length > 0) yield batch;
     }
   } catch (error) {
-    if (partBytes > 0 || overlong) yield take(Buffer.alloc(0));
-    yield { kind: 'error', line: line + 1, error };
+    const last: LinePiece[] = partBytes > 0 || overlong ? [take(Buffer.alloc(0))] : [];
+    last.push({ kind: 'error', line: line + 1, error });
+    yield last;
     return;
   }
-  if (partBytes > 0 || overlong) yield take(Buffer.alloc(0));
+  if (partBytes > 0 || overlong) yield [take(Buffer.alloc(0))];
 }

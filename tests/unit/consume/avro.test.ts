@@ -21,7 +21,7 @@ async function* fileChunks(buf: Buffer, size: number): AsyncGenerator<Buffer> {
 
 async function pieces(buf: Buffer, size = 4096): Promise<AvroPiece[]> {
   const out: AvroPiece[] = [];
-  for await (const p of readAvroContainer(fileChunks(buf, size))) out.push(p);
+  for await (const batch of readAvroContainer(fileChunks(buf, size))) out.push(...batch);
   return out;
 }
 

@@ -12,9 +12,12 @@ async function* chunksOf(buf: Buffer, sizes: () => number, failAfter?: Error): A
   if (failAfter) throw failAfter;
 }
 
-async function collect(it: AsyncIterable<LinePiece>): Promise<LinePiece[]> {
+async function collect(it: AsyncIterable<LinePiece[]>): Promise<LinePiece[]> {
   const out: LinePiece[] = [];
-  for await (const p of it) out.push(p);
+  for await (const batch of it) {
+    expect(batch.length).toBeGreaterThan(0);
+    out.push(...batch);
+  }
   return out;
 }
 
