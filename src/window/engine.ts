@@ -357,6 +357,94 @@ export class WindowEngine {
     return { ...this.tot, duplicates: this.ledger.duplicates, ignoredWithdraws: this.ledger.ignoredWithdraws };
   }
 
+  /**
+   * The serialisable pool state of one market: units pending or in the pool (with
+   * their prices), tentative pairs, and the last closed epoch. Units already matched
+   * or expired are not included. JSON-safe.
+   */
+  snapshot(market: string): PoolSnapshot {
+    const m = this.markets.get(market);
+    const closed = m === undefined ? this.globalClosed : m.lastClosed;
+    const snap: PoolSnapshot = {
+      version: 1, market, windowMs: this.W, lastClosed: closed === -Infinity ? null : closed, units: [], tentative: [],
+    };
+    if (m === undefined) return snap;
+    const occs = this.ledger.occurrences;
+    const at = new Map<number, number>();
+    const add = (id: number, state: 'pending' | 'pool', joinEpoch: number): void => {
+      const o = occs[id]!;
+      const p = this.price[id]!;
+      const u: SnapshotUnit = { side: o.side, id: o.id, t: o.t, until: o.until, end: o.end, seq: o.seq, price: Number.isFinite(p) ? p : null, state, joinEpoch };
+      if (o.lat !== undefined) u.lat = o.lat;
+      if (o.lon !== undefined) u.lon = o.lon;
+      if (o.x !== undefined) u.x = o.x;
+      if (o.y !== undefined) u.y = o.y;
+      if (o.has !== undefined) u.has = [...o.has];
+      if (o.needs !== undefined) u.needs = [...o.needs];
+      at.set(id, snap.units.length);
+      snap.units.push(u);
+    };
+    const joinAt = m.lastClosed === -Infinity ? 0 : m.lastClosed;
+    for (const pool of [m.demand, m.supply]) {
+      for (let slot = 0; slot < pool.high; slot++) {
+        const id = pool.slotOcc[slot]!;
+        if (id >= 0) add(id, 'pool', joinAt);
+      }
+    }
+    const pending = m.pending.entries().sort((x, y) => x[0] - y[0] || x[1] - y[1]);
+    for (const [key, id] of pending) add(id, 'pending', key);
+    for (let slot = 0; slot < m.demand.high; slot++) {
+      const d = m.demand.slotOcc[slot]!;
+      if (d >= 0 && this.partner[d]! >= 0) snap.tentative.push([at.get(d)!, at.get(this.partner[d]!)!]);
+    }
+    return snap;
+  }
+
+  /**
+   * Restores a market from {@link snapshot} output into an engine that holds no unit
+   * of that market yet (live mode after a restart). Restored units count in
+   * `demandUnits`/`supplyUnits`. Throws `PAIRFLOW_ERR_STATE_INVALID` for another
+   * version, another window length or a malformed state.
+   */
+  restore(market: string, state: unknown): void {
+    const snap = parseSnapshot(market, state, this.W);
+    const m = this.marketOf(market);
+    if (m.demand.size + m.supply.size + m.pending.size > 0) {
+      throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `restore(${market}): the market already holds units` });
+    }
+    if (snap.lastClosed !== null && snap.lastClosed > m.lastClosed) m.lastClosed = snap.lastClosed;
+    const ids: number[] = [];
+    for (const u of snap.units) {
+      const o = this.ledger.adopt({
+        side: u.side, id: u.id, market, t: u.t, until: u.until, end: u.end, seq: u.seq,
+        lat: u.lat, lon: u.lon, x: u.x, y: u.y, has: u.has, needs: u.needs,
+      });
+      this.ensure(o.index + 1);
+      if (u.side === 'demand') this.tot.demandUnits++;
+      else this.tot.supplyUnits++;
+      this.price[o.index] = u.price ?? NaN;
+      ids.push(o.index);
+    }
+    const occs = this.ledger.occurrences;
+    // Supply first, so that each demand's candidate list is built by its own query.
+    for (const side of ['supply', 'demand'] as const) {
+      snap.units.forEach((u, k) => {
+        if (u.state === 'pool' && u.side === side) this.enterPool(m, occs[ids[k]!]!, m.lastClosed + this.W);
+      });
+    }
+    snap.units.forEach((u, k) => {
+      if (u.state !== 'pending') return;
+      this.state[ids[k]!] = ST_PENDING;
+      m.pending.push(Math.max(u.joinEpoch, m.lastClosed + this.W), ids[k]!);
+    });
+    for (const [d, s] of snap.tentative) {
+      this.partner[ids[d]!] = ids[s]!;
+      this.partner[ids[s]!] = ids[d]!;
+    }
+    // As after the epoch it was taken at: the next solve waits for a trigger.
+    m.dirty = false;
+  }
+
   /** Markets seen so far, in first-seen order. */
   marketNames(): string[] {
     return this.marketList.map((m) => m.name);
@@ -448,6 +536,12 @@ export class WindowEngine {
       this.emitExpiry(m, o, tau);
       return;
     }
+    this.enterPool(m, o, tau + this.W);
+  }
+
+  /** Puts an occurrence in its market's pool; its triggers fire at epochs ≥ `from`. */
+  private enterPool(m: MarketState, o: Occurrence, from: number): void {
+    const id = o.index;
     this.state[id] = ST_POOL;
     m.dirty = true;
     const [a, b] = this.coords(o);
@@ -464,7 +558,7 @@ export class WindowEngine {
         if (tr <= maxTravel && capabilitiesAllow(o.needs, occs[s]!.has)) list.push(s, tr);
       }
       this.cand[id] = list;
-      if (this.demandLastChanceMatters) this.pushLastChance(m, o, tau);
+      if (this.demandLastChanceMatters) this.pushLastChance(m, o, from);
     } else {
       this.slotOf[id] = m.supply.add(id, a, b);
       const n = m.demand.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
@@ -473,15 +567,15 @@ export class WindowEngine {
         const tr = travelMin(this.qDist[k]!, speed);
         if (tr <= maxTravel && capabilitiesAllow(occs[d]!.needs, o.has)) this.cand[d]!.push(id, tr);
       }
-      if (this.due) this.pushLastChance(m, o, tau);
+      if (this.due) this.pushLastChance(m, o, from);
     }
-    m.expiry.push(this.epochAfter(o.end), id);
+    m.expiry.push(Math.max(this.epochAfter(o.end), from), id);
   }
 
-  private pushLastChance(m: MarketState, o: Occurrence, tau: number): void {
-    // First epoch with until < τ + W; one already passed needs no trigger (the join is one).
+  private pushLastChance(m: MarketState, o: Occurrence, from: number): void {
+    // First epoch with until < τ + W; one already reached needs no trigger (the join is one).
     const at = this.epochAfter(o.until - this.W);
-    if (at > tau) m.lastChance.push(at, o.index);
+    if (at >= from) m.lastChance.push(at, o.index);
   }
 
   private removeFromPool(m: MarketState, o: Occurrence, next: number): void {
@@ -571,7 +665,7 @@ export class WindowEngine {
         travel[nnz] = tr;
         nnz++;
       }
-      list.length = w;
+      if (w !== list.length) list.length = w;
       delta[nRows] = od.until < lastChanceBefore ? this.P : this.R;
       rowPrices[nRows] = this.price[d]!;
       const p = partner[d]!;
@@ -658,4 +752,56 @@ export class WindowEngine {
       priceMin: nCols > 0 ? pMin : 0, priceMean: nCols > 0 ? pSum / nCols : 0, priceMax: nCols > 0 ? pMax : 0,
     });
   }
+}
+
+function isNum(v: unknown): v is number {
+  return typeof v === 'number' && Number.isFinite(v);
+}
+
+function isStrings(v: unknown): v is string[] {
+  return Array.isArray(v) && v.every((x) => typeof x === 'string');
+}
+
+/** Checks a stored pool state field by field; the first problem is thrown. */
+function parseSnapshot(market: string, state: unknown, windowMs: number): PoolSnapshot {
+  const bad = (detail: string): never => {
+    throw pairflowError('PAIRFLOW_ERR_STATE_INVALID', { market, detail });
+  };
+  if (state === null || typeof state !== 'object') return bad('expected an object');
+  const s = state as Record<string, unknown>;
+  if (s.version !== 1) bad(`field 'version': got ${JSON.stringify(s.version)}, expected 1`);
+  if (s.windowMs !== windowMs) bad(`field 'windowMs': got ${JSON.stringify(s.windowMs)}, expected ${windowMs} (the window of this run)`);
+  if (s.lastClosed !== null && !isNum(s.lastClosed)) bad(`field 'lastClosed': expected null or a number`);
+  if (!Array.isArray(s.units)) return bad(`field 'units': expected an array`);
+  if (!Array.isArray(s.tentative)) return bad(`field 'tentative': expected an array`);
+  const units = s.units as unknown[];
+  units.forEach((raw, k) => {
+    const u = raw as Record<string, unknown> | null;
+    const where = `units[${k}]`;
+    if (u === null || typeof u !== 'object') return bad(`${where}: expected an object`);
+    if (u.side !== 'demand' && u.side !== 'supply') bad(`${where}.side: got ${JSON.stringify(u.side)}, expected "demand" or "supply"`);
+    if (typeof u.id !== 'string' || u.id === '') bad(`${where}.id: expected a non-empty string`);
+    for (const f of ['t', 'until', 'end', 'seq', 'joinEpoch']) if (!isNum(u[f])) bad(`${where}.${f}: expected a finite number`);
+    for (const f of ['lat', 'lon', 'x', 'y']) if (u[f] !== undefined && !isNum(u[f])) bad(`${where}.${f}: expected a finite number`);
+    for (const f of ['has', 'needs']) if (u[f] !== undefined && !isStrings(u[f])) bad(`${where}.${f}: expected an array of strings`);
+    if (u.price !== null && !isNum(u.price)) bad(`${where}.price: expected null or a finite number`);
+    if (u.state !== 'pending' && u.state !== 'pool') bad(`${where}.state: got ${JSON.stringify(u.state)}, expected "pending" or "pool"`);
+    return undefined;
+  });
+  const typed = units as SnapshotUnit[];
+  const seen = new Set<number>();
+  (s.tentative as unknown[]).forEach((raw, k) => {
+    const where = `tentative[${k}]`;
+    if (!Array.isArray(raw) || raw.length !== 2 || !raw.every((x) => Number.isInteger(x) && x >= 0 && x < typed.length)) {
+      bad(`${where}: expected [demand unit, supply unit] positions in units`);
+    }
+    const [d, sp] = raw as [number, number];
+    if (typed[d]!.side !== 'demand' || typed[sp]!.side !== 'supply' || typed[d]!.state !== 'pool' || typed[sp]!.state !== 'pool') {
+      bad(`${where}: expected a pooled demand and a pooled supply`);
+    }
+    if (seen.has(d) || seen.has(sp)) bad(`${where}: a unit is in two tentative pairs`);
+    seen.add(d);
+    seen.add(sp);
+  });
+  return s as unknown as PoolSnapshot;
 }

@@ -92,6 +92,42 @@ export class OccurrenceLedger {
     return out.reverse();
   }
 
+  /**
+   * Re-creates an occurrence from stored state (live mode's pool snapshot) without
+   * applying any rule: it is placed in its unit's history by time and ends nothing.
+   * An occurrence of the unit with the same `t` is returned as it is.
+   */
+  adopt(fields: Omit<Occurrence, 'index'>): Occurrence {
+    const units = this.unitsOf(fields.side, fields.market);
+    let after = -1;
+    let before = units.get(fields.id) ?? -1;
+    while (before >= 0 && this.occurrences[before]!.t > fields.t) {
+      after = before;
+      before = this.prev[before]!;
+    }
+    if (before >= 0 && this.occurrences[before]!.t === fields.t) return this.occurrences[before]!;
+    const index = this.occurrences.length;
+    const occ: Occurrence = {
+      index, side: fields.side, id: fields.id, market: fields.market, t: fields.t, until: fields.until, end: fields.end,
+      lat: fields.lat, lon: fields.lon, x: fields.x, y: fields.y, has: fields.has, needs: fields.needs, seq: fields.seq,
+    };
+    this.push(occ, before, after, units);
+    return occ;
+  }
+
+  private push(occ: Occurrence, before: number, after: number, units: Map<string, number>): void {
+    const index = occ.index;
+    this.occurrences.push(occ);
+    if (index >= this.prev.length) {
+      const grown = new Int32Array(this.prev.length * 2);
+      grown.set(this.prev);
+      this.prev = grown;
+    }
+    this.prev[index] = before;
+    if (after >= 0) this.prev[after] = index;
+    else units.set(occ.id, index);
+  }
+
   private unitsOf(side: Side, market: string): Map<string, number> {
     const key = keyOf(side, market);
     let units = this.tails.get(key);
@@ -127,24 +163,13 @@ export class OccurrenceLedger {
       const nextT = this.occurrences[after]!.t;
       if (nextT <= end) end = nextT;
     }
+    // One object shape for every occurrence (absent fields are undefined): hot loops
+    // over occurrences then stay monomorphic.
     const occ: Occurrence = {
-      index, side: ev.type, id: ev.id, market: ev.market, t: ev.t, until, end, seq,
-      ...(ev.lat !== undefined ? { lat: ev.lat } : {}),
-      ...(ev.lon !== undefined ? { lon: ev.lon } : {}),
-      ...(ev.x !== undefined ? { x: ev.x } : {}),
-      ...(ev.y !== undefined ? { y: ev.y } : {}),
-      ...(ev.has !== undefined ? { has: ev.has } : {}),
-      ...(ev.needs !== undefined ? { needs: ev.needs } : {}),
+      index, side: ev.type, id: ev.id, market: ev.market, t: ev.t, until, end,
+      lat: ev.lat, lon: ev.lon, x: ev.x, y: ev.y, has: ev.has, needs: ev.needs, seq,
     };
-    this.occurrences.push(occ);
-    if (index >= this.prev.length) {
-      const grown = new Int32Array(this.prev.length * 2);
-      grown.set(this.prev);
-      this.prev = grown;
-    }
-    this.prev[index] = before;
-    if (after >= 0) this.prev[after] = index;
-    else units.set(ev.id, index);
+    this.push(occ, before, after, units);
 
     let ended: Occurrence | null = null;
     if (before >= 0) {

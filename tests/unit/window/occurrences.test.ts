@@ -110,6 +110,21 @@ describe('OccurrenceLedger', () => {
   });
 });
 
+describe('OccurrenceLedger.adopt()', () => {
+  it('re-creates stored occurrences as they were: no rule applied, same t returned as is', () => {
+    const l = new OccurrenceLedger(config);
+    const a = l.adopt({ side: 'supply', id: 's', market: 'm', t: 0, until: 9000, end: 9000, seq: 4, x: 1, y: 2 });
+    const b = l.adopt({ side: 'supply', id: 's', market: 'm', t: 5000, until: 20_000, end: 7000, seq: 9 });
+    expect([a.end, b.end]).toEqual([9000, 7000]);
+    expect(l.adopt({ side: 'supply', id: 's', market: 'm', t: 0, until: 1, end: 1, seq: 0 })).toBe(a);
+    // Later events see them: a re-arrival ends the newest, a duplicate of it is caught.
+    expect(l.apply(ev({ type: 'supply', id: 's', t: 5000 })).kind).toBe('duplicate');
+    const r = l.apply(ev({ type: 'supply', id: 's', t: 6000 }));
+    expect(r.kind === 'arrival' && r.ended?.index).toBe(b.index);
+    expect(l.historyOf('supply', 'm', 's').map((o) => [o.t, o.end])).toEqual([[0, 9000], [5000, 6000], [6000, 6000 + 30 * MIN]]);
+  });
+});
+
 describe('buildOccurrences()', () => {
   it('agrees with the ledger applied event by event and returns both counts', () => {
     const events = [
