@@ -31,8 +31,8 @@ declare module 'vitest' {
   }
 }
 
-/** The image testcontainers' Kafka module drives (Confluent's 7.9 line is Apache Kafka 3.9). */
-const CONTAINER_IMAGE = 'confluentinc/cp-kafka:7.9.2';
+/** The image testcontainers' Kafka module drives (Confluent Platform 7.9 carries Apache Kafka 3.9). */
+const CONTAINER_IMAGE = 'confluentinc/cp-kafka:7.9.0';
 
 const log = (msg: string): void => {
   process.stderr.write(`[kafka-global] ${msg}\n`);
