@@ -1,0 +1,136 @@
+/**
+ * The benchmark's child processes: scipy timed in-process by a Python child, and each
+ * npm peer in its own Node child so a slow one can be stopped at the time cap.
+ * Instances travel as raw little-endian arrays in a temporary directory.
+ */
+
+import { spawn, spawnSync } from 'node:child_process';
+import { mkdirSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import type { DenseInstance, SparseInstance } from '../../src/matching/types.js';
+
+const here = new URL('.', import.meta.url).pathname;
+export const PYTHON = process.env.PAIRFLOW_PYTHON ?? 'python3';
+
+function bytes(a: Float64Array | Int32Array): Uint8Array {
+  return new Uint8Array(a.buffer, a.byteOffset, a.byteLength);
+}
+
+/** Writes a dense instance's matrix as `cost.f64` into a fresh `dir`. */
+export function writeDense(dir: string, inst: DenseInstance): void {
+  mkdirSync(dir, { recursive: true });
+  writeFileSync(join(dir, 'cost.f64'), bytes(inst.cost));
+}
+
+/** Writes a CSR instance as `rowptr.i32`, `colidx.i32`, `cost.f64` (and `delta.f64`). */
+export function writeSparse(dir: string, inst: SparseInstance): void {
+  mkdirSync(dir, { recursive: true });
+  writeFileSync(join(dir, 'rowptr.i32'), bytes(inst.rowPtr));
+  writeFileSync(join(dir, 'colidx.i32'), bytes(inst.colIdx));
+  writeFileSync(join(dir, 'cost.f64'), bytes(inst.cost));
+  if (inst.unmatchedCost) writeFileSync(join(dir, 'delta.f64'), bytes(inst.unmatchedCost));
+}
+
+/** One case for the scipy child. */
+export interface ScipyCase {
+  readonly name: string;
+  readonly kind: 'dense' | 'sparse';
+  readonly dir: string;
+  readonly nRows: number;
+  readonly nCols: number;
+  readonly repeats: number;
+  /** Sparse only: the instance has per-row unmatched costs in `delta.f64`. */
+  readonly delta?: boolean;
+}
+
+export interface ScipyOutcome {
+  readonly ms?: number[];
+  readonly cost?: number;
+  readonly error?: string;
+}
+
+export interface ScipyRun {
+  readonly python: string;
+  readonly scipy: string;
+  readonly numpy: string;
+  readonly results: Record<string, ScipyOutcome>;
+}
+
+/** Whether python3 can import scipy; the bench then leaves scipy's columns empty. */
+export function scipyAvailable(): boolean {
+  return spawnSync(PYTHON, ['-c', 'import scipy, numpy'], { encoding: 'utf8' }).status === 0;
+}
+
+/** Runs every scipy case in one Python process (one import of scipy). */
+export function runScipy(cases: readonly ScipyCase[]): ScipyRun {
+  const r = spawnSync(PYTHON, [join(here, 'scipy_bench.py')], {
+    input: JSON.stringify({ cases }),
+    encoding: 'utf8',
+    maxBuffer: 1 << 28,
+  });
+  if (r.status !== 0) throw new Error(`scipy bench failed (${r.status}): ${r.stderr}`);
+  return JSON.parse(r.stdout) as ScipyRun;
+}
+
+export type PeerName = 'munkres' | 'linear-sum-assignment' | 'munkres-js';
+export const PEERS: readonly PeerName[] = ['munkres', 'linear-sum-assignment', 'munkres-js'];
+
+export interface PeerOutcome {
+  /** Solve times of the repeats that finished. */
+  readonly ms: number[];
+  readonly cost?: number;
+  /** True when the first solve did not finish within the cap. */
+  readonly capped: boolean;
+  readonly error?: string;
+}
+
+/**
+ * Runs one peer on one dense instance. The child stops repeating once `capMs` of
+ * solving is spent; the parent kills it when one solve runs longer than `capMs`.
+ */
+export function runPeer(peer: PeerName, dir: string, nRows: number, nCols: number, repeats: number, capMs: number): Promise<PeerOutcome> {
+  return new Promise((resolve) => {
+    const child = spawn(process.execPath, [join(here, '..', 'peers', 'run-peer.mjs'), peer, dir, String(nRows), String(nCols), String(repeats), String(capMs)], {
+      stdio: ['ignore', 'pipe', 'pipe'],
+    });
+    const ms: number[] = [];
+    let cost: number | undefined;
+    let buffered = '';
+    let stderr = '';
+    let capped = false;
+    let timer: NodeJS.Timeout | undefined;
+    const arm = () => {
+      if (timer) clearTimeout(timer);
+      timer = setTimeout(() => {
+        capped = ms.length === 0;
+        child.kill('SIGKILL');
+      }, capMs);
+    };
+    child.stdout.setEncoding('utf8');
+    child.stdout.on('data', (chunk: string) => {
+      buffered += chunk;
+      let nl = buffered.indexOf('\n');
+      while (nl >= 0) {
+        const line = buffered.slice(0, nl);
+        buffered = buffered.slice(nl + 1);
+        if (line === 'ready') arm();
+        else if (line !== '') {
+          const rec = JSON.parse(line) as { ms: number; cost: number };
+          ms.push(rec.ms);
+          cost = rec.cost;
+          arm();
+        }
+        nl = buffered.indexOf('\n');
+      }
+    });
+    child.stderr.setEncoding('utf8');
+    child.stderr.on('data', (chunk: string) => {
+      stderr += chunk;
+    });
+    child.on('close', (code) => {
+      if (timer) clearTimeout(timer);
+      const failed = !capped && ms.length === 0 && code !== 0;
+      resolve({ ms, capped, ...(cost === undefined ? {} : { cost }), ...(failed ? { error: stderr.split('\n').find((l) => l.trim() !== '') ?? `exit ${code}` } : {}) });
+    });
+  });
+}

@@ -1,0 +1,528 @@
+/**
+ * `npm run bench:solver`: pairflow's exact solver against scipy (timed in-process in
+ * Python) and the npm assignment packages, on the same seeded instances in one run.
+ *
+ *   tsx bench/solver.ts [--quick] [--case NAME[,NAME…]] [--no-write] [--json]
+ *                       [--cap SECONDS] [--note TEXT] [--list]
+ *
+ * --case selects cases by exact name or name prefix (`--case dense-int`, `--case sparse`).
+ * --quick runs tiny sizes (the unit suite smoke-runs it). The markdown table goes to
+ * stdout and, unless --no-write, between the bench:solver markers of
+ * docs/benchmarks.md; --json prints the raw results instead of the table.
+ */
+
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { performance } from 'node:perf_hooks';
+import { checkCertificate, solveDense, solveSparse } from '../src/matching/index.js';
+import type { DenseInstance, SolveResult, SparseInstance, WarmStart } from '../src/matching/types.js';
+import {
+  PEERS,
+  runPeer,
+  runScipy,
+  scipyAvailable,
+  writeDense,
+  writeSparse,
+  type PeerName,
+  type PeerOutcome,
+  type ScipyCase,
+  type ScipyRun,
+} from './lib/children.js';
+import { denseUniform, sparseWithPermutation, warmFromPrevious, windowSequence, type CostKind, type SequenceStep, type TurnoverPolicy } from './lib/instances.js';
+import { fmtMs, fmtRatio, machineInfo, median, writeSection } from './lib/report.js';
+
+// ---------------------------------------------------------------- cases
+
+interface DenseCase {
+  readonly group: 'dense';
+  readonly name: string;
+  readonly nRows: number;
+  readonly nCols: number;
+  readonly kind: CostKind;
+  readonly repeats: number;
+}
+interface SparseCase {
+  readonly group: 'sparse';
+  readonly name: string;
+  readonly n: number;
+  readonly perRow: number;
+  readonly repeats: number;
+}
+interface WarmCase {
+  readonly group: 'warm';
+  readonly name: string;
+  readonly units: number;
+  readonly steps: number;
+  readonly fraction: number;
+  readonly policy: TurnoverPolicy;
+  readonly repeats: number;
+}
+type Case = DenseCase | SparseCase | WarmCase;
+
+const SEED = 20_251_201;
+
+function denseCases(sizes: readonly [number, number, number][]): DenseCase[] {
+  const out: DenseCase[] = [];
+  for (const [nRows, nCols, repeats] of sizes) {
+    for (const kind of ['int', 'float'] as const) {
+      const size = nRows === nCols ? `${nRows}` : `${nRows}x${nCols}`;
+      out.push({ group: 'dense', name: `dense-${kind}-${size}`, nRows, nCols, kind, repeats });
+    }
+  }
+  return out;
+}
+
+function sparseCases(sizes: readonly [number, string, number][], perRows: readonly number[]): SparseCase[] {
+  return sizes.flatMap(([n, label, repeats]) => perRows.map((perRow) => ({ group: 'sparse' as const, name: `sparse-${label}-${perRow}`, n, perRow, repeats })));
+}
+
+function allCases(quick: boolean): Case[] {
+  if (quick) {
+    return [
+      { group: 'dense', name: 'dense-int-40', nRows: 40, nCols: 40, kind: 'int', repeats: 3 },
+      { group: 'dense', name: 'dense-float-30x60', nRows: 30, nCols: 60, kind: 'float', repeats: 3 },
+      ...sparseCases([[2000, '2k', 3]], [5, 10]),
+      { group: 'warm', name: 'warm-random-30', units: 300, steps: 4, fraction: 0.3, policy: 'random', repeats: 2 },
+      { group: 'warm', name: 'warm-due-30', units: 300, steps: 4, fraction: 0.3, policy: 'due', repeats: 2 },
+    ];
+  }
+  return [
+    ...denseCases([[100, 100, 7], [300, 300, 7], [1000, 1000, 5], [2000, 2000, 3], [4000, 4000, 3], [1000, 2000, 5]]),
+    ...sparseCases([[10_000, '10k', 5], [50_000, '50k', 5], [200_000, '200k', 3]], [10, 30]),
+    { group: 'warm', name: 'warm-random-20', units: 10_000, steps: 12, fraction: 0.2, policy: 'random', repeats: 3 },
+    { group: 'warm', name: 'warm-random-50', units: 10_000, steps: 12, fraction: 0.5, policy: 'random', repeats: 3 },
+    { group: 'warm', name: 'warm-due-20', units: 10_000, steps: 12, fraction: 0.2, policy: 'due', repeats: 3 },
+    { group: 'warm', name: 'warm-due-50', units: 10_000, steps: 12, fraction: 0.5, policy: 'due', repeats: 3 },
+  ];
+}
+
+// ---------------------------------------------------------------- arguments
+
+interface Args {
+  quick: boolean;
+  select: string[] | null;
+  write: boolean;
+  json: boolean;
+  capMs: number;
+  note: string | null;
+  list: boolean;
+}
+
+function parseArgs(argv: string[]): Args {
+  const args: Args = { quick: false, select: null, write: true, json: false, capMs: 0, note: null, list: false };
+  let cap: number | null = null;
+  for (let i = 0; i < argv.length; i++) {
+    const a = argv[i]!;
+    const value = () => {
+      const v = argv[++i];
+      if (v === undefined) throw new Error(`${a} needs a value`);
+      return v;
+    };
+    if (a === '--quick') args.quick = true;
+    else if (a === '--case') args.select = value().split(',').map((s) => s.trim()).filter(Boolean);
+    else if (a === '--no-write') args.write = false;
+    else if (a === '--json') args.json = true;
+    else if (a === '--cap') cap = Number(value()) * 1000;
+    else if (a === '--note') args.note = value();
+    else if (a === '--list') args.list = true;
+    else throw new Error(`unknown argument ${a} (see the comment at the top of bench/solver.ts)`);
+  }
+  args.capMs = cap ?? (args.quick ? 10_000 : 30_000);
+  if (!(args.capMs > 0)) throw new Error('--cap must be a positive number of seconds');
+  return args;
+}
+
+// ---------------------------------------------------------------- measuring
+
+const relClose = (a: number, b: number) => Math.abs(a - b) <= 1e-9 * Math.max(1, Math.abs(a), Math.abs(b));
+
+interface Timed {
+  ms: number[];
+  cost: number;
+  certified: boolean;
+}
+
+/** Times `repeats` solves, stopping early once `budgetMs` is spent (at least one solve). */
+function timeSolve<I extends DenseInstance | SparseInstance>(inst: I, solve: (i: I) => SolveResult, repeats: number, budgetMs: number): Timed {
+  const ms: number[] = [];
+  let result: SolveResult | null = null;
+  let spent = 0;
+  for (let k = 0; k < repeats && spent < budgetMs; k++) {
+    const t0 = performance.now();
+    result = solve(inst);
+    ms.push(performance.now() - t0);
+    spent += ms[k]!;
+  }
+  const rep = checkCertificate(inst, result!);
+  if (!rep.ok) process.stderr.write(`  certificate FAILED: ${rep.problems.slice(0, 3).join('; ')}\n`);
+  return { ms, cost: result!.cost, certified: rep.ok };
+}
+
+interface DenseRow {
+  readonly name: string;
+  readonly nRows: number;
+  readonly nCols: number;
+  readonly kind: CostKind;
+  readonly pairflow: Timed;
+  readonly scipy: { ms: number[]; cost: number } | null;
+  readonly peers: Partial<Record<PeerName, PeerOutcome | 'skipped'>>;
+  /** pairflow's cost equals scipy's (1e-9 relative) and its certificate holds; null without scipy. */
+  readonly ok: boolean | null;
+}
+
+interface SparseRow {
+  readonly name: string;
+  readonly n: number;
+  readonly perRow: number;
+  readonly pairs: number;
+  readonly pairflow: Timed;
+  readonly scipy: { ms: number[]; cost: number } | null;
+  readonly ok: boolean | null;
+}
+
+interface WarmRow {
+  readonly name: string;
+  readonly units: number;
+  readonly steps: number;
+  readonly fraction: number;
+  readonly policy: TurnoverPolicy;
+  readonly meanPairs: number;
+  /** Sum over windows 2..K of the solve times, one entry per repeat. */
+  readonly coldMs: number[];
+  readonly warmMs: number[];
+  /** Warm and cold costs equal in every window and both certificates hold. */
+  readonly sameCost: boolean;
+  /** Every window's cost equals scipy's; null without scipy. */
+  readonly ok: boolean | null;
+}
+
+interface Results {
+  readonly mode: 'quick' | 'full';
+  readonly date: string;
+  readonly machine: ReturnType<typeof machineInfo> & { python?: string; scipy?: string; numpy?: string };
+  readonly capMs: number;
+  readonly dense: DenseRow[];
+  readonly sparse: SparseRow[];
+  readonly warm: WarmRow[];
+}
+
+function scipyOf(run: ScipyRun | null, name: string): { ms: number[]; cost: number } | null {
+  const r = run?.results[name];
+  if (!r) return null;
+  if (r.error !== undefined || r.ms === undefined || r.cost === undefined) {
+    process.stderr.write(`  scipy ${name}: ${r.error ?? 'no result'}\n`);
+    return null;
+  }
+  return { ms: r.ms, cost: r.cost };
+}
+
+function log(text: string): void {
+  process.stderr.write(`${text}\n`);
+}
+
+async function main(): Promise<void> {
+  const args = parseArgs(process.argv.slice(2));
+  const cases = allCases(args.quick).filter(
+    (c) => args.select === null || args.select.some((s) => c.name === s || c.name.startsWith(s)),
+  );
+  if (args.list) {
+    for (const c of allCases(args.quick)) process.stdout.write(`${c.name}\n`);
+    return;
+  }
+  if (cases.length === 0) throw new Error(`no case matches ${args.select?.join(',')}; --list shows them`);
+  const work = mkdtempSync(join(tmpdir(), 'pairflow-bench-solver-'));
+  const cleanup = () => rmSync(work, { recursive: true, force: true });
+  process.on('SIGINT', () => {
+    cleanup();
+    process.exit(130);
+  });
+
+  try {
+    // ---- build every instance once; scipy and the peers read the same bytes
+    log(`building ${cases.length} case(s) in ${work}`);
+    const dense = new Map<string, DenseInstance>();
+    const sparse = new Map<string, SparseInstance>();
+    const sequences = new Map<string, SequenceStep[]>();
+    const scipyCases: ScipyCase[] = [];
+    for (const [i, c] of cases.entries()) {
+      const seed = SEED + 7919 * i;
+      const dir = join(work, c.name);
+      if (c.group === 'dense') {
+        const inst = denseUniform(seed, c.nRows, c.nCols, c.kind);
+        dense.set(c.name, inst);
+        writeDense(dir, inst);
+        scipyCases.push({ name: c.name, kind: 'dense', dir, nRows: c.nRows, nCols: c.nCols, repeats: c.repeats });
+      } else if (c.group === 'sparse') {
+        const inst = sparseWithPermutation(seed, c.n, c.perRow, 'float');
+        sparse.set(c.name, inst);
+        writeSparse(dir, inst);
+        scipyCases.push({ name: c.name, kind: 'sparse', dir, nRows: c.n, nCols: c.n, repeats: c.repeats });
+      } else {
+        const steps = windowSequence({ seed, units: c.units, steps: c.steps, fraction: c.fraction, policy: c.policy }, (inst) => solveSparse(inst));
+        sequences.set(c.name, steps);
+        steps.forEach((s, k) => {
+          const name = `${c.name}#${k}`;
+          writeSparse(join(work, name), s.instance);
+          scipyCases.push({ name, kind: 'sparse', dir: join(work, name), nRows: s.instance.nRows, nCols: s.instance.nCols, repeats: 1, delta: true });
+        });
+      }
+    }
+
+    let scipy: ScipyRun | null = null;
+    if (scipyAvailable()) {
+      log('scipy: timing every case in one Python process');
+      scipy = runScipy(scipyCases);
+    } else {
+      log('scipy: not importable by python3; its columns stay empty');
+    }
+
+    const machine = machineInfo();
+    const results: Results = {
+      mode: args.quick ? 'quick' : 'full',
+      date: new Date().toISOString(),
+      machine: { ...machine, ...(scipy ? { python: scipy.python, scipy: scipy.scipy, numpy: scipy.numpy } : {}) },
+      capMs: args.capMs,
+      dense: [],
+      sparse: [],
+      warm: [],
+    };
+
+    // JIT warm-up on throwaway instances, so the first timed case is not penalised.
+    solveDense(denseUniform(1, 200, 200, 'float'));
+    solveSparse(sparseWithPermutation(1, 5000, 10, 'float'));
+
+    // A peer that hit the cap is not run on larger matrices (marked "skipped").
+    const cappedAt: Partial<Record<PeerName, number>> = {};
+    for (const c of cases) {
+      if (c.group === 'dense') {
+        const inst = dense.get(c.name)!;
+        const pf = timeSolve(inst, (i) => solveDense(i), c.repeats, args.capMs);
+        const sc = scipyOf(scipy, c.name);
+        const peers: DenseRow['peers'] = {};
+        for (const peer of PEERS) {
+          const area = c.nRows * c.nCols;
+          if (cappedAt[peer] !== undefined && area >= cappedAt[peer]!) {
+            peers[peer] = 'skipped';
+            continue;
+          }
+          const out = await runPeer(peer, join(work, c.name), c.nRows, c.nCols, c.repeats, args.capMs);
+          if (out.capped) cappedAt[peer] = area;
+          if (out.error) log(`  ${peer} ${c.name}: ${out.error}`);
+          peers[peer] = out;
+        }
+        const ok = sc === null ? null : pf.certified && relClose(pf.cost, sc.cost);
+        results.dense.push({ name: c.name, nRows: c.nRows, nCols: c.nCols, kind: c.kind, pairflow: pf, scipy: sc, peers, ok });
+        log(`${c.name}: pairflow ${fmtMs(pf.ms)} ms, scipy ${sc ? fmtMs(sc.ms) : '—'} ms${ok === false ? '  COST MISMATCH' : ''}`);
+      } else if (c.group === 'sparse') {
+        const inst = sparse.get(c.name)!;
+        const pf = timeSolve(inst, (i) => solveSparse(i), c.repeats, args.capMs);
+        const sc = scipyOf(scipy, c.name);
+        const ok = sc === null ? null : pf.certified && relClose(pf.cost, sc.cost);
+        results.sparse.push({ name: c.name, n: c.n, perRow: c.perRow, pairs: inst.colIdx.length, pairflow: pf, scipy: sc, ok });
+        log(`${c.name}: pairflow ${fmtMs(pf.ms)} ms, scipy ${sc ? fmtMs(sc.ms) : '—'} ms${ok === false ? '  COST MISMATCH' : ''}`);
+      } else {
+        const steps = sequences.get(c.name)!;
+        const coldMs: number[] = [];
+        const warmMs: number[] = [];
+        let sameCost = true;
+        let ok: boolean | null = scipy === null ? null : true;
+        for (let rep = 0; rep < c.repeats; rep++) {
+          let prevWarm: SolveResult | null = null;
+          let coldSum = 0;
+          let warmSum = 0;
+          for (const [k, step] of steps.entries()) {
+            const inst = step.instance;
+            const t0 = performance.now();
+            const cold = solveSparse(inst);
+            const t1 = performance.now();
+            // The hints are mapped outside the timed region: the caller owns that step.
+            const hints: WarmStart | undefined = prevWarm === null ? undefined : warmFromPrevious(step, prevWarm);
+            const t2 = performance.now();
+            const warm: SolveResult = hints === undefined ? solveSparse(inst) : solveSparse(inst, { warm: hints });
+            const t3 = performance.now();
+            if (k > 0) {
+              coldSum += t1 - t0;
+              warmSum += t3 - t2;
+            }
+            if (rep === 0) {
+              const certified = checkCertificate(inst, cold).ok && checkCertificate(inst, warm).ok;
+              if (!certified || !relClose(cold.cost, warm.cost)) {
+                sameCost = false;
+                log(`  ${c.name} window ${k}: cold ${cold.cost} vs warm ${warm.cost}, certified ${certified}`);
+              }
+              const sc = scipyOf(scipy, `${c.name}#${k}`);
+              if (ok !== null && (sc === null || !relClose(cold.cost, sc.cost))) {
+                ok = false;
+                log(`  ${c.name} window ${k}: pairflow ${cold.cost} vs scipy ${sc?.cost}`);
+              }
+            }
+            prevWarm = warm;
+          }
+          coldMs.push(coldSum);
+          warmMs.push(warmSum);
+        }
+        const meanPairs = steps.reduce((a, s) => a + s.instance.colIdx.length, 0) / steps.length;
+        results.warm.push({ name: c.name, units: c.units, steps: c.steps, fraction: c.fraction, policy: c.policy, meanPairs, coldMs, warmMs, sameCost, ok });
+        log(`${c.name}: cold ${fmtMs(coldMs)} ms, warm ${fmtMs(warmMs)} ms over ${c.steps - 1} windows`);
+      }
+    }
+
+    const table = render(results, args.note);
+    if (args.json) process.stdout.write(`${JSON.stringify(results)}\n`);
+    else process.stdout.write(table);
+    if (args.write) {
+      const doc = new URL('../docs/benchmarks.md', import.meta.url).pathname;
+      writeSection(doc, 'solver', table);
+      log(`wrote the bench:solver section of ${doc}`);
+    }
+  } finally {
+    cleanup();
+  }
+}
+
+// ---------------------------------------------------------------- rendering
+
+function peerCell(out: PeerOutcome | 'skipped' | undefined, ref: number | undefined, capMs: number): string {
+  if (out === undefined) return '—';
+  if (out === 'skipped') return `> ${capMs / 1000} s (not run: capped on a smaller size)`;
+  if (out.capped) return `> ${capMs / 1000} s`;
+  if (out.error !== undefined || out.ms.length === 0) return `error`;
+  const wrong = ref !== undefined && out.cost !== undefined && !relClose(out.cost, ref) ? ' ≠ cost' : '';
+  return `${fmtMs(out.ms)}${wrong}`;
+}
+
+function peerMedian(out: PeerOutcome | 'skipped' | undefined): number | undefined {
+  if (out === undefined || out === 'skipped' || out.ms.length === 0) return undefined;
+  return median(out.ms);
+}
+
+function check(ok: boolean | null, certified: boolean): string {
+  if (ok === null) return certified ? 'certified (no scipy)' : '✗ certificate';
+  return ok ? '✓' : '✗';
+}
+
+function render(res: Results, note: string | null): string {
+  const m = res.machine;
+  const lines: string[] = [];
+  lines.push('## Solver (`npm run bench:solver`)', '');
+  lines.push(
+    `Run ${res.date.slice(0, 16).replace('T', ' ')} UTC, ${res.mode} mode, on ${m.cpu} (${m.cores} cores, ${m.memoryGb} GB), ` +
+      `Node ${m.node}, Python ${m.python ?? '—'}, scipy ${m.scipy ?? '—'}, numpy ${m.numpy ?? '—'}; 1-minute load at start ${m.loadAtStart.toFixed(2)}.`,
+  );
+  lines.push('');
+  lines.push(
+    'Times are milliseconds of the solve call alone (no parsing or instance building), median (min–max) over the repeats; ' +
+      'pairflow and the npm peers in Node, scipy timed inside Python with `time.perf_counter`. Ratios divide medians from this same run. ' +
+      `Each npm peer runs in a child process, stopped when one solve exceeds ${res.capMs / 1000} s. ` +
+      '"same cost" means pairflow\'s cost equals scipy\'s to 1e-9 relative and its dual certificate (SPEC §5) holds.',
+  );
+  if (note) lines.push('', note);
+
+  if (res.dense.length > 0) {
+    lines.push('', '### Dense, every pair allowed', '');
+    lines.push('Uniform costs: integers in 1..1000 (`int`) or reals in [1, 1000) (`float`); scipy is `scipy.optimize.linear_sum_assignment`.', '');
+    lines.push('| case | rows × cols | pairflow | scipy | munkres | linear-sum-assignment | munkres-js | pairflow/scipy | pairflow/munkres | same cost |');
+    lines.push('|---|---|---|---|---|---|---|---|---|---|');
+    for (const r of res.dense) {
+      const pf = median(r.pairflow.ms);
+      const sc = r.scipy ? median(r.scipy.ms) : undefined;
+      const mk = peerMedian(r.peers.munkres);
+      const mkOut = r.peers.munkres;
+      const munkresCapped = mkOut === 'skipped' || (mkOut !== undefined && mkOut.capped);
+      const munkresRatio = mk !== undefined ? fmtRatio(pf / mk) : munkresCapped ? `< ${fmtRatio(pf / res.capMs)}` : '—';
+      lines.push(
+        `| ${r.name} | ${r.nRows} × ${r.nCols} | ${fmtMs(r.pairflow.ms)} | ${r.scipy ? fmtMs(r.scipy.ms) : '—'} | ` +
+          `${PEERS.map((p) => peerCell(r.peers[p], r.scipy?.cost, res.capMs)).join(' | ')} | ` +
+          `${sc !== undefined ? fmtRatio(pf / sc) : '—'} | ${munkresRatio} | ${check(r.ok, r.pairflow.certified)} |`,
+      );
+    }
+  }
+
+  if (res.sparse.length > 0) {
+    lines.push('', '### Sparse, a perfect matching planted', '');
+    lines.push(
+      'n rows and n columns; each row lists one column of a random permutation plus random others, real costs in [1, 1000); ' +
+        'scipy is `scipy.sparse.csgraph.min_weight_full_bipartite_matching` on the same CSR arrays.',
+      '',
+    );
+    lines.push('| case | n per side | pairs per row | pairs | pairflow | scipy | pairflow/scipy | same cost |');
+    lines.push('|---|---|---|---|---|---|---|---|');
+    for (const r of res.sparse) {
+      const ratio = r.scipy ? fmtRatio(median(r.pairflow.ms) / median(r.scipy.ms)) : '—';
+      lines.push(
+        `| ${r.name} | ${r.n} | ${r.perRow} | ${r.pairs} | ${fmtMs(r.pairflow.ms)} | ${r.scipy ? fmtMs(r.scipy.ms) : '—'} | ${ratio} | ${check(r.ok, r.pairflow.certified)} |`,
+      );
+    }
+  }
+
+  if (res.warm.length > 0) {
+    lines.push('', '### Warm start against cold, on sequences of windows', '');
+    lines.push(
+      'One market on a square map; costs are travel minutes plus minutes waited, pairs allowed within 15 min of travel (SPEC §2 defaults, about 20 allowed supply per demand), δ = 30. ' +
+        'Between windows a share of the units is replaced: `random` removes that share of rows and of columns at random; `due` is SPEC §3\'s `commit: "due"`: that share of rows is at its last chance and leaves with its column, every other pair of the previous solution stays tentative. ' +
+        "Survivors' costs grow by the wait term. Warm passes the previous column prices, row prices and pairs (`opts.warm`); times are the sum over all windows but the first, median (min–max) over repeats. " +
+        '"same cost" compares warm with cold in every window (both certified); "scipy" checks every window against `min_weight_full_bipartite_matching` with one private column per row at cost δ.',
+      '',
+    );
+    lines.push('| case | units per side | windows | replaced | policy | mean pairs | cold ms | warm ms | warm/cold | same cost | scipy |');
+    lines.push('|---|---|---|---|---|---|---|---|---|---|---|');
+    for (const r of res.warm) {
+      lines.push(
+        `| ${r.name} | ${r.units} | ${r.steps} | ${Math.round(r.fraction * 100)} % | ${r.policy} | ${Math.round(r.meanPairs)} | ${fmtMs(r.coldMs)} | ${fmtMs(r.warmMs)} | ` +
+          `${fmtRatio(median(r.warmMs) / median(r.coldMs))} | ${r.sameCost ? '✓' : '✗'} | ${r.ok === null ? '—' : r.ok ? '✓' : '✗'} |`,
+      );
+    }
+  }
+
+  lines.push('', '### Targets', '');
+  lines.push(...targets(res));
+  return `${lines.join('\n')}\n`;
+}
+
+function targets(res: Results): string[] {
+  const out: string[] = [];
+  const mark = (pass: boolean | null) => (pass === null ? '—' : pass ? 'met' : '**missed**');
+  const big = res.dense.filter((r) => r.nRows >= 1000 && r.nRows === r.nCols && r.nRows <= 4000);
+  if (big.length > 0) {
+    const parts = big.map((r) => `${r.name} ${r.scipy ? fmtRatio(median(r.pairflow.ms) / median(r.scipy.ms)) : '—'}`);
+    const pass = big.every((r) => r.scipy !== null) ? big.every((r) => median(r.pairflow.ms) <= median(r.scipy!.ms)) : null;
+    out.push(`- Dense n = 1000…4000, pairflow ≤ 1.0× scipy: ${mark(pass)} (${parts.join(', ')}).`);
+  }
+  const vsMunkres = res.dense.filter((r) => Math.min(r.nRows, r.nCols) >= 300);
+  if (vsMunkres.length > 0) {
+    const parts: string[] = [];
+    let pass = true;
+    for (const r of vsMunkres) {
+      const mk = peerMedian(r.peers.munkres);
+      const pf = median(r.pairflow.ms);
+      if (mk !== undefined) {
+        parts.push(`${r.name} ${fmtRatio(pf / mk)}`);
+        if (pf >= mk) pass = false;
+      } else {
+        // munkres did not finish within the cap: faster iff pairflow did.
+        parts.push(`${r.name} munkres > cap`);
+        if (pf >= res.capMs) pass = false;
+      }
+    }
+    out.push(`- Faster than munkres at every size ≥ 300: ${mark(pass)} (pairflow/munkres: ${parts.join(', ')}).`);
+  }
+  const s200 = res.sparse.find((r) => r.n === 200_000 && r.perRow === 10);
+  if (s200) {
+    const ratio = s200.scipy ? median(s200.pairflow.ms) / median(s200.scipy.ms) : undefined;
+    out.push(`- Sparse 200k × 200k, 10 per row, pairflow ≤ 0.5× scipy: ${mark(ratio === undefined ? null : ratio <= 0.5)} (${fmtRatio(ratio)}).`);
+  }
+  if (res.warm.length > 0) {
+    const parts = res.warm.map((r) => `${r.name} ${fmtRatio(median(r.warmMs) / median(r.coldMs))}${r.sameCost ? '' : ' (cost differs!)'}`);
+    const pass = res.warm.every((r) => r.sameCost && median(r.warmMs) * 2 <= median(r.coldMs));
+    out.push(`- Warm ≥ 2× faster than cold with identical cost: ${mark(pass)} (warm/cold: ${parts.join(', ')}).`);
+  }
+  const checked = [...res.dense, ...res.sparse].every((r) => r.ok !== false) && res.warm.every((r) => r.ok !== false && r.sameCost);
+  out.push(`- Every pairflow result certified and equal to scipy's cost: ${checked ? 'yes' : '**no** (see ✗ above)'}.`);
+  return out;
+}
+
+main().catch((err: unknown) => {
+  process.stderr.write(`bench:solver failed: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}\n`);
+  process.exitCode = 1;
+});
