@@ -76,6 +76,13 @@ export function registerReplay(program: Command): void {
     .option('--no-warm', 'solve every epoch cold (no dual prices carried over)')
     .option('--no-hindsight', 'skip the hindsight optimum (regret and ratio are then null)')
     .option('--threads <n>', 'worker threads for the hindsight optimum (default: one per market, up to the cores)')
+    .addHelpText('after', `
+Output: cost = executed pair costs + abandonPenalty per demand never matched;
+regret = online - hindsight; ratio = online / hindsight (1 when both are 0).
+Waits are (decidedAt - demand t) in minutes over matched pairs; p95 interpolates
+linearly between order statistics (numpy's default); both are null with no match.
+Rejected lines are counted in "rejects", the first ${REJECTS_SHOWN} printed on stderr; --out DIR
+(rejects.jsonl) or --rejects FILE keeps them all. Exit: 0 ok, 2 usage/input, 1 other.`)
     .action(async (logs: string[], o: ReplayCliOptions) => {
       const windowMs = o.window !== undefined ? parseDuration(o.window, '--window') : undefined;
       const threads = o.threads !== undefined ? parseThreads(o.threads) : undefined;
