@@ -72,6 +72,15 @@ describe('pairflow gen', () => {
     expect(lines).not.toEqual([...lines].sort((p, q) => p - q));
   });
 
+  it('prints JSON Lines on stdout without --out, each line a valid event', async () => {
+    const r = await run(['gen', '--scale', '0.001', '--seed', '2']);
+    expect(r.code).toBe(0);
+    const lines = r.stdout.trimEnd().split('\n');
+    expect(lines.length).toBeGreaterThan(80);
+    const types = new Set(lines.map((l) => (JSON.parse(l) as { type: string }).type));
+    expect(types).toEqual(new Set(['supply', 'demand', 'withdraw']));
+  });
+
   it('exits 2 with a usage error for bad options', async () => {
     for (const args of [
       ['--out', join(dir, 'x.csv')],
