@@ -36,10 +36,12 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   let x = 0;
   let base = 0;
 
+  // ---- warm start: the repair of sparse.ts (see there), with whole-row scans.
   if (warm !== undefined && warm.rowToCol !== undefined) {
     const wCol = warm.colPrices;
     const wRow = warm.rowPrices;
     const wPair = warm.rowToCol;
+    let nPairs = 0;
     for (r = 0; r < nRows; r++) {
       j = wPair[r]!;
       if (j < 0 || j >= nCols || colToRow[j] !== NONE) continue;
@@ -53,26 +55,61 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
       v[j] = p < 0 ? p : 0;
       colToRow[j] = r;
       rowToCol[r] = j;
-      usedWarm = true;
+      nPairs++;
     }
-    for (r = 0; r < nRows; r++) {
-      const jr = rowToCol[r]!;
-      if (jr === NONE) continue;
-      base = r * nCols;
-      let m = delta !== null ? delta[r]! : Infinity;
-      for (j = 0; j < nCols; j++) {
-        if (j === jr) continue;
-        x = cost[base + j]! - v[j]!;
-        if (x < m) m = x;
+    if (nPairs > 0) {
+      usedWarm = true;
+      const moves = new Uint8Array(nCols);
+      const queue = new Int32Array(nRows);
+      const queued = new Uint8Array(nRows);
+      let qHead = 0;
+      let qLen = 0;
+      for (r = 0; r < nRows; r++) {
+        if (rowToCol[r] === NONE) continue;
+        queue[(qHead + qLen++) % nRows] = r;
+        queued[r] = 1;
       }
-      scannedPairs += nCols;
-      const c = cost[base + jr]!;
-      const a = c - v[jr]!;
-      if (a > m) {
-        v[jr] = c - m;
-        u[r] = m;
-      } else {
-        u[r] = a;
+      while (qLen > 0) {
+        r = queue[qHead]!;
+        qHead = (qHead + 1) % nRows;
+        qLen--;
+        queued[r] = 0;
+        const jr = rowToCol[r]!;
+        if (jr === NONE) continue;
+        base = r * nCols;
+        let m = delta !== null ? delta[r]! : Infinity;
+        for (j = 0; j < nCols; j++) {
+          if (j === jr) continue;
+          x = cost[base + j]! - v[j]!;
+          if (x < m) m = x;
+        }
+        scannedPairs += nCols;
+        const c = cost[base + jr]!;
+        const a = c - v[jr]!;
+        if (a <= m) {
+          u[r] = a;
+          continue;
+        }
+        const need = c - m;
+        let next: number;
+        let kept = true;
+        if (need <= 0 && moves[jr]! < 2) {
+          next = need;
+        } else {
+          rowToCol[r] = NONE;
+          colToRow[jr] = NONE;
+          next = 0;
+          kept = false;
+        }
+        moves[jr] = moves[jr]! + 1;
+        if (!(next > v[jr]!)) continue;
+        v[jr] = next;
+        if (kept) u[r] = c - next;
+        for (let i = 0; i < nRows; i++) {
+          if (i === r || queued[i] === 1 || rowToCol[i] === NONE || !(cost[i * nCols + jr]! < Infinity)) continue;
+          queue[(qHead + qLen++) % nRows] = i;
+          queued[i] = 1;
+        }
       }
     }
   }
@@ -80,6 +117,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   let freeRows = new Int32Array(nRows);
   let nFree = 0;
   for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
+  const warmPairsKept = nRows - nFree;
   let nextRows = new Int32Array(nRows);
   for (let pass = 0; pass < 2 && nFree > 0; pass++) {
     let nNext = 0;
@@ -150,6 +188,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
     nFree = nNext;
   }
 
+  const searchedRows = nFree;
   if (nFree > 0) {
     const dist = new Float64Array(nCols);
     const pred = new Int32Array(nCols);
@@ -178,24 +217,8 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
             privRow = i;
           }
         }
-        const rowBase = i * nCols;
-        const off = base - ui;
-        let lowest = Infinity;
-        let at = NONE;
-        for (let t = 0; t < nRem; t++) {
-          j = remaining[t]!;
-          x = off + cost[rowBase + j]! - v[j]!;
-          let s = dist[j]!;
-          if (x < s) {
-            pred[j] = i;
-            dist[j] = x;
-            s = x;
-          }
-          if (s < lowest || (s === lowest && s < Infinity && colToRow[j] === NONE)) {
-            lowest = s;
-            at = t;
-          }
-        }
+        const at = relaxRow(cost, i * nCols, base - ui, i, v, dist, pred, remaining, nRem, colToRow);
+        const lowest = at === NONE ? Infinity : dist[remaining[at]!]!;
         scannedPairs += nRem;
         if (at === NONE || lowest > bestPriv) {
           if (bestPriv === Infinity) throw infeasibleRow(r0);
@@ -259,5 +282,44 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
     scannedPairs,
     ms: now() - t0,
     warm: usedWarm,
+    warmPairsKept,
+    searchedRows,
   });
+}
+
+/**
+ * One step of the dense search: relaxes row `i` (at distance offset `off`) against
+ * the unsettled columns and returns the position in `remaining` of the closest one,
+ * preferring a free column on ties (it ends the search sooner), or NONE. Kept small
+ * and separate so the engine optimises this hot loop on its own.
+ */
+function relaxRow(
+  cost: Float64Array,
+  rowBase: number,
+  off: number,
+  i: number,
+  v: Float64Array,
+  dist: Float64Array,
+  pred: Int32Array,
+  remaining: Int32Array,
+  nRem: number,
+  colToRow: Int32Array,
+): number {
+  let lowest = Infinity;
+  let at = NONE;
+  for (let t = 0; t < nRem; t++) {
+    const j = remaining[t]!;
+    const x = off + cost[rowBase + j]! - v[j]!;
+    let s = dist[j]!;
+    if (x < s) {
+      pred[j] = i;
+      dist[j] = x;
+      s = x;
+    }
+    if (s <= lowest && (s < lowest || (s < Infinity && colToRow[j] === NONE))) {
+      lowest = s;
+      at = t;
+    }
+  }
+  return at;
 }

@@ -44,42 +44,77 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   let r = 0;
   let x = 0;
 
-  // ---- warm start: keep every still-allowed previous pair, lowering its column's
-  // price just enough to make it tight and feasible. Lowering a matched column's
-  // price never breaks another row's feasibility, so every such pair survives, and
-  // columns without a pair restart at price 0 (garbage prices cannot leak into a
-  // column that ends free).
-  if (warm !== undefined) {
+  // ---- warm start. Previous pairs that are still allowed start matched, at the
+  // previous column prices (clamped to ≤ 0); every other column restarts at 0, so a
+  // garbage price can never be left on a column that ends free. A kept pair must be
+  // the row's cheapest option at these prices; when it is not, its column's price is
+  // raised just enough (at most twice per column, never above 0), or else the pair is
+  // dropped and the column goes back to 0. A raise can spoil the pairs of rows that
+  // also reach that column, so those are re-checked from a worklist: prices only
+  // rise and each column moves at most three times, so the repair ends, and what
+  // survives satisfies the same invariants as a cold start.
+  if (warm !== undefined && warm.rowToCol !== undefined) {
     const wCol = warm.colPrices;
     const wRow = warm.rowPrices;
     const wPair = warm.rowToCol;
-    if (wPair !== undefined) {
-      const pairEdge = new Int32Array(nRows).fill(NONE);
-      for (r = 0; r < nRows; r++) {
-        j = wPair[r]!;
-        if (j < 0 || j >= nCols || colToRow[j] !== NONE) continue;
-        end = rowPtr[r + 1]!;
-        let found = NONE;
-        for (e = rowPtr[r]!; e < end; e++) {
-          if (colIdx[e] === j) {
-            found = e;
-            break;
-          }
+    const pairEdge = new Int32Array(nRows).fill(NONE);
+    let nPairs = 0;
+    for (r = 0; r < nRows; r++) {
+      j = wPair[r]!;
+      if (j < 0 || j >= nCols || colToRow[j] !== NONE) continue;
+      end = rowPtr[r + 1]!;
+      let found = NONE;
+      for (e = rowPtr[r]!; e < end; e++) {
+        if (colIdx[e] === j) {
+          found = e;
+          break;
         }
-        scannedPairs += end - rowPtr[r]!;
-        if (found === NONE) continue;
-        let p = wCol !== undefined ? wCol[j]! : NaN;
-        if (!Number.isFinite(p)) {
-          const q = wRow !== undefined ? wRow[r]! : NaN;
-          p = Number.isFinite(q) ? cost[found]! - q : 0;
-        }
-        v[j] = p < 0 ? p : 0;
-        colToRow[j] = r;
-        rowToCol[r] = j;
-        pairEdge[r] = found;
-        usedWarm = true;
       }
+      scannedPairs += end - rowPtr[r]!;
+      if (found === NONE) continue;
+      let p = wCol !== undefined ? wCol[j]! : NaN;
+      if (!Number.isFinite(p)) {
+        const q = wRow !== undefined ? wRow[r]! : NaN;
+        p = Number.isFinite(q) ? cost[found]! - q : 0;
+      }
+      v[j] = p < 0 ? p : 0;
+      colToRow[j] = r;
+      rowToCol[r] = j;
+      pairEdge[r] = found;
+      nPairs++;
+    }
+    if (nPairs > 0) {
+      usedWarm = true;
+      // rows by column (CSC) of the pairs' rows only, for the re-check worklist
+      const colPtr = new Int32Array(nCols + 1);
       for (r = 0; r < nRows; r++) {
+        if (pairEdge[r] === NONE) continue;
+        end = rowPtr[r + 1]!;
+        for (e = rowPtr[r]!; e < end; e++) colPtr[colIdx[e]! + 1]!++;
+      }
+      for (j = 0; j < nCols; j++) colPtr[j + 1]! += colPtr[j]!;
+      const colRows = new Int32Array(colPtr[nCols]!);
+      const fillAt = colPtr.slice(0, nCols);
+      for (r = 0; r < nRows; r++) {
+        if (pairEdge[r] === NONE) continue;
+        end = rowPtr[r + 1]!;
+        for (e = rowPtr[r]!; e < end; e++) colRows[fillAt[colIdx[e]!]!++] = r;
+      }
+      const moves = new Uint8Array(nCols);
+      const queue = new Int32Array(nRows);
+      const queued = new Uint8Array(nRows);
+      let qHead = 0;
+      let qLen = 0;
+      for (r = 0; r < nRows; r++) {
+        if (pairEdge[r] === NONE) continue;
+        queue[(qHead + qLen++) % nRows] = r;
+        queued[r] = 1;
+      }
+      while (qLen > 0) {
+        r = queue[qHead]!;
+        qHead = (qHead + 1) % nRows;
+        qLen--;
+        queued[r] = 0;
         const ej = pairEdge[r]!;
         if (ej === NONE) continue;
         j = colIdx[ej]!;
@@ -92,11 +127,30 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
         }
         scannedPairs += end - rowPtr[r]!;
         const a = cost[ej]! - v[j]!;
-        if (a > m) {
-          v[j] = cost[ej]! - m;
-          u[r] = m;
-        } else {
+        if (a <= m) {
           u[r] = a;
+          continue;
+        }
+        const need = cost[ej]! - m;
+        let next: number;
+        if (need <= 0 && moves[j]! < 2) {
+          next = need;
+        } else {
+          pairEdge[r] = NONE;
+          rowToCol[r] = NONE;
+          colToRow[j] = NONE;
+          next = 0;
+        }
+        moves[j] = moves[j]! + 1;
+        if (!(next > v[j]!)) continue;
+        v[j] = next;
+        if (pairEdge[r] !== NONE) u[r] = cost[ej]! - next;
+        const stop = colPtr[j + 1]!;
+        for (let t = colPtr[j]!; t < stop; t++) {
+          const i = colRows[t]!;
+          if (i === r || queued[i] === 1 || pairEdge[i] === NONE) continue;
+          queue[(qHead + qLen++) % nRows] = i;
+          queued[i] = 1;
         }
       }
     }
@@ -108,6 +162,7 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   let freeRows = new Int32Array(nRows);
   let nFree = 0;
   for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
+  const warmPairsKept = nRows - nFree;
   let nextRows = new Int32Array(nRows);
   for (let pass = 0; pass < 2 && nFree > 0; pass++) {
     let nNext = 0;
@@ -181,6 +236,7 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
 
   // ---- shortest augmenting paths (Dijkstra on reduced costs, indexed binary heap,
   // lazy reset of only what each search touched).
+  const searchedRows = nFree;
   if (nFree > 0) {
     const dist = new Float64Array(nCols).fill(Infinity);
     const pred = new Int32Array(nCols);
@@ -349,6 +405,8 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
     scannedPairs,
     ms: now() - t0,
     warm: usedWarm,
+    warmPairsKept,
+    searchedRows,
   });
 }
 

@@ -53,6 +53,10 @@ export interface SolveStats {
   ms: number;
   /** Whether a warm start was used. */
   warm: boolean;
+  /** Warm pairs still matched after the price repair (0 when cold). */
+  warmPairsKept?: number;
+  /** Rows left for shortest-path search after the warm start and greedy passes. */
+  searchedRows?: number;
 }
 
 export interface SolveResult {

@@ -1,0 +1,133 @@
+import { describe, expect, it } from 'vitest';
+import { checkCertificate, solveDense, solveSparse } from '../../../src/matching/index.js';
+import type { DenseInstance, SolveResult, SparseInstance, WarmStart } from '../../../src/matching/types.js';
+import { bruteForce, denseToSparse, mulberry32, randInt, randomDense, WindowSequence, type CostKind } from './gen.js';
+
+function sameCost(a: number, b: number): boolean {
+  return Math.abs(a - b) <= 1e-9 * Math.max(1, Math.abs(a), Math.abs(b));
+}
+
+/** Random garbage: prices of any sign and size (or NaN), pairs to any index, repeated, or -1. */
+function garbageWarm(rand: () => number, nRows: number, nCols: number): WarmStart {
+  const price = (): number => {
+    const p = rand();
+    if (p < 0.15) return NaN;
+    if (p < 0.3) return (rand() - 0.5) * 1e6;
+    return (rand() - 0.7) * 50;
+  };
+  const rowToCol = Int32Array.from({ length: nRows }, () => (rand() < 0.2 ? -1 : randInt(rand, -2, nCols + 1)));
+  return {
+    ...(rand() < 0.8 ? { colPrices: Float64Array.from({ length: nCols }, price) } : {}),
+    ...(rand() < 0.5 ? { rowPrices: Float64Array.from({ length: nRows }, price) } : {}),
+    rowToCol,
+  };
+}
+
+describe('solveSparse()/solveDense() with a garbage warm start', () => {
+  it('still reach the exact optimum (exhaustive search) with a valid certificate, 800 seeded cases', () => {
+    // Reference: exhaustive enumeration (common practice) for tiny instances.
+    const kinds: CostKind[] = ['ties', 'negative', 'uniform'];
+    for (let seed = 1; seed <= 800; seed++) {
+      const rand = mulberry32(90_000 + seed);
+      const d = randomDense(rand, {
+        nRows: randInt(rand, 1, 6),
+        nCols: randInt(rand, 1, 6),
+        kind: kinds[seed % 3]!,
+        forbidden: [0, 0.3][seed % 2]!,
+        withDelta: seed % 4 !== 0,
+      });
+      const want = bruteForce(d);
+      if (want === Infinity) continue;
+      const warm = garbageWarm(rand, d.nRows, d.nCols);
+      const label = `seed ${90_000 + seed}`;
+      const rd = solveDense(d, { warm });
+      expect(checkCertificate(d, rd).problems, label).toEqual([]);
+      expect(sameCost(rd.cost, want), `${label}: ${rd.cost} vs ${want}`).toBe(true);
+      const s = denseToSparse(d, rand);
+      const rs = solveSparse(s, { warm });
+      expect(checkCertificate(s, rs).problems, label).toEqual([]);
+      expect(sameCost(rs.cost, want), `${label}: ${rs.cost} vs ${want}`).toBe(true);
+    }
+  });
+
+  it('negative warm prices on columns that end free are reset, so those columns end at price 0', () => {
+    // Hand-worked: one row, δ = 5, columns cost 1 and 2; warm says column 1 at -100.
+    const inst: SparseInstance = {
+      nRows: 1,
+      nCols: 2,
+      rowPtr: Int32Array.of(0, 2),
+      colIdx: Int32Array.of(0, 1),
+      cost: Float64Array.of(1, 2),
+      unmatchedCost: Float64Array.of(5),
+    };
+    const res = solveSparse(inst, { warm: { colPrices: Float64Array.of(-100, -100), rowToCol: Int32Array.of(1) } });
+    expect(res.cost).toBe(1);
+    expect([...res.rowToCol]).toEqual([0]);
+    expect(res.colDuals[1]).toBe(0);
+    expect(checkCertificate(inst, res).ok).toBe(true);
+  });
+});
+
+function runSequence(seed: number, commit: 'all' | 'due', replace: number, steps: number): { cold: number; warm: number } {
+  const seq = new WindowSequence(seed, { nDemand: 150, nSupply: 140, k: 12, replace, commit, waitPerStep: 0.4, defer: 3 });
+  let coldWork = 0;
+  let warmWork = 0;
+  for (let t = 0; t < steps; t++) {
+    const label = `seed ${seed} ${commit} step ${t}`;
+    const cold = solveSparse(seq.inst);
+    const warm = solveSparse(seq.inst, seq.warm !== undefined ? { warm: seq.warm } : {});
+    expect(checkCertificate(seq.inst, cold).problems, label).toEqual([]);
+    expect(checkCertificate(seq.inst, warm).problems, label).toEqual([]);
+    expect(sameCost(cold.cost, warm.cost), `${label}: ${cold.cost} vs ${warm.cost}`).toBe(true);
+    coldWork += cold.stats.scannedPairs;
+    warmWork += warm.stats.scannedPairs;
+    seq.advance(warm);
+  }
+  return { cold: coldWork, warm: warmWork };
+}
+
+describe('warm start on window sequences', () => {
+  it.each([
+    [11, 'all', 0.2],
+    [12, 'all', 0.5],
+    [13, 'due', 0.2],
+    [14, 'due', 0.5],
+  ] as const)('seed %i, commit "%s", %f replaced: warm and cold give the same cost and both certify', (seed, commit, replace) => {
+    runSequence(seed, commit, replace, 15);
+  });
+
+  it('a warm start from the previous optimum, with every row shifted by its own wait term, needs no search', () => {
+    // Shifting all of a row's costs by a constant keeps every previous pair optimal
+    // (common practice: row reduction), so the repaired warm start is already optimal.
+    for (let seed = 1; seed <= 20; seed++) {
+      const rand = mulberry32(31_000 + seed);
+      const n = randInt(rand, 20, 60);
+      const d = randomDense(rand, { nRows: n, nCols: n + 5, kind: 'uniform', forbidden: 0.5, withDelta: true });
+      const first = solveDense(d);
+      const shifted = new Float64Array(d.cost);
+      const delta = new Float64Array(d.unmatchedCost!);
+      for (let r = 0; r < n; r++) {
+        const w = rand() * 3;
+        for (let j = 0; j < d.nCols; j++) shifted[r * d.nCols + j]! += w;
+        delta[r]! += w;
+      }
+      const next: DenseInstance = { ...d, cost: shifted, unmatchedCost: delta };
+      const warm: WarmStart = { colPrices: first.colDuals, rowToCol: first.rowToCol };
+      const cold = solveDense(next);
+      const hot = solveDense(next, { warm });
+      const label = `seed ${31_000 + seed}`;
+      expect(sameCost(cold.cost, hot.cost), label).toBe(true);
+      expect(checkCertificate(next, hot).problems, label).toEqual([]);
+      // every previously matched row keeps its pair, so only the unmatched ones are searched
+      const matched = first.rowToCol.filter((j) => j >= 0).length;
+      expect(hot.stats.warmPairsKept, label).toBe(matched);
+      expect(hot.stats.augmentations, label).toBe(0);
+      const s = denseToSparse(next);
+      const hotSparse = solveSparse(s, { warm });
+      expect(hotSparse.stats.augmentations, label).toBe(0);
+      expect(sameCost(hotSparse.cost, cold.cost), label).toBe(true);
+    }
+  });
+});
+
+export type { SolveResult };
