@@ -395,7 +395,16 @@ function javaArgs(settings, paths, libDir, mainClass, extra) {
   return args.concat(extra);
 }
 
-function cleanInstance(paths) {
+/**
+ * Deletes an instance's data and state. The named `up` instance keeps its directory (and
+ * last broker.log) for a look after `down`; per-run instances go entirely, so test runs
+ * do not pile up directories in the cache.
+ */
+function cleanInstance(paths, instance) {
+  if (instance !== undefined && instance !== DEFAULT_INSTANCE) {
+    rmSync(paths.dir, { recursive: true, force: true });
+    return;
+  }
   rmSync(paths.dataDir, { recursive: true, force: true });
   rmSync(paths.stateFile, { force: true });
 }
@@ -531,15 +540,19 @@ async function stopProcess(pid, marker, graceMs = 30_000) {
   return true;
 }
 
-/** Removes instances whose broker is gone (a crashed or killed run left them behind). */
+/**
+ * Removes instances whose broker is gone (a crashed or killed run, or a failed start whose
+ * log was kept for a look), except ones being started right now (their lock exists).
+ */
 function sweepStaleInstances(settings, except) {
   let names = [];
   try { names = readdirSync(settings.instancesDir, { withFileTypes: true }).filter((d) => d.isDirectory()).map((d) => d.name); } catch { return; }
   for (const name of names) {
     if (name === except || name.endsWith('.lock')) continue;
     const paths = instancePaths(settings, name);
+    if (existsSync(paths.lock)) continue;
     const state = readState(paths);
-    if (state && !processMatches(state.pid, paths.dir)) cleanInstance(paths);
+    if (!state || !processMatches(state.pid, paths.dir)) cleanInstance(paths, name);
   }
 }
 
@@ -558,7 +571,7 @@ export async function stopBroker(options = {}) {
     stopped = await stopProcess(state.pid, paths.dir);
     if (state.watchdog) { try { process.kill(state.watchdog, 'SIGTERM'); } catch { /* already gone */ } }
   }
-  cleanInstance(paths);
+  cleanInstance(paths, instance);
   return { stopped, instance };
 }
 

@@ -3,8 +3,8 @@
  * start/reuse/stop cycle of a private instance (with the cached artifacts; no network
  * beyond 127.0.0.1).
  */
-import { spawn } from 'node:child_process';
-import { existsSync, mkdtempSync, rmSync } from 'node:fs';
+import { spawn, spawnSync } from 'node:child_process';
+import { existsSync, mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
@@ -87,7 +87,14 @@ describe('failures name their cause', () => {
 describe.skipIf(!hasJava && !isCi)('a private broker instance', () => {
   it('startBroker() starts, reuses while running, and stopBroker() leaves no process and no data', async () => {
     const instance = uniqueName('cycle');
+    // What a killed run leaves behind: a state file naming a process that is gone.
+    const stale = join(brokerSettings().instancesDir, uniqueName('stale'));
+    mkdirSync(join(stale, 'data'), { recursive: true });
+    const gonePid = spawnSync('true').pid;
+    writeFileSync(join(stale, 'state.json'), JSON.stringify({ instance: 'stale', pid: gonePid, brokerPort: 1 }));
+
     const first = await startBroker({ instance });
+    expect(existsSync(stale), 'a stale instance is swept on start').toBe(false);
     try {
       expect(first.started).toBe(true);
       expect(first.brokers).toMatch(/^127\.0\.0\.1:\d+$/);
@@ -104,7 +111,7 @@ describe.skipIf(!hasJava && !isCi)('a private broker instance', () => {
     }
     expect(await waitGone(first.pid)).toBe(true);
     expect(brokerStatus().find((s) => s.instance === instance)).toBeUndefined();
-    expect(existsSync(join(brokerSettings().instancesDir, instance, 'data'))).toBe(false);
+    expect(existsSync(join(brokerSettings().instancesDir, instance))).toBe(false);
     expect((await stopBroker({ instance })).stopped).toBe(false);
   });
 
