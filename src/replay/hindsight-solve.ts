@@ -67,6 +67,11 @@ export interface HindsightMarketOptions {
    * @default 6
    */
   candidatesPerDemand?: number;
+  /**
+   * Pairs added per demand in each pricing round: its most negative reduced costs.
+   * @default 2
+   */
+  addPerRow?: number;
   /** Clock for `ms`. @default performance.now */
   now?: () => number;
 }
@@ -88,6 +93,8 @@ export interface HindsightMarketDetail {
 
 /** @default candidatesPerDemand */
 export const DEFAULT_CANDIDATES_PER_DEMAND = 6;
+/** @default addPerRow */
+export const DEFAULT_ADD_PER_ROW = 2;
 
 // A non-candidate pair prices out below this (relative to its cost): well under the
 // certificate's 1e-9 yet above the rounding of duals built from sums of costs.
@@ -104,40 +111,135 @@ function find(parent: Int32Array, x: number): number {
   return r;
 }
 
-/** Marks, per row, its k cheapest pairs that cost less than `limit`. */
+/**
+ * Marks the k cheapest pairs (cost < `limit`) of every row and of every column: a
+ * supply that is nobody's favourite still gets its best demands, so the first prices
+ * are not blind to it.
+ */
 function markCheapest(g: AllowedGraph, k: number, limit: number, inCand: Uint8Array): void {
-  const scratch: number[] = [];
-  for (let r = 0; r < g.nRows; r++) {
-    const start = g.rowPtr[r]!;
-    const end = g.rowPtr[r + 1]!;
-    scratch.length = 0;
-    for (let e = start; e < end; e++) if (g.cost[e]! < limit) scratch.push(g.cost[e]!);
-    if (scratch.length <= k) {
-      for (let e = start; e < end; e++) if (g.cost[e]! < limit) inCand[e] = 1;
-      continue;
+  const { nRows, nCols, rowPtr, colIdx, cost } = g;
+  // Per-row (then per-column) best k by insertion into a small sorted buffer.
+  const bestCost = new Float64Array(k);
+  const bestEdge = new Int32Array(k);
+  let n = 0;
+  const offer = (e: number, c: number): void => {
+    if (n === k && c >= bestCost[k - 1]!) return;
+    let p = n < k ? n++ : k - 1;
+    while (p > 0 && bestCost[p - 1]! > c) {
+      bestCost[p] = bestCost[p - 1]!;
+      bestEdge[p] = bestEdge[p - 1]!;
+      p--;
     }
-    scratch.sort((a, b) => a - b);
-    const cut = scratch[k - 1]!;
-    let taken = 0;
-    for (let e = start; e < end && taken < k; e++) {
-      if (g.cost[e]! < cut) {
-        inCand[e] = 1;
-        taken++;
-      }
+    bestCost[p] = c;
+    bestEdge[p] = e;
+  };
+  for (let r = 0; r < nRows; r++) {
+    n = 0;
+    for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) if (cost[e]! < limit) offer(e, cost[e]!);
+    for (let q = 0; q < n; q++) inCand[bestEdge[q]!] = 1;
+  }
+  // Pairs grouped by column (CSC order of the edge ids).
+  const colPtr = new Int32Array(nCols + 1);
+  for (let e = 0; e < colIdx.length; e++) colPtr[colIdx[e]! + 1]!++;
+  for (let c = 0; c < nCols; c++) colPtr[c + 1]! += colPtr[c]!;
+  const fill = colPtr.slice(0, nCols);
+  const byCol = new Int32Array(colIdx.length);
+  for (let e = 0; e < colIdx.length; e++) byCol[fill[colIdx[e]!]!++] = e;
+  for (let c = 0; c < nCols; c++) {
+    n = 0;
+    for (let q = colPtr[c]!; q < colPtr[c + 1]!; q++) {
+      const e = byCol[q]!;
+      if (cost[e]! < limit) offer(e, cost[e]!);
     }
-    for (let e = start; e < end && taken < k; e++) {
-      if (g.cost[e]! === cut) {
-        inCand[e] = 1;
-        taken++;
-      }
-    }
+    for (let q = 0; q < n; q++) inCand[bestEdge[q]!] = 1;
   }
 }
 
+/** What one time segment of a market yields. */
+interface SegmentResult {
+  cost: number;
+  matched: number;
+  pairsPriced: number;
+  pairsSolved: number;
+  pricingRounds: number;
+  ceiling: number;
+  demandCost: Float64Array;
+  graph: AllowedGraph;
+  rowDuals: Float64Array;
+  colDuals: Float64Array;
+  rowToCol: Int32Array;
+  solves: number;
+  warmRetries: number;
+}
+
 /**
- * Solves one packed market exactly. `solve` is the sparse assignment solver (the
- * caller passes `solveSparse`); it is injected so this module stays free of imports
- * a worker would not need.
+ * Splits a market where no unit spans a gap in time: sorted by arrival, a new
+ * segment starts at an arrival later than every `end` before it. No pair crosses a
+ * cut, so segments solve independently, and only one segment's pairs are held in
+ * memory at a time (a week of a city is seven nights apart).
+ * Returns, per unit, its segment: demand first, then supply.
+ */
+function timeSegments(m: PackedMarket): { count: number; demandSeg: Int32Array; supplySeg: Int32Array } {
+  const n = m.nDemand + m.nSupply;
+  const at = new Float64Array(n);
+  at.set(m.demandT, 0);
+  at.set(m.supplyT, m.nDemand);
+  const order = new Int32Array(n);
+  for (let i = 0; i < n; i++) order[i] = i;
+  order.sort((a, b) => at[a]! - at[b]! || a - b);
+  const demandSeg = new Int32Array(m.nDemand);
+  const supplySeg = new Int32Array(m.nSupply);
+  let count = 0;
+  let reach = -Infinity;
+  for (let q = 0; q < n; q++) {
+    const u = order[q]!;
+    const isDemand = u < m.nDemand;
+    const i = isDemand ? u : u - m.nDemand;
+    const t = at[u]!;
+    const end = isDemand ? m.demandEnd[i]! : m.supplyEnd[i]!;
+    if (q === 0 || t > reach) count++;
+    if (end > reach) reach = end;
+    if (isDemand) demandSeg[i] = count - 1;
+    else supplySeg[i] = count - 1;
+  }
+  return { count, demandSeg, supplySeg };
+}
+
+/** The units of one segment as a packed market of their own (same relative order). */
+function subMarket(m: PackedMarket, dIdx: Int32Array, sIdx: Int32Array): PackedMarket {
+  const w = m.capWords;
+  const pick = (src: Float64Array, idx: Int32Array): Float64Array => {
+    const out = new Float64Array(idx.length);
+    for (let i = 0; i < idx.length; i++) out[i] = src[idx[i]!]!;
+    return out;
+  };
+  const bits = (src: Uint32Array, idx: Int32Array): Uint32Array => {
+    const out = new Uint32Array(idx.length * w);
+    for (let i = 0; i < idx.length; i++) out.set(src.subarray(idx[i]! * w, idx[i]! * w + w), i * w);
+    return out;
+  };
+  return {
+    nDemand: dIdx.length,
+    nSupply: sIdx.length,
+    demandT: pick(m.demandT, dIdx),
+    demandEnd: pick(m.demandEnd, dIdx),
+    demandA: pick(m.demandA, dIdx),
+    demandB: pick(m.demandB, dIdx),
+    supplyT: pick(m.supplyT, sIdx),
+    supplyEnd: pick(m.supplyEnd, sIdx),
+    supplyA: pick(m.supplyA, sIdx),
+    supplyB: pick(m.supplyB, sIdx),
+    capWords: w,
+    demandNeeds: bits(m.demandNeeds, dIdx),
+    supplyHas: bits(m.supplyHas, sIdx),
+  };
+}
+
+/**
+ * Solves one packed market exactly, time segment by time segment. `solve` is the
+ * sparse assignment solver (the caller passes `solveSparse`); it is injected so this
+ * module stays free of imports a worker would not need. With `wantDetail` the
+ * segments' graphs and prices are put back together into market-wide ones.
  */
 export function solvePackedMarket(
   market: string,
@@ -145,10 +247,112 @@ export function solvePackedMarket(
   config: PairflowConfig,
   solve: SparseSolver,
   opts: HindsightMarketOptions = {},
-): HindsightMarketResult & HindsightDemandCosts & { detail: HindsightMarketDetail } {
+  wantDetail = false,
+): HindsightMarketResult & HindsightDemandCosts & { detail: HindsightMarketDetail | null } {
   const now = opts.now ?? (() => performance.now());
-  const k = Math.max(1, Math.floor(opts.candidatesPerDemand ?? DEFAULT_CANDIDATES_PER_DEMAND));
   const t0 = now();
+  const out = {
+    market,
+    demandUnits: m.nDemand,
+    supplyUnits: m.nSupply,
+    cost: 0,
+    matched: 0,
+    abandoned: 0,
+    pairsPriced: 0,
+    pairsSolved: 0,
+    pricingRounds: 0,
+    ceiling: 0,
+    ms: 0,
+    demandT: m.demandT.slice(),
+    demandCost: new Float64Array(m.nDemand),
+    detail: null as HindsightMarketDetail | null,
+  };
+  const { count, demandSeg, supplySeg } = timeSegments(m);
+  // Unit indices per segment, by counting sort (indices stay ascending).
+  const group = (seg: Int32Array): { start: Int32Array; idx: Int32Array } => {
+    const start = new Int32Array(count + 1);
+    for (let i = 0; i < seg.length; i++) start[seg[i]! + 1]!++;
+    for (let q = 0; q < count; q++) start[q + 1]! += start[q]!;
+    const fill = start.slice(0, count);
+    const idx = new Int32Array(seg.length);
+    for (let i = 0; i < seg.length; i++) idx[fill[seg[i]!]!++] = i;
+    return { start, idx };
+  };
+  const ds = group(demandSeg);
+  const ss = group(supplySeg);
+  const parts: Array<{ dIdx: Int32Array; sIdx: Int32Array; r: SegmentResult }> = [];
+  let solves = 0;
+  let warmRetries = 0;
+  for (let q = 0; q < count; q++) {
+    const dIdx = ds.idx.subarray(ds.start[q]!, ds.start[q + 1]!);
+    const sIdx = ss.idx.subarray(ss.start[q]!, ss.start[q + 1]!);
+    if (dIdx.length === 0 && !wantDetail) continue;
+    const sub = count === 1 ? m : subMarket(m, dIdx, sIdx);
+    const r = solveSegment(sub, config, solve, opts, now);
+    for (let i = 0; i < dIdx.length; i++) out.demandCost[dIdx[i]!] = r.demandCost[i]!;
+    out.matched += r.matched;
+    out.pairsPriced += r.pairsPriced;
+    out.pairsSolved += r.pairsSolved;
+    out.pricingRounds = Math.max(out.pricingRounds, r.pricingRounds);
+    out.ceiling += r.ceiling;
+    solves += r.solves;
+    warmRetries += r.warmRetries;
+    if (wantDetail) parts.push({ dIdx, sIdx, r });
+  }
+  // Summed in occurrence order, so the total does not depend on how segments fell.
+  for (let i = 0; i < m.nDemand; i++) out.cost += out.demandCost[i]!;
+  out.abandoned = m.nDemand - out.matched;
+  if (wantDetail) out.detail = mergeDetail(m, parts, solves, warmRetries);
+  out.ms = now() - t0;
+  return out;
+}
+
+function mergeDetail(
+  m: PackedMarket,
+  parts: ReadonlyArray<{ dIdx: Int32Array; sIdx: Int32Array; r: SegmentResult }>,
+  solves: number,
+  warmRetries: number,
+): HindsightMarketDetail {
+  const rowDuals = new Float64Array(m.nDemand);
+  const colDuals = new Float64Array(m.nSupply);
+  const rowToCol = new Int32Array(m.nDemand).fill(-1);
+  const rowPtr = new Int32Array(m.nDemand + 1);
+  let nnz = 0;
+  for (const { dIdx, r } of parts) {
+    nnz += r.graph.colIdx.length;
+    for (let i = 0; i < dIdx.length; i++) rowPtr[dIdx[i]! + 1] = r.graph.rowPtr[i + 1]! - r.graph.rowPtr[i]!;
+  }
+  for (let d = 0; d < m.nDemand; d++) rowPtr[d + 1]! += rowPtr[d]!;
+  const colIdx = new Int32Array(nnz);
+  const cost = new Float64Array(nnz);
+  for (const { dIdx, sIdx, r } of parts) {
+    const g = r.graph;
+    for (let i = 0; i < dIdx.length; i++) {
+      const d = dIdx[i]!;
+      rowDuals[d] = r.rowDuals[i]!;
+      const c = r.rowToCol[i]!;
+      rowToCol[d] = c >= 0 ? sIdx[c]! : -1;
+      let at = rowPtr[d]!;
+      for (let e = g.rowPtr[i]!; e < g.rowPtr[i + 1]!; e++) {
+        colIdx[at] = sIdx[g.colIdx[e]!]!;
+        cost[at] = g.cost[e]!;
+        at++;
+      }
+    }
+    for (let j = 0; j < sIdx.length; j++) colDuals[sIdx[j]!] = r.colDuals[j]!;
+  }
+  return { graph: { nRows: m.nDemand, nCols: m.nSupply, rowPtr, colIdx, cost }, rowDuals, colDuals, rowToCol, solves, warmRetries };
+}
+
+/** The exact optimum of one time segment (or of a market that has just one). */
+function solveSegment(
+  m: PackedMarket,
+  config: PairflowConfig,
+  solve: SparseSolver,
+  opts: HindsightMarketOptions,
+  now: () => number,
+): SegmentResult {
+  const k = Math.max(1, Math.floor(opts.candidatesPerDemand ?? DEFAULT_CANDIDATES_PER_DEMAND));
   const P = config.abandonPenalty;
   const g = buildAllowedGraph(m, config);
   const { nRows, nCols, rowPtr, colIdx, cost } = g;
@@ -206,9 +410,20 @@ export function solvePackedMarket(
   const rowDuals = new Float64Array(nRows).fill(P);
   const colDuals = new Float64Array(nCols);
   const rowToCol = new Int32Array(nRows).fill(-1);
+  // Each row's "unmatched" option is handed to the solver as an explicit private
+  // column of cost P, so a warm start can say "this row stays unmatched" and the
+  // solver only re-augments the rows that gained pairs. Raw prices from that form:
+  const rawRowDuals = new Float64Array(nRows);
+  const privateDuals = new Float64Array(nRows);
+
   const solved = new Uint8Array(nComp);
   const dirty = new Uint8Array(nComp).fill(1);
   let pricingRounds = 0;
+  const addPerRow = Math.max(1, Math.floor(opts.addPerRow ?? DEFAULT_ADD_PER_ROW));
+  const addRed = new Float64Array(addPerRow);
+  const addEdge = new Int32Array(addPerRow);
+  // Rows that gained pairs since their component's last solve.
+  const grown = new Uint8Array(nRows);
   let warmRetries = 0;
   let solves = 0;
 
@@ -223,14 +438,29 @@ export function solvePackedMarket(
     let violators = 0;
     for (let r = 0; r < nRows; r++) {
       const u = rowDuals[r]!;
+      let nb = 0;
       for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
         if (inCand[e] === 1) continue;
         const c = cost[e]!;
-        if (c - u - colDuals[colIdx[e]!]! < -PRICE_TOL * (1 + Math.abs(c))) {
-          inCand[e] = 1;
-          dirty[rowComp[r]!] = 1;
-          violators++;
+        const red = c - u - colDuals[colIdx[e]!]!;
+        if (red >= -PRICE_TOL * (1 + Math.abs(c))) continue;
+        violators++;
+        // Keep the addPerRow most negative: adding every violator at once floods
+        // the restricted solve with pairs that the next prices no longer want.
+        if (nb === addPerRow && red >= addRed[nb - 1]!) continue;
+        let p = nb < addPerRow ? nb++ : addPerRow - 1;
+        while (p > 0 && addRed[p - 1]! > red) {
+          addRed[p] = addRed[p - 1]!;
+          addEdge[p] = addEdge[p - 1]!;
+          p--;
         }
+        addRed[p] = red;
+        addEdge[p] = e;
+      }
+      if (nb > 0) {
+        for (let q = 0; q < nb; q++) inCand[addEdge[q]!] = 1;
+        dirty[rowComp[r]!] = 1;
+        grown[r] = 1;
       }
     }
     if (violators === 0) break;
@@ -258,20 +488,19 @@ export function solvePackedMarket(
   const ceiling = maxCardinalityMatching(g).size;
 
   return {
-    market,
-    demandUnits: nRows,
-    supplyUnits: nCols,
     cost: total,
     matched,
-    abandoned: nRows - matched,
     pairsPriced: nnz,
     pairsSolved,
     pricingRounds,
     ceiling,
-    ms: now() - t0,
-    demandT: m.demandT.slice(),
     demandCost,
-    detail: { graph: g, rowDuals, colDuals, rowToCol, solves, warmRetries },
+    graph: g,
+    rowDuals,
+    colDuals,
+    rowToCol,
+    solves,
+    warmRetries,
   };
 
   function solveComponent(q: number): void {
@@ -281,7 +510,7 @@ export function solvePackedMarket(
     const ptr = new Int32Array(nr + 1);
     for (let i = 0; i < nr; i++) {
       const r = rows[i]!;
-      let deg = 0;
+      let deg = 1;
       for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) deg += inCand[e]!;
       ptr[i + 1] = ptr[i]! + deg;
     }
@@ -292,42 +521,36 @@ export function solvePackedMarket(
     for (let i = 0; i < nr; i++) {
       const r = rows[i]!;
       for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-        if (inCand[e] === 0) continue;
         const c = colIdx[e]!;
+        // Every column of the component is reached by a useful pair of one of its
+        // rows, candidate or not.
+        if (colComp[c] === q) colGlobal[colLocal[c]!] = c;
+        if (inCand[e] === 0) continue;
         cols[at] = colLocal[c]!;
         costs[at] = cost[e]!;
         at++;
       }
+      cols[at] = nc + i;
+      costs[at] = P;
+      at++;
     }
-    // Every column of the component is reached by a useful pair of one of its rows,
-    // candidate or not.
-    for (let i = 0; i < nr; i++) {
-      const r = rows[i]!;
-      for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-        const c = colIdx[e]!;
-        if (colComp[c] === q) colGlobal[colLocal[c]!] = c;
-      }
-    }
-    const inst: SparseInstance = {
-      nRows: nr,
-      nCols: nc,
-      rowPtr: ptr,
-      colIdx: cols,
-      cost: costs,
-      unmatchedCost: new Float64Array(nr).fill(P),
-    };
+    const inst: SparseInstance = { nRows: nr, nCols: nc + nr, rowPtr: ptr, colIdx: cols, cost: costs, unmatchedCost: null };
     let solveOpts: SolveOptions;
     if (solved[q] === 1) {
       const rowPrices = new Float64Array(nr);
       const prevMatch = new Int32Array(nr);
+      const colPrices = new Float64Array(nc + nr);
+      for (let j = 0; j < nc; j++) colPrices[j] = colDuals[colGlobal[j]!]!;
       for (let i = 0; i < nr; i++) {
         const r = rows[i]!;
-        rowPrices[i] = rowDuals[r]!;
+        rowPrices[i] = rawRowDuals[r]!;
+        colPrices[nc + i] = privateDuals[r]!;
         const c = rowToCol[r]!;
-        prevMatch[i] = c >= 0 ? colLocal[c]! : -1;
+        // A row that gained a pair pricing out below its match lets go of it: the
+        // warm start then never has to raise a price to keep that pair tight.
+        prevMatch[i] = grown[r] === 1 ? -1 : c >= 0 ? colLocal[c]! : nc + i;
+        grown[r] = 0;
       }
-      const colPrices = new Float64Array(nc);
-      for (let j = 0; j < nc; j++) colPrices[j] = colDuals[colGlobal[j]!]!;
       solveOpts = { warm: { rowPrices, colPrices, rowToCol: prevMatch }, now };
     } else {
       solveOpts = { now };
@@ -345,15 +568,21 @@ export function solvePackedMarket(
       const rep = checkCertificate(inst, res);
       if (!rep.ok) {
         throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', {
-          detail: `hindsight market ${market}: solver prices do not certify optimality: ${rep.problems.slice(0, 3).join('; ')}`,
+          detail: `hindsight: solver prices do not certify optimality: ${rep.problems.slice(0, 3).join('; ')}`,
         });
       }
     }
     for (let i = 0; i < nr; i++) {
       const r = rows[i]!;
-      rowDuals[r] = res.rowDuals[i]!;
       const c = res.rowToCol[i]!;
-      rowToCol[r] = c >= 0 ? colGlobal[c]! : -1;
+      rowToCol[r] = c >= 0 && c < nc ? colGlobal[c]! : -1;
+      const vp = res.colDuals[nc + i]!;
+      rawRowDuals[r] = res.rowDuals[i]!;
+      privateDuals[r] = vp;
+      // Back to the form of SPEC §5: u' = u + v_private ≤ P. It is ≤ u, so still
+      // feasible, and Σu' + Σv over real columns equals the same objective (a free
+      // private column has price 0, a taken one makes u' = P exactly).
+      rowDuals[r] = res.rowDuals[i]! + vp;
     }
     for (let j = 0; j < nc; j++) colDuals[colGlobal[j]!] = res.colDuals[j]!;
   }

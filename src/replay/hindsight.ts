@@ -93,7 +93,8 @@ export function solveHindsightMarketDetailed(
   opts: HindsightMarketOptions = {},
 ): HindsightMarketResult & HindsightDemandCosts & { detail: HindsightMarketDetail } {
   const market = occurrences[0]?.market ?? '';
-  return solvePackedMarket(market, packMarket(occurrences, config), config, solveSparse, opts);
+  const { detail, ...r } = solvePackedMarket(market, packMarket(occurrences, config), config, solveSparse, opts, true);
+  return { ...r, detail: detail! };
 }
 
 /** The compiled worker entry: `dist/replay/` seen from both `src/replay/` and `dist/replay/`. */

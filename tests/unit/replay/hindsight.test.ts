@@ -50,6 +50,8 @@ function smallLog(seed: number, size = 1): SmallLog {
   const nMarkets = randInt(rand, 1, 3);
   const spanMs = randInt(rand, 10, 40) * 60_000;
   const t0 = 1_700_000_000_000 + randInt(rand, 0, 1e9);
+  // Now and then a second burst two hours later: a time gap splits the market.
+  const gapMs = rand() < 0.3 ? 2 * 3_600_000 : 0;
   const events: PairflowEvent[] = [];
   for (let mk = 0; mk < nMarkets; mk++) {
     const market = `m${mk}`;
@@ -69,7 +71,7 @@ function smallLog(seed: number, size = 1): SmallLog {
     for (let a = 0; a < nArrivals; a++) {
       const type = rand() < 0.5 ? 'demand' : 'supply';
       const id = `${market}-${type[0]}${randInt(rand, 0, pool - 1)}`;
-      const t = t0 + randInt(rand, 0, spanMs);
+      const t = t0 + randInt(rand, 0, spanMs) + (a % 2 === 1 ? gapMs : 0);
       const until = rand() < 0.25 ? t + randInt(rand, 0, 20 * 60_000) : null;
       const ev = {
         type,
@@ -213,6 +215,35 @@ describe('solveHindsightMarket()', () => {
       expect(atP).toBeGreaterThanOrEqual(r.abandoned);
       expect(r.matched + r.abandoned).toBe(demand.length);
     }
+  });
+
+  it('splits a market at time gaps: the whole equals its parts solved alone, per demand', () => {
+    const log = smallLog(99, 3);
+    const { occurrences } = buildOccurrences(sorted(log.events), log.config);
+    const one = [...byMarket(occurrences).values()][0]!;
+    const dayMs = 86_400_000;
+    const later = one.map((o, i) => ({ ...o, index: one.length + i, t: o.t + dayMs, until: o.until + dayMs, end: o.end + dayMs }));
+    // Interleave the two days in the occurrence list: order within a side must survive.
+    const both: Occurrence[] = [];
+    one.forEach((o, i) => both.push(o, later[i]!));
+    const whole = solveHindsightMarketDetailed(both, log.config);
+    const part = solveHindsightMarket(one, log.config);
+    expect(part.matched).toBeGreaterThan(0);
+    expect(close(whole.cost, 2 * part.cost)).toBe(true);
+    expect(whole.matched).toBe(2 * part.matched);
+    expect(whole.ceiling).toBe(2 * part.ceiling);
+    expect(whole.pairsPriced).toBe(2 * part.pairsPriced);
+    const pairs = Array.from(part.demandCost);
+    expect(Array.from(whole.demandCost)).toEqual(pairs.flatMap((c) => [c, c]));
+    // The merged prices still certify the whole market.
+    const { graph, rowDuals, colDuals, rowToCol } = whole.detail;
+    const colToRow = new Int32Array(graph.nCols).fill(-1);
+    rowToCol.forEach((c, row) => {
+      if (c >= 0) colToRow[c] = row;
+    });
+    const inst = { ...graph, unmatchedCost: new Float64Array(graph.nRows).fill(log.config.abandonPenalty) };
+    const rep = checkCertificate(inst, { cost: whole.cost, rowToCol, colToRow, rowDuals, colDuals, stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false } });
+    expect(rep.ok, rep.problems.join('; ')).toBe(true);
   });
 
   it('handles a market with no demand, or no supply', () => {
