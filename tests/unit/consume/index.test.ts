@@ -6,15 +6,15 @@ import { gzipSync } from 'node:zlib';
 import { afterAll, describe, expect, it } from 'vitest';
 import { formatReject, loadLog, logFormatOf, readLogFile, type LogItem } from '../../../src/consume/index.js';
 import { toEventRecord } from '../../../src/consume/schema.js';
-import type { PairflowEvent } from '../../../src/model.js';
+import type { ArrivalEvent, PairflowEvent } from '../../../src/model.js';
 import { writeAvro } from './avro-files.js';
 
 const dir = mkdtempSync(join(tmpdir(), 'pairflow-consume-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 const T0 = 1_772_409_600_000; // 2026-03-02T00:00:00Z
-const sup = (id: string, t: number): PairflowEvent => ({ type: 'supply', id, market: 'm', t, until: null, lat: 46.5, lon: -31.25 });
-const dem = (id: string, t: number): PairflowEvent => ({ type: 'demand', id, market: 'm', t, until: null, lat: 46.51, lon: -31.2 });
+const sup = (id: string, t: number): ArrivalEvent => ({ type: 'supply', id, market: 'm', t, until: null, lat: 46.5, lon: -31.25 });
+const dem = (id: string, t: number): ArrivalEvent => ({ type: 'demand', id, market: 'm', t, until: null, lat: 46.51, lon: -31.2 });
 
 async function items(path: string, seqStart?: number): Promise<LogItem[]> {
   const out: LogItem[] = [];
