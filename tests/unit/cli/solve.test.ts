@@ -361,6 +361,19 @@ describe('solveInstance()', () => {
     });
   });
 
+  it('--unmatched-cost overrides the instance\'s own, and with --maximize it is a value earned', () => {
+    const input = parseSolveInput('{"rows": 2, "cols": 1, "pairs": [[0, 0, 5], [1, 0, 3]], "unmatchedCost": 100}', 'u.json');
+    // By hand: with δ = 100 one row takes the column at 3 and the other pays 100.
+    expect(solveInstance(input, {}).cost).toBe(103);
+    // δ = 4 overrides: row 1 takes the column (3), row 0 pays 4 rather than 5 → 7.
+    const cheap = solveInstance(input, { unmatchedCost: 4 });
+    expect([cheap.cost, cheap.pairs]).toEqual([7, [[1, 0]]]);
+    // Maximising weights with ω = 4: row 0 takes weight 5, row 1 keeps 4 → 9.
+    const best = solveInstance(input, { unmatchedCost: 4, maximize: true });
+    expect([best.cost, best.pairs]).toEqual([9, [[0, 0]]]);
+    expect(best.rowDuals[1]).toBeGreaterThanOrEqual(4);
+  });
+
   it('times only the solver call with the injected clock', () => {
     const input = parseSolveInput('1,2\n3,4\n', 'm.csv');
     let ticks = 0;
