@@ -6,12 +6,14 @@
  * and seed give the same result, wall-clock figures (under `timings`) aside.
  */
 import { existsSync } from 'node:fs';
+import { mkdir, writeFile } from 'node:fs/promises';
 import { availableParallelism } from 'node:os';
-import { basename } from 'node:path';
+import { basename, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import PQueue from 'p-queue';
 import { loadLog } from '../consume/index.js';
+import { buildManifest, csvRow } from '../emit/index.js';
 import { pairflowError, PairflowError, type ErrorCode, type ErrorParams } from '../errors.js';
 import type { PairflowConfig, Reject, SourcedEvent } from '../model.js';
 import { bootstrapWindows, bucketPlan, bucketSums, type BucketPlan } from './bootstrap.js';
@@ -38,8 +40,15 @@ export interface SweepOptions {
   hindsight?: HindsightResult;
   /** Wall clock for timings. @default performance.now */
   now?: () => number;
-  /** Called as windows finish. */
-  onProgress?: (done: number, total: number) => void;
+  /** Called as markets of the hindsight optimum, then windows, finish. */
+  onProgress?: (done: number, total: number, phase: 'hindsight' | 'windows') => void;
+  /**
+   * Directory for sweep.json, sweep.csv and manifest.json (inputs by checksum, config,
+   * windows, bootstrap seed), so the sweep can be reproduced. @default none
+   */
+  outDir?: string;
+  /** The command line, recorded in manifest.json. @default ['runSweep'] */
+  command?: string[];
   /** Non-fatal notes (e.g. the compiled worker is missing, running in-thread). */
   onWarn?: (message: string) => void;
   onReject?: (r: Reject) => void;
@@ -162,7 +171,56 @@ export async function runSweep(paths: readonly string[], config: PairflowConfig,
   const now = opts.now ?? defaultNow;
   const start = now();
   const loaded = await loadLog([...paths], { metric: config.metric, strict: opts.strict ?? false, onReject: opts.onReject });
-  return sweepLoaded(loaded, config, { ...opts, now }, { loadMs: now() - start, start });
+  const result = await sweepLoaded(loaded, config, { ...opts, now }, { loadMs: now() - start, start });
+  if (opts.outDir !== undefined) await writeSweepDir(opts.outDir, result, loaded, config, opts);
+  return result;
+}
+
+/** Files of a sweep directory (`--out DIR`). */
+export const SWEEP_FILES = { result: 'sweep.json', table: 'sweep.csv', manifest: 'manifest.json' } as const;
+
+async function writeSweepDir(dir: string, result: SweepResult, loaded: LoadedLog, config: PairflowConfig, opts: SweepOptions): Promise<void> {
+  try {
+    await mkdir(dir, { recursive: true });
+    await writeFile(join(dir, SWEEP_FILES.result), `${JSON.stringify(result, null, 2)}\n`);
+    await writeFile(join(dir, SWEEP_FILES.table), sweepCsv(result));
+    const manifest = buildManifest({
+      command: opts.command ?? ['runSweep'],
+      inputs: loaded.inputs,
+      config,
+      options: {
+        windows: result.windows.map((w) => w.windowMs),
+        bootstrap: result.bootstrap?.resamples ?? 0,
+        seed: result.bootstrap?.seed ?? null,
+        warm: result.warm,
+        strict: opts.strict ?? false,
+      },
+      outputs: Object.values(SWEEP_FILES),
+    });
+    await writeFile(join(dir, SWEEP_FILES.manifest), `${JSON.stringify(manifest, null, 2)}\n`);
+  } catch (err) {
+    const code = (err as NodeJS.ErrnoException).code ?? String(err);
+    throw pairflowError('PAIRFLOW_ERR_OUTPUT_WRITE', { file: dir, detail: code }, err);
+  }
+}
+
+/** Header of the sweep CSV: one row per window. */
+export const SWEEP_CSV_HEADER = [
+  'window_ms', 'online_cost', 'matched', 'abandoned', 'mean_wait_min', 'p95_wait_min', 'regret', 'ratio',
+  'cost_lo', 'cost_hi', 'regret_lo', 'regret_hi', 'best_share', 'best',
+] as const;
+
+/** The sweep as CSV text (RFC 4180). */
+export function sweepCsv(r: SweepResult): string {
+  let out = csvRow(SWEEP_CSV_HEADER);
+  for (const w of r.windows) {
+    out += csvRow([
+      w.windowMs, w.online.cost, w.online.matched, w.online.abandoned, w.online.meanWaitMin, w.online.p95WaitMin,
+      w.regret, w.ratio, w.interval?.cost[0], w.interval?.cost[1], w.interval?.regret[0], w.interval?.regret[1],
+      w.bestShare, w.windowMs === r.best.windowMs ? 1 : 0,
+    ]);
+  }
+  return out;
 }
 
 /** {@link runSweep} on a log already loaded. */
@@ -186,7 +244,10 @@ export async function sweepLoaded(
 
   // One hindsight optimum for every window: it does not depend on W.
   const hStart = now();
-  const hindsight = opts.hindsight ?? (await solveHindsight(events, config, { threads }));
+  const hindsight = opts.hindsight ?? (await solveHindsight(events, config, {
+    threads,
+    onProgress: (d, t) => opts.onProgress?.(d, t, 'hindsight'),
+  }));
   const hindsightMs = opts.hindsight ? null : now() - hStart;
 
   const wStart = now();
@@ -207,7 +268,7 @@ export async function sweepLoaded(
         ? await pool.run(windowMs)
         : await replayEvents(events, { ...config, windowMs }, { warm, plan, now });
       done += 1;
-      opts.onProgress?.(done, windows.length);
+      opts.onProgress?.(done, windows.length, 'windows');
     })));
   } finally {
     await pool?.close();

@@ -4,10 +4,10 @@
  * in parallel, each reported with a bootstrap interval, and the best one named.
  */
 import type { Command } from 'commander';
-import { csvRow, TextFileWriter } from '../../emit/index.js';
+import { TextFileWriter } from '../../emit/index.js';
 import { pairflowError } from '../../errors.js';
 import { formatWindow, textTable } from '../../replay/summary.js';
-import { runSweep, type SweepResult } from '../../replay/sweep.js';
+import { runSweep, sweepCsv, type SweepResult } from '../../replay/sweep.js';
 import { resolveConfig } from '../config-file.js';
 import { parseDuration, parseNumber } from '../parse.js';
 import { parseThreads, rejectReporter } from './replay.js';
@@ -43,25 +43,6 @@ export function parseWindows(text: string): number[] {
   const parts = text.split(',').map((p) => p.trim()).filter((p) => p !== '');
   if (parts.length === 0) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--windows', detail: `'${text}' names no window (expected e.g. 1s,5s,30s)` });
   return parts.map((p) => parseDuration(p, '--windows'));
-}
-
-/** Header of `--csv`: one row per window. */
-export const SWEEP_CSV_HEADER = [
-  'window_ms', 'online_cost', 'matched', 'abandoned', 'mean_wait_min', 'p95_wait_min', 'regret', 'ratio',
-  'cost_lo', 'cost_hi', 'regret_lo', 'regret_hi', 'best_share', 'best',
-] as const;
-
-/** The sweep as CSV text (RFC 4180). */
-export function sweepCsv(r: SweepResult): string {
-  let out = csvRow(SWEEP_CSV_HEADER);
-  for (const w of r.windows) {
-    out += csvRow([
-      w.windowMs, w.online.cost, w.online.matched, w.online.abandoned, w.online.meanWaitMin, w.online.p95WaitMin,
-      w.regret, w.ratio, w.interval?.cost[0], w.interval?.cost[1], w.interval?.regret[0], w.interval?.regret[1],
-      w.bestShare, w.windowMs === r.best.windowMs ? 1 : 0,
-    ]);
-  }
-  return out;
 }
 
 const n2 = (v: number | null | undefined): string => (v === null || v === undefined ? '–' : v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 }));
@@ -105,6 +86,7 @@ interface SweepCliOptions {
   config?: string;
   json?: boolean;
   csv?: string;
+  out?: string;
   threads?: string;
   bootstrap?: string;
   seed?: string;
@@ -127,6 +109,7 @@ export function registerSweep(program: Command): void {
     .option('--config <file>', 'JSON config of SPEC §2 (its windowMs is ignored)')
     .option('--json', 'print one JSON object on stdout')
     .option('--csv <file>', 'also write the table as CSV')
+    .option('--out <dir>', 'write sweep.json, sweep.csv and manifest.json (inputs by sha256, config, windows, seed)')
     .option('--threads <n>', 'worker threads (default: the number of cores; 1 = in this thread)')
     .option('--bootstrap <n>', 'bootstrap resamples over days (hours for logs under 2 days); 0 = none', '1000')
     .option('--seed <s>', 'seed of the bootstrap', '1')
@@ -148,7 +131,9 @@ export function registerSweep(program: Command): void {
         warm: o.warm,
         ...(threads !== undefined ? { threads } : {}),
         onReject: rejects.onReject,
-        onProgress: (done, total) => progress.update(done, total, `${done}/${total} windows`),
+        onProgress: (done, total, phase) => progress.update(done, total, phase === 'hindsight' ? `hindsight: ${done}/${total} markets` : `${done}/${total} windows`),
+        ...(o.out !== undefined ? { outDir: o.out } : {}),
+        command: ['pairflow', ...process.argv.slice(2)],
         onWarn: (msg) => process.stderr.write(`pairflow: ${msg}\n`),
       });
       progress.done();

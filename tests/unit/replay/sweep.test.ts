@@ -1,4 +1,5 @@
-import { existsSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { createHash } from 'node:crypto';
+import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -82,6 +83,20 @@ describe('runSweep()', () => {
     const two = await runSweep([week], config, { windows, threads: 2, bootstrap: 200, seed: 2 });
     expect(two.timings.threads).toBe(2);
     expect(withoutTimings(two)).toEqual({ ...(withoutTimings(one) as object), timings: null });
+  });
+
+  it('outDir keeps the result, its CSV and a manifest with the inputs\' checksums and the seed', async () => {
+    const out = join(dir, 'sweep-out');
+    const r = await runSweep([week], config, { windows: [5000, 30_000], threads: 1, bootstrap: 50, seed: 77, outDir: out, command: ['test'] });
+    expect(JSON.parse(readFileSync(join(out, 'sweep.json'), 'utf8'))).toEqual(JSON.parse(JSON.stringify(r)));
+    const manifest = JSON.parse(readFileSync(join(out, 'manifest.json'), 'utf8')) as { inputs: { sha256: string }[]; options: { seed: number; windows: number[] }; config: PairflowConfig };
+    // Outside check: node:crypto's sha256 of the file's bytes.
+    expect(manifest.inputs[0]!.sha256).toBe(createHash('sha256').update(readFileSync(week)).digest('hex'));
+    expect(manifest.options).toMatchObject({ seed: 77, windows: [5000, 30_000], bootstrap: 50 });
+    expect(manifest.config).toEqual(config);
+    const csv = readFileSync(join(out, 'sweep.csv'), 'utf8').split('\r\n').filter((l) => l !== '');
+    expect(csv).toHaveLength(3);
+    expect(csv[1]!.split(',')[0]).toBe('5000');
   });
 
   it('rejects an empty window list', async () => {
