@@ -102,7 +102,8 @@ function parseHeader(buf: Buffer, atEnd: boolean): Header | 'more' | string {
   let type: avro.Type;
   try {
     type = avro.Type.forSchema(JSON.parse(schemaText.toString('utf8')), {
-      typeHook: (schema) => (schema === 'long' || (typeof schema === 'object' && schema !== null && (schema as { type?: unknown }).type === 'long' && !('logicalType' in schema)) ? LenientLong : undefined),
+      // Logical types are not enabled, so a timestamp-millis long is a plain long too.
+      typeHook: (schema) => (schema === 'long' || (typeof schema === 'object' && schema !== null && (schema as { type?: unknown }).type === 'long') ? LenientLong : undefined),
     });
   } catch (err) {
     return `Avro header holds an unusable schema: ${(err as Error).message}`;
@@ -120,6 +121,9 @@ function decodeBlock(header: Header, data: Buffer, count: number): unknown[] | s
       return `deflate data damaged (${(err as Error).message})`;
     }
   }
+  // Every event record takes at least one byte; a larger count is damage, and
+  // refusing it keeps a zero-width writer schema from looping over a huge count.
+  if (count > body.length) return `block claims ${count} records in ${body.length} bytes`;
   const values: unknown[] = [];
   let pos = 0;
   for (let i = 0; i < count; i += 1) {

@@ -97,6 +97,26 @@ describe('readLogFile()', () => {
     expect(rej?.kind === 'reject' && rej.reject.pos).toEqual({ file: avroPath, line: 5, block: 0, record: 4 });
   });
 
+  it('reads an Avro file written with another schema of the same field names (enum type, timestamp-millis, string time)', async () => {
+    const schema = {
+      type: 'record', name: 'Other', fields: [
+        { name: 'type', type: { type: 'enum', name: 'Kind', symbols: ['supply', 'demand', 'withdraw'] } },
+        { name: 'id', type: 'string' }, { name: 'market', type: 'string' },
+        { name: 't', type: { type: 'long', logicalType: 'timestamp-millis' } },
+        { name: 'until', type: ['null', 'string'], default: null },
+        { name: 'lat', type: 'double' }, { name: 'lon', type: 'double' },
+      ],
+    };
+    const path = join(dir, 'other.avro');
+    await writeAvro(path, [
+      { type: 'demand', id: 'd1', market: 'm', t: T0, until: '2026-03-02T00:10:00Z', lat: 1, lon: 2 },
+      { type: 'supply', id: 's1', market: 'm', t: T0 + 5, until: null, lat: 100, lon: 2 },
+    ], { schema });
+    const got = await items(path);
+    expect(got.map((it) => it.kind)).toEqual(['event', 'reject']);
+    expect(got[0]!.kind === 'event' && got[0]!.ev.event).toEqual({ type: 'demand', id: 'd1', market: 'm', t: T0, until: T0 + 600_000, lat: 1, lon: 2 });
+  });
+
   it('sets input with size, sha256 and line count once iterated', async () => {
     const path = write('hash.jsonl.gz', gzipSync(`${mixed}\n`));
     const reader = readLogFile(path, { metric: 'haversine' });
