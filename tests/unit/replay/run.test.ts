@@ -152,8 +152,8 @@ describe('runReplay()', () => {
   const demo = new URL('../../../replay-logs/', import.meta.url).pathname;
   const haveDemo = existsSync(join(demo, 'demo-day.jsonl.gz')) && existsSync(join(demo, 'demo-day.avro'));
   it.skipIf(!haveDemo && process.env.CI !== 'true')('replaying the bundled demo day from .jsonl.gz and from .avro gives the same summary', async () => {
-    const a = await runReplay([join(demo, 'demo-day.jsonl.gz')], config, { hindsight: false });
-    const b = await runReplay([join(demo, 'demo-day.avro')], config, { hindsight: false });
+    const a = await runReplay([join(demo, 'demo-day.jsonl.gz')], { ...config, windowMs: 30_000 }, { hindsight: false });
+    const b = await runReplay([join(demo, 'demo-day.avro')], { ...config, windowMs: 30_000 }, { hindsight: false });
     const { inputs: ia, ...sa } = stable(a);
     const { inputs: ib, ...sb } = stable(b);
     expect(ia).toEqual(['demo-day.jsonl.gz']);
