@@ -270,22 +270,24 @@ export async function loadLog(paths: string[], opts: LoadLogOptions): Promise<{ 
   let lastT = -Infinity;
   for (const path of paths) {
     const reader = readLogBatches(path, { metric: opts.metric, seqStart: events.length });
-    for await (const batch of reader) for (const item of batch) {
-      if (item.kind === 'event') {
-        if (item.ev.event.t < lastT) sorted = false;
-        lastT = item.ev.event.t;
-        events.push(item.ev);
-      } else {
-        if (opts.strict) {
-          const r = item.reject;
-          throw pairflowError('PAIRFLOW_ERR_INPUT_REJECT', {
-            file: r.pos.file,
-            line: r.pos.line,
-            detail: `${r.pos.block === undefined ? '' : `${describePosition(r.pos)}: `}${r.reason}`,
-          });
+    for await (const batch of reader) {
+      for (const item of batch) {
+        if (item.kind === 'event') {
+          if (item.ev.event.t < lastT) sorted = false;
+          lastT = item.ev.event.t;
+          events.push(item.ev);
+        } else {
+          if (opts.strict) {
+            const r = item.reject;
+            throw pairflowError('PAIRFLOW_ERR_INPUT_REJECT', {
+              file: r.pos.file,
+              line: r.pos.line,
+              detail: `${r.pos.block === undefined ? '' : `${describePosition(r.pos)}: `}${r.reason}`,
+            });
+          }
+          rejects.push(item.reject);
+          opts.onReject?.(item.reject);
         }
-        rejects.push(item.reject);
-        opts.onReject?.(item.reject);
       }
     }
     if (reader.input) inputs.push(reader.input);
