@@ -3,7 +3,7 @@
  * Python) and the npm assignment packages, on the same seeded instances in one run.
  *
  *   tsx bench/solver.ts [--quick] [--case NAME[,NAME…]] [--no-write] [--json]
- *                       [--cap SECONDS] [--note TEXT] [--list]
+ *                       [--cap SECONDS] [--pairflow-cap SECONDS] [--note TEXT] [--list]
  *
  * --case selects cases by exact name or name prefix (`--case dense-int`, `--case sparse`).
  * --quick runs tiny sizes (the unit suite smoke-runs it). The markdown table goes to
@@ -15,10 +15,11 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
-import { checkCertificate, solveDense, solveSparse } from '../src/matching/index.js';
-import type { DenseInstance, SolveResult, SparseInstance, WarmStart } from '../src/matching/types.js';
+import { checkCertificate, solveSparse } from '../src/matching/index.js';
+import type { SolveResult, SparseInstance, WarmStart } from '../src/matching/types.js';
 import {
   PEERS,
+  runPairflow,
   runPeer,
   runScipy,
   scipyAvailable,
@@ -105,13 +106,15 @@ interface Args {
   write: boolean;
   json: boolean;
   capMs: number;
+  pairflowCapMs: number;
   note: string | null;
   list: boolean;
 }
 
 function parseArgs(argv: string[]): Args {
-  const args: Args = { quick: false, select: null, write: true, json: false, capMs: 0, note: null, list: false };
+  const args: Args = { quick: false, select: null, write: true, json: false, capMs: 0, pairflowCapMs: 0, note: null, list: false };
   let cap: number | null = null;
+  let pfCap: number | null = null;
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i]!;
     const value = () => {
@@ -124,12 +127,14 @@ function parseArgs(argv: string[]): Args {
     else if (a === '--no-write') args.write = false;
     else if (a === '--json') args.json = true;
     else if (a === '--cap') cap = Number(value()) * 1000;
+    else if (a === '--pairflow-cap') pfCap = Number(value()) * 1000;
     else if (a === '--note') args.note = value();
     else if (a === '--list') args.list = true;
     else throw new Error(`unknown argument ${a} (see the comment at the top of bench/solver.ts)`);
   }
   args.capMs = cap ?? (args.quick ? 10_000 : 30_000);
-  if (!(args.capMs > 0)) throw new Error('--cap must be a positive number of seconds');
+  args.pairflowCapMs = pfCap ?? (args.quick ? 30_000 : 300_000);
+  if (!(args.capMs > 0) || !(args.pairflowCapMs > 0)) throw new Error('--cap and --pairflow-cap take a positive number of seconds');
   return args;
 }
 
@@ -141,22 +146,16 @@ interface Timed {
   ms: number[];
   cost: number;
   certified: boolean;
+  /** The first solve ran past the cap and was stopped (ms empty, cost NaN). */
+  capped: boolean;
 }
 
-/** Times `repeats` solves, stopping early once `budgetMs` is spent (at least one solve). */
-function timeSolve<I extends DenseInstance | SparseInstance>(inst: I, solve: (i: I) => SolveResult, repeats: number, budgetMs: number): Timed {
-  const ms: number[] = [];
-  let result: SolveResult | null = null;
-  let spent = 0;
-  for (let k = 0; k < repeats && spent < budgetMs; k++) {
-    const t0 = performance.now();
-    result = solve(inst);
-    ms.push(performance.now() - t0);
-    spent += ms[k]!;
-  }
-  const rep = checkCertificate(inst, result!);
-  if (!rep.ok) process.stderr.write(`  certificate FAILED: ${rep.problems.slice(0, 3).join('; ')}\n`);
-  return { ms, cost: result!.cost, certified: rep.ok };
+/** pairflow in a child process under `capMs`, as the peers are. */
+async function timePairflow(kind: 'dense' | 'sparse', dir: string, nRows: number, nCols: number, repeats: number, capMs: number): Promise<Timed> {
+  const out = await runPairflow(kind, dir, nRows, nCols, repeats, capMs);
+  if (out.error !== undefined) throw new Error(`pairflow child failed on ${dir}: ${out.error}`);
+  if (out.certified === false) log(`  certificate FAILED on ${dir}`);
+  return { ms: out.ms, cost: out.cost ?? NaN, certified: out.certified === true, capped: out.capped };
 }
 
 interface DenseRow {
@@ -202,6 +201,7 @@ interface Results {
   readonly date: string;
   readonly machine: ReturnType<typeof machineInfo> & { python?: string; scipy?: string; numpy?: string };
   readonly capMs: number;
+  readonly pairflowCapMs: number;
   readonly dense: DenseRow[];
   readonly sparse: SparseRow[];
   readonly warm: WarmRow[];
@@ -241,7 +241,6 @@ async function main(): Promise<void> {
   try {
     // ---- build every instance once; scipy and the peers read the same bytes
     log(`building ${cases.length} case(s) in ${work}`);
-    const dense = new Map<string, DenseInstance>();
     const sparse = new Map<string, SparseInstance>();
     const sequences = new Map<string, SequenceStep[]>();
     const scipyCases: ScipyCase[] = [];
@@ -250,7 +249,6 @@ async function main(): Promise<void> {
       const dir = join(work, c.name);
       if (c.group === 'dense') {
         const inst = denseUniform(seed, c.nRows, c.nCols, c.kind);
-        dense.set(c.name, inst);
         writeDense(dir, inst);
         scipyCases.push({ name: c.name, kind: 'dense', dir, nRows: c.nRows, nCols: c.nCols, repeats: c.repeats });
       } else if (c.group === 'sparse') {
@@ -283,21 +281,21 @@ async function main(): Promise<void> {
       date: new Date().toISOString(),
       machine: { ...machine, ...(scipy ? { python: scipy.python, scipy: scipy.scipy, numpy: scipy.numpy } : {}) },
       capMs: args.capMs,
+      pairflowCapMs: args.pairflowCapMs,
       dense: [],
       sparse: [],
       warm: [],
     };
 
-    // JIT warm-up on throwaway instances, so the first timed case is not penalised.
-    solveDense(denseUniform(1, 200, 200, 'float'));
+    // The warm/cold sequences run in this process: warm the JIT on a throwaway instance
+    // (the children do the same for their own cases).
     solveSparse(sparseWithPermutation(1, 5000, 10, 'float'));
 
     // A peer that hit the cap is not run on larger matrices (marked "skipped").
     const cappedAt: Partial<Record<PeerName, number>> = {};
     for (const c of cases) {
       if (c.group === 'dense') {
-        const inst = dense.get(c.name)!;
-        const pf = timeSolve(inst, (i) => solveDense(i), c.repeats, args.capMs);
+        const pf = await timePairflow('dense', join(work, c.name), c.nRows, c.nCols, c.repeats, args.pairflowCapMs);
         const sc = scipyOf(scipy, c.name);
         const peers: DenseRow['peers'] = {};
         for (const peer of PEERS) {
@@ -311,14 +309,14 @@ async function main(): Promise<void> {
           if (out.error) log(`  ${peer} ${c.name}: ${out.error}`);
           peers[peer] = out;
         }
-        const ok = sc === null ? null : pf.certified && relClose(pf.cost, sc.cost);
+        const ok = sc === null || pf.capped ? null : pf.certified && relClose(pf.cost, sc.cost);
         results.dense.push({ name: c.name, nRows: c.nRows, nCols: c.nCols, kind: c.kind, pairflow: pf, scipy: sc, peers, ok });
         log(`${c.name}: pairflow ${fmtMs(pf.ms)} ms, scipy ${sc ? fmtMs(sc.ms) : '—'} ms${ok === false ? '  COST MISMATCH' : ''}`);
       } else if (c.group === 'sparse') {
         const inst = sparse.get(c.name)!;
-        const pf = timeSolve(inst, (i) => solveSparse(i), c.repeats, args.capMs);
+        const pf = await timePairflow('sparse', join(work, c.name), c.n, c.n, c.repeats, args.pairflowCapMs);
         const sc = scipyOf(scipy, c.name);
-        const ok = sc === null ? null : pf.certified && relClose(pf.cost, sc.cost);
+        const ok = sc === null || pf.capped ? null : pf.certified && relClose(pf.cost, sc.cost);
         results.sparse.push({ name: c.name, n: c.n, perRow: c.perRow, pairs: inst.colIdx.length, pairflow: pf, scipy: sc, ok });
         log(`${c.name}: pairflow ${fmtMs(pf.ms)} ms, scipy ${sc ? fmtMs(sc.ms) : '—'} ms${ok === false ? '  COST MISMATCH' : ''}`);
       } else {
@@ -383,6 +381,21 @@ async function main(): Promise<void> {
 
 // ---------------------------------------------------------------- rendering
 
+function pfCell(t: Timed, capMs: number): string {
+  return t.capped ? `> ${capMs / 1000} s` : fmtMs(t.ms);
+}
+
+/** pairflow's median over `refMs`; a capped run is reported as a lower bound. */
+function pfRatio(t: Timed, refMs: number | undefined, capMs: number): string {
+  if (refMs === undefined) return '—';
+  return t.capped ? `> ${fmtRatio(capMs / refMs)}` : fmtRatio(median(t.ms) / refMs);
+}
+
+/** Median solve time, Infinity when capped (so every comparison fails). */
+function pfMs(t: Timed): number {
+  return t.capped || t.ms.length === 0 ? Infinity : median(t.ms);
+}
+
 function peerCell(out: PeerOutcome | 'skipped' | undefined, ref: number | undefined, capMs: number): string {
   if (out === undefined) return '—';
   if (out === 'skipped') return `> ${capMs / 1000} s (not run: capped on a smaller size)`;
@@ -397,8 +410,9 @@ function peerMedian(out: PeerOutcome | 'skipped' | undefined): number | undefine
   return median(out.ms);
 }
 
-function check(ok: boolean | null, certified: boolean): string {
-  if (ok === null) return certified ? 'certified (no scipy)' : '✗ certificate';
+function check(ok: boolean | null, pf: Timed): string {
+  if (pf.capped) return 'not checked (capped)';
+  if (ok === null) return pf.certified ? 'certified (no scipy)' : '✗ certificate';
   return ok ? '✓' : '✗';
 }
 
@@ -414,7 +428,8 @@ function render(res: Results, note: string | null): string {
   lines.push(
     'Times are milliseconds of the solve call alone (no parsing or instance building), median (min–max) over the repeats; ' +
       'pairflow and the npm peers in Node, scipy timed inside Python with `time.perf_counter`. Ratios divide medians from this same run. ' +
-      `Each npm peer runs in a child process, stopped when one solve exceeds ${res.capMs / 1000} s. ` +
+      `pairflow (dense and sparse cases) and each npm peer run in their own child process; a peer is stopped when one solve exceeds ${res.capMs / 1000} s, ` +
+      `pairflow when one exceeds ${res.pairflowCapMs / 1000} s, and no new repeat starts once that much time is spent. ` +
       '"same cost" means pairflow\'s cost equals scipy\'s to 1e-9 relative and its dual certificate (SPEC §5) holds.',
   );
   if (note) lines.push('', note);
@@ -425,16 +440,18 @@ function render(res: Results, note: string | null): string {
     lines.push('| case | rows × cols | pairflow | scipy | munkres | linear-sum-assignment | munkres-js | pairflow/scipy | pairflow/munkres | same cost |');
     lines.push('|---|---|---|---|---|---|---|---|---|---|');
     for (const r of res.dense) {
-      const pf = median(r.pairflow.ms);
       const sc = r.scipy ? median(r.scipy.ms) : undefined;
       const mk = peerMedian(r.peers.munkres);
       const mkOut = r.peers.munkres;
       const munkresCapped = mkOut === 'skipped' || (mkOut !== undefined && mkOut.capped);
-      const munkresRatio = mk !== undefined ? fmtRatio(pf / mk) : munkresCapped ? `< ${fmtRatio(pf / res.capMs)}` : '—';
+      let munkresRatio = '—';
+      if (r.pairflow.capped) munkresRatio = mk !== undefined ? `> ${fmtRatio(res.pairflowCapMs / mk)}` : '—';
+      else if (mk !== undefined) munkresRatio = fmtRatio(median(r.pairflow.ms) / mk);
+      else if (munkresCapped) munkresRatio = `< ${fmtRatio(median(r.pairflow.ms) / res.capMs)}`;
       lines.push(
-        `| ${r.name} | ${r.nRows} × ${r.nCols} | ${fmtMs(r.pairflow.ms)} | ${r.scipy ? fmtMs(r.scipy.ms) : '—'} | ` +
+        `| ${r.name} | ${r.nRows} × ${r.nCols} | ${pfCell(r.pairflow, res.pairflowCapMs)} | ${r.scipy ? fmtMs(r.scipy.ms) : '—'} | ` +
           `${PEERS.map((p) => peerCell(r.peers[p], r.scipy?.cost, res.capMs)).join(' | ')} | ` +
-          `${sc !== undefined ? fmtRatio(pf / sc) : '—'} | ${munkresRatio} | ${check(r.ok, r.pairflow.certified)} |`,
+          `${pfRatio(r.pairflow, sc, res.pairflowCapMs)} | ${munkresRatio} | ${check(r.ok, r.pairflow)} |`,
       );
     }
   }
@@ -449,9 +466,9 @@ function render(res: Results, note: string | null): string {
     lines.push('| case | n per side | pairs per row | pairs | pairflow | scipy | pairflow/scipy | same cost |');
     lines.push('|---|---|---|---|---|---|---|---|');
     for (const r of res.sparse) {
-      const ratio = r.scipy ? fmtRatio(median(r.pairflow.ms) / median(r.scipy.ms)) : '—';
+      const ratio = pfRatio(r.pairflow, r.scipy ? median(r.scipy.ms) : undefined, res.pairflowCapMs);
       lines.push(
-        `| ${r.name} | ${r.n} | ${r.perRow} | ${r.pairs} | ${fmtMs(r.pairflow.ms)} | ${r.scipy ? fmtMs(r.scipy.ms) : '—'} | ${ratio} | ${check(r.ok, r.pairflow.certified)} |`,
+        `| ${r.name} | ${r.n} | ${r.perRow} | ${r.pairs} | ${pfCell(r.pairflow, res.pairflowCapMs)} | ${r.scipy ? fmtMs(r.scipy.ms) : '—'} | ${ratio} | ${check(r.ok, r.pairflow)} |`,
       );
     }
   }
@@ -485,9 +502,9 @@ function targets(res: Results): string[] {
   const mark = (pass: boolean | null) => (pass === null ? '—' : pass ? 'met' : '**missed**');
   const big = res.dense.filter((r) => r.nRows >= 1000 && r.nRows === r.nCols && r.nRows <= 4000);
   if (big.length > 0) {
-    const parts = big.map((r) => `${r.name} ${r.scipy ? fmtRatio(median(r.pairflow.ms) / median(r.scipy.ms)) : '—'}`);
-    const pass = big.every((r) => r.scipy !== null) ? big.every((r) => median(r.pairflow.ms) <= median(r.scipy!.ms)) : null;
-    out.push(`- Dense n = 1000…4000, pairflow ≤ 1.0× scipy: ${mark(pass)} (${parts.join(', ')}).`);
+    const parts = big.map((r) => `${r.name} ${pfRatio(r.pairflow, r.scipy ? median(r.scipy.ms) : undefined, res.pairflowCapMs)}`);
+    const pass = big.every((r) => r.scipy !== null) ? big.every((r) => pfMs(r.pairflow) <= median(r.scipy!.ms)) : null;
+    out.push(`- Dense n = 1000…4000, pairflow ≤ 1.0× scipy: ${mark(pass)} (pairflow/scipy: ${parts.join(', ')}).`);
   }
   const vsMunkres = res.dense.filter((r) => Math.min(r.nRows, r.nCols) >= 300);
   if (vsMunkres.length > 0) {
@@ -495,22 +512,23 @@ function targets(res: Results): string[] {
     let pass = true;
     for (const r of vsMunkres) {
       const mk = peerMedian(r.peers.munkres);
-      const pf = median(r.pairflow.ms);
+      const pf = pfMs(r.pairflow);
       if (mk !== undefined) {
-        parts.push(`${r.name} ${fmtRatio(pf / mk)}`);
-        if (pf >= mk) pass = false;
+        parts.push(`${r.name} ${Number.isFinite(pf) ? fmtRatio(pf / mk) : 'pairflow capped'}`);
+        if (!(pf < mk)) pass = false;
       } else {
-        // munkres did not finish within the cap: faster iff pairflow did.
+        // munkres did not finish within its cap: pairflow is faster iff it did.
         parts.push(`${r.name} munkres > cap`);
-        if (pf >= res.capMs) pass = false;
+        if (!(pf < res.capMs)) pass = false;
       }
     }
     out.push(`- Faster than munkres at every size ≥ 300: ${mark(pass)} (pairflow/munkres: ${parts.join(', ')}).`);
   }
   const s200 = res.sparse.find((r) => r.n === 200_000 && r.perRow === 10);
   if (s200) {
-    const ratio = s200.scipy ? median(s200.pairflow.ms) / median(s200.scipy.ms) : undefined;
-    out.push(`- Sparse 200k × 200k, 10 per row, pairflow ≤ 0.5× scipy: ${mark(ratio === undefined ? null : ratio <= 0.5)} (${fmtRatio(ratio)}).`);
+    const ref = s200.scipy ? median(s200.scipy.ms) : undefined;
+    const pass = ref === undefined ? null : pfMs(s200.pairflow) <= 0.5 * ref;
+    out.push(`- Sparse 200k × 200k, 10 per row, pairflow ≤ 0.5× scipy: ${mark(pass)} (${pfRatio(s200.pairflow, ref, res.pairflowCapMs)}).`);
   }
   if (res.warm.length > 0) {
     const parts = res.warm.map((r) => `${r.name} ${fmtRatio(median(r.warmMs) / median(r.coldMs))}${r.sameCost ? '' : ' (cost differs!)'}`);
@@ -518,7 +536,11 @@ function targets(res: Results): string[] {
     out.push(`- Warm ≥ 2× faster than cold with identical cost: ${mark(pass)} (warm/cold: ${parts.join(', ')}).`);
   }
   const checked = [...res.dense, ...res.sparse].every((r) => r.ok !== false) && res.warm.every((r) => r.ok !== false && r.sameCost);
-  out.push(`- Every pairflow result certified and equal to scipy's cost: ${checked ? 'yes' : '**no** (see ✗ above)'}.`);
+  const capped = [...res.dense, ...res.sparse].filter((r) => r.pairflow.capped).map((r) => r.name);
+  out.push(
+    `- Every pairflow result certified and equal to scipy's cost: ${checked ? 'yes' : '**no** (see ✗ above)'}` +
+      `${capped.length > 0 ? `; not checked where pairflow was stopped at the cap: ${capped.join(', ')}` : ''}.`,
+  );
   return out;
 }
 

@@ -79,22 +79,34 @@ export interface PeerOutcome {
   /** Solve times of the repeats that finished. */
   readonly ms: number[];
   readonly cost?: number;
+  /** pairflow only: whether the last result's certificate held. */
+  readonly certified?: boolean;
   /** True when the first solve did not finish within the cap. */
   readonly capped: boolean;
   readonly error?: string;
 }
 
 /**
- * Runs one peer on one dense instance. The child stops repeating once `capMs` of
+ * Runs one npm peer on one dense instance. The child stops repeating once `capMs` of
  * solving is spent; the parent kills it when one solve runs longer than `capMs`.
  */
 export function runPeer(peer: PeerName, dir: string, nRows: number, nCols: number, repeats: number, capMs: number): Promise<PeerOutcome> {
+  const script = join(here, '..', 'peers', 'run-peer.mjs');
+  return runCapped([script, peer, dir, String(nRows), String(nCols), String(repeats), String(capMs)], capMs);
+}
+
+/** Runs pairflow's solver on one instance in a child (see run-pairflow.ts), under the same cap. */
+export function runPairflow(kind: 'dense' | 'sparse', dir: string, nRows: number, nCols: number, repeats: number, capMs: number): Promise<PeerOutcome> {
+  const script = join(here, 'run-pairflow.ts');
+  return runCapped(['--import', 'tsx', script, kind, dir, String(nRows), String(nCols), String(repeats), String(capMs)], capMs);
+}
+
+function runCapped(argv: string[], capMs: number): Promise<PeerOutcome> {
   return new Promise((resolve) => {
-    const child = spawn(process.execPath, [join(here, '..', 'peers', 'run-peer.mjs'), peer, dir, String(nRows), String(nCols), String(repeats), String(capMs)], {
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
+    const child = spawn(process.execPath, argv, { stdio: ['ignore', 'pipe', 'pipe'] });
     const ms: number[] = [];
     let cost: number | undefined;
+    let certified: boolean | undefined;
     let buffered = '';
     let stderr = '';
     let capped = false;
@@ -115,9 +127,10 @@ export function runPeer(peer: PeerName, dir: string, nRows: number, nCols: numbe
         buffered = buffered.slice(nl + 1);
         if (line === 'ready') arm();
         else if (line !== '') {
-          const rec = JSON.parse(line) as { ms: number; cost: number };
+          const rec = JSON.parse(line) as { ms: number; cost: number; certified?: boolean };
           ms.push(rec.ms);
           cost = rec.cost;
+          certified = rec.certified;
           arm();
         }
         nl = buffered.indexOf('\n');
@@ -130,7 +143,13 @@ export function runPeer(peer: PeerName, dir: string, nRows: number, nCols: numbe
     child.on('close', (code) => {
       if (timer) clearTimeout(timer);
       const failed = !capped && ms.length === 0 && code !== 0;
-      resolve({ ms, capped, ...(cost === undefined ? {} : { cost }), ...(failed ? { error: stderr.split('\n').find((l) => l.trim() !== '') ?? `exit ${code}` } : {}) });
+      resolve({
+        ms,
+        capped,
+        ...(cost === undefined ? {} : { cost }),
+        ...(certified === undefined ? {} : { certified }),
+        ...(failed ? { error: stderr.split('\n').find((l) => l.trim() !== '') ?? `exit ${code}` } : {}),
+      });
     });
   });
 }
