@@ -131,6 +131,23 @@ describe('runReplay()', () => {
     expect(skipped.online).toEqual(computed.online);
   });
 
+  it('a log split over two files (in any order) gives the summary of the whole log', async () => {
+    const dir = tmp();
+    const whole = writeLog(dir, 13, false);
+    const lines = readFileSync(whole, 'utf8').trimEnd().split('\n');
+    // Odd and even lines: each file interleaves in time with the other, so the merge order matters.
+    const odd = join(dir, 'odd.jsonl');
+    const even = join(dir, 'even.jsonl');
+    writeFileSync(odd, lines.filter((_, i) => i % 2 === 1).join('\n') + '\n');
+    writeFileSync(even, lines.filter((_, i) => i % 2 === 0).join('\n') + '\n');
+    const a = stable(await runReplay([whole], config, { threads: 0 }));
+    const b = stable(await runReplay([even, odd], config, { threads: 0 }));
+    const c = stable(await runReplay([odd, even], config, { threads: 0 }));
+    expect({ ...b, inputs: null }).toEqual({ ...a, inputs: null });
+    expect({ ...c, inputs: null }).toEqual({ ...a, inputs: null });
+    expect(b.inputs).toEqual(['even.jsonl', 'odd.jsonl']);
+  });
+
   it('strict: the first reject is PAIRFLOW_ERR_INPUT_REJECT naming file and line', async () => {
     const dir = tmp();
     const log = writeLog(dir);
