@@ -187,6 +187,13 @@ interface WarmRow {
   readonly fraction: number;
   readonly policy: TurnoverPolicy;
   readonly meanPairs: number;
+  /** Over windows 2..K of the first repeat: augmentations and pairs scanned, cold and warm. */
+  readonly augCold: number;
+  readonly augWarm: number;
+  readonly scanCold: number;
+  readonly scanWarm: number;
+  /** Share of the hinted (surviving) pairs that the new optimum keeps. */
+  readonly hintKept: number;
   /** Sum over windows 2..K of the solve times, one entry per repeat. */
   readonly coldMs: number[];
   readonly warmMs: number[];
@@ -325,23 +332,49 @@ async function main(): Promise<void> {
         const warmMs: number[] = [];
         let sameCost = true;
         let ok: boolean | null = scipy === null ? null : true;
+        let augCold = 0, augWarm = 0, scanCold = 0, scanWarm = 0, hinted = 0, hintKept = 0;
         for (let rep = 0; rep < c.repeats; rep++) {
           let prevWarm: SolveResult | null = null;
           let coldSum = 0;
           let warmSum = 0;
           for (const [k, step] of steps.entries()) {
             const inst = step.instance;
-            const t0 = performance.now();
-            const cold = solveSparse(inst);
-            const t1 = performance.now();
             // The hints are mapped outside the timed region: the caller owns that step.
             const hints: WarmStart | undefined = prevWarm === null ? undefined : warmFromPrevious(step, prevWarm);
-            const t2 = performance.now();
-            const warm: SolveResult = hints === undefined ? solveSparse(inst) : solveSparse(inst, { warm: hints });
-            const t3 = performance.now();
+            const runCold = (): [SolveResult, number] => {
+              const t = performance.now();
+              const res = solveSparse(inst);
+              return [res, performance.now() - t];
+            };
+            const runWarm = (): [SolveResult, number] => {
+              const t = performance.now();
+              const res = hints === undefined ? solveSparse(inst) : solveSparse(inst, { warm: hints });
+              return [res, performance.now() - t];
+            };
+            // Alternate which goes first, so neither always meets warm caches.
+            let cold: SolveResult, coldT: number, warm: SolveResult, warmT: number;
+            if ((rep + k) % 2 === 0) {
+              [cold, coldT] = runCold();
+              [warm, warmT] = runWarm();
+            } else {
+              [warm, warmT] = runWarm();
+              [cold, coldT] = runCold();
+            }
+            if (k > 0 && rep === 0) {
+              augCold += cold.stats.augmentations;
+              augWarm += warm.stats.augmentations;
+              scanCold += cold.stats.scannedPairs;
+              scanWarm += warm.stats.scannedPairs;
+              for (let r = 0; r < inst.nRows; r++) {
+                const h = hints!.rowToCol![r]!;
+                if (h < 0) continue;
+                hinted++;
+                if (cold.rowToCol[r] === h) hintKept++;
+              }
+            }
             if (k > 0) {
-              coldSum += t1 - t0;
-              warmSum += t3 - t2;
+              coldSum += coldT;
+              warmSum += warmT;
             }
             if (rep === 0) {
               const certified = checkCertificate(inst, cold).ok && checkCertificate(inst, warm).ok;
@@ -361,7 +394,8 @@ async function main(): Promise<void> {
           warmMs.push(warmSum);
         }
         const meanPairs = steps.reduce((a, s) => a + s.instance.colIdx.length, 0) / steps.length;
-        results.warm.push({ name: c.name, units: c.units, steps: c.steps, fraction: c.fraction, policy: c.policy, meanPairs, coldMs, warmMs, sameCost, ok });
+        results.warm.push({ name: c.name, units: c.units, steps: c.steps, fraction: c.fraction, policy: c.policy, meanPairs, coldMs, warmMs, sameCost, ok,
+          augCold, augWarm, scanCold, scanWarm, hintKept: hinted === 0 ? 0 : hintKept / hinted });
         log(`${c.name}: cold ${fmtMs(coldMs)} ms, warm ${fmtMs(warmMs)} ms over ${c.steps - 1} windows`);
       }
     }
@@ -380,6 +414,10 @@ async function main(): Promise<void> {
 }
 
 // ---------------------------------------------------------------- rendering
+
+function compact(x: number): string {
+  return x >= 1e6 ? `${(x / 1e6).toFixed(1)}M` : x >= 1e3 ? `${(x / 1e3).toFixed(0)}k` : String(x);
+}
 
 function pfCell(t: Timed, capMs: number): string {
   return t.capped ? `> ${capMs / 1000} s` : fmtMs(t.ms);
@@ -482,11 +520,11 @@ function render(res: Results, note: string | null): string {
         '"same cost" compares warm with cold in every window (both certified); "scipy" checks every window against `min_weight_full_bipartite_matching` with one private column per row at cost δ.',
       '',
     );
-    lines.push('| case | units per side | windows | replaced | policy | mean pairs | cold ms | warm ms | warm/cold | same cost | scipy |');
-    lines.push('|---|---|---|---|---|---|---|---|---|---|---|');
+    lines.push('| case | units per side | windows | replaced | policy | mean pairs | hinted pairs kept | augmentations cold → warm | pairs scanned cold → warm | cold ms | warm ms | warm/cold | same cost | scipy |');
+    lines.push('|---|---|---|---|---|---|---|---|---|---|---|---|---|---|');
     for (const r of res.warm) {
       lines.push(
-        `| ${r.name} | ${r.units} | ${r.steps} | ${Math.round(r.fraction * 100)} % | ${r.policy} | ${Math.round(r.meanPairs)} | ${fmtMs(r.coldMs)} | ${fmtMs(r.warmMs)} | ` +
+        `| ${r.name} | ${r.units} | ${r.steps} | ${Math.round(r.fraction * 100)} % | ${r.policy} | ${Math.round(r.meanPairs)} | ${Math.round(r.hintKept * 100)} % | ${r.augCold} → ${r.augWarm} | ${compact(r.scanCold)} → ${compact(r.scanWarm)} | ${fmtMs(r.coldMs)} | ${fmtMs(r.warmMs)} | ` +
           `${fmtRatio(median(r.warmMs) / median(r.coldMs))} | ${r.sameCost ? '✓' : '✗'} | ${r.ok === null ? '—' : r.ok ? '✓' : '✗'} |`,
       );
     }
