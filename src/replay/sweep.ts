@@ -271,6 +271,8 @@ export async function sweepLoaded(
       opts.onProgress?.(done, windows.length, 'windows');
     })));
   } finally {
+    // After a failure, start no further window; then stop the workers either way.
+    queue.clear();
     await pool?.close();
   }
   const windowsMs = now() - wStart;
