@@ -83,6 +83,13 @@ describe('maxCardinalityMatching()', () => {
     expectCoverCertifies(g, m, 0);
   });
 
+  it('tolerates a column listed twice in a row', () => {
+    const g = graphFromLists(2, [[0, 0, 1], [0], [1, 1]]);
+    const m = maxCardinalityMatching(g);
+    expect(expectValidMatching(g, m, 0)).toBe(2);
+    expectCoverCertifies(g, m, 0);
+  });
+
   it('returns a valid matching with a König cover of equal size on seeded random graphs', () => {
     for (let seed = 1; seed <= 300; seed++) {
       const rand = mulberry32(seed * 7919);
