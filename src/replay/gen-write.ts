@@ -1,8 +1,10 @@
 /**
  * Writes a stream of events to a log file (`.jsonl`, `.jsonl.gz`, `.avro`) with
- * bounded memory and byte-identical output for identical input: JSON lines in a
- * fixed field order, gzip without a timestamp, Avro with a sync marker derived from
- * the caller's seed instead of a random one.
+ * bounded memory and byte-identical output for identical input on the same Node.js
+ * build: JSON lines in a fixed field order, gzip without a timestamp, Avro with a
+ * sync marker derived from the caller's seed instead of a random one. Compressed
+ * bytes (gzip, Avro deflate) can differ between zlib builds, so every write also
+ * reports `eventsSha256`, a checksum of the events themselves.
  */
 import { createHash } from 'node:crypto';
 import { createReadStream, createWriteStream } from 'node:fs';
@@ -23,6 +25,11 @@ export interface WrittenLog {
   readonly format: LogWriteFormat;
   readonly bytes: number;
   readonly sha256: string;
+  /**
+   * sha256 of the events as canonical JSON Lines ({@link toJsonLine} + `\n`), whatever
+   * the format: compressed bytes may differ between zlib builds, the events may not.
+   */
+  readonly eventsSha256: string;
   readonly events: number;
   readonly counts: { supply: number; demand: number; withdrawSupply: number; withdrawDemand: number };
   readonly markets: string[];
@@ -66,9 +73,13 @@ export async function writeEventLog(path: string, format: LogWriteFormat, events
   let n = 0;
   let firstT: number | null = null;
   let lastT: number | null = null;
-  function* counted(): Generator<PairflowEvent> {
+  const eventsHash = createHash('sha256');
+  // Each event with its canonical line, counted and hashed on the way through.
+  function* counted(): Generator<[PairflowEvent, string]> {
     for (const ev of events) {
       n += 1;
+      const line = `${toJsonLine(ev)}\n`;
+      eventsHash.update(line);
       if (ev.type === 'withdraw') {
         if (ev.side === 'supply') counts.withdrawSupply += 1;
         else counts.withdrawDemand += 1;
@@ -76,13 +87,13 @@ export async function writeEventLog(path: string, format: LogWriteFormat, events
       markets.add(ev.market);
       firstT = firstT === null ? ev.t : Math.min(firstT, ev.t);
       lastT = lastT === null ? ev.t : Math.max(lastT, ev.t);
-      yield ev;
+      yield [ev, line];
     }
   }
   function* jsonChunks(): Generator<string> {
     let buf = '';
-    for (const ev of counted()) {
-      buf += `${toJsonLine(ev)}\n`;
+    for (const [, line] of counted()) {
+      buf += line;
       if (buf.length >= CHUNK_CHARS) {
         yield buf;
         buf = '';
@@ -91,7 +102,7 @@ export async function writeEventLog(path: string, format: LogWriteFormat, events
     if (buf.length > 0) yield buf;
   }
   function* records(): Generator<unknown> {
-    for (const ev of counted()) yield toEventRecord(ev);
+    for (const [ev] of counted()) yield toEventRecord(ev);
   }
 
   const tmp = `${path}.tmp-${process.pid}`;
@@ -114,5 +125,5 @@ export async function writeEventLog(path: string, format: LogWriteFormat, events
     throw pairflowError('PAIRFLOW_ERR_OUTPUT_WRITE', { file: path, detail: (err as Error).message }, err);
   }
   const { sha256, bytes } = await hashFile(path);
-  return { file: path, format, bytes, sha256, events: n, counts, markets: [...markets].sort(), firstT, lastT };
+  return { file: path, format, bytes, sha256, eventsSha256: eventsHash.digest('hex'), events: n, counts, markets: [...markets].sort(), firstT, lastT };
 }

@@ -99,6 +99,7 @@ async function updateManifest(manifestPath: string, opts: GenOptions, written: W
     format: written.format,
     bytes: written.bytes,
     sha256: written.sha256,
+    eventsSha256: written.eventsSha256,
     events: written.events,
     counts: written.counts,
     marketKeys: written.markets,
