@@ -448,76 +448,90 @@ export async function startBroker(options = {}) {
 
     requireJava(settings);
     const fetched = fetchArtifacts(settings);
-    const [brokerPort, controllerPort] = await freePorts(2);
-    mkdirSync(paths.dir, { recursive: true });
-    writeFileSync(paths.props, serverProperties({ brokerPort, controllerPort, dataDir: paths.dataDir }));
-    writeFileSync(paths.log4j, log4jProperties(paths.logFile));
-    writeFileSync(paths.log4j2, log4j2Properties());
-    writeFileSync(paths.logFile, '');
+    // The ports are free when picked but another process may bind one before the broker
+    // does; a start that fails on a taken port is retried on new ports.
+    for (let attempt = 1; ; attempt++) {
+      try {
+        return await launch(settings, paths, instance, fetched, options);
+      } catch (err) {
+        const taken = /BindException|Address already in use/.test(err.message);
+        if (!taken || attempt >= 3) throw err;
+        progress(`a port was taken before the broker bound it; retrying (${attempt}/3)`);
+      }
+    }
+  });
+}
 
-    const format = spawnSync(
-      settings.java,
-      javaArgs(settings, paths, fetched.libDir, 'kafka.tools.StorageTool',
-        ['format', '-t', clusterId(), '-c', paths.props, '--ignore-formatted']),
-      { encoding: 'utf8' },
+async function launch(settings, paths, instance, fetched, options) {
+  const [brokerPort, controllerPort] = await freePorts(2);
+  mkdirSync(paths.dir, { recursive: true });
+  writeFileSync(paths.props, serverProperties({ brokerPort, controllerPort, dataDir: paths.dataDir }));
+  writeFileSync(paths.log4j, log4jProperties(paths.logFile));
+  writeFileSync(paths.log4j2, log4j2Properties());
+  writeFileSync(paths.logFile, '');
+
+  const format = spawnSync(
+    settings.java,
+    javaArgs(settings, paths, fetched.libDir, 'kafka.tools.StorageTool',
+      ['format', '-t', clusterId(), '-c', paths.props, '--ignore-formatted']),
+    { encoding: 'utf8' },
+  );
+  if (format.status !== 0) {
+    throw new BrokerSetupError(
+      `formatting the KRaft storage failed (exit ${format.status}):\n${tail(`${format.stdout}\n${format.stderr}`)}\n${logTail(paths.logFile)}`,
     );
-    if (format.status !== 0) {
+  }
+
+  const startT = Date.now();
+  const out = openSync(paths.logFile, 'a');
+  const child = spawn(settings.java, javaArgs(settings, paths, fetched.libDir, 'kafka.Kafka', [paths.props]), {
+    detached: true,
+    stdio: ['ignore', out, out],
+  });
+  closeSync(out);
+  let exited = null;
+  child.once('exit', (code, signal) => { exited = { code, signal }; });
+  child.once('error', (err) => { exited = { code: null, signal: null, err }; });
+  child.unref();
+
+  let watchdog = 0;
+  if (options.ownerPid) {
+    // If the owner dies without tearing down (a killed test run), stop the broker anyway.
+    const w = spawn('sh', ['-c',
+      `while kill -0 ${options.ownerPid} 2>/dev/null && kill -0 ${child.pid} 2>/dev/null; do sleep 1; done; kill ${child.pid} 2>/dev/null; exit 0`],
+    { detached: true, stdio: 'ignore' });
+    w.unref();
+    watchdog = w.pid ?? 0;
+  }
+  const state = {
+    instance, version: settings.version, pid: child.pid, watchdog, brokerPort, controllerPort,
+    dataDir: paths.dataDir, logFile: paths.logFile, props: paths.props, startedAt: new Date().toISOString(),
+  };
+  writeFileSync(paths.stateFile, JSON.stringify(state, null, 2));
+  progress(`starting Kafka ${settings.version} (pid ${child.pid}) on 127.0.0.1:${brokerPort}, log ${paths.logFile}`);
+
+  const brokers = `127.0.0.1:${brokerPort}`;
+  const deadline = startT + settings.startTimeoutMs;
+  for (;;) {
+    if (exited) {
+      cleanInstance(paths);
       throw new BrokerSetupError(
-        `formatting the KRaft storage failed (exit ${format.status}):\n${tail(`${format.stdout}\n${format.stderr}`)}\n${logTail(paths.logFile)}`,
+        `the Kafka broker exited during start-up (${exited.err ? exited.err.message : `code ${exited.code}, signal ${exited.signal}`}); last lines of ${paths.logFile}:\n${logTail(paths.logFile)}`,
       );
     }
-
-    const startT = Date.now();
-    const out = openSync(paths.logFile, 'a');
-    const child = spawn(settings.java, javaArgs(settings, paths, fetched.libDir, 'kafka.Kafka', [paths.props]), {
-      detached: true,
-      stdio: ['ignore', out, out],
-    });
-    closeSync(out);
-    let exited = null;
-    child.once('exit', (code, signal) => { exited = { code, signal }; });
-    child.once('error', (err) => { exited = { code: null, signal: null, err }; });
-    child.unref();
-
-    let watchdog = 0;
-    if (options.ownerPid) {
-      // If the owner dies without tearing down (a killed test run), stop the broker anyway.
-      const w = spawn('sh', ['-c',
-        `while kill -0 ${options.ownerPid} 2>/dev/null && kill -0 ${child.pid} 2>/dev/null; do sleep 1; done; kill ${child.pid} 2>/dev/null; exit 0`],
-      { detached: true, stdio: 'ignore' });
-      w.unref();
-      watchdog = w.pid ?? 0;
+    if (await brokerAnswers([brokers], 2000)) break;
+    if (Date.now() > deadline) {
+      await stopProcess(child.pid, paths.dir);
+      cleanInstance(paths);
+      throw new BrokerSetupError(
+        `the Kafka broker did not answer within ${settings.startTimeoutMs} ms; last lines of ${paths.logFile}:\n${logTail(paths.logFile)}`,
+      );
     }
-    const state = {
-      instance, version: settings.version, pid: child.pid, watchdog, brokerPort, controllerPort,
-      dataDir: paths.dataDir, logFile: paths.logFile, props: paths.props, startedAt: new Date().toISOString(),
-    };
-    writeFileSync(paths.stateFile, JSON.stringify(state, null, 2));
-    progress(`starting Kafka ${settings.version} (pid ${child.pid}) on 127.0.0.1:${brokerPort}, log ${paths.logFile}`);
-
-    const brokers = `127.0.0.1:${brokerPort}`;
-    const deadline = startT + settings.startTimeoutMs;
-    for (;;) {
-      if (exited) {
-        cleanInstance(paths);
-        throw new BrokerSetupError(
-          `the Kafka broker exited during start-up (${exited.err ? exited.err.message : `code ${exited.code}, signal ${exited.signal}`}); last lines of ${paths.logFile}:\n${logTail(paths.logFile)}`,
-        );
-      }
-      if (await brokerAnswers([brokers], 2000)) break;
-      if (Date.now() > deadline) {
-        await stopProcess(child.pid, paths.dir);
-        cleanInstance(paths);
-        throw new BrokerSetupError(
-          `the Kafka broker did not answer within ${settings.startTimeoutMs} ms; last lines of ${paths.logFile}:\n${logTail(paths.logFile)}`,
-        );
-      }
-      await sleep(300);
-    }
-    const startMs = Date.now() - startT;
-    progress(`Kafka ${settings.version} answers at ${brokers} after ${(startMs / 1000).toFixed(1)} s`);
-    return { ...describe(state, paths), started: true, fetchMs: fetched.ms, startMs };
-  });
+    await sleep(300);
+  }
+  const startMs = Date.now() - startT;
+  progress(`Kafka ${settings.version} answers at ${brokers} after ${(startMs / 1000).toFixed(1)} s`);
+  return { ...describe(state, paths), started: true, fetchMs: fetched.ms, startMs };
 }
 
 function describe(state, paths) {
