@@ -257,7 +257,7 @@ export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig): Allo
   const euclid = config.metric === 'euclidean';
   const speed = config.speedKmh;
   const maxTravel = config.maxTravelMin;
-  const waitPerMs = config.waitWeight / 60_000;
+  const waitWeight = config.waitWeight;
 
   // Arrivals in time order; demand index k ↦ k, supply index k ↦ nDemand + k.
   const n = nDemand + nSupply;
@@ -324,7 +324,8 @@ export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig): Allo
         const travel = travelMin(dist, speed);
         if (!(travel <= maxTravel)) continue;
         const wait = m.supplyT[ss]! - m.demandT[dd]!;
-        pairs.push(dd, ss, travel + (wait > 0 ? wait * waitPerMs : 0));
+        // Same operation order as SPEC §2's `waitWeight * (τ − d.t) / 60000`.
+        pairs.push(dd, ss, travel + (wait > 0 ? (waitWeight * wait) / 60_000 : 0));
       }
       bucket.length = keep;
     }

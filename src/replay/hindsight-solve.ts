@@ -422,8 +422,6 @@ function solveSegment(
   const addPerRow = Math.max(1, Math.floor(opts.addPerRow ?? DEFAULT_ADD_PER_ROW));
   const addRed = new Float64Array(addPerRow);
   const addEdge = new Int32Array(addPerRow);
-  // Rows that gained pairs since their component's last solve.
-  const grown = new Uint8Array(nRows);
   let warmRetries = 0;
   let solves = 0;
 
@@ -460,7 +458,6 @@ function solveSegment(
       if (nb > 0) {
         for (let q = 0; q < nb; q++) inCand[addEdge[q]!] = 1;
         dirty[rowComp[r]!] = 1;
-        grown[r] = 1;
       }
     }
     if (violators === 0) break;
@@ -546,10 +543,9 @@ function solveSegment(
         rowPrices[i] = rawRowDuals[r]!;
         colPrices[nc + i] = privateDuals[r]!;
         const c = rowToCol[r]!;
-        // A row that gained a pair pricing out below its match lets go of it: the
-        // warm start then never has to raise a price to keep that pair tight.
-        prevMatch[i] = grown[r] === 1 ? -1 : c >= 0 ? colLocal[c]! : nc + i;
-        grown[r] = 0;
+        // Every previous pair is offered, a row on its private column too, so only
+        // what the new pairs disturb needs to be searched again.
+        prevMatch[i] = c >= 0 ? colLocal[c]! : nc + i;
       }
       solveOpts = { warm: { rowPrices, colPrices, rowToCol: prevMatch }, now };
     } else {

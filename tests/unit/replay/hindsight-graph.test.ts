@@ -1,0 +1,157 @@
+import { describe, expect, it } from 'vitest';
+
+import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
+import { buildAllowedGraph, packMarket, type HindsightUnit } from '../../../src/replay/hindsight-graph.js';
+import { euclideanKm, haversineKm, travelMin } from '../../../src/window/geo.js';
+import { mulberry32, randInt } from '../../helpers/random.js';
+
+/** Every allowed, time-overlapping pair by comparing all pairs (SPEC §2, §4): the slow truth. */
+function allPairs(units: readonly HindsightUnit[], config: PairflowConfig): Map<string, number> {
+  const demand = units.filter((u) => u.side === 'demand');
+  const supply = units.filter((u) => u.side === 'supply');
+  const out = new Map<string, number>();
+  demand.forEach((d, r) => {
+    supply.forEach((s, c) => {
+      if (Math.max(s.t, d.t) > Math.min(s.end, d.end)) return;
+      if (!(d.needs ?? []).every((n) => (s.has ?? []).includes(n))) return;
+      const km =
+        config.metric === 'euclidean'
+          ? euclideanKm(s.x ?? NaN, s.y ?? NaN, d.x ?? NaN, d.y ?? NaN)
+          : haversineKm(s.lat ?? NaN, s.lon ?? NaN, d.lat ?? NaN, d.lon ?? NaN);
+      const travel = travelMin(km, config.speedKmh);
+      if (!(travel <= config.maxTravelMin)) return;
+      out.set(`${r},${c}`, travel + (config.waitWeight * Math.max(0, s.t - d.t)) / 60_000);
+    });
+  });
+  return out;
+}
+
+function graphPairs(units: readonly HindsightUnit[], config: PairflowConfig): Map<string, number> {
+  const g = buildAllowedGraph(packMarket(units, config), config);
+  const out = new Map<string, number>();
+  for (let r = 0; r < g.nRows; r++) {
+    for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+      const key = `${r},${g.colIdx[e]}`;
+      expect(out.has(key), `pair ${key} listed twice`).toBe(false);
+      out.set(key, g.cost[e]!);
+    }
+  }
+  return out;
+}
+
+function sameGraph(units: readonly HindsightUnit[], config: PairflowConfig, ctx: string): number {
+  const want = allPairs(units, config);
+  const got = graphPairs(units, config);
+  expect([...got.keys()].sort(), ctx).toEqual([...want.keys()].sort());
+  for (const [k, c] of want) expect(got.get(k), `${ctx} pair ${k}`).toBe(c);
+  return want.size;
+}
+
+function randomUnits(seed: number, place: (rand: () => number) => Partial<HindsightUnit>, n = 60): HindsightUnit[] {
+  const rand = mulberry32(seed);
+  const caps = ['a', 'b', 'c'];
+  return Array.from({ length: n }, () => {
+    const side = rand() < 0.5 ? 'demand' : 'supply';
+    const t = randInt(rand, 0, 3_600_000);
+    const end = t + (rand() < 0.05 ? 0 : randInt(rand, 0, 1_800_000));
+    const tags = caps.filter(() => rand() < 0.3);
+    return { side, t, end, ...place(rand), ...(side === 'supply' ? { has: tags } : { needs: tags.slice(0, 1) }) } as HindsightUnit;
+  });
+}
+
+describe('buildAllowedGraph()', () => {
+  it('finds exactly the pairs an all-pairs scan finds, with the same costs (haversine, seeded)', () => {
+    const config: PairflowConfig = { ...DEFAULT_CONFIG, maxTravelMin: 20, speedKmh: 30, waitWeight: 1.5 };
+    let total = 0;
+    for (let seed = 1; seed <= 25; seed++) {
+      // Cities at random latitudes, some astride the antimeridian, some near a pole.
+      const rand0 = mulberry32(seed * 7919);
+      const lat0 = seed % 5 === 0 ? 88.5 : -70 + rand0() * 140;
+      const lon0 = seed % 3 === 0 ? 179.95 : -180 + rand0() * 360;
+      const units = randomUnits(seed, (rand) => {
+        const lat = Math.max(-90, Math.min(90, lat0 + (rand() - 0.5) * 0.3));
+        let lon = lon0 + (rand() - 0.5) * (seed % 5 === 0 ? 40 : 0.4);
+        if (lon > 180) lon -= 360;
+        if (lon < -180) lon += 360;
+        return { lat, lon };
+      });
+      total += sameGraph(units, config, `seed ${seed}`);
+    }
+    expect(total).toBeGreaterThan(500);
+  });
+
+  it('finds pairs across the antimeridian and over a pole', () => {
+    const config: PairflowConfig = { ...DEFAULT_CONFIG, maxTravelMin: 60, speedKmh: 60 };
+    const units: HindsightUnit[] = [
+      { side: 'demand', t: 0, end: 600_000, lat: 10, lon: 179.9 },
+      { side: 'supply', t: 0, end: 600_000, lat: 10, lon: -179.9 },
+      { side: 'demand', t: 0, end: 600_000, lat: 89.9, lon: 0 },
+      { side: 'supply', t: 0, end: 600_000, lat: 89.9, lon: 180 },
+      { side: 'supply', t: 0, end: 600_000, lat: 90, lon: 37 },
+    ];
+    const n = sameGraph(units, config, 'edges of the map');
+    // ~21.9 km across the antimeridian, ~22.2 km over the pole, ~11.1 km to the pole itself.
+    expect(n).toBe(3);
+  });
+
+  it('finds exactly the all-pairs set on the plane, also when coordinates spread far and cells must grow', () => {
+    const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', maxTravelMin: 12 };
+    for (let seed = 1; seed <= 15; seed++) {
+      const spread = seed % 3 === 0 ? 1e9 : 20;
+      const units = randomUnits(seed, (rand) => {
+        // Clusters far apart, so pairs exist even with a huge spread.
+        const cx = Math.floor(rand() * 3) * spread;
+        return { x: cx + rand() * 8, y: cx + rand() * 8 };
+      });
+      sameGraph(units, config, `seed ${seed}`);
+    }
+  });
+
+  it('allows a pair at distance zero when maxTravelMin is 0', () => {
+    const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', maxTravelMin: 0 };
+    const units: HindsightUnit[] = [
+      { side: 'demand', t: 0, end: 10, x: 1, y: 1 },
+      { side: 'supply', t: 5, end: 10, x: 1, y: 1 },
+      { side: 'supply', t: 5, end: 10, x: 1, y: 1.000001 },
+    ];
+    expect(sameGraph(units, config, 'zero reach')).toBe(1);
+  });
+
+  it('meets at one shared instant: a zero-length occurrence, or one arriving at the other\'s end', () => {
+    const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean' };
+    const units: HindsightUnit[] = [
+      { side: 'demand', t: 100, end: 100, x: 0, y: 0 },
+      { side: 'supply', t: 0, end: 100, x: 1, y: 0 },
+      { side: 'supply', t: 100, end: 200, x: 1, y: 0 },
+      { side: 'supply', t: 101, end: 200, x: 1, y: 0 },
+      { side: 'supply', t: 0, end: 99, x: 1, y: 0 },
+    ];
+    expect(sameGraph(units, config, 'instants')).toBe(2);
+  });
+
+  it('checks needs ⊆ has over more than 32 capability names', () => {
+    const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean' };
+    const names = Array.from({ length: 70 }, (_, i) => `tag${i}`);
+    const rand = mulberry32(5);
+    const units: HindsightUnit[] = Array.from({ length: 80 }, (_, i) => {
+      const side = i % 2 === 0 ? 'demand' : 'supply';
+      const tags = names.filter(() => rand() < (side === 'supply' ? 0.6 : 0.04));
+      return { side, t: 0, end: 1000, x: rand(), y: rand(), ...(side === 'supply' ? { has: tags } : { needs: tags }) } as HindsightUnit;
+    });
+    expect(packMarket(units, config).capWords).toBe(3);
+    const n = sameGraph(units, config, 'many tags');
+    expect(n).toBeGreaterThan(0);
+    expect(n).toBeLessThan(40 * 40);
+  });
+
+  it('gives a unit without coordinates no pairs', () => {
+    const config = DEFAULT_CONFIG;
+    const units: HindsightUnit[] = [
+      { side: 'demand', t: 0, end: 1000 },
+      { side: 'supply', t: 0, end: 1000, lat: 1, lon: 1 },
+      { side: 'demand', t: 0, end: 1000, lat: 1, lon: 1 },
+    ];
+    const g = buildAllowedGraph(packMarket(units, config), config);
+    expect(Array.from(g.rowPtr)).toEqual([0, 0, 1]);
+  });
+});
