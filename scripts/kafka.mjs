@@ -588,8 +588,12 @@ export async function stopBroker(options = {}) {
   const state = readState(paths);
   let stopped = false;
   if (state) {
+    // The watchdog first, while its command line (which names the broker pid) proves
+    // it is ours; once the broker is gone it exits by itself and its pid may be reused.
+    if (state.watchdog && processMatches(state.watchdog, `kill -0 ${state.pid} `)) {
+      try { process.kill(state.watchdog, 'SIGTERM'); } catch { /* already gone */ }
+    }
     stopped = await stopProcess(state.pid, paths.dir);
-    if (state.watchdog) { try { process.kill(state.watchdog, 'SIGTERM'); } catch { /* already gone */ } }
   }
   cleanInstance(paths, instance);
   return { stopped, instance };

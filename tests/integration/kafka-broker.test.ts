@@ -93,8 +93,10 @@ describe.skipIf(!hasJava && !isCi)('a private broker instance', () => {
     const gonePid = spawnSync('true').pid;
     writeFileSync(join(stale, 'state.json'), JSON.stringify({ instance: 'stale', pid: gonePid, brokerPort: 1 }));
 
-    const first = await startBroker({ instance });
+    const first = await startBroker({ instance, ownerPid: process.pid });
     expect(existsSync(stale), 'a stale instance is swept on start').toBe(false);
+    const watchdog = brokerStatus().find((s) => s.instance === instance)?.watchdog ?? 0;
+    expect(watchdog).toBeGreaterThan(0);
     try {
       expect(first.started).toBe(true);
       expect(first.brokers).toMatch(/^127\.0\.0\.1:\d+$/);
@@ -110,6 +112,7 @@ describe.skipIf(!hasJava && !isCi)('a private broker instance', () => {
       expect(stop.stopped).toBe(true);
     }
     expect(await waitGone(first.pid)).toBe(true);
+    expect(await waitGone(watchdog), 'the watchdog goes with its broker').toBe(true);
     expect(brokerStatus().find((s) => s.instance === instance)).toBeUndefined();
     expect(existsSync(join(brokerSettings().instancesDir, instance))).toBe(false);
     expect((await stopBroker({ instance })).stopped).toBe(false);
