@@ -1,7 +1,9 @@
 import type { DenseInstance, SolveOptions, SolveResult } from './types.js';
 import { validateDense, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
-import { infeasibleRow } from './sparse.js';
+import { infeasibleRow, mustMatchAll, shiftToNonPositive, solveSparseCore, unreachableColumn } from './sparse.js';
+import { PairflowError } from '../errors.js';
+import type { SparseInstance, WarmStart } from './types.js';
 
 /*
  * The dense twin of sparse.ts: the same invariants (see there), but each search
@@ -17,8 +19,21 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   const now = opts.now ?? defaultNow;
   const t0 = now();
   validateDense(inst);
+  validateWarm(opts.warm, inst.nRows, inst.nCols);
+  const k = candidateCount(inst.nCols);
+  const strategy = opts.denseStrategy ?? 'auto';
+  if (strategy === 'candidates' || (strategy === 'auto' && inst.nRows * inst.nCols >= 40_000 && 4 * k <= inst.nCols)) {
+    const res = solveByCandidates(inst, opts, k);
+    if (res !== null) {
+      res.stats.ms = now() - t0;
+      return res;
+    }
+  }
+  return solveDenseFull(inst, opts, now, t0);
+}
+
+function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => number, t0: number): SolveResult {
   const warm = opts.warm;
-  validateWarm(warm, inst.nRows, inst.nCols);
 
   const { nRows, nCols, cost } = inst;
   const delta = inst.unmatchedCost ?? null;
@@ -114,10 +129,60 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
     }
   }
 
+  // ---- a perfect assignment starts from column reduction and reduction transfer
+  // (see sparse.ts for why that is allowed there).
+  let warmPairsKept = 0;
+  for (r = 0; r < nRows; r++) if (rowToCol[r] !== NONE) warmPairsKept++;
+  const perfect = nRows === nCols && nRows > 0 && !usedWarm && mustMatchAll(delta);
+  if (perfect) {
+    const colArg = new Int32Array(nCols).fill(NONE);
+    v.fill(Infinity);
+    for (r = 0; r < nRows; r++) {
+      base = r * nCols;
+      for (j = 0; j < nCols; j++) {
+        x = cost[base + j]!;
+        if (x < v[j]!) {
+          v[j] = x;
+          colArg[j] = r;
+        }
+      }
+    }
+    scannedPairs += nRows * nCols;
+    const hits = new Int32Array(nRows);
+    for (j = nCols - 1; j >= 0; j--) {
+      const i = colArg[j]!;
+      if (i === NONE) throw unreachableColumn(j);
+      if (hits[i]!++ === 0) {
+        rowToCol[i] = j;
+        colToRow[j] = i;
+      } else if (v[j]! < v[rowToCol[i]!]!) {
+        colToRow[rowToCol[i]!] = NONE;
+        rowToCol[i] = j;
+        colToRow[j] = i;
+      }
+    }
+    for (r = 0; r < nRows; r++) {
+      const j1 = rowToCol[r]!;
+      u[r] = 0;
+      if (j1 === NONE || hits[r] !== 1) continue;
+      base = r * nCols;
+      let m = Infinity;
+      for (j = 0; j < nCols; j++) {
+        if (j === j1) continue;
+        x = cost[base + j]! - v[j]!;
+        if (x < m) m = x;
+      }
+      scannedPairs += nCols;
+      if (m < Infinity) {
+        v[j1] = v[j1]! - m;
+        u[r] = m;
+      }
+    }
+  }
+
   let freeRows = new Int32Array(nRows);
   let nFree = 0;
   for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
-  const warmPairsKept = nRows - nFree;
   let nextRows = new Int32Array(nRows);
   for (let pass = 0; pass < 2 && nFree > 0; pass++) {
     let nNext = 0;
@@ -265,6 +330,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
     }
   }
 
+  if (perfect) shiftToNonPositive(v);
   const primal = new Sum();
   for (r = 0; r < nRows; r++) {
     j = rowToCol[r]!;
@@ -322,4 +388,141 @@ function relaxRow(
     }
   }
   return at;
+}
+
+/** Candidate pairs per row for the candidates strategy: enough that few pairs price out. */
+function candidateCount(nCols: number): number {
+  return Math.min(nCols, Math.max(8, Math.ceil(2.5 * Math.log2(nCols + 1))));
+}
+
+/**
+ * Exact dense solve on a sparse subset: each row's k cheapest pairs (plus its warm
+ * pair) are solved by the sparse core; then every pair of the matrix is priced with
+ * the duals found, and any with negative reduced cost joins its row's candidates for
+ * a warm re-solve. When none prices out, the duals certify the dense instance too:
+ * the constraints are the same, only checked on more pairs. Returns null when the
+ * subset cannot be matched (the caller then searches the full matrix).
+ */
+function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): SolveResult | null {
+  const { nRows, nCols, cost } = inst;
+  // per-row candidate lists, grown in place: row r owns slots [r * cap, r * cap + count[r])
+  let cap = k + 1;
+  let slots = new Int32Array(nRows * cap);
+  const count = new Int32Array(nRows);
+  const topKey = new Float64Array(k);
+  const topCol = new Int32Array(k);
+  let scanned = 0;
+  const wPair = opts.warm?.rowToCol;
+  for (let r = 0; r < nRows; r++) {
+    const base = r * nCols;
+    let n = 0;
+    for (let j = 0; j < nCols; j++) {
+      const c = cost[base + j]!;
+      if (!(c < Infinity)) continue;
+      if (n === k && c >= topKey[k - 1]!) continue;
+      let p = n < k ? n++ : k - 1;
+      while (p > 0 && topKey[p - 1]! > c) {
+        topKey[p] = topKey[p - 1]!;
+        topCol[p] = topCol[p - 1]!;
+        p--;
+      }
+      topKey[p] = c;
+      topCol[p] = j;
+    }
+    const at = r * cap;
+    for (let t = 0; t < n; t++) slots[at + t] = topCol[t]!;
+    count[r] = n;
+    if (wPair !== undefined) {
+      const wj = wPair[r]!;
+      if (wj >= 0 && wj < nCols && cost[base + wj]! < Infinity) {
+        let seen = false;
+        for (let t = 0; t < n; t++) if (topCol[t] === wj) seen = true;
+        if (!seen) slots[at + count[r]!++] = wj;
+      }
+    }
+  }
+  scanned += nRows * nCols;
+
+  let warm: WarmStart | undefined = opts.warm;
+  let augmentations = 0;
+  const extra = new Int32Array(nRows);
+  for (let round = 0; round < 20; round++) {
+    const sub = packCandidates(inst, slots, cap, count);
+    let res: SolveResult;
+    try {
+      res = solveSparseCore(sub, { ...(warm !== undefined ? { warm } : {}), ...(opts.now !== undefined ? { now: opts.now } : {}) });
+    } catch (err) {
+      if (err instanceof PairflowError && err.code === 'PAIRFLOW_ERR_SOLVER_INFEASIBLE') return null;
+      throw err;
+    }
+    augmentations += res.stats.augmentations;
+    scanned += res.stats.scannedPairs;
+    // price every pair; a pair may miss by rounding noise far below the certificate's tolerance
+    const u = res.rowDuals;
+    const v = res.colDuals;
+    let scale = 1;
+    for (let r = 0; r < nRows; r++) scale = Math.max(scale, Math.abs(u[r]!));
+    for (let j = 0; j < nCols; j++) scale = Math.max(scale, Math.abs(v[j]!));
+    const slack = -1e-11 * scale;
+    let violations = 0;
+    extra.fill(0);
+    for (let r = 0; r < nRows; r++) {
+      const base = r * nCols;
+      const ur = u[r]!;
+      for (let j = 0; j < nCols; j++) {
+        if (cost[base + j]! - ur - v[j]! < slack) {
+          extra[r]!++;
+          violations++;
+        }
+      }
+    }
+    scanned += nRows * nCols;
+    if (violations === 0) {
+      return {
+        ...res,
+        stats: { ...res.stats, augmentations, scannedPairs: scanned, warm: opts.warm !== undefined && res.stats.warm, ms: 0 },
+      };
+    }
+    // grow the lists and add the pairs that priced out (they are not candidates yet:
+    // a candidate never prices out after a solve)
+    let need = 0;
+    for (let r = 0; r < nRows; r++) need = Math.max(need, count[r]! + extra[r]!);
+    if (need > cap) {
+      const nextCap = Math.max(need, 2 * cap);
+      const grown = new Int32Array(nRows * nextCap);
+      for (let r = 0; r < nRows; r++) grown.set(slots.subarray(r * cap, r * cap + count[r]!), r * nextCap);
+      slots = grown;
+      cap = nextCap;
+    }
+    for (let r = 0; r < nRows; r++) {
+      if (extra[r] === 0) continue;
+      const base = r * nCols;
+      const ur = u[r]!;
+      for (let j = 0; j < nCols; j++) {
+        if (cost[base + j]! - ur - v[j]! < slack) slots[r * cap + count[r]!++] = j;
+      }
+    }
+    scanned += nRows * nCols;
+    warm = { colPrices: v, rowPrices: u, rowToCol: res.rowToCol };
+  }
+  return null;
+}
+
+function packCandidates(inst: DenseInstance, slots: Int32Array, cap: number, count: Int32Array): SparseInstance {
+  const { nRows, nCols, cost } = inst;
+  const rowPtr = new Int32Array(nRows + 1);
+  for (let r = 0; r < nRows; r++) rowPtr[r + 1] = rowPtr[r]! + count[r]!;
+  const nnz = rowPtr[nRows]!;
+  const colIdx = new Int32Array(nnz);
+  const sub = new Float64Array(nnz);
+  for (let r = 0; r < nRows; r++) {
+    let e = rowPtr[r]!;
+    const at = r * cap;
+    for (let t = 0; t < count[r]!; t++, e++) {
+      const j = slots[at + t]!;
+      colIdx[e] = j;
+      sub[e] = cost[r * nCols + j]!;
+    }
+  }
+  return { nRows, nCols, rowPtr, colIdx, cost: sub, unmatchedCost: inst.unmatchedCost ?? null };
 }

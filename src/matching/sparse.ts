@@ -156,13 +156,68 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
     }
   }
 
+  // ---- a perfect assignment (square, every row must be matched) ends with every
+  // column matched, so its prices need not stay ≤ 0 on the way: they are shifted at
+  // the end. That admits the Jonker–Volgenant start: column reduction (each column
+  // priced at its cheapest pair, given to that row if still free), then reduction
+  // transfer (a row holding one column moves its slack onto that column's price).
+  let warmPairsKept = 0;
+  for (r = 0; r < nRows; r++) if (rowToCol[r] !== NONE) warmPairsKept++;
+  const perfect = nRows === nCols && nRows > 0 && !usedWarm && mustMatchAll(delta);
+  if (perfect) {
+    const colArg = new Int32Array(nCols).fill(NONE);
+    v.fill(Infinity);
+    for (r = 0; r < nRows; r++) {
+      end = rowPtr[r + 1]!;
+      for (e = rowPtr[r]!; e < end; e++) {
+        j = colIdx[e]!;
+        if (cost[e]! < v[j]!) {
+          v[j] = cost[e]!;
+          colArg[j] = r;
+        }
+      }
+    }
+    scannedPairs += rowPtr[nRows]!;
+    const hits = new Int32Array(nRows);
+    for (j = nCols - 1; j >= 0; j--) {
+      const i = colArg[j]!;
+      if (i === NONE) throw unreachableColumn(j);
+      if (hits[i]!++ === 0) {
+        rowToCol[i] = j;
+        colToRow[j] = i;
+      } else if (v[j]! < v[rowToCol[i]!]!) {
+        colToRow[rowToCol[i]!] = NONE;
+        rowToCol[i] = j;
+        colToRow[j] = i;
+      }
+    }
+    for (r = 0; r < nRows; r++) {
+      const j1 = rowToCol[r]!;
+      u[r] = 0;
+      if (j1 === NONE) continue;
+      if (hits[r] !== 1) continue;
+      let m = Infinity;
+      end = rowPtr[r + 1]!;
+      for (e = rowPtr[r]!; e < end; e++) {
+        j = colIdx[e]!;
+        if (j === j1) continue;
+        x = cost[e]! - v[j]!;
+        if (x < m) m = x;
+      }
+      scannedPairs += end - rowPtr[r]!;
+      if (m < Infinity) {
+        v[j1] = v[j1]! - m;
+        u[r] = m;
+      }
+    }
+  }
+
   // ---- augmenting row reduction: cheap greedy passes that settle most rows before
   // any shortest-path search. Each step lowers only the price of the column the row
   // takes, so the invariants hold throughout.
   let freeRows = new Int32Array(nRows);
   let nFree = 0;
   for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
-  const warmPairsKept = nRows - nFree;
   let nextRows = new Int32Array(nRows);
   for (let pass = 0; pass < 2 && nFree > 0; pass++) {
     let nNext = 0;
@@ -238,150 +293,14 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   // lazy reset of only what each search touched).
   const searchedRows = nFree;
   if (nFree > 0) {
-    const dist = new Float64Array(nCols).fill(Infinity);
-    const pred = new Int32Array(nCols);
-    const state = new Uint8Array(nCols); // 0 untouched, 1 in heap, 2 done
-    const heap = new Int32Array(nCols);
-    const hpos = new Int32Array(nCols);
-    const touched = new Int32Array(nCols);
-    const done = new Int32Array(nCols);
-
+    const search = new SparseSearch(inst, delta, u, v, rowToCol, colToRow);
     for (let f = 0; f < nFree; f++) {
-      const r0 = freeRows[f]!;
       augmentations++;
-      let nTouched = 0;
-      let nDone = 0;
-      let hsize = 0;
-      let bestPriv = Infinity;
-      let privRow = NONE;
-      let sink = NONE;
-      let minVal = 0;
-      let i = r0;
-      let base = 0;
-      let ui = 0;
-      for (;;) {
-        if (delta !== null) {
-          x = base + delta[i]! - ui;
-          if (x < bestPriv) {
-            bestPriv = x;
-            privRow = i;
-          }
-        }
-        end = rowPtr[i + 1]!;
-        for (e = rowPtr[i]!; e < end; e++) {
-          j = colIdx[e]!;
-          const st = state[j]!;
-          if (st === 2) continue;
-          x = base + cost[e]! - ui - v[j]!;
-          if (st === 0) {
-            state[j] = 1;
-            touched[nTouched++] = j;
-            dist[j] = x;
-            pred[j] = i;
-            // push and sift up
-            let p = hsize++;
-            while (p > 0) {
-              const parent = (p - 1) >> 1;
-              const pj = heap[parent]!;
-              if (dist[pj]! <= x) break;
-              heap[p] = pj;
-              hpos[pj] = p;
-              p = parent;
-            }
-            heap[p] = j;
-            hpos[j] = p;
-          } else if (x < dist[j]!) {
-            dist[j] = x;
-            pred[j] = i;
-            let p = hpos[j]!;
-            while (p > 0) {
-              const parent = (p - 1) >> 1;
-              const pj = heap[parent]!;
-              if (dist[pj]! <= x) break;
-              heap[p] = pj;
-              hpos[pj] = p;
-              p = parent;
-            }
-            heap[p] = j;
-            hpos[j] = p;
-          }
-        }
-        scannedPairs += end - rowPtr[i]!;
-        if (hsize === 0 || dist[heap[0]!]! > bestPriv) {
-          if (bestPriv === Infinity) throw infeasibleRow(r0);
-          minVal = bestPriv;
-          break;
-        }
-        // pop the minimum
-        j = heap[0]!;
-        const dj = dist[j]!;
-        hsize--;
-        if (hsize > 0) {
-          const last = heap[hsize]!;
-          const dl = dist[last]!;
-          let p = 0;
-          for (;;) {
-            let c = 2 * p + 1;
-            if (c >= hsize) break;
-            const c2 = c + 1;
-            if (c2 < hsize && dist[heap[c2]!]! < dist[heap[c]!]!) c = c2;
-            const cj = heap[c]!;
-            if (dist[cj]! >= dl) break;
-            heap[p] = cj;
-            hpos[cj] = p;
-            p = c;
-          }
-          heap[p] = last;
-          hpos[last] = p;
-        }
-        state[j] = 2;
-        if (colToRow[j] === NONE) {
-          sink = j;
-          minVal = dj;
-          break;
-        }
-        done[nDone++] = j;
-        i = colToRow[j]!;
-        base = dj;
-        ui = u[i]!;
-      }
-
-      // dual update on everything settled closer than the sink
-      for (let t = 0; t < nDone; t++) {
-        j = done[t]!;
-        const d = minVal - dist[j]!;
-        v[j] = v[j]! - d;
-        const ri = colToRow[j]!;
-        u[ri] = u[ri]! + d;
-      }
-      u[r0] = minVal;
-
-      // augment back to r0
-      if (sink === NONE) {
-        // privRow leaves its column for its private one
-        j = privRow === r0 ? NONE : rowToCol[privRow]!;
-        rowToCol[privRow] = NONE;
-        u[privRow] = delta![privRow]!;
-        if (j !== NONE) colToRow[j] = NONE;
-        sink = j;
-      }
-      j = sink;
-      while (j !== NONE) {
-        i = pred[j]!;
-        const prevCol = i === r0 ? NONE : rowToCol[i]!;
-        rowToCol[i] = j;
-        colToRow[j] = i;
-        j = prevCol;
-      }
-
-      for (let t = 0; t < nTouched; t++) {
-        j = touched[t]!;
-        dist[j] = Infinity;
-        state[j] = 0;
-      }
+      scannedPairs += search.run(freeRows[f]!);
     }
   }
 
+  if (perfect) shiftToNonPositive(v);
   // exact row duals from the final prices: matched pairs tight, unmatched rows at δ
   const primal = new Sum();
   for (r = 0; r < nRows; r++) {
@@ -410,6 +329,31 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   });
 }
 
+/** Whether every row must be matched (no δ, or δ = +Infinity throughout). */
+export function mustMatchAll(delta: Float64Array | null): boolean {
+  if (delta === null) return true;
+  for (let r = 0; r < delta.length; r++) if (delta[r]! < Infinity) return false;
+  return true;
+}
+
+/**
+ * With every column matched, adding a constant to all column prices and removing it
+ * from all row prices changes neither feasibility nor the objective; this brings the
+ * prices to the sign SPEC §5 asks for (max v = 0).
+ */
+export function shiftToNonPositive(v: Float64Array): void {
+  let top = -Infinity;
+  for (let j = 0; j < v.length; j++) if (v[j]! > top) top = v[j]!;
+  if (top === -Infinity) return;
+  for (let j = 0; j < v.length; j++) v[j] = v[j]! - top;
+}
+
+export function unreachableColumn(j: number): Error {
+  return pairflowError('PAIRFLOW_ERR_SOLVER_INFEASIBLE', {
+    detail: `column ${j} has no allowed pair, so not every row of this square instance can be matched, and rows have no unmatched cost`,
+  });
+}
+
 function infeasibleRow(r: number): Error {
   return pairflowError('PAIRFLOW_ERR_SOLVER_INFEASIBLE', {
     detail: `row ${r} cannot be matched: every column it may take is needed by other rows (or it has no allowed pair), and it has no unmatched cost`,
@@ -417,3 +361,176 @@ function infeasibleRow(r: number): Error {
 }
 
 export { infeasibleRow };
+
+/**
+ * One shortest-augmenting-path search at a time, reusing its arrays: every search
+ * resets only the columns it touched, so its cost follows what it reaches, not nCols.
+ * The heap keeps each key beside its column so sifting reads contiguous memory.
+ */
+class SparseSearch {
+  private readonly dist: Float64Array;
+  private readonly pred: Int32Array;
+  /** -1 untouched, -2 settled, else position in the heap. */
+  private readonly hpos: Int32Array;
+  private readonly hcol: Int32Array;
+  private readonly hkey: Float64Array;
+  private readonly touched: Int32Array;
+  private readonly settled: Int32Array;
+
+  constructor(
+    private readonly inst: SparseInstance,
+    private readonly delta: Float64Array | null,
+    private readonly u: Float64Array,
+    private readonly v: Float64Array,
+    private readonly rowToCol: Int32Array,
+    private readonly colToRow: Int32Array,
+  ) {
+    const n = inst.nCols;
+    this.dist = new Float64Array(n);
+    this.pred = new Int32Array(n);
+    this.hpos = new Int32Array(n).fill(-1);
+    this.hcol = new Int32Array(n);
+    this.hkey = new Float64Array(n);
+    this.touched = new Int32Array(n);
+    this.settled = new Int32Array(n);
+  }
+
+  /** Augments from free row r0 (or settles it unmatched); returns the pairs scanned. */
+  run(r0: number): number {
+    const { rowPtr, colIdx, cost } = this.inst;
+    const { delta, u, v, rowToCol, colToRow, dist, pred, hpos, hcol, hkey, touched, settled } = this;
+    let nTouched = 0;
+    let nSettled = 0;
+    let hsize = 0;
+    let scanned = 0;
+    let bestPriv = Infinity;
+    let privRow = NONE;
+    let sink = NONE;
+    let minVal = 0;
+    let i = r0;
+    let base = 0;
+    let ui = 0;
+    let j = 0;
+    let x = 0;
+    let p = 0;
+    for (;;) {
+      if (delta !== null) {
+        x = base + delta[i]! - ui;
+        if (x < bestPriv) {
+          bestPriv = x;
+          privRow = i;
+        }
+      }
+      const end = rowPtr[i + 1]!;
+      const off = base - ui;
+      for (let e = rowPtr[i]!; e < end; e++) {
+        j = colIdx[e]!;
+        p = hpos[j]!;
+        if (p === -2) continue;
+        x = off + cost[e]! - v[j]!;
+        if (p === -1) {
+          touched[nTouched++] = j;
+          p = hsize++;
+        } else if (x < dist[j]!) {
+          // decrease-key: sift up from the current position
+        } else {
+          continue;
+        }
+        dist[j] = x;
+        pred[j] = i;
+        while (p > 0) {
+          const parent = (p - 1) >> 1;
+          const pk = hkey[parent]!;
+          if (pk <= x) break;
+          const pj = hcol[parent]!;
+          hkey[p] = pk;
+          hcol[p] = pj;
+          hpos[pj] = p;
+          p = parent;
+        }
+        hkey[p] = x;
+        hcol[p] = j;
+        hpos[j] = p;
+      }
+      scanned += end - rowPtr[i]!;
+      if (hsize === 0 || hkey[0]! > bestPriv) {
+        if (bestPriv === Infinity) {
+          this.reset(nTouched);
+          throw infeasibleRow(r0);
+        }
+        minVal = bestPriv;
+        break;
+      }
+      j = hcol[0]!;
+      const dj = hkey[0]!;
+      hsize--;
+      if (hsize > 0) {
+        const lk = hkey[hsize]!;
+        const lj = hcol[hsize]!;
+        p = 0;
+        for (;;) {
+          let c = 2 * p + 1;
+          if (c >= hsize) break;
+          let ck = hkey[c]!;
+          if (c + 1 < hsize && hkey[c + 1]! < ck) {
+            c++;
+            ck = hkey[c]!;
+          }
+          if (ck >= lk) break;
+          const cj = hcol[c]!;
+          hkey[p] = ck;
+          hcol[p] = cj;
+          hpos[cj] = p;
+          p = c;
+        }
+        hkey[p] = lk;
+        hcol[p] = lj;
+        hpos[lj] = p;
+      }
+      hpos[j] = -2;
+      if (colToRow[j] === NONE) {
+        sink = j;
+        minVal = dj;
+        break;
+      }
+      settled[nSettled++] = j;
+      i = colToRow[j]!;
+      base = dj;
+      ui = u[i]!;
+    }
+
+    // dual update on everything settled closer than the sink
+    for (let t = 0; t < nSettled; t++) {
+      j = settled[t]!;
+      const d = minVal - dist[j]!;
+      v[j] = v[j]! - d;
+      const ri = colToRow[j]!;
+      u[ri] = u[ri]! + d;
+    }
+    u[r0] = minVal;
+
+    if (sink === NONE) {
+      // privRow leaves its column for its private one
+      j = privRow === r0 ? NONE : rowToCol[privRow]!;
+      rowToCol[privRow] = NONE;
+      u[privRow] = delta![privRow]!;
+      if (j !== NONE) colToRow[j] = NONE;
+      sink = j;
+    }
+    j = sink;
+    while (j !== NONE) {
+      i = pred[j]!;
+      const prevCol = i === r0 ? NONE : rowToCol[i]!;
+      rowToCol[i] = j;
+      colToRow[j] = i;
+      j = prevCol;
+    }
+    this.reset(nTouched);
+    return scanned;
+  }
+
+  private reset(nTouched: number): void {
+    const { hpos, touched } = this;
+    for (let t = 0; t < nTouched; t++) hpos[touched[t]!] = -1;
+  }
+}

@@ -42,6 +42,13 @@ export interface SolveOptions {
   readonly warm?: WarmStart;
   /** Clock for `stats.ms`; injected so the core does no I/O. @default performance.now */
   readonly now?: () => number;
+  /**
+   * How `solveDense` works: `'full'` searches whole rows; `'candidates'` solves on
+   * each row's cheapest pairs and then prices every pair, adding any that prices
+   * out and re-solving until none does (exact either way); `'auto'` picks
+   * candidates for large matrices. @default 'auto'
+   */
+  readonly denseStrategy?: 'auto' | 'full' | 'candidates';
 }
 
 export interface SolveStats {

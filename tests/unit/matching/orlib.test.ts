@@ -71,9 +71,11 @@ describe('OR-Library assignment instances reach their published optimum', () => 
     it(`${o.format === 'dense' ? 'solveDense() and solveSparse()' : 'solveSparse()'} on ${o.name} give ${o.opt}`, () => {
       if (o.format === 'dense') {
         const d = readDense(o.name);
-        const rd = solveDense(d);
-        expect(rd.cost).toBe(o.opt);
-        expect(checkCertificate(d, rd).problems).toEqual([]);
+        for (const denseStrategy of ['full', 'candidates'] as const) {
+          const rd = solveDense(d, { denseStrategy });
+          expect(rd.cost, denseStrategy).toBe(o.opt);
+          expect(checkCertificate(d, rd).problems, denseStrategy).toEqual([]);
+        }
         const s = denseToSparse(d);
         const rs = solveSparse(s);
         expect(rs.cost).toBe(o.opt);

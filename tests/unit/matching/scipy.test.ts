@@ -79,14 +79,19 @@ describe.skipIf(version === null)(`solvers against scipy ${version} linear_sum_a
       const sparse = denseToSparse(inst, mulberry32(seed));
       if (ref === null || ref === undefined) {
         expect(() => solveDense(inst), label).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' }));
+        expect(() => solveDense(inst, { denseStrategy: 'candidates' }), label).toThrow(
+          expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' }),
+        );
         expect(() => solveSparse(sparse), label).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' }));
         return;
       }
       feasible++;
       const tol = 1e-9 * Math.max(1, Math.abs(ref));
-      const rd = solveDense(inst);
-      expect(checkCertificate(inst, rd).problems, `${label} dense`).toEqual([]);
-      expect(Math.abs(rd.cost - ref), `${label} dense`).toBeLessThanOrEqual(tol);
+      for (const denseStrategy of ['full', 'candidates'] as const) {
+        const rd = solveDense(inst, { denseStrategy });
+        expect(checkCertificate(inst, rd).problems, `${label} dense ${denseStrategy}`).toEqual([]);
+        expect(Math.abs(rd.cost - ref), `${label} dense ${denseStrategy}`).toBeLessThanOrEqual(tol);
+      }
       const rs = solveSparse(sparse);
       expect(checkCertificate(sparse, rs).problems, `${label} sparse`).toEqual([]);
       expect(Math.abs(rs.cost - ref), `${label} sparse`).toBeLessThanOrEqual(tol);

@@ -40,9 +40,11 @@ describe('solveSparse()/solveDense() with a garbage warm start', () => {
       if (want === Infinity) continue;
       const warm = garbageWarm(rand, d.nRows, d.nCols);
       const label = `seed ${90_000 + seed}`;
-      const rd = solveDense(d, { warm });
-      expect(checkCertificate(d, rd).problems, label).toEqual([]);
-      expect(sameCost(rd.cost, want), `${label}: ${rd.cost} vs ${want}`).toBe(true);
+      for (const denseStrategy of ['full', 'candidates'] as const) {
+        const rd = solveDense(d, { warm, denseStrategy });
+        expect(checkCertificate(d, rd).problems, `${label} ${denseStrategy}`).toEqual([]);
+        expect(sameCost(rd.cost, want), `${label} ${denseStrategy}: ${rd.cost} vs ${want}`).toBe(true);
+      }
       const s = denseToSparse(d, rand);
       const rs = solveSparse(s, { warm });
       expect(checkCertificate(s, rs).problems, label).toEqual([]);
