@@ -20,6 +20,9 @@ export interface BrokerSettings {
   mvn: string;
   heap: string;
   startTimeoutMs: number;
+  /** Fixed broker port, 0 = pick a free one. */
+  brokerPort: number;
+  jvmOpts: string[];
 }
 
 export interface BrokerState {

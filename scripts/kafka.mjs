@@ -13,7 +13,8 @@
  * PAIRFLOW_CACHE_DIR (default ~/.cache/pairflow), PAIRFLOW_JAVA_HOME or JAVA_HOME (else
  * `java` on PATH), PAIRFLOW_MVN (else `mvn` on PATH), PAIRFLOW_KAFKA_HEAP (default 512m),
  * PAIRFLOW_KAFKA_START_TIMEOUT_MS (default 120000), PAIRFLOW_KAFKA_JVM_OPTS (extra JVM
- * flags, split on spaces). See docs/kafka.md.
+ * flags, split on spaces), PAIRFLOW_KAFKA_PORT (fixed broker port; default a free one).
+ * See docs/kafka.md.
  */
 import { spawn, spawnSync } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
@@ -60,6 +61,10 @@ export function brokerSettings(env = process.env) {
   const cacheRoot = resolve(env.PAIRFLOW_CACHE_DIR || join(homedir(), '.cache', 'pairflow'));
   const javaHome = env.PAIRFLOW_JAVA_HOME || env.JAVA_HOME || '';
   const timeout = Number(env.PAIRFLOW_KAFKA_START_TIMEOUT_MS || 120_000);
+  const port = env.PAIRFLOW_KAFKA_PORT ? Number(env.PAIRFLOW_KAFKA_PORT) : 0;
+  if (!Number.isInteger(port) || port < 0 || port > 65535) {
+    throw new BrokerSetupError(`PAIRFLOW_KAFKA_PORT=${env.PAIRFLOW_KAFKA_PORT}: expected a port number in 1..65535`);
+  }
   return {
     version,
     cacheRoot,
@@ -71,6 +76,7 @@ export function brokerSettings(env = process.env) {
     heap: env.PAIRFLOW_KAFKA_HEAP || '512m',
     jvmOpts: (env.PAIRFLOW_KAFKA_JVM_OPTS || '').split(/\s+/).filter(Boolean),
     startTimeoutMs: Number.isFinite(timeout) && timeout > 0 ? timeout : 120_000,
+    brokerPort: port,
   };
 }
 
@@ -312,12 +318,24 @@ function readState(paths) {
   }
 }
 
-function logTail(file, lines = 30) {
+function readLog(file) {
   try {
-    return tail(readFileSync(file, 'utf8').trimEnd(), lines);
+    return readFileSync(file, 'utf8').trimEnd();
   } catch {
-    return '(no broker log)';
+    return '';
   }
+}
+
+/**
+ * The first error lines of a broker log and then its tail: a failed Kafka start logs the
+ * cause (e.g. a BindException) and then hundreds of shutdown lines that bury it.
+ */
+function logReport(file) {
+  const text = readLog(file);
+  if (!text) return `(no broker log at ${file})`;
+  const firstErrors = [...new Set(text.split('\n').filter((l) => /\b(ERROR|FATAL)\b|^Caused by:|Exception:/.test(l)))].slice(0, 8);
+  const head = firstErrors.length ? `first errors in ${file}:\n${firstErrors.join('\n')}\n` : '';
+  return `${head}last lines of ${file}:\n${tail(text, 30)}`;
 }
 
 async function withLock(lock, fn) {
@@ -454,8 +472,8 @@ export async function startBroker(options = {}) {
       try {
         return await launch(settings, paths, instance, fetched, options);
       } catch (err) {
-        const taken = /BindException|Address already in use/.test(err.message);
-        if (!taken || attempt >= 3) throw err;
+        // A fixed port stays taken: only freshly picked ports are worth another try.
+        if (!err.portTaken || settings.brokerPort || attempt >= 3) throw err;
         progress(`a port was taken before the broker bound it; retrying (${attempt}/3)`);
       }
     }
@@ -463,7 +481,9 @@ export async function startBroker(options = {}) {
 }
 
 async function launch(settings, paths, instance, fetched, options) {
-  const [brokerPort, controllerPort] = await freePorts(2);
+  const picked = await freePorts(2);
+  const brokerPort = settings.brokerPort || picked[0];
+  const controllerPort = picked[1];
   mkdirSync(paths.dir, { recursive: true });
   writeFileSync(paths.props, serverProperties({ brokerPort, controllerPort, dataDir: paths.dataDir }));
   writeFileSync(paths.log4j, log4jProperties(paths.logFile));
@@ -478,7 +498,7 @@ async function launch(settings, paths, instance, fetched, options) {
   );
   if (format.status !== 0) {
     throw new BrokerSetupError(
-      `formatting the KRaft storage failed (exit ${format.status}):\n${tail(`${format.stdout}\n${format.stderr}`)}\n${logTail(paths.logFile)}`,
+      `formatting the KRaft storage failed (exit ${format.status}):\n${tail(`${format.stdout}\n${format.stderr}`)}\n${logReport(paths.logFile)}`,
     );
   }
 
@@ -514,17 +534,21 @@ async function launch(settings, paths, instance, fetched, options) {
   const deadline = startT + settings.startTimeoutMs;
   for (;;) {
     if (exited) {
+      const report = logReport(paths.logFile);
+      const portTaken = /BindException|Address already in use/.test(readLog(paths.logFile));
       cleanInstance(paths);
-      throw new BrokerSetupError(
-        `the Kafka broker exited during start-up (${exited.err ? exited.err.message : `code ${exited.code}, signal ${exited.signal}`}); last lines of ${paths.logFile}:\n${logTail(paths.logFile)}`,
+      const err = new BrokerSetupError(
+        `the Kafka broker exited during start-up (${exited.err ? exited.err.message : `code ${exited.code}, signal ${exited.signal}`}); ${report}`,
       );
+      err.portTaken = portTaken;
+      throw err;
     }
     if (await brokerAnswers([brokers], 2000)) break;
     if (Date.now() > deadline) {
       await stopProcess(child.pid, paths.dir);
       cleanInstance(paths);
       throw new BrokerSetupError(
-        `the Kafka broker did not answer within ${settings.startTimeoutMs} ms; last lines of ${paths.logFile}:\n${logTail(paths.logFile)}`,
+        `the Kafka broker did not answer within ${settings.startTimeoutMs} ms; ${logReport(paths.logFile)}`,
       );
     }
     await sleep(300);

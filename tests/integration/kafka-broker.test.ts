@@ -5,6 +5,7 @@
  */
 import { spawn, spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { createServer, type AddressInfo } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
@@ -85,6 +86,23 @@ describe('failures name their cause', () => {
 });
 
 describe.skipIf(!hasJava && !isCi)('a private broker instance', () => {
+  it('startBroker() on a fixed port that is taken fails with the broker\'s own cause, not just its shutdown lines', async () => {
+    const holder = createServer();
+    await new Promise<void>((r) => holder.listen(0, '127.0.0.1', () => r()));
+    const port = (holder.address() as AddressInfo).port;
+    const instance = uniqueName('taken');
+    try {
+      const env = { ...process.env, PAIRFLOW_KAFKA_PORT: String(port) };
+      await expect(startBroker({ instance, env })).rejects.toEqual(
+        expect.objectContaining({ code: BROKER_SETUP_CODE, message: expect.stringMatching(new RegExp(`first errors[^]*${port}[^]*Address already in use`)) }),
+      );
+    } finally {
+      holder.close();
+      await stopBroker({ instance });
+    }
+  });
+
+
   it('startBroker() starts, reuses while running, and stopBroker() leaves no process and no data', async () => {
     const instance = uniqueName('cycle');
     // What a killed run leaves behind: a state file naming a process that is gone.
