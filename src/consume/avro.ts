@@ -35,6 +35,73 @@ const LenientLong = avro.types.LongType.__with({
   compare: (a: number, b: number) => (a < b ? -1 : a > b ? 1 : 0),
 });
 
+/** The parts of avsc's internal Tap that the count guard below uses. */
+interface Tap {
+  buf: Buffer;
+  pos: number;
+  readLong(): number;
+  skipLong(): void;
+  readString(): string;
+}
+
+/**
+ * The item count of one array or map block. A damaged count (say 2^31) would make
+ * avsc allocate and fill an array that size — seconds of work, then out of memory —
+ * so a count larger than the bytes left in the block is refused as damage. (An array
+ * of nulls could legitimately exceed it; no event field is one.)
+ */
+function itemCount(tap: Tap): number {
+  let n = tap.readLong();
+  if (n < 0) {
+    n = -n;
+    tap.skipLong();
+  }
+  const left = tap.buf.length - tap.pos;
+  if (n > left) throw new Error(`an array or map claims ${n} items with ${Math.max(0, left)} bytes left`);
+  return n;
+}
+
+// avsc's array and map types with the count check; avsc freezes its type objects,
+// so the check lives on subclasses that the schema's typeHook builds.
+class GuardedArrayType extends avro.types.ArrayType {}
+class GuardedMapType extends avro.types.MapType {}
+interface ReadsTap {
+  _read(tap: Tap): unknown;
+}
+(GuardedArrayType.prototype as unknown as ReadsTap)._read = function (this: { itemsType: ReadsTap }, tap: Tap): unknown[] {
+  const out: unknown[] = [];
+  for (let n = itemCount(tap); n !== 0; n = itemCount(tap)) {
+    for (; n > 0; n -= 1) out.push(this.itemsType._read(tap));
+  }
+  return out;
+};
+(GuardedMapType.prototype as unknown as ReadsTap)._read = function (this: { valuesType: ReadsTap }, tap: Tap): Record<string, unknown> {
+  const out: Record<string, unknown> = {};
+  for (let n = itemCount(tap); n !== 0; n = itemCount(tap)) {
+    for (; n > 0; n -= 1) {
+      const key = tap.readString();
+      out[key] = this.valuesType._read(tap);
+    }
+  }
+  return out;
+};
+
+/** Builds the reading type of a writer schema: lenient longs, count-checked arrays and maps. */
+function readingType(schema: unknown): avro.Type {
+  return avro.Type.forSchema(schema as avro.Schema, {
+    typeHook: (s, opts) => {
+      // Logical types are not enabled, so a timestamp-millis long is a plain long too.
+      if (s === 'long') return LenientLong;
+      if (typeof s !== 'object' || s === null) return undefined;
+      const kind = (s as { type?: unknown }).type;
+      if (kind === 'long') return LenientLong;
+      if (kind === 'array') return new GuardedArrayType(s, opts);
+      if (kind === 'map') return new GuardedMapType(s, opts);
+      return undefined;
+    },
+  });
+}
+
 /** One piece of a container file, in file order. `block` is 0-based. */
 export type AvroPiece =
   | { readonly kind: 'record'; readonly block: number; readonly record: number; readonly value: unknown }
@@ -66,49 +133,76 @@ interface Header {
   readonly end: number;
 }
 
-const HEADER_TYPE = avro.Type.forSchema({
-  type: 'record',
-  name: 'Header',
-  namespace: 'org.apache.avro.file',
-  fields: [
-    { name: 'magic', type: { type: 'fixed', name: 'Magic', size: 4 } },
-    { name: 'meta', type: { type: 'map', values: 'bytes' } },
-    { name: 'sync', type: { type: 'fixed', name: 'Sync', size: 16 } },
-  ],
-});
-
 /** Largest header accepted: a real one is a schema of a few kB. */
 const MAX_HEADER_BYTES = 4 << 20;
+
+/**
+ * Reads the header's metadata, an Avro `map<bytes>` (blocks of `long count`, a
+ * negative count followed by a byte size, then key/value pairs; a zero count ends
+ * it), bound-checking every length: a damaged count must not make a decoder spin
+ * over billions of missing entries.
+ */
+function readMeta(buf: Buffer, start: number): { entries: Record<string, Buffer>; end: number } | 'more' | string {
+  const entries: Record<string, Buffer> = {};
+  let pos = start;
+  const bytesAt = (): Buffer | 'more' | string => {
+    const len = readLong(buf, pos);
+    if (len === null) return 'more';
+    if (Number.isNaN(len.value) || len.value < 0) return 'bad length in the metadata';
+    if (len.value > MAX_HEADER_BYTES) return `metadata entry of ${len.value} bytes`;
+    if (len.next + len.value > buf.length) return 'more';
+    pos = len.next + len.value;
+    return buf.subarray(len.next, pos);
+  };
+  for (;;) {
+    const count = readLong(buf, pos);
+    if (count === null) return 'more';
+    if (Number.isNaN(count.value)) return 'bad map count in the metadata';
+    pos = count.next;
+    if (count.value === 0) return { entries, end: pos };
+    let n = count.value;
+    if (n < 0) {
+      const size = readLong(buf, pos);
+      if (size === null) return 'more';
+      pos = size.next;
+      n = -n;
+    }
+    // Each entry takes at least two bytes (two lengths).
+    if (n > MAX_HEADER_BYTES / 2) return `metadata claims ${n} entries`;
+    for (let i = 0; i < n; i += 1) {
+      const key = bytesAt();
+      if (typeof key === 'string') return key;
+      const value = bytesAt();
+      if (typeof value === 'string') return value;
+      entries[key.toString('utf8')] = value;
+    }
+  }
+}
 
 function parseHeader(buf: Buffer, atEnd: boolean): Header | 'more' | string {
   if (buf.length < MAGIC.length) return atEnd ? 'not an Avro object container file (shorter than its magic bytes)' : 'more';
   if (!buf.subarray(0, MAGIC.length).equals(MAGIC)) return 'not an Avro object container file (bad magic bytes)';
-  let decoded: { value: unknown; offset: number };
-  try {
-    decoded = HEADER_TYPE.decode(buf, 0);
-  } catch (err) {
-    return `damaged Avro header: ${(err as Error).message}`;
-  }
-  if (decoded.offset < 0) {
+  const meta = readMeta(buf, MAGIC.length);
+  if (meta === 'more') {
     if (atEnd) return 'Avro header truncated';
     if (buf.length > MAX_HEADER_BYTES) return `damaged Avro header (no end within ${MAX_HEADER_BYTES} bytes)`;
     return 'more';
   }
-  const header = decoded.value as { meta: Record<string, Buffer>; sync: Buffer };
+  if (typeof meta === 'string') return `damaged Avro header: ${meta}`;
+  if (buf.length < meta.end + SYNC_BYTES) return atEnd ? 'Avro header truncated' : 'more';
+  const header = { meta: meta.entries, sync: buf.subarray(meta.end, meta.end + SYNC_BYTES) };
+  const end = meta.end + SYNC_BYTES;
   const codec = header.meta['avro.codec']?.toString('utf8') || 'null';
   if (codec !== 'null' && codec !== 'deflate') return `Avro codec '${codec}' is not supported (expected null or deflate)`;
   const schemaText = header.meta['avro.schema'];
   if (!schemaText) return 'Avro header has no avro.schema';
   let type: avro.Type;
   try {
-    type = avro.Type.forSchema(JSON.parse(schemaText.toString('utf8')), {
-      // Logical types are not enabled, so a timestamp-millis long is a plain long too.
-      typeHook: (schema) => (schema === 'long' || (typeof schema === 'object' && schema !== null && (schema as { type?: unknown }).type === 'long') ? LenientLong : undefined),
-    });
+    type = readingType(JSON.parse(schemaText.toString('utf8')));
   } catch (err) {
     return `Avro header holds an unusable schema: ${(err as Error).message}`;
   }
-  return { type, codec, sync: Buffer.from(header.sync), end: decoded.offset };
+  return { type, codec, sync: Buffer.from(header.sync), end };
 }
 
 /** Decodes every record of one block, or says why the block is damaged. */

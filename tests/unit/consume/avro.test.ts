@@ -143,6 +143,29 @@ describe('readAvroContainer()', () => {
     expect(got.map((p) => (p.kind === 'record' ? (p.value as { t: number }).t : p.kind))).toEqual([2 ** 60, 2]);
   });
 
+  it('rejects a block whose array count is damaged to 2^31 instead of allocating it', async () => {
+    const path = join(dir, 'count31.avro');
+    const ok = await writeAvro(path, [record(0, { has: ['a'] }), record(1)]);
+    const b = blockLayout(ok)[0]!;
+    const data = ok.subarray(b.dataStart, b.dataEnd);
+    // has = ["a"] is encoded as: union branch 1, count 1, string "a", end of array
+    // (zig-zag varints, Avro 1.11 spec "Binary Encoding").
+    const at = data.indexOf(Buffer.from([0x02, 0x02, 0x02, 0x61, 0x00]));
+    expect(at).toBeGreaterThanOrEqual(0);
+    let z = 2n ** 32n; // zig-zag of 2^31
+    const count: number[] = [];
+    while (z >= 0x80n) {
+      count.push(Number((z & 0x7fn) | 0x80n));
+      z >>= 7n;
+    }
+    count.push(Number(z));
+    const bad = Buffer.concat([data.subarray(0, at + 1), Buffer.from(count), data.subarray(at + 2)]);
+    const long = avro.Type.forSchema('long');
+    const file = Buffer.concat([ok.subarray(0, b.start), long.toBuffer(2), long.toBuffer(bad.length), bad, ok.subarray(b.dataEnd)]);
+    const got = await pieces(file);
+    expect(got).toEqual([expect.objectContaining({ kind: 'corrupt', block: 0, records: 2, reason: expect.stringMatching(/claims 2147483648 items/) })]);
+  });
+
   it('never throws on randomly damaged files (seeded)', async () => {
     const seed = 99173;
     const rand = mulberry32(seed);
