@@ -401,6 +401,10 @@ function solveSegment(
   for (let q = 0; q < nComp; q++) compRowStart[q + 1] = compRowStart[q]! + compRowCount[q + 1]!;
   const compRows = new Int32Array(compRowStart[nComp]!);
   for (let r = 0; r < nRows; r++) if (rowComp[r]! >= 0) compRows[compRowStart[rowComp[r]!]! + rowLocal[r]!] = r;
+  const compColStart = new Int32Array(nComp + 1);
+  for (let q = 0; q < nComp; q++) compColStart[q + 1] = compColStart[q]! + compColCount[q + 1]!;
+  const compCols = new Int32Array(compColStart[nComp]!);
+  for (let c = 0; c < nCols; c++) if (colComp[c]! >= 0) compCols[compColStart[colComp[c]!]! + colLocal[c]!] = c;
 
   const inCand = new Uint8Array(nnz);
   markCheapest(g, k, P, inCand);
@@ -513,16 +517,13 @@ function solveSegment(
     }
     const cols = new Int32Array(ptr[nr]!);
     const costs = new Float64Array(ptr[nr]!);
-    const colGlobal = new Int32Array(nc);
+    const colGlobal = compCols.subarray(compColStart[q]!, compColStart[q + 1]!);
     let at = 0;
     for (let i = 0; i < nr; i++) {
       const r = rows[i]!;
       for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-        const c = colIdx[e]!;
-        // Every column of the component is reached by a useful pair of one of its
-        // rows, candidate or not.
-        if (colComp[c] === q) colGlobal[colLocal[c]!] = c;
         if (inCand[e] === 0) continue;
+        const c = colIdx[e]!;
         cols[at] = colLocal[c]!;
         costs[at] = cost[e]!;
         at++;
