@@ -152,7 +152,8 @@ describe('log readers under fuzzing', () => {
       expect(missedBad, `seed ${seed}: bad lines not rejected`).toEqual([]);
       expect(eventLines, `seed ${seed}`).toEqual([...p.valid].sort((a, b) => a - b));
       expect(rejectLines, `seed ${seed}`).toEqual([...p.bad.keys()].sort((a, b) => a - b));
-      for (const it of got) if (it.kind === 'reject') expect(it.reject.reason.length, `seed ${seed}`).toBeGreaterThan(0);
+      expect(got.every((it) => (it.kind === 'event' ? it.ev.pos.file : it.reject.pos.file) === path), `seed ${seed}`).toBe(true);
+      expect(got.every((it) => it.kind === 'event' || it.reject.reason.length > 0), `seed ${seed}`).toBe(true);
     });
   }
 
