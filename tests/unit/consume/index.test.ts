@@ -56,6 +56,13 @@ describe('readLogFile()', () => {
     expect(strip(gz)).toEqual(strip(plain));
   });
 
+  it('reads concatenated gzip members as one stream', async () => {
+    const a = `${JSON.stringify(sup('s1', T0))}\n`;
+    const b = `${JSON.stringify(dem('d1', T0 + 1))}\n`;
+    const got = await items(write('members.jsonl.gz', Buffer.concat([gzipSync(a), gzipSync(b)])));
+    expect(got.map((it) => (it.kind === 'event' ? it.ev.event.id : 'reject'))).toEqual(['s1', 'd1']);
+  });
+
   it('ends a truncated gzip file with a reject after the lines read before the damage', async () => {
     const lines = Array.from({ length: 3000 }, (_, i) => JSON.stringify(sup(`s${i}`, T0 + i)));
     const full = gzipSync(lines.join('\n'));
