@@ -224,14 +224,15 @@ function growI32(a: Int32Array, n: number, fill = 0): Int32Array {
  * chance (`until < τ + W`) and R otherwise, and executes every pair (`commit: "all"`)
  * or only those with a unit at its last chance (`"due"`, the rest stay tentative).
  *
- * Epochs where nothing executable can change are skipped without a solve: those
- * where no unit joined and no unit reached its last chance (for `"all"`, only a
- * demand's last chance counts, and only when P ≠ R). Under `"all"` the units left
- * after a solve were unmatched in an optimum, and from one epoch to the next pair
- * costs only grow while deferral costs stay, so they stay unmatched; units leaving
- * cannot make a pair profitable either. Under `"due"` nothing executes unless a unit
- * is at its last chance, which lasts exactly one epoch (τ ∈ (until − W, until]) and
- * is itself a trigger. Ties aside, skipping therefore changes no executed pair. An
+ * Epochs where nothing executable can change are skipped without a solve. Under
+ * `"all"` an epoch is solved when a unit joined or a demand reached its last chance
+ * (only when P ≠ R): the units left after a solve were unmatched in an optimum, and
+ * from one epoch to the next pair costs only grow while deferral costs stay, so they
+ * stay unmatched; units leaving cannot make a pair profitable either. Under `"due"`
+ * an epoch is solved only when some unit is at its last chance (reached it, or joined
+ * at it): nothing executes otherwise, and a last chance lasts exactly one epoch
+ * (τ ∈ (until − W, until]). Ties aside, skipping changes no executed pair; the
+ * tentative pairs of the last solve are the warm start of the next. An
  * {@link EpochRecord} is written for every solve.
  *
  * @example
@@ -543,7 +544,8 @@ export class WindowEngine {
   private enterPool(m: MarketState, o: Occurrence, from: number): void {
     const id = o.index;
     this.state[id] = ST_POOL;
-    m.dirty = true;
+    // Under "due" only a unit at its last chance can make a pair executable.
+    if (!this.due || o.until < from) m.dirty = true;
     const [a, b] = this.coords(o);
     const speed = this.config.speedKmh;
     const maxTravel = this.config.maxTravelMin;

@@ -154,12 +154,11 @@ describe('WindowEngine: commit "all" versus "due"', () => {
 
   it('"due" keeps tentative pairs, re-optimises them, and executes each at a unit\'s last chance', () => {
     const { rec, engine } = replay(log, { commit: 'due' });
-    // τ=1000: d1–s1 tentative. τ=2000: d2 takes s1 (0.5 + P for d1 beats 5 + P for d2).
-    // τ=3000: d1–s2 tentative too. d2's last chance is τ=4000 (4000 < 5000); d1's is 10000.
+    // Under "all" d1 took s1 at τ=1000; here nothing is due before d2's last chance at
+    // τ=4000 (4000 < 5000), where the optimum is d2–s1 (0.5) and d1–s2 (0.2): d2–s1
+    // executes, d1–s2 stays tentative until d1's last chance at τ=10000.
     expect(pairs(rec)).toEqual([[4000, 'd2', 's1'], [10_000, 'd1', 's2']]);
-    expect(rec.epochs.map((e) => [e.epoch, e.matched, e.tentative])).toEqual([
-      [1000, 0, 1], [2000, 0, 1], [3000, 0, 2], [4000, 1, 1], [10_000, 1, 0],
-    ]);
+    expect(rec.epochs.map((e) => [e.epoch, e.matched, e.tentative])).toEqual([[4000, 1, 1], [10_000, 1, 0]]);
     expect(engine.totals().cost).toBeCloseTo(0.5 + 2500 / MIN + 0.2 + 10_000 / MIN, 9);
   });
 
@@ -580,6 +579,8 @@ describe('WindowEngine: snapshot() and restore()', () => {
     const engine = new WindowEngine({ ...base, commit: 'due' }, rec, { verify: true });
     for (const ev of sourced([
       { type: 'demand', id: 'd', t: 0, until: 60_000, needs: ['van'] },
+      // Out of reach; its last chance at τ = 2000 makes that epoch solved.
+      { type: 'demand', id: 'e', t: 0, until: 2500, x: 50 },
       { type: 'supply', id: 's', t: 0, until: 60_000, x: 1, has: ['van'] },
       { type: 'supply', id: 'later', t: 2500, x: 3 },
     ])) engine.ingest(ev);
@@ -588,11 +589,12 @@ describe('WindowEngine: snapshot() and restore()', () => {
     expect(JSON.parse(JSON.stringify(snap))).toEqual(snap);
     expect(snap).toMatchObject({ version: 1, market: 'm', windowMs: 1000, lastClosed: 2000 });
     expect(snap.units.map((u) => [u.side, u.id, u.state])).toEqual([
-      ['demand', 'd', 'pool'], ['supply', 's', 'pool'], ['supply', 'later', 'pending'],
+      ['demand', 'd', 'pool'], ['demand', 'e', 'pool'], ['supply', 's', 'pool'], ['supply', 'later', 'pending'],
     ]);
+    expect(rec.epochs.map((x) => [x.epoch, x.tentative])).toEqual([[2000, 1]]);
     expect(snap.units[0]).toMatchObject({ needs: ['van'], x: 0 });
-    expect(snap.units[2]!.joinEpoch).toBe(3000);
-    expect(snap.tentative).toEqual([[0, 1]]);
+    expect(snap.units[3]!.joinEpoch).toBe(3000);
+    expect(snap.tentative).toEqual([[0, 2]]);
     expect(snap.units.every((u) => u.state === 'pending' || typeof u.price === 'number')).toBe(true);
     expect(engine.snapshot('none')).toMatchObject({ lastClosed: 2000, units: [], tentative: [] });
   });
