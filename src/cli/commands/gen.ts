@@ -143,7 +143,7 @@ export function registerGen(program: Command): void {
     .option('--seed <s>', 'PRNG seed; the same seed writes the same bytes', String(GEN_DEFAULTS.seed))
     .option('--format <f>', 'jsonl or avro (default: from the --out extension)')
     .option('--start <date>', 'first day, YYYY-MM-DD (00:00 UTC) or RFC 3339 (default: 2026-03-02)')
-    .option('--scale <x>', 'demand multiplier: about 43000·x demand and as many supply occurrences per day', String(GEN_DEFAULTS.scale))
+    .option('--scale <x>', 'demand multiplier (at most 20): about 43000·x demand and as many supply occurrences per day', String(GEN_DEFAULTS.scale))
     .option('--markets <n>', 'number of markets (districts)', String(GEN_DEFAULTS.markets))
     .option('--shuffle', "shuffle each day's events (to test the engine's sorting)", false)
     .option('--coords <c>', 'latlon (metric haversine) or xy (km, metric euclidean)', GEN_DEFAULTS.coords)
