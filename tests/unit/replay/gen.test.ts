@@ -145,6 +145,7 @@ describe('resolveGenOptions()', () => {
     expect(() => resolveGenOptions({ days: 0 })).toThrow(/^days/);
     expect(() => resolveGenOptions({ markets: 1.5 })).toThrow(/^markets/);
     expect(() => resolveGenOptions({ scale: 0 })).toThrow(/^scale/);
+    expect(() => resolveGenOptions({ scale: 21 })).toThrow(/^scale/);
     expect(() => resolveGenOptions({ scale: Number.NaN })).toThrow(/^scale/);
     expect(resolveGenOptions({})).toEqual(GEN_DEFAULTS);
   });
