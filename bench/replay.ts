@@ -59,7 +59,10 @@ export interface SizeRow {
   pricingRounds: number;
   onlineCost: number;
   hindsightCost: number;
-  warm: { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
+  /** Epoch solves of the (warm) online run, split by whether the solver used a warm start. */
+  solves: DueSolves;
+  /** The hindsight figures come from the sweep (computed alone) rather than a replay. */
+  hindsightAlone: boolean;
 }
 
 type Solves = { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
@@ -71,7 +74,7 @@ export interface ReplayBenchResult {
   sizes: SizeRow[];
   largest: {
     days: number;
-    cold: { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
+    cold: DueSolves;
     coldOnlineMs: number;
     /** commit "due": epoch solves of the warm run (split by whether the solver used the warm start) and of the cold run. */
     due: { warm: DueSolves; cold: DueSolves; warmOnlineMs: number; coldOnlineMs: number; warmCost: number; coldCost: number };
@@ -110,8 +113,8 @@ function ensureLog(outDir: string, days: number, scale: number): string {
 const f1 = (v: number | null | undefined): string => (v === null || v === undefined || Number.isNaN(v) ? '–' : v.toFixed(1));
 const f2 = (v: number | null | undefined): string => (v === null || v === undefined || Number.isNaN(v) ? '–' : v.toFixed(2));
 const f3 = (v: number | null | undefined): string => (v === null || v === undefined || Number.isNaN(v) ? '–' : v.toFixed(3));
-const s1 = (ms: number | null | undefined): string => (ms === null || ms === undefined ? '–' : (ms / 1000).toFixed(1));
-const int = (v: number): string => v.toLocaleString('en-US');
+const s1 = (ms: number | null | undefined): string => (ms === null || ms === undefined || Number.isNaN(ms) ? '–' : (ms / 1000).toFixed(1));
+const int = (v: number): string => (Number.isFinite(v) ? v.toLocaleString('en-US') : '–');
 
 /** Runs the benchmark and returns its figures and the markdown section. */
 export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult {
@@ -122,30 +125,33 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   const scale = quick ? 0.01 : 1;
   const daysList = opts.days ?? (quick ? [1] : [1, 2, 4, 7]);
   const sizes: SizeRow[] = [];
+  const largestDays = daysList[daysList.length - 1]!;
   for (const days of daysList) {
     log(`bench:replay: ${days} day(s): generating`);
     const file = ensureLog(outDir, days, scale);
     log(`bench:replay: ${days} day(s): online replay at W = 10 s`);
     const online = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight']);
-    log(`bench:replay: ${days} day(s): replay with the hindsight optimum`);
-    const full = runChild(['replay', file, '--window', '10s', '--json']);
+    // At the largest size the sweep below computes the hindsight once, alone: not twice.
+    const full = days === largestDays ? null : runChild(['replay', file, '--window', '10s', '--json']);
+    if (full) log(`bench:replay: ${days} day(s): replay with the hindsight optimum`);
     sizes.push({
       days,
-      demandUnits: num(full.json, 'demandUnits'),
-      supplyUnits: num(full.json, 'supplyUnits'),
+      demandUnits: num(online.json, 'demandUnits'),
+      supplyUnits: num(online.json, 'supplyUnits'),
       logMb: statSync(file).size / 1e6,
       onlineMs: num(online.json, 'timings.onlineMs'),
       onlineWallMs: online.wallMs,
       onlineRssMb: online.peakRssMb,
-      replayWallMs: full.wallMs,
-      replayRssMb: full.peakRssMb,
-      hindsightMs: num(full.json, 'timings.hindsightMs'),
-      pairsPriced: num(full.json, 'hindsight.pairsPriced'),
-      pairsSolved: num(full.json, 'hindsight.pairsSolved'),
-      pricingRounds: num(full.json, 'hindsight.pricingRounds'),
-      onlineCost: num(full.json, 'online.cost'),
-      hindsightCost: num(full.json, 'hindsight.cost'),
-      warm: get(online.json, 'timings.epochSolve.warm') as SizeRow['warm'],
+      replayWallMs: full ? full.wallMs : NaN,
+      replayRssMb: full ? full.peakRssMb : null,
+      hindsightMs: full ? num(full.json, 'timings.hindsightMs') : NaN,
+      pairsPriced: full ? num(full.json, 'hindsight.pairsPriced') : NaN,
+      pairsSolved: full ? num(full.json, 'hindsight.pairsSolved') : NaN,
+      pricingRounds: full ? num(full.json, 'hindsight.pricingRounds') : NaN,
+      onlineCost: num(online.json, 'online.cost'),
+      hindsightCost: full ? num(full.json, 'hindsight.cost') : NaN,
+      solves: get(online.json, 'timings.epochSolve') as DueSolves,
+      hindsightAlone: false,
     });
   }
   const last = sizes[sizes.length - 1]!;
@@ -159,8 +165,16 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   const dueWarm = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight', '--config', dueConfig]);
   const dueCold = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight', '--config', dueConfig, '--no-warm']);
   const windows = quick ? '5s,30s' : '1s,2s,5s,10s,30s,60s';
-  log(`bench:replay: ${last.days} day(s): sweep ${windows}`);
+  log(`bench:replay: ${last.days} day(s): sweep ${windows} (the hindsight optimum once, then the windows)`);
   const sweep = runChild(['sweep', file, '--windows', windows, '--json', '--bootstrap', quick ? '100' : '1000']);
+  Object.assign(last, {
+    hindsightMs: num(sweep.json, 'timings.hindsightMs'),
+    pairsPriced: num(sweep.json, 'hindsight.pairsPriced'),
+    pairsSolved: num(sweep.json, 'hindsight.pairsSolved'),
+    pricingRounds: num(sweep.json, 'hindsight.pricingRounds'),
+    hindsightCost: num(sweep.json, 'hindsight.cost'),
+    hindsightAlone: true,
+  });
 
   const machine = {
     cpu: cpus()[0]?.model.trim() ?? 'unknown',
@@ -171,7 +185,7 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   };
   const largest: ReplayBenchResult['largest'] = {
     days: last.days,
-    cold: get(cold.json, 'timings.epochSolve.cold') as SizeRow['warm'],
+    cold: get(cold.json, 'timings.epochSolve') as DueSolves,
     coldOnlineMs: num(cold.json, 'timings.onlineMs'),
     due: {
       warm: get(dueWarm.json, 'timings.epochSolve') as DueSolves,
@@ -203,28 +217,32 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   md.push('| days | demand | supply | log MB (gz) | online replay s | online peak MB | hindsight s | replay + hindsight wall s | peak MB | pairs priced | pairs solved | pricing rounds | online cost | hindsight cost | ratio |');
   md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
   for (const r of sizes) {
-    md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${f1(r.logMb)} | ${s1(r.onlineMs)} | ${f1(r.onlineRssMb)} | ${s1(r.hindsightMs)} | ${s1(r.replayWallMs)} | ${f1(r.replayRssMb)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${r.pricingRounds} | ${f2(r.onlineCost)} | ${f2(r.hindsightCost)} | ${f3(r.onlineCost / r.hindsightCost)} |`);
+    md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${f1(r.logMb)} | ${s1(r.onlineMs)} | ${f1(r.onlineRssMb)} | ${s1(r.hindsightMs)}${r.hindsightAlone ? ' *' : ''} | ${s1(r.replayWallMs)} | ${f1(r.replayRssMb)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${f2(r.onlineCost)} | ${f2(r.hindsightCost)} | ${f3(r.onlineCost / r.hindsightCost)} |`);
   }
   md.push('');
-  md.push('"online replay s" is the engine loop alone (`timings.onlineMs`, log parsing excluded); "hindsight s" is the exact optimum\'s wall time while the online replay runs alongside on the same two cores; "replay + hindsight wall s" is the whole `pairflow replay` process, parsing included.');
+  md.push('"online replay s" is the engine loop alone (`timings.onlineMs`, log parsing excluded; the whole `--no-hindsight` process took ' +
+    sizes.map((r) => `${s1(r.onlineWallMs)} s`).join(', ') + ' wall); "hindsight s" is the exact optimum\'s wall time while the online replay runs alongside on the same two cores, ' +
+    'except * = alone, as the sweep computes it once before the windows (the largest size is not replayed with hindsight a second time); ' +
+    '"replay + hindsight wall s" is the whole `pairflow replay` process, parsing included.');
   md.push('');
-  const w = last.warm;
-  const c = largest.cold;
-  md.push(`Epoch solves, ${last.days} day(s), W = 10 s, commit "all" (the default): warm run ${int(w.count)} solves, mean ${f3(w.meanMs)} ms, p95 ${f3(w.p95Ms)} ms, total ${s1(w.totalMs)} s (online loop ${s1(last.onlineMs)} s); ` +
-    `cold (\`--no-warm\`) ${int(c.count)} solves, mean ${f3(c.meanMs)} ms, p95 ${f3(c.p95Ms)} ms, total ${s1(c.totalMs)} s (online loop ${s1(largest.coldOnlineMs)} s).`);
-  md.push('');
-  const d = largest.due;
   const both = (x: DueSolves): Solves => {
     const count = x.warm.count + x.cold.count;
     const totalMs = x.warm.totalMs + x.cold.totalMs;
     return { count, totalMs, meanMs: count > 0 ? totalMs / count : null, p95Ms: null };
   };
+  const describe = (x: DueSolves, onlineMs: number): string => {
+    const t = both(x);
+    return `${int(t.count)} solves (${int(x.warm.count)} used a warm start, mean ${f3(x.warm.meanMs)} ms; ${int(x.cold.count)} cold, mean ${f3(x.cold.meanMs)} ms, p95 ${f3(x.cold.p95Ms)} ms), ` +
+      `solve total ${s1(t.totalMs)} s, online loop ${s1(onlineMs)} s`;
+  };
+  md.push(`Epoch solves, ${last.days} day(s), W = 10 s. Commit "all" (the default): warm run ${describe(last.solves, last.onlineMs)}; ` +
+    `\`--no-warm\` ${describe(largest.cold, largest.coldOnlineMs)}.`);
+  md.push('');
+  const d = largest.due;
   const dw = both(d.warm);
   const dc = both(d.cold);
-  md.push(`With \`commit: "due"\` (tentative pairs re-optimised each epoch, the previous solution as warm start): warm run ${int(dw.count)} solves ` +
-    `(${int(d.warm.warm.count)} used the warm start, mean ${f3(d.warm.warm.meanMs)} ms; ${int(d.warm.cold.count)} had nothing to start from, mean ${f3(d.warm.cold.meanMs)} ms), ` +
-    `total ${s1(dw.totalMs)} s, online loop ${s1(d.warmOnlineMs)} s; cold run ${int(dc.count)} solves, mean ${f3(dc.meanMs)} ms, total ${s1(dc.totalMs)} s, online loop ${s1(d.coldOnlineMs)} s ` +
-    `(cold/warm solve time ${f2(dc.totalMs / dw.totalMs)}×; online cost warm ${f2(d.warmCost)}, cold ${f2(d.coldCost)}).`);
+  md.push(`Commit "due" (tentative pairs re-optimised each epoch, the previous solution as warm start): warm run ${describe(d.warm, d.warmOnlineMs)}; ` +
+    `\`--no-warm\` ${describe(d.cold, d.coldOnlineMs)}; cold/warm solve time ${f2(dc.totalMs / dw.totalMs)}×; online cost warm ${f2(d.warmCost)}, cold ${f2(d.coldCost)}.`);
   md.push('');
   const sw = largest.sweep;
   md.push(`Sweep, ${last.days} day(s), windows ${sw.windows}, ${sw.threads} worker threads, bootstrap ${quick ? 100 : 1000} resamples: ${s1(sw.wallMs)} s wall ` +
