@@ -69,7 +69,7 @@ export interface HindsightMarketOptions {
   candidatesPerDemand?: number;
   /**
    * Pairs added per demand in each pricing round: its most negative reduced costs.
-   * @default 2
+   * @default 4
    */
   addPerRow?: number;
   /** Clock for `ms`. @default performance.now */
@@ -94,7 +94,7 @@ export interface HindsightMarketDetail {
 /** @default candidatesPerDemand */
 export const DEFAULT_CANDIDATES_PER_DEMAND = 6;
 /** @default addPerRow */
-export const DEFAULT_ADD_PER_ROW = 2;
+export const DEFAULT_ADD_PER_ROW = 4;
 
 // A non-candidate pair prices out below this (relative to its cost): well under the
 // certificate's 1e-9 yet above the rounding of duals built from sums of costs.

@@ -65,6 +65,8 @@ export interface HindsightOptions extends HindsightMarketOptions {
   onProgress?: (done: number, total: number) => void;
   /** Where a warning goes (e.g. the compiled worker is missing). @default process.emitWarning */
   onWarning?: (message: string) => void;
+  /** Clock for the per-market `ms`, in this thread only (workers use their own performance.now). */
+  now?: () => number;
 }
 
 /**
@@ -136,6 +138,7 @@ export async function solveHindsight(
   threads = Math.max(0, Math.min(Math.floor(threads), markets.length));
   const marketOpts: HindsightMarketOptions = {};
   if (opts.candidatesPerDemand !== undefined) marketOpts.candidatesPerDemand = opts.candidatesPerDemand;
+  if (opts.addPerRow !== undefined) marketOpts.addPerRow = opts.addPerRow;
   if (threads > 1 && !hindsightWorkerAvailable()) {
     const warn = opts.onWarning ?? ((msg: string) => process.emitWarning(msg, 'PairflowWarning'));
     warn(`hindsight: ${fileURLToPath(WORKER_URL)} is missing (run \`npm run build\`); solving in this thread`);
