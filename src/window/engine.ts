@@ -446,6 +446,11 @@ export class WindowEngine {
     m.dirty = false;
   }
 
+  /** The last epoch closed for `market` (-Infinity before any). */
+  closedThrough(market: string): number {
+    return this.markets.get(market)?.lastClosed ?? this.globalClosed;
+  }
+
   /** Markets seen so far, in first-seen order. */
   marketNames(): string[] {
     return this.marketList.map((m) => m.name);

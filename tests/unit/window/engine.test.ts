@@ -320,8 +320,10 @@ describe('WindowEngine: late events (live mode)', () => {
     for (const e of evs) engine.ingest(e);
     engine.advanceTo(1000, 'a');
     expect(rec.assignments.map((a) => a.market)).toEqual(['a']);
-    engine.advanceTo(1000);
+    expect([engine.closedThrough('a'), engine.closedThrough('b')]).toEqual([1000, -Infinity]);
+    engine.advanceTo(1999);
     expect(rec.assignments.map((a) => a.market)).toEqual(['a', 'b']);
+    expect([engine.closedThrough('b'), engine.closedThrough('new')]).toEqual([1000, 1000]);
   });
 });
 
