@@ -88,8 +88,21 @@ const haveTimeV = ((): boolean => {
   return spawnSync('/usr/bin/time', ['-v', 'true'], { encoding: 'utf8' }).status === 0;
 })();
 
-/** Runs `pairflow ARGS` in a child; the JSON on its stdout, wall time, and peak RSS. */
+/**
+ * Runs `pairflow ARGS` in a child; the JSON on its stdout, wall time, and peak RSS.
+ * One retry: other work on a shared machine may be rebuilding dist/ at that moment.
+ */
 export function runChild(args: string[], parseJson = true): ChildRun {
+  try {
+    return runChildOnce(args, parseJson);
+  } catch (err) {
+    process.stderr.write(`bench:replay: retrying once after: ${(err as Error).message.slice(0, 300)}\n`);
+    spawnSync('sleep', ['5']);
+    return runChildOnce(args, parseJson);
+  }
+}
+
+function runChildOnce(args: string[], parseJson: boolean): ChildRun {
   const t0 = performance.now();
   const cmd = haveTimeV ? '/usr/bin/time' : process.execPath;
   const argv = haveTimeV ? ['-v', process.execPath, BIN, ...args] : [BIN, ...args];
