@@ -1,6 +1,15 @@
 /**
  * The windowed online policy of SPEC §3. Pure: time is an input (event time, and an
  * injected clock used only to measure solve time).
+ *
+ * Choices where SPEC §3 is silent:
+ * - an occurrence that leaves unmatched is reported by an {@link ExpiryRecord} at the
+ *   first epoch τ with `end < τ` that the engine closes after learning the end; one
+ *   that ended before its first epoch never pools and is reported at that epoch;
+ * - an {@link EpochRecord} is written for every solve, not for every epoch (W = 1 s
+ *   over a week is 600k epochs per market; most change nothing and are skipped);
+ * - `priceMin`/`priceMean`/`priceMax` are over the supply (column) prices of the solve;
+ * - dual prices are carried per occurrence: a new unit starts unknown (NaN).
  */
 import { pairflowError } from '../errors.js';
 import { checkCertificate, solveSparse } from '../matching/index.js';
