@@ -13,6 +13,7 @@
  *   then re-arrivals of the same id every 12–30 minutes at a drop-off point (back
  *   after a job), a few shifts ending early with a supply `withdraw`.
  */
+import { pairflowError } from '../errors.js';
 import type { ArrivalEvent, PairflowEvent, WithdrawEvent } from '../model.js';
 import { CITY_CENTRE, districtsFor, type District, type Spot } from './gen-city.js';
 
@@ -265,16 +266,19 @@ function supplyOf(rng: Rng, d: District, dayStart: number, n: number, opts: GenO
   }
 }
 
-/** Fills in defaults and checks ranges; throws a plain Error naming the option (the CLI maps it). */
+/**
+ * Fills in defaults and checks ranges; throws `PAIRFLOW_ERR_CLI_OPTION` naming the
+ * `pairflow gen` option that is out of range.
+ */
 export function resolveGenOptions(partial: Partial<GenOptions>): GenOptions {
   const o: GenOptions = { ...GEN_DEFAULTS, ...partial };
-  if (!Number.isInteger(o.days) || o.days < 1) throw new RangeError(`days: got ${o.days}, expected a whole number >= 1`);
-  if (!Number.isInteger(o.markets) || o.markets < 1 || o.markets > 64) throw new RangeError(`markets: got ${o.markets}, expected a whole number in 1..64`);
+  if (!Number.isInteger(o.days) || o.days < 1) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--days', detail: `got ${o.days}, expected a whole number >= 1` });
+  if (!Number.isInteger(o.markets) || o.markets < 1 || o.markets > 64) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--markets', detail: `got ${o.markets}, expected a whole number in 1..64` });
   // One day is held in memory (measured ~0.35 kB per event), so scale is capped at 20:
   // ~1.8M events a day, well under 1 GB.
-  if (!Number.isFinite(o.scale) || o.scale <= 0 || o.scale > 20) throw new RangeError(`scale: got ${o.scale}, expected a number in (0, 20]`);
-  if (!Number.isInteger(o.seed)) throw new RangeError(`seed: got ${o.seed}, expected a whole number`);
-  if (!Number.isInteger(o.startMs)) throw new RangeError(`startMs: got ${o.startMs}, expected whole ms`);
+  if (!Number.isFinite(o.scale) || o.scale <= 0 || o.scale > 20) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--scale', detail: `got ${o.scale}, expected a number in (0, 20]` });
+  if (!Number.isInteger(o.seed)) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--seed', detail: `got ${o.seed}, expected a whole number` });
+  if (!Number.isInteger(o.startMs)) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--start', detail: `got ${o.startMs}, expected whole ms` });
   return o;
 }
 

@@ -8,7 +8,7 @@ import { basename, dirname, relative } from 'node:path';
 import type { Command } from 'commander';
 import { logFormatOf, toJsonLine } from '../../consume/index.js';
 import { parseRfc3339 } from '../../consume/validate.js';
-import { pairflowError, PairflowError } from '../../errors.js';
+import { pairflowError } from '../../errors.js';
 import type { PairflowEvent } from '../../model.js';
 import { CITY_NAME } from '../../replay/gen-city.js';
 import { writeEventLog, type LogWriteFormat, type WrittenLog } from '../../replay/gen-write.js';
@@ -154,22 +154,15 @@ export function registerGen(program: Command): void {
       if (raw.coords !== 'latlon' && raw.coords !== 'xy') {
         throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--coords', detail: `'${raw.coords}' is not latlon or xy` });
       }
-      let opts: GenOptions;
-      try {
-        opts = resolveGenOptions({
-          days: wholeNumber(raw.days, '--days', 1),
-          seed: wholeNumber(raw.seed, '--seed', 0),
-          markets: wholeNumber(raw.markets, '--markets', 1),
-          scale: parseNumber(raw.scale, '--scale'),
-          startMs: raw.start === undefined ? GEN_DEFAULTS.startMs : parseStart(raw.start),
-          shuffle: raw.shuffle,
-          coords: raw.coords,
-        });
-      } catch (err) {
-        if (err instanceof PairflowError) throw err;
-        const [option, ...rest] = (err as Error).message.split(': ');
-        throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: `--${option}`, detail: rest.join(': ') });
-      }
+      const opts: GenOptions = resolveGenOptions({
+        days: wholeNumber(raw.days, '--days', 1),
+        seed: wholeNumber(raw.seed, '--seed', 0),
+        markets: wholeNumber(raw.markets, '--markets', 1),
+        scale: parseNumber(raw.scale, '--scale'),
+        startMs: raw.start === undefined ? GEN_DEFAULTS.startMs : parseStart(raw.start),
+        shuffle: raw.shuffle,
+        coords: raw.coords,
+      });
       if (raw.out === undefined) {
         if (raw.manifest !== undefined) throw pairflowError('PAIRFLOW_ERR_CLI_USAGE', { detail: '--manifest needs --out FILE' });
         await writeStdout(generateEvents(opts));
