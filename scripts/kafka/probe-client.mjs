@@ -104,6 +104,9 @@ await step('producer.send (gzip batch)', async () => {
 await step('producer.send to a compacted topic, with a tombstone', async () => {
   await producer.send({ topic: compacted, messages: [{ key: 'u1', value: 'pooled' }, { key: 'u1', value: null }] });
 });
+await step('producer.send with a record timestamp 2 h in the future', async () => {
+  await producer.send({ topic, messages: [{ key: 'm2', value: 'future', timestamp: String(Date.now() + 2 * 3_600_000) }] });
+});
 const idem = kafka.producer({ idempotent: true, maxInFlightRequests: 1 });
 disconnect.push(idem);
 await step('idempotent producer (InitProducerId) send', async () => {
@@ -122,7 +125,7 @@ const consumer = kafka.consumer({ groupId: group, ...fast });
 disconnect.push(consumer);
 await step('consumer group: join, sync, fetch all, commitOffsets (JoinGroup/SyncGroup/Fetch/OffsetCommit)', async () => {
   await consumer.connect();
-  const seen = await consumeN(consumer, topic, 32, () => consumer.commitOffsets([{ topic, partition: 1, offset: '3' }]));
+  const seen = await consumeN(consumer, topic, 33, () => consumer.commitOffsets([{ topic, partition: 1, offset: '3' }]));
   return `${seen.length} messages`;
 });
 await step('admin.fetchOffsets (OffsetFetch)', async () => {

@@ -5,7 +5,8 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Admin, Consumer, Producer } from 'kafkajs';
-import { createAvroSerde, createKafka, marketPartitioner } from '../../src/kafka/index.js';
+import { createAvroSerde, createEventSerde, createKafka, eventMessage, marketPartitioner, readEventValue } from '../../src/kafka/index.js';
+import type { PairflowEvent } from '../../src/model.js';
 import { mulberry32, randInt } from '../helpers/random.js';
 import { BROKERS, FAST_CONSUMER, collect, eventSchema, uniqueName } from './helpers/kafka.js';
 
@@ -99,6 +100,34 @@ describe.skipIf(!BROKERS)(`Kafka round trips (broker ${BROKERS || 'none'}, seed 
     for (const market of MARKETS) {
       expect(byMarket.get(market) ?? [], `market ${market}`).toEqual(events.filter((e) => e.market === market));
     }
+  });
+
+  it('eventMessage() records keep the event time as timestamp, so an event time maps to an offset', async () => {
+    const topic = uniqueName('times');
+    await admin.createTopics({ topics: [{ topic }], waitForLeaders: true });
+    const eventSerde = createEventSerde();
+    const rand = mulberry32(SEED + 2);
+    let t = 1_780_000_000_000;
+    const events: PairflowEvent[] = Array.from({ length: 20 }, (_, i) => {
+      t += randInt(rand, 1, 60_000);
+      return { type: 'demand', id: `d${i}`, market: 'harbour', t, until: null, x: rand() * 10, y: rand() * 10 };
+    });
+    const producer = track(kafka.producer({ createPartitioner: marketPartitioner }));
+    await producer.connect();
+    await producer.send({ topic, messages: events.map((ev) => eventMessage(eventSerde, ev)) });
+
+    const consumer = track(kafka.consumer({ groupId: uniqueName('times'), ...FAST_CONSUMER }));
+    await consumer.connect();
+    const got = await collect(consumer, topic, (seen) => seen.length >= events.length);
+    expect(got.map(({ message }) => Number(message.timestamp))).toEqual(events.map((ev) => ev.t));
+    for (const { message } of got) {
+      const res = readEventValue(eventSerde, message.value as Buffer, 'euclidean');
+      expect(res.ok && res.event.id).toBe(`d${message.offset}`);
+    }
+    // The broker's time index answers "first record at or after this time" (ListOffsets).
+    const k = 13;
+    const [hit] = await admin.fetchTopicOffsetsByTimestamp(topic, (events[k] as PairflowEvent).t - 1);
+    expect(hit?.offset).toBe(String(k));
   });
 
   it('a committed transaction publishes its outputs and group offsets together; an aborted one publishes neither', async () => {
