@@ -106,7 +106,9 @@ export default async function setup(project: TestProject): Promise<Teardown> {
   if (fromEnv) {
     brokers = fromEnv;
     source = 'env';
-    log(`using KAFKA_BROKERS=${brokers}`);
+    // Used as given either way; the warning saves a hunt through connection errors.
+    const answers = await brokerAnswers(brokers.split(',').map((b) => b.trim()).filter(Boolean));
+    log(`using KAFKA_BROKERS=${brokers}${answers ? '' : ' (WARNING: it does not answer a metadata request)'}`);
   }
   if (!brokers) {
     if (await dockerAnswers()) {
