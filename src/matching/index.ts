@@ -38,7 +38,7 @@ export function solveSparse(inst: SparseInstance, opts: SolveOptions = {}): Solv
  * Min-cost assignment on a dense row-major matrix (`Infinity` or NaN = not allowed).
  * Same contract as {@link solveSparse}; faster when most pairs are allowed.
  * @example
- * const res = solveDense({ nRows: 2, nCols: 3, cost: Float64Array.of(4, 1, 3, 2, 0, 5) });
+ * const res = solveDense({ nRows: 2, nCols: 3, cost: Float64Array.of(4, 1, 6, 2, 0, 5) });
  * // res.cost === 3 (row 0 → column 1, row 1 → column 0)
  */
 export function solveDense(inst: DenseInstance, opts: SolveOptions = {}): SolveResult {

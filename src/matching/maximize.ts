@@ -26,9 +26,10 @@ function negateWarm(warm: WarmStart | undefined): WarmStart | undefined {
 function flip(res: SolveResult): SolveResult {
   const rowDuals = res.rowDuals;
   const colDuals = res.colDuals;
-  for (let k = 0; k < rowDuals.length; k++) rowDuals[k] = -rowDuals[k]!;
-  for (let k = 0; k < colDuals.length; k++) colDuals[k] = -colDuals[k]!;
-  return { ...res, cost: -res.cost, rowDuals, colDuals };
+  for (let k = 0; k < rowDuals.length; k++) rowDuals[k] = 0 - rowDuals[k]!;
+  for (let k = 0; k < colDuals.length; k++) colDuals[k] = 0 - colDuals[k]!;
+  // 0 − x rather than −x: a zero price stays +0, not −0
+  return { ...res, cost: 0 - res.cost, rowDuals, colDuals };
 }
 
 function negOptions(opts: SolveOptions): SolveOptions {

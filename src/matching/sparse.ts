@@ -294,9 +294,13 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   const searchedRows = nFree;
   if (nFree > 0) {
     const search = new SparseSearch(inst, delta, u, v, rowToCol, colToRow);
-    for (let f = 0; f < nFree; f++) {
-      augmentations++;
-      scannedPairs += search.run(freeRows[f]!);
+    try {
+      for (let f = 0; f < nFree; f++) {
+        augmentations++;
+        scannedPairs += search.run(freeRows[f]!);
+      }
+    } finally {
+      search.flush();
     }
   }
 
@@ -365,17 +369,20 @@ export { infeasibleRow };
 /**
  * One shortest-augmenting-path search at a time, reusing its arrays: every search
  * resets only the columns it touched, so its cost follows what it reaches, not nCols.
- * The heap keeps each key beside its column so sifting reads contiguous memory.
+ * Memory traffic is what limits a search on a large sparse instance, so each
+ * column's price and tentative distance sit side by side (`pd[2j]`, `pd[2j + 1]`;
+ * the distance is +Infinity until reached and -Infinity once settled), and the heap
+ * keeps each key beside its column.
  */
 class SparseSearch {
-  private readonly dist: Float64Array;
+  private readonly pd: Float64Array;
   private readonly pred: Int32Array;
-  /** -1 untouched, -2 settled, else position in the heap. */
   private readonly hpos: Int32Array;
   private readonly hcol: Int32Array;
   private readonly hkey: Float64Array;
   private readonly touched: Int32Array;
   private readonly settled: Int32Array;
+  private readonly settledDist: Float64Array;
 
   constructor(
     private readonly inst: SparseInstance,
@@ -386,19 +393,30 @@ class SparseSearch {
     private readonly colToRow: Int32Array,
   ) {
     const n = inst.nCols;
-    this.dist = new Float64Array(n);
+    this.pd = new Float64Array(2 * n);
+    for (let j = 0; j < n; j++) {
+      this.pd[2 * j] = v[j]!;
+      this.pd[2 * j + 1] = Infinity;
+    }
     this.pred = new Int32Array(n);
-    this.hpos = new Int32Array(n).fill(-1);
+    this.hpos = new Int32Array(n);
     this.hcol = new Int32Array(n);
     this.hkey = new Float64Array(n);
     this.touched = new Int32Array(n);
     this.settled = new Int32Array(n);
+    this.settledDist = new Float64Array(n);
+  }
+
+  /** Writes the column prices back to `v`. */
+  flush(): void {
+    const { pd, v } = this;
+    for (let j = 0; j < v.length; j++) v[j] = pd[2 * j]!;
   }
 
   /** Augments from free row r0 (or settles it unmatched); returns the pairs scanned. */
   run(r0: number): number {
     const { rowPtr, colIdx, cost } = this.inst;
-    const { delta, u, v, rowToCol, colToRow, dist, pred, hpos, hcol, hkey, touched, settled } = this;
+    const { delta, u, rowToCol, colToRow, pd, pred, hpos, hcol, hkey, touched, settled, settledDist } = this;
     let nTouched = 0;
     let nSettled = 0;
     let hsize = 0;
@@ -421,22 +439,21 @@ class SparseSearch {
           privRow = i;
         }
       }
+      const start = rowPtr[i]!;
       const end = rowPtr[i + 1]!;
       const off = base - ui;
-      for (let e = rowPtr[i]!; e < end; e++) {
+      for (let e = start; e < end; e++) {
         j = colIdx[e]!;
-        p = hpos[j]!;
-        if (p === -2) continue;
-        x = off + cost[e]! - v[j]!;
-        if (p === -1) {
+        const dj = pd[2 * j + 1]!;
+        x = off + cost[e]! - pd[2 * j]!;
+        if (!(x < dj)) continue; // also skips settled columns (dj = -Infinity)
+        if (dj === Infinity) {
           touched[nTouched++] = j;
           p = hsize++;
-        } else if (x < dist[j]!) {
-          // decrease-key: sift up from the current position
         } else {
-          continue;
+          p = hpos[j]!;
         }
-        dist[j] = x;
+        pd[2 * j + 1] = x;
         pred[j] = i;
         while (p > 0) {
           const parent = (p - 1) >> 1;
@@ -452,7 +469,7 @@ class SparseSearch {
         hcol[p] = j;
         hpos[j] = p;
       }
-      scanned += end - rowPtr[i]!;
+      scanned += end - start;
       if (hsize === 0 || hkey[0]! > bestPriv) {
         if (bestPriv === Infinity) {
           this.reset(nTouched);
@@ -462,7 +479,7 @@ class SparseSearch {
         break;
       }
       j = hcol[0]!;
-      const dj = hkey[0]!;
+      const dmin = hkey[0]!;
       hsize--;
       if (hsize > 0) {
         const lk = hkey[hsize]!;
@@ -487,23 +504,24 @@ class SparseSearch {
         hcol[p] = lj;
         hpos[lj] = p;
       }
-      hpos[j] = -2;
+      pd[2 * j + 1] = -Infinity;
       if (colToRow[j] === NONE) {
         sink = j;
-        minVal = dj;
+        minVal = dmin;
         break;
       }
+      settledDist[nSettled] = dmin;
       settled[nSettled++] = j;
       i = colToRow[j]!;
-      base = dj;
+      base = dmin;
       ui = u[i]!;
     }
 
     // dual update on everything settled closer than the sink
     for (let t = 0; t < nSettled; t++) {
       j = settled[t]!;
-      const d = minVal - dist[j]!;
-      v[j] = v[j]! - d;
+      const d = minVal - settledDist[t]!;
+      pd[2 * j] = pd[2 * j]! - d;
       const ri = colToRow[j]!;
       u[ri] = u[ri]! + d;
     }
@@ -530,7 +548,7 @@ class SparseSearch {
   }
 
   private reset(nTouched: number): void {
-    const { hpos, touched } = this;
-    for (let t = 0; t < nTouched; t++) hpos[touched[t]!] = -1;
+    const { pd, touched } = this;
+    for (let t = 0; t < nTouched; t++) pd[2 * touched[t]! + 1] = Infinity;
   }
 }

@@ -46,6 +46,24 @@ describe('solveDense()/solveSparse() on tiny instances', () => {
     certify(inst, res, 'hand');
   });
 
+  it('solveSparse() and solveDense() do what their JSDoc examples say', () => {
+    const s = solveSparse({
+      nRows: 2,
+      nCols: 2,
+      rowPtr: Int32Array.of(0, 2, 3),
+      colIdx: Int32Array.of(0, 1, 0),
+      cost: Float64Array.of(1, 4, 2),
+      unmatchedCost: Float64Array.of(10, 10),
+    });
+    expect(s.cost).toBe(6);
+    expect([...s.rowToCol]).toEqual([1, 0]);
+    const d = solveDense({ nRows: 2, nCols: 3, cost: Float64Array.of(4, 1, 6, 2, 0, 5) });
+    expect(d.cost).toBe(3);
+    expect([...d.rowToCol]).toEqual([1, 0]);
+    expect([...d.colToRow]).toEqual([1, 0, -1]);
+    expect(d.colDuals[2]).toBe(0);
+  });
+
   it('match exhaustive search on 600 seeded instances up to 6 × 6, every result certified', () => {
     // Reference: exhaustive enumeration of all assignments (common practice).
     const kinds: CostKind[] = ['uniform', 'ties', 'negative', 'exp'];
