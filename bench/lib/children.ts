@@ -39,6 +39,8 @@ export interface ScipyCase {
   readonly nRows: number;
   readonly nCols: number;
   readonly repeats: number;
+  /** No new repeat starts once this much solving time is spent (at least one runs). */
+  readonly budgetMs?: number;
   /** Sparse only: the instance has per-row unmatched costs in `delta.f64`. */
   readonly delta?: boolean;
 }
@@ -95,10 +97,13 @@ export function runPeer(peer: PeerName, dir: string, nRows: number, nCols: numbe
   return runCapped([script, peer, dir, String(nRows), String(nCols), String(repeats), String(capMs)], capMs);
 }
 
-/** Runs pairflow's solver on one instance in a child (see run-pairflow.ts), under the same cap. */
-export function runPairflow(kind: 'dense' | 'sparse', dir: string, nRows: number, nCols: number, repeats: number, capMs: number): Promise<PeerOutcome> {
+/**
+ * Runs pairflow's solver on one instance in a child (see run-pairflow.ts): killed when
+ * one solve exceeds `capMs`, no new repeat once `budgetMs` of solving is spent.
+ */
+export function runPairflow(kind: 'dense' | 'sparse', dir: string, nRows: number, nCols: number, repeats: number, capMs: number, budgetMs: number): Promise<PeerOutcome> {
   const script = join(here, 'run-pairflow.ts');
-  return runCapped(['--import', 'tsx', script, kind, dir, String(nRows), String(nCols), String(repeats), String(capMs)], capMs);
+  return runCapped(['--import', 'tsx', script, kind, dir, String(nRows), String(nCols), String(repeats), String(budgetMs)], capMs);
 }
 
 function runCapped(argv: string[], capMs: number): Promise<PeerOutcome> {
