@@ -36,11 +36,11 @@ export interface HindsightMarketResult {
   matched: number;
   /** Demand occurrences left unmatched. */
   abandoned: number;
-  /** Allowed pairs; every pricing round prices each of them. */
+  /** Allowed pairs; every pricing round of their time segment prices each of them. */
   pairsPriced: number;
   /** Pairs in the final restricted solve (candidates plus the violators added). */
   pairsSolved: number;
-  /** Pricing passes over all allowed pairs (the last one finds no violator). */
+  /** Pricing passes over all allowed pairs, the last one finding no violator (the most any time segment needed). */
   pricingRounds: number;
   /** Maximum-cardinality matching of the same allowed graph: no policy matches more. */
   ceiling: number;

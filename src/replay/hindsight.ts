@@ -123,16 +123,7 @@ export async function solveHindsight(
   opts: HindsightOptions = {},
 ): Promise<HindsightResult> {
   const t0 = performance.now();
-  const { occurrences } = buildOccurrences(events, config);
-  const byMarket = new Map<string, Occurrence[]>();
-  for (const o of occurrences) {
-    let list = byMarket.get(o.market);
-    if (list === undefined) byMarket.set(o.market, (list = []));
-    list.push(o);
-  }
-  const markets = [...byMarket.keys()].sort();
-  const packed = markets.map((mk) => packMarket(byMarket.get(mk)!, config));
-  byMarket.clear();
+  const { markets, packed } = packByMarket(events, config);
 
   let threads = opts.threads ?? Math.min(markets.length, availableParallelism());
   threads = Math.max(0, Math.min(Math.floor(threads), markets.length));
@@ -199,6 +190,19 @@ export async function solveHindsight(
   }
   out.ms = performance.now() - t0;
   return out;
+}
+
+/** Occurrences (SPEC §1) packed per market, markets in key order; the objects are dropped on return. */
+function packByMarket(events: readonly SourcedEvent[], config: PairflowConfig): { markets: string[]; packed: PackedMarket[] } {
+  const { occurrences } = buildOccurrences(events, config);
+  const byMarket = new Map<string, Occurrence[]>();
+  for (const o of occurrences) {
+    let list = byMarket.get(o.market);
+    if (list === undefined) byMarket.set(o.market, (list = []));
+    list.push(o);
+  }
+  const markets = [...byMarket.keys()].sort();
+  return { markets, packed: markets.map((mk) => packMarket(byMarket.get(mk)!, config)) };
 }
 
 function transferables(p: PackedMarket): ArrayBuffer[] {
