@@ -274,6 +274,8 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
   try {
     let header: Header | null = null;
     while (header === null) {
+      // avsc writes nothing at all for zero records: an empty file is an empty log.
+      if (ended && buf.length === 0) return;
       const parsed = parseHeader(buf.subarray(pos), ended);
       if (parsed === 'more') {
         await more();

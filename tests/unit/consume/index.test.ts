@@ -56,6 +56,23 @@ describe('readLogFile()', () => {
     expect(strip(gz)).toEqual(strip(plain));
   });
 
+  it('reads empty files as no items, and strips a byte order mark', async () => {
+    expect(await items(write('empty.jsonl', ''))).toEqual([]);
+    const emptyAvro = join(dir, 'empty.avro');
+    // avsc 5.7.9 writes a 0-byte file for zero records.
+    await writeAvro(emptyAvro, []);
+    expect(await items(emptyAvro)).toEqual([]);
+    const bom = await items(write('bom.jsonl', `\ufeff${JSON.stringify(sup('s1', T0))}\n`));
+    expect(bom.map((it) => it.kind)).toEqual(['event']);
+  });
+
+  it('rejects a 0-byte .jsonl.gz file at line 1 (gzip of nothing is 20 bytes, so 0 bytes means a failed write)', async () => {
+    const got = await items(write('empty.jsonl.gz', ''));
+    expect(got).toHaveLength(1);
+    expect(got[0]!.kind === 'reject' && got[0]!.reject.pos.line).toBe(1);
+    expect(await items(write('nothing.jsonl.gz', gzipSync('')))).toEqual([]);
+  });
+
   it('reads concatenated gzip members as one stream', async () => {
     const a = `${JSON.stringify(sup('s1', T0))}\n`;
     const b = `${JSON.stringify(dem('d1', T0 + 1))}\n`;
