@@ -169,13 +169,13 @@ export function fetchArtifacts(settings = brokerSettings()) {
   progress(`resolving org.apache.kafka:kafka_2.13:${settings.version} with Maven (first run downloads ~50 MB)…`);
   const r = spawnSync(
     settings.mvn,
-    ['-B', '-q', '-f', pom, 'dependency:copy-dependencies', `-DoutputDirectory=${tmp}`, '-DincludeScope=runtime'],
+    ['-B', '-q', '-Dstyle.color=never', '-f', pom, 'dependency:copy-dependencies', `-DoutputDirectory=${tmp}`, '-DincludeScope=runtime'],
     { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024 },
   );
   if (r.status !== 0 || !existsSync(join(tmp, `kafka_2.13-${settings.version}.jar`))) {
     rmSync(tmp, { recursive: true, force: true });
     throw new BrokerSetupError(
-      `Maven could not resolve org.apache.kafka:kafka_2.13:${settings.version} (exit ${r.status}):\n${tail(`${r.stdout}\n${r.stderr}`)}`,
+      `Maven could not resolve org.apache.kafka:kafka_2.13:${settings.version} (exit ${r.status}):\n${tail(mavenProblems(`${r.stdout}\n${r.stderr}`))}`,
     );
   }
   if (existsSync(libDir)) rmSync(tmp, { recursive: true, force: true });
@@ -185,6 +185,15 @@ export function fetchArtifacts(settings = brokerSettings()) {
   const ms = Date.now() - t0;
   progress(`resolved ${jars.length} jars into ${libDir} in ${(ms / 1000).toFixed(1)} s`);
   return { version: settings.version, libDir, downloaded: true, ms };
+}
+
+/** Maven's output without colour codes and its generic "re-run with -e" advice. */
+function mavenProblems(text) {
+  return text
+    .replace(new RegExp(`${String.fromCharCode(27)}\\[[0-9;]*m`, 'g'), '')
+    .split('\n')
+    .filter((l) => l.trim() !== '' && !/^\[ERROR\]\s*$|re-run Maven|For more information about the errors|^\[ERROR\] \[Help \d+\]/i.test(l))
+    .join('\n');
 }
 
 function freePorts(n) {
