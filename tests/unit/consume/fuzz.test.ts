@@ -175,6 +175,29 @@ describe('log readers under fuzzing', () => {
     }
   });
 
+  it('reads randomly damaged Avro and gzip files to items without throwing, each with a place (seeded)', async () => {
+    const seed = 2718281;
+    const rand = mulberry32(seed);
+    const recs: EventRecord[] = Array.from({ length: 300 }, (_, i) => ({ type: pickOf(rand, ['supply', 'demand', 'withdraw']), id: `u${i}`, market: 'm', t: T0 + i, until: rand() < 0.5 ? null : T0 + i + 60_000, lat: 46.5, lon: -31.2, x: null, y: null, has: rand() < 0.3 ? ['cold-bag'] : null, needs: rand() < 0.2 ? ['cold-bag'] : null, side: rand() < 0.5 ? 'demand' : null }));
+    const avroFile = await writeAvro(join(dir, 'rnd.avro'), recs, { blockSize: 1024, codec: 'deflate' });
+    const plainAvro = await writeAvro(join(dir, 'rnd-null.avro'), recs, { blockSize: 1024 });
+    const gz = gzipSync(recs.map((r) => JSON.stringify(r)).join('\n'));
+    for (let round = 0; round < 45; round += 1) {
+      const [src, ext] = pickOf(rand, [[avroFile, 'avro'], [plainAvro, 'avro'], [gz, 'jsonl.gz']] as const);
+      const bad = Buffer.from(src);
+      for (let k = randInt(rand, 1, 8); k > 0; k -= 1) bad[randInt(rand, 0, bad.length - 1)] = randInt(rand, 0, 255);
+      const path = join(dir, `rnd-${round}.${ext}`);
+      writeFileSync(path, rand() < 0.3 ? bad.subarray(0, randInt(rand, 0, bad.length)) : bad);
+      const got = await collect(path);
+      for (const it of got) {
+        const pos = it.kind === 'event' ? it.ev.pos : it.reject.pos;
+        expect(pos.file, `seed ${seed}, round ${round}`).toBe(path);
+        expect(pos.line >= 1, `seed ${seed}, round ${round}`).toBe(true);
+      }
+      expect(got.filter((it) => it.kind === 'event').length, `seed ${seed}, round ${round}`).toBeLessThanOrEqual(300);
+    }
+  });
+
   it('rejects every planted bad Avro record at its block and record, and loses only damaged blocks (seeded)', async () => {
     const seed = 8675309;
     const rand = mulberry32(seed);
