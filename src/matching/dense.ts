@@ -21,7 +21,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   validateDense(inst);
   validateWarm(opts.warm, inst.nRows, inst.nCols);
   const k = candidateCount(inst.nCols);
-  const strategy = opts.denseStrategy ?? 'auto';
+  const strategy = opts.strategy ?? 'auto';
   if (strategy === 'candidates' || (strategy === 'auto' && inst.nRows * inst.nCols >= 40_000 && 4 * k <= inst.nCols)) {
     const res = solveByCandidates(inst, opts, k);
     if (res !== null) {
@@ -450,7 +450,7 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
     const sub = packCandidates(inst, slots, cap, count);
     let res: SolveResult;
     try {
-      res = solveSparseCore(sub, { ...(warm !== undefined ? { warm } : {}), ...(opts.now !== undefined ? { now: opts.now } : {}) });
+      res = solveSparseCore(sub, { ...(warm !== undefined ? { warm } : {}), strategy: 'full' });
     } catch (err) {
       if (err instanceof PairflowError && err.code === 'PAIRFLOW_ERR_SOLVER_INFEASIBLE') return null;
       throw err;

@@ -24,8 +24,12 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   const now = opts.now ?? defaultNow;
   const t0 = now();
   validateSparse(inst);
+  validateWarm(opts.warm, inst.nRows, inst.nCols);
+  return solveSparseFull(inst, opts, now, t0);
+}
+
+function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => number, t0: number): SolveResult {
   const warm = opts.warm;
-  validateWarm(warm, inst.nRows, inst.nCols);
 
   const { nRows, nCols, rowPtr, colIdx, cost } = inst;
   const delta = inst.unmatchedCost ?? null;
@@ -552,3 +556,4 @@ class SparseSearch {
     for (let t = 0; t < nTouched; t++) pd[2 * touched[t]! + 1] = Infinity;
   }
 }
+

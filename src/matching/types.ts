@@ -43,12 +43,13 @@ export interface SolveOptions {
   /** Clock for `stats.ms`; injected so the core does no I/O. @default performance.now */
   readonly now?: () => number;
   /**
-   * How `solveDense` works: `'full'` searches whole rows; `'candidates'` solves on
-   * each row's cheapest pairs and then prices every pair, adding any that prices
-   * out and re-solving until none does (exact either way); `'auto'` picks
-   * candidates for large matrices. @default 'auto'
+   * How `solveDense` works (sparse input ignores it): `'full'` searches whole rows;
+   * `'candidates'` first solves on each row's cheapest pairs, then prices every
+   * allowed pair with the duals found, adds any that prices out and re-solves
+   * (warm) until none does — exact either way; `'auto'` uses candidates for
+   * matrices of 40,000 cells or more. @default 'auto'
    */
-  readonly denseStrategy?: 'auto' | 'full' | 'candidates';
+  readonly strategy?: 'auto' | 'full' | 'candidates';
 }
 
 export interface SolveStats {

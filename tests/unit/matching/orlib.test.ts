@@ -71,10 +71,10 @@ describe('OR-Library assignment instances reach their published optimum', () => 
     it(`${o.format === 'dense' ? 'solveDense() and solveSparse()' : 'solveSparse()'} on ${o.name} give ${o.opt}`, () => {
       if (o.format === 'dense') {
         const d = readDense(o.name);
-        for (const denseStrategy of ['full', 'candidates'] as const) {
-          const rd = solveDense(d, { denseStrategy });
-          expect(rd.cost, denseStrategy).toBe(o.opt);
-          expect(checkCertificate(d, rd).problems, denseStrategy).toEqual([]);
+        for (const strategy of ['full', 'candidates'] as const) {
+          const rd = solveDense(d, { strategy });
+          expect(rd.cost, strategy).toBe(o.opt);
+          expect(checkCertificate(d, rd).problems, strategy).toEqual([]);
         }
         const s = denseToSparse(d);
         const rs = solveSparse(s);

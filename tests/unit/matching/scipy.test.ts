@@ -79,7 +79,7 @@ describe.skipIf(version === null)(`solvers against scipy ${version} linear_sum_a
       const sparse = denseToSparse(inst, mulberry32(seed));
       if (ref === null || ref === undefined) {
         expect(() => solveDense(inst), label).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' }));
-        expect(() => solveDense(inst, { denseStrategy: 'candidates' }), label).toThrow(
+        expect(() => solveDense(inst, { strategy: 'candidates' }), label).toThrow(
           expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' }),
         );
         expect(() => solveSparse(sparse), label).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' }));
@@ -87,10 +87,10 @@ describe.skipIf(version === null)(`solvers against scipy ${version} linear_sum_a
       }
       feasible++;
       const tol = 1e-9 * Math.max(1, Math.abs(ref));
-      for (const denseStrategy of ['full', 'candidates'] as const) {
-        const rd = solveDense(inst, { denseStrategy });
-        expect(checkCertificate(inst, rd).problems, `${label} dense ${denseStrategy}`).toEqual([]);
-        expect(Math.abs(rd.cost - ref), `${label} dense ${denseStrategy}`).toBeLessThanOrEqual(tol);
+      for (const strategy of ['full', 'candidates'] as const) {
+        const rd = solveDense(inst, { strategy });
+        expect(checkCertificate(inst, rd).problems, `${label} dense ${strategy}`).toEqual([]);
+        expect(Math.abs(rd.cost - ref), `${label} dense ${strategy}`).toBeLessThanOrEqual(tol);
       }
       const rs = solveSparse(sparse);
       expect(checkCertificate(sparse, rs).problems, `${label} sparse`).toEqual([]);
