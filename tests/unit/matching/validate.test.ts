@@ -92,6 +92,23 @@ describe('infeasible instances', () => {
     expect(() => solveSparse(both)).toThrow(INFEASIBLE);
   });
 
+  it('with no columns every row pays its δ, or the instance is infeasible without δ', () => {
+    const rowsOnly = { nRows: 2, nCols: 0, cost: new Float64Array(0), unmatchedCost: Float64Array.of(3, 4) };
+    const res = solveDense(rowsOnly);
+    expect(res.cost).toBe(7);
+    expect([...res.rowDuals]).toEqual([3, 4]);
+    expect(() => solveDense({ ...rowsOnly, unmatchedCost: null })).toThrow(INFEASIBLE);
+    const sparse = { nRows: 2, nCols: 0, rowPtr: Int32Array.of(0, 0, 0), colIdx: new Int32Array(0), cost: new Float64Array(0) };
+    expect(solveSparse({ ...sparse, unmatchedCost: Float64Array.of(3, 4) }).cost).toBe(7);
+    expect(() => solveSparse(sparse)).toThrow(INFEASIBLE);
+  });
+
+  it('a square instance with a column nobody may take is infeasible without δ', () => {
+    const inst = { nRows: 2, nCols: 2, rowPtr: Int32Array.of(0, 1, 2), colIdx: Int32Array.of(0, 0), cost: Float64Array.of(1, 2) };
+    expect(() => solveSparse(inst)).toThrow(INFEASIBLE);
+    expect(() => solveDense({ nRows: 2, nCols: 2, cost: Float64Array.of(1, Infinity, 2, Infinity) })).toThrow(INFEASIBLE);
+  });
+
   it('empty instances solve to cost 0', () => {
     expect(solveDense({ nRows: 0, nCols: 0, cost: new Float64Array(0) }).cost).toBe(0);
     const none = solveSparse({ nRows: 0, nCols: 3, rowPtr: Int32Array.of(0), colIdx: new Int32Array(0), cost: new Float64Array(0) });
