@@ -103,7 +103,7 @@ describe.skipIf(!hasJava && !isCi)('a private broker instance', () => {
   });
 
 
-  it('startBroker() starts, reuses while running, and stopBroker() leaves no process and no data', async () => {
+  it('startBroker() starts once under concurrent calls, reuses while running, and stopBroker() leaves no process and no data', async () => {
     const instance = uniqueName('cycle');
     // What a killed run leaves behind: a state file naming a process that is gone.
     const stale = join(brokerSettings().instancesDir, uniqueName('stale'));
@@ -111,7 +111,11 @@ describe.skipIf(!hasJava && !isCi)('a private broker instance', () => {
     const gonePid = spawnSync('true').pid;
     writeFileSync(join(stale, 'state.json'), JSON.stringify({ instance: 'stale', pid: gonePid, brokerPort: 1 }));
 
-    const first = await startBroker({ instance, ownerPid: process.pid });
+    // Two starts at once: the instance lock lets one start the broker, the other reuse it.
+    const both = await Promise.all([startBroker({ instance, ownerPid: process.pid }), startBroker({ instance, ownerPid: process.pid })]);
+    expect(both.map((r) => r.started).sort()).toEqual([false, true]);
+    expect(both[0].pid).toBe(both[1].pid);
+    const first = both.find((r) => r.started)!;
     expect(existsSync(stale), 'a stale instance is swept on start').toBe(false);
     const watchdog = brokerStatus().find((s) => s.instance === instance)?.watchdog ?? 0;
     expect(watchdog).toBeGreaterThan(0);
