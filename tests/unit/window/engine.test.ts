@@ -543,6 +543,25 @@ describe('WindowEngine: warm prices, determinism, and how epochs are closed', ()
   });
 });
 
+describe('WindowEngine: skipping epochs where nothing can change', () => {
+  it('a week at W = 1 s solves only where a unit joins or reaches its last chance', () => {
+    const DAY = 86_400_000;
+    const evs: Ev[] = [];
+    // A courier available all week far from every order, and an order a day.
+    evs.push({ type: 'supply', id: 's', t: 0, until: 7 * DAY, x: 100 });
+    for (let k = 0; k < 7; k++) evs.push({ type: 'demand', id: `d${k}`, t: k * DAY + 500, until: k * DAY + 60_500 });
+    const { rec, engine } = replay(evs, { windowMs: 1000, reserve: 5 });
+    // One solve when each order joins, one at its last chance (P ≠ R); none in between.
+    expect(rec.epochs.map((e) => e.epoch)).toEqual(
+      Array.from({ length: 7 }, (_, k) => [k * DAY + 1000, k * DAY + 60_000]).flat(),
+    );
+    expect(engine.totals()).toMatchObject({ abandoned: 7, matched: 0 });
+    expect(rec.expiries.map((e) => e.epoch)).toEqual([
+      ...Array.from({ length: 7 }, (_, k) => k * DAY + 61_000), 7 * DAY + 1000,
+    ]);
+  });
+});
+
 describe('WindowEngine: snapshot() and restore()', () => {
   it('a restored engine makes the same assignments as the one that kept running (seeded random logs)', () => {
     let restoredUnits = 0;
