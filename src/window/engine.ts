@@ -430,6 +430,9 @@ export class WindowEngine {
         lat: u.lat, lon: u.lon, x: u.x, y: u.y, has: u.has, needs: u.needs,
       });
       this.ensure(o.index + 1);
+      if (this.state[o.index] !== 0) {
+        throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `restore(${market}): ${u.side} ${u.id} at ${u.t} is already known` });
+      }
       if (u.side === 'demand') this.tot.demandUnits++;
       else this.tot.supplyUnits++;
       this.price[o.index] = u.price ?? NaN;
@@ -805,6 +808,12 @@ function parseSnapshot(market: string, state: unknown, windowMs: number): PoolSn
     return undefined;
   });
   const typed = units as SnapshotUnit[];
+  const keys = new Set<string>();
+  typed.forEach((u, k) => {
+    const key = `${u.side} ${u.t} ${u.id}`;
+    if (keys.has(key)) bad(`units[${k}]: a second ${u.side} '${u.id}' at t=${u.t}`);
+    keys.add(key);
+  });
   const seen = new Set<number>();
   (s.tentative as unknown[]).forEach((raw, k) => {
     const where = `tentative[${k}]`;

@@ -627,7 +627,7 @@ describe('WindowEngine: snapshot() and restore()', () => {
       null, 'x', { ...good, version: 2 }, { ...good, windowMs: 5000 }, { ...good, units: 'no' },
       { ...good, units: [{ ...unit, side: 'both' }] }, { ...good, units: [{ ...unit, t: 'soon' }] },
       { ...good, units: [{ ...unit, has: [1] }] }, { ...good, units: [unit], tentative: [[0, 0]] },
-      { ...good, units: [unit], tentative: [[0, 7]] },
+      { ...good, units: [unit], tentative: [[0, 7]] }, { ...good, units: [unit, unit] },
     ];
     for (const state of cases) {
       const engine = new WindowEngine(base, new Recorder());
