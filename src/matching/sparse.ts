@@ -435,12 +435,16 @@ class SparseSearch {
     let j = 0;
     let x = 0;
     let p = 0;
+    // No column reached at or beyond the best sink found so far can be settled
+    // before the search ends, so it is not worth a heap slot.
+    let bound = Infinity;
     for (;;) {
       if (delta !== null) {
         x = base + delta[i]! - ui;
         if (x < bestPriv) {
           bestPriv = x;
           privRow = i;
+          if (x < bound) bound = x;
         }
       }
       const start = rowPtr[i]!;
@@ -450,7 +454,8 @@ class SparseSearch {
         j = colIdx[e]!;
         const dj = pd[2 * j + 1]!;
         x = off + cost[e]! - pd[2 * j]!;
-        if (!(x < dj)) continue; // also skips settled columns (dj = -Infinity)
+        if (!(x < dj) || x >= bound) continue; // also skips settled columns (dj = -Infinity)
+        if (colToRow[j] === NONE) bound = x;
         if (dj === Infinity) {
           touched[nTouched++] = j;
           p = hsize++;
