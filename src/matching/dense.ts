@@ -22,7 +22,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   validateWarm(opts.warm, inst.nRows, inst.nCols);
   const k = candidateCount(inst.nCols);
   const strategy = opts.strategy ?? 'auto';
-  if (strategy === 'candidates' || (strategy === 'auto' && inst.nRows * inst.nCols >= 40_000 && 4 * k <= inst.nCols)) {
+  if (strategy === 'candidates' || (strategy === 'auto' && inst.nRows * inst.nCols >= 250_000 && 4 * k <= inst.nCols)) {
     const res = solveByCandidates(inst, opts, k);
     if (res !== null) {
       res.stats.ms = now() - t0;
