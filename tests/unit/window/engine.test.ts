@@ -3,6 +3,7 @@ import { DEFAULT_CONFIG, type PairflowConfig, type PairflowEvent, type SourcedEv
 import {
   type AssignmentRecord, type EngineOptions, type EngineSink, type EpochRecord, type ExpiryRecord, WindowEngine,
 } from '../../../src/window/engine.js';
+import { haversineKm } from '../../../src/window/geo.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
 const MIN = 60_000;
@@ -348,7 +349,7 @@ describe('WindowEngine: haversine metric', () => {
 interface Scenario { evs: Ev[]; config: PairflowConfig; seed: number }
 
 /** A tiny random log (pools stay small enough for exhaustive search). */
-function randomScenario(seed: number, units = 8, span = 20_000): Scenario {
+function randomScenario(seed: number, units = 8, span = 20_000, sphere = false): Scenario {
   const rand = mulberry32(seed);
   const W = [1000, 2500, 4000][randInt(rand, 0, 2)]!;
   const markets = rand() < 0.3 ? ['m', 'n'] : ['m'];
@@ -359,7 +360,10 @@ function randomScenario(seed: number, units = 8, span = 20_000): Scenario {
       const t = randInt(rand, 0, span);
       const e: Ev = {
         type: side, id: `${side[0]}${i}`, t, market: markets[randInt(rand, 0, markets.length - 1)]!,
-        x: rand() * 12, y: rand() * 12,
+        ...(sphere
+          // Straddling the ±180° meridian: 0.1° is about 11 km here.
+          ? { lat: 10 + rand() * 0.1, lon: wrapLon(179.95 + rand() * 0.1), x: undefined, y: undefined }
+          : { x: rand() * 12, y: rand() * 12 }),
         until: rand() < 0.4 ? t + randInt(rand, 0, 15_000) : null,
       };
       if (side === 'supply' && rand() < 0.4) e.has = tags.filter(() => rand() < 0.6);
@@ -373,12 +377,16 @@ function randomScenario(seed: number, units = 8, span = 20_000): Scenario {
   const config: PairflowConfig = {
     ...base, windowMs: W, reserve, abandonPenalty: [15, 30][randInt(rand, 0, 1)]!,
     waitWeight: [0, 0.5, 1, 3][randInt(rand, 0, 3)]!, demandPatienceMin: 0.1, supplyPatienceMin: 0.2,
-    commit: rand() < 0.5 ? 'all' : 'due',
+    commit: rand() < 0.5 ? 'all' : 'due', metric: sphere ? 'haversine' : 'euclidean',
   };
   return { evs, config, seed };
 }
 
-interface RefUnit { side: 'demand' | 'supply'; id: string; market: string; t: number; until: number; end: number; x: number; y: number; has: string[]; needs: string[]; done: boolean }
+function wrapLon(lon: number): number {
+  return lon > 180 ? lon - 360 : lon;
+}
+
+interface RefUnit { side: 'demand' | 'supply'; id: string; market: string; t: number; until: number; end: number; x: number; y: number; lat: number; lon: number; has: string[]; needs: string[]; done: boolean }
 
 /**
  * An independent model of SPEC §1 + §3 for logs whose ids arrive once per side and
@@ -400,7 +408,7 @@ function reference(sc: Scenario): { pairs: Array<[number, string, string, string
     if (units.some((v) => v.side === e.type && v.id === e.id && v.market === market && v.t === e.t)) continue;
     const patience = e.type === 'demand' ? config.demandPatienceMin : config.supplyPatienceMin;
     const until = e.until ?? e.t + Math.round(patience * 60_000);
-    units.push({ side: e.type, id: e.id, market, t: e.t, until, end: until, x: e.x!, y: e.y!, has: e.has ?? [], needs: e.needs ?? [], done: false });
+    units.push({ side: e.type, id: e.id, market, t: e.t, until, end: until, x: e.x ?? NaN, y: e.y ?? NaN, lat: e.lat ?? NaN, lon: e.lon ?? NaN, has: e.has ?? [], needs: e.needs ?? [], done: false });
   }
   const last = Math.max(...units.map((u) => u.end));
   const out: Array<[number, string, string, string]> = [];
@@ -411,7 +419,9 @@ function reference(sc: Scenario): { pairs: Array<[number, string, string, string
       const pool = units.filter((u) => u.market === market && !u.done && u.t < tau && tau <= u.end);
       const ds = pool.filter((u) => u.side === 'demand');
       const ss = pool.filter((u) => u.side === 'supply');
-      const travel = (d: RefUnit, s: RefUnit): number => (Math.hypot(d.x - s.x, d.y - s.y) / config.speedKmh) * 60;
+      const km = (d: RefUnit, s: RefUnit): number =>
+        config.metric === 'haversine' ? haversineKm(d.lat, d.lon, s.lat, s.lon) : Math.hypot(d.x - s.x, d.y - s.y);
+      const travel = (d: RefUnit, s: RefUnit): number => (km(d, s) / config.speedKmh) * 60;
       const allowed = (d: RefUnit, s: RefUnit): boolean => travel(d, s) <= config.maxTravelMin && d.needs.every((n) => s.has.includes(n));
       const c = (d: RefUnit, s: RefUnit): number => travel(d, s) + (config.waitWeight * (tau - d.t)) / 60_000;
       const defer = (d: RefUnit): number => (d.until < tau + W ? config.abandonPenalty : R);
@@ -461,8 +471,9 @@ function runScenario(sc: Scenario, opts: EngineOptions = {}): { rec: Recorder; e
 
 describe('WindowEngine against an exhaustive-search model of the policy (seeded random logs)', () => {
   it('every window solution equals exhaustive search, and the executed pairs and total cost match the model', () => {
-    for (let seed = 1; seed <= 250; seed++) {
-      const sc = randomScenario(seed);
+    for (let seed = 1; seed <= 300; seed++) {
+      // Every sixth log is on the sphere across the ±180° meridian.
+      const sc = randomScenario(seed, 8, 20_000, seed % 6 === 0);
       const ref = reference(sc);
       const { rec, engine } = runScenario(sc);
       const got = rec.assignments.map((a) => [a.epoch, a.market, a.demandId, a.supplyId] as [number, string, string, string])
