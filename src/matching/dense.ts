@@ -450,7 +450,7 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
     const sub = packCandidates(inst, slots, cap, count);
     let res: SolveResult;
     try {
-      res = solveSparseCore(sub, { ...(warm !== undefined ? { warm } : {}), strategy: 'full' });
+      res = solveSparseCore(sub, { ...(warm !== undefined ? { warm } : {}), ...(opts.now !== undefined ? { now: opts.now } : {}), strategy: 'full' });
     } catch (err) {
       if (err instanceof PairflowError && err.code === 'PAIRFLOW_ERR_SOLVER_INFEASIBLE') return null;
       throw err;

@@ -123,3 +123,42 @@ describe('solveDense() candidates strategy', () => {
     expect(cand.cost).toBe(full.cost);
   });
 });
+
+describe('solver hygiene', () => {
+  it('stats.ms comes from the injected clock only', () => {
+    // a clock that reads 100 once, then 142 forever: any solve must report 42 ms
+    const clock = (): (() => number) => {
+      let first = true;
+      return () => {
+        const t = first ? 100 : 142;
+        first = false;
+        return t;
+      };
+    };
+    const rand = mulberry32(3);
+    const small = randomDense(rand, { nRows: 20, nCols: 25, kind: 'uniform', forbidden: 0.2, withDelta: true });
+    const large = randomDense(rand, { nRows: 520, nCols: 520, kind: 'uniform', forbidden: 0, withDelta: false });
+    expect(solveDense(small, { now: clock() }).stats.ms).toBe(42);
+    expect(solveDense(large, { now: clock() }).stats.ms).toBe(42);
+    expect(solveSparse(denseToSparse(small), { now: clock() }).stats.ms).toBe(42);
+  });
+
+  it('leaves the instance and the warm-start arrays untouched', () => {
+    const rand = mulberry32(4);
+    const d = randomDense(rand, { nRows: 30, nCols: 30, kind: 'negative', forbidden: 0.3, withDelta: true });
+    const s = denseToSparse(d);
+    const before = { cost: new Float64Array(s.cost), colIdx: new Int32Array(s.colIdx), rowPtr: new Int32Array(s.rowPtr), dense: new Float64Array(d.cost) };
+    const first = solveSparse(s);
+    const warm = { colPrices: new Float64Array(first.colDuals).map((x) => x - 1), rowPrices: new Float64Array(first.rowDuals), rowToCol: new Int32Array(first.rowToCol) };
+    const saved = { c: new Float64Array(warm.colPrices), r: new Float64Array(warm.rowPrices), p: new Int32Array(warm.rowToCol) };
+    solveSparse(s, { warm });
+    solveDense(d, { warm });
+    expect(s.cost).toEqual(before.cost);
+    expect(s.colIdx).toEqual(before.colIdx);
+    expect(s.rowPtr).toEqual(before.rowPtr);
+    expect(d.cost).toEqual(before.dense);
+    expect(warm.colPrices).toEqual(saved.c);
+    expect(warm.rowPrices).toEqual(saved.r);
+    expect(warm.rowToCol).toEqual(saved.p);
+  });
+});
