@@ -28,7 +28,12 @@ export interface DenseInstance {
   readonly unmatchedCost?: Float64Array | null;
 }
 
-/** Warm-start hints from a previous solve, already mapped onto this instance's indices. */
+/**
+ * Warm-start hints from a previous solve, already mapped onto this instance's indices.
+ * Prices are used only for the columns of previous pairs (`rowToCol`): every other
+ * column restarts at price 0, because a price below 0 left on a column that ends
+ * free would break the certificate. Without `rowToCol` the hints are ignored.
+ */
 export interface WarmStart {
   /** Column prices v (length nCols); NaN where unknown (a new column). */
   readonly colPrices?: Float64Array;
