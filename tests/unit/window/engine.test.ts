@@ -98,6 +98,37 @@ describe('WindowEngine: epochs and the pool (SPEC §3)', () => {
   });
 });
 
+describe('WindowEngine: degenerate settings', () => {
+  it('maxTravelMin = 0 allows only pairs at the same point', () => {
+    const { rec } = replay([
+      { type: 'supply', id: 'here', t: 0, x: 2, y: 2 },
+      { type: 'supply', id: 'near', t: 0, x: 0, y: 0.001 },
+      { type: 'demand', id: 'd', t: 0, x: 2, y: 2 },
+      { type: 'demand', id: 'e', t: 0 },
+    ], { maxTravelMin: 0 });
+    expect(pairs(rec)).toEqual([[1000, 'd', 'here']]);
+    expect(rec.assignments[0]!.travelMin).toBe(0);
+  });
+
+  it('a window longer than the patience: a unit ending before the first epoch after it arrived never pools', () => {
+    const { rec, engine } = replay([
+      { type: 'supply', id: 's', t: 0, x: 1 },
+      { type: 'demand', id: 'd', t: 10_000 },
+    ], { windowMs: 300_000, demandPatienceMin: 1 });
+    expect(pairs(rec)).toEqual([]);
+    expect(rec.expiries.map((e) => [e.side, e.epoch])).toEqual([['demand', 300_000], ['supply', 2_100_000]]);
+    expect(engine.totals()).toMatchObject({ abandoned: 1, cost: 30 });
+  });
+
+  it('a negative reserve defers every demand to its last chance', () => {
+    const { rec } = replay([
+      { type: 'supply', id: 's', t: 0, x: 1 },
+      { type: 'demand', id: 'd', t: 0, until: 3500 },
+    ], { reserve: -1 });
+    expect(pairs(rec)).toEqual([[3000, 'd', 's']]);
+  });
+});
+
 describe('WindowEngine: deferral cost P at the last chance, R otherwise', () => {
   it('a match costlier than R waits for the demand\'s last chance, where it beats P', () => {
     // R = 5 < travel 8 < P = 30. until = 4500: last chance at τ = 4000 (4500 < 4000 + 1000).
