@@ -216,8 +216,11 @@ function assignCells(m: PackedMarket, config: PairflowConfig): Cells {
   return { demandCell, supplyCell, ny, wrap: ny > 1 };
 }
 
-/** Growable COO list of pairs. */
-class PairList {
+/**
+ * Growable COO list of pairs. One list can serve many builds in turn (the segments
+ * of a market), so its buffers are allocated once instead of once per segment.
+ */
+export class PairList {
   rows = new Int32Array(1024);
   cols = new Int32Array(1024);
   costs = new Float64Array(1024);
@@ -251,7 +254,7 @@ class PairList {
  * const g = buildAllowedGraph(packMarket(units, config), config);
  * // pairs of demand r: g.colIdx[g.rowPtr[r] .. g.rowPtr[r + 1])
  */
-export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig): AllowedGraph {
+export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig, scratch: PairList = new PairList()): AllowedGraph {
   const { nDemand, nSupply, capWords } = m;
   const { demandCell, supplyCell, ny, wrap } = assignCells(m, config);
   const euclid = config.metric === 'euclidean';
@@ -270,7 +273,8 @@ export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig): Allo
 
   const demandGrid = new Map<number, number[]>();
   const supplyGrid = new Map<number, number[]>();
-  const pairs = new PairList();
+  const pairs = scratch;
+  pairs.n = 0;
   const neighbours: number[] = [];
 
   for (let k = 0; k < n; k++) {

@@ -22,7 +22,7 @@ import { checkCertificate } from '../matching/certificate.js';
 import { pairflowError } from '../errors.js';
 import type { SolveOptions, SolveResult, SparseInstance } from '../matching/types.js';
 import type { PairflowConfig } from '../model.js';
-import { buildAllowedGraph, type AllowedGraph, type PackedMarket } from './hindsight-graph.js';
+import { buildAllowedGraph, PairList, type AllowedGraph, type PackedMarket } from './hindsight-graph.js';
 
 /** The per-market figures of the hindsight optimum. */
 export interface HindsightMarketResult {
@@ -138,21 +138,24 @@ function markCheapest(g: AllowedGraph, k: number, limit: number, inCand: Uint8Ar
     for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) if (cost[e]! < limit) offer(e, cost[e]!);
     for (let q = 0; q < n; q++) inCand[bestEdge[q]!] = 1;
   }
-  // Pairs grouped by column (CSC order of the edge ids).
-  const colPtr = new Int32Array(nCols + 1);
-  for (let e = 0; e < colIdx.length; e++) colPtr[colIdx[e]! + 1]!++;
-  for (let c = 0; c < nCols; c++) colPtr[c + 1]! += colPtr[c]!;
-  const fill = colPtr.slice(0, nCols);
-  const byCol = new Int32Array(colIdx.length);
-  for (let e = 0; e < colIdx.length; e++) byCol[fill[colIdx[e]!]!++] = e;
-  for (let c = 0; c < nCols; c++) {
-    n = 0;
-    for (let q = colPtr[c]!; q < colPtr[c + 1]!; q++) {
-      const e = byCol[q]!;
-      if (cost[e]! < limit) offer(e, cost[e]!);
+  // Per column, a best-k list of its own, filled in one pass over the pairs.
+  const colCost = new Float64Array(nCols * k).fill(Infinity);
+  const colEdge = new Int32Array(nCols * k).fill(-1);
+  for (let e = 0; e < colIdx.length; e++) {
+    const c = cost[e]!;
+    if (!(c < limit)) continue;
+    const base = colIdx[e]! * k;
+    if (c >= colCost[base + k - 1]!) continue;
+    let p = k - 1;
+    while (p > 0 && colCost[base + p - 1]! > c) {
+      colCost[base + p] = colCost[base + p - 1]!;
+      colEdge[base + p] = colEdge[base + p - 1]!;
+      p--;
     }
-    for (let q = 0; q < n; q++) inCand[bestEdge[q]!] = 1;
+    colCost[base + p] = c;
+    colEdge[base + p] = e;
   }
+  for (let q = 0; q < colEdge.length; q++) if (colEdge[q]! >= 0) inCand[colEdge[q]!] = 1;
 }
 
 /** What one time segment of a market yields. */
@@ -283,12 +286,13 @@ export function solvePackedMarket(
   const parts: Array<{ dIdx: Int32Array; sIdx: Int32Array; r: SegmentResult }> = [];
   let solves = 0;
   let warmRetries = 0;
+  const scratch = new PairList();
   for (let q = 0; q < count; q++) {
     const dIdx = ds.idx.subarray(ds.start[q]!, ds.start[q + 1]!);
     const sIdx = ss.idx.subarray(ss.start[q]!, ss.start[q + 1]!);
     if (dIdx.length === 0 && !wantDetail) continue;
     const sub = count === 1 ? m : subMarket(m, dIdx, sIdx);
-    const r = solveSegment(sub, config, solve, opts, now);
+    const r = solveSegment(sub, config, solve, opts, now, scratch);
     for (let i = 0; i < dIdx.length; i++) out.demandCost[dIdx[i]!] = r.demandCost[i]!;
     out.matched += r.matched;
     out.pairsPriced += r.pairsPriced;
@@ -351,10 +355,11 @@ function solveSegment(
   solve: SparseSolver,
   opts: HindsightMarketOptions,
   now: () => number,
+  scratch: PairList,
 ): SegmentResult {
   const k = Math.max(1, Math.floor(opts.candidatesPerDemand ?? DEFAULT_CANDIDATES_PER_DEMAND));
   const P = config.abandonPenalty;
-  const g = buildAllowedGraph(m, config);
+  const g = buildAllowedGraph(m, config, scratch);
   const { nRows, nCols, rowPtr, colIdx, cost } = g;
   const nnz = colIdx.length;
 
