@@ -190,7 +190,11 @@ class SidePool {
 /** Per-market state: pools, timed triggers and the last closed epoch. */
 class MarketState {
   readonly name: string;
+  /** Position in first-seen order: breaks ties between markets at the same epoch. */
+  readonly index: number;
   lastClosed: number;
+  /** Key of this market's live entry in the engine's agenda (+Infinity when none). */
+  scheduledAt = Infinity;
   readonly demand: SidePool;
   readonly supply: SidePool;
   /** Known arrivals waiting for their first epoch, keyed by it. */
@@ -202,8 +206,9 @@ class MarketState {
   /** Something changed since the last solve that can change the optimum. */
   dirty = false;
 
-  constructor(name: string, lastClosed: number, gridOpts: GridOptions) {
+  constructor(name: string, index: number, lastClosed: number, gridOpts: GridOptions) {
     this.name = name;
+    this.index = index;
     this.lastClosed = lastClosed;
     this.demand = new SidePool(gridOpts);
     this.supply = new SidePool(gridOpts);
@@ -269,6 +274,8 @@ export class WindowEngine {
   private readonly ledger: OccurrenceLedger;
   private readonly markets = new Map<string, MarketState>();
   private readonly marketList: MarketState[] = [];
+  /** Markets keyed by their next trigger epoch (lazy: see {@link schedule}). */
+  private readonly agenda = new KeyedHeap();
   private globalClosed = -Infinity;
 
   // Per occurrence, by index.
@@ -333,7 +340,9 @@ export class WindowEngine {
       if (occ.side === 'demand') this.tot.demandUnits++;
       else this.tot.supplyUnits++;
       this.state[occ.index] = ST_PENDING;
-      m.pending.push(Math.max(this.epochAfter(occ.t), m.lastClosed + this.W), occ.index);
+      const join = Math.max(this.epochAfter(occ.t), m.lastClosed + this.W);
+      m.pending.push(join, occ.index);
+      this.schedule(m, join);
       if (out.ended !== null) this.endMoved(m, out.ended);
     } else if (out.kind === 'withdraw') {
       if (out.changed) this.endMoved(m, out.ended);
@@ -348,18 +357,18 @@ export class WindowEngine {
     const closed = Math.floor(watermark / this.W) * this.W;
     if (market !== undefined) {
       const m = this.marketOf(market);
-      this.run([m], watermark);
+      this.runMarket(m, watermark);
       if (closed > m.lastClosed) m.lastClosed = closed;
       return;
     }
-    this.run(this.marketList, watermark);
+    this.run(watermark);
     for (const m of this.marketList) if (closed > m.lastClosed) m.lastClosed = closed;
     if (closed > this.globalClosed) this.globalClosed = closed;
   }
 
   /** The log has ended: closes epochs until every pool is empty. */
   finish(): void {
-    this.run(this.marketList, Infinity);
+    this.run(Infinity);
   }
 
   /** Running totals; `cost` is the online total cost so far (SPEC §3). */
@@ -448,7 +457,9 @@ export class WindowEngine {
     snap.units.forEach((u, k) => {
       if (u.state !== 'pending') return;
       this.state[ids[k]!] = ST_PENDING;
-      m.pending.push(Math.max(u.joinEpoch, m.lastClosed + this.W), ids[k]!);
+      const join = Math.max(u.joinEpoch, m.lastClosed + this.W);
+      m.pending.push(join, ids[k]!);
+      this.schedule(m, join);
     });
     for (const [d, s] of snap.tentative) {
       this.partner[ids[d]!] = ids[s]!;
@@ -473,7 +484,7 @@ export class WindowEngine {
   private marketOf(name: string): MarketState {
     let m = this.markets.get(name);
     if (m === undefined) {
-      m = new MarketState(name, this.globalClosed, this.gridOpts);
+      m = new MarketState(name, this.marketList.length, this.globalClosed, this.gridOpts);
       this.markets.set(name, m);
       this.marketList.push(m);
     }
@@ -498,7 +509,9 @@ export class WindowEngine {
 
   private endMoved(m: MarketState, occ: Occurrence): void {
     if (this.state[occ.index] === ST_POOL) {
-      m.expiry.push(Math.max(this.epochAfter(occ.end), m.lastClosed + this.W), occ.index);
+      const at = Math.max(this.epochAfter(occ.end), m.lastClosed + this.W);
+      m.expiry.push(at, occ.index);
+      this.schedule(m, at);
     }
   }
 
@@ -510,20 +523,42 @@ export class WindowEngine {
     return Math.min(m.pending.peekKey(), m.expiry.peekKey(), m.lastChance.peekKey());
   }
 
-  private run(ms: readonly MarketState[], limit: number): void {
-    for (;;) {
-      let best: MarketState | null = null;
-      let bestKey = Infinity;
-      for (let i = 0; i < ms.length; i++) {
-        const k = this.nextTrigger(ms[i]!);
-        if (k < bestKey) {
-          bestKey = k;
-          best = ms[i]!;
-        }
-      }
-      if (best === null || bestKey > limit) return;
-      this.closeEpoch(best, bestKey);
+  /** Makes sure the agenda holds an entry for `m` at or before `key`. */
+  private schedule(m: MarketState, key: number): void {
+    if (key < m.scheduledAt) {
+      m.scheduledAt = key;
+      this.agenda.push(key, m.index);
     }
+  }
+
+  /**
+   * Closes the epochs ≤ limit of every market in τ order (ties: first-seen market
+   * first), popping markets from the agenda so that the work per call does not grow
+   * with the number of idle markets.
+   */
+  private run(limit: number): void {
+    for (;;) {
+      if (this.agenda.size === 0) return;
+      const key = this.agenda.peekKey();
+      if (key > limit) return;
+      const m = this.marketList[this.agenda.pop()]!;
+      // An entry superseded by an earlier one, or already handled by runMarket.
+      if (key !== m.scheduledAt) continue;
+      m.scheduledAt = Infinity;
+      const k = this.nextTrigger(m);
+      if (k !== key) {
+        // Its trigger went stale; the market's real next epoch is later.
+        this.schedule(m, k);
+        continue;
+      }
+      this.closeEpoch(m, k);
+      this.schedule(m, this.nextTrigger(m));
+    }
+  }
+
+  private runMarket(m: MarketState, limit: number): void {
+    for (let k = this.nextTrigger(m); k <= limit; k = this.nextTrigger(m)) this.closeEpoch(m, k);
+    this.schedule(m, this.nextTrigger(m));
   }
 
   private closeEpoch(m: MarketState, tau: number): void {
@@ -588,13 +623,18 @@ export class WindowEngine {
       }
       if (this.due) this.pushLastChance(m, o, from);
     }
-    m.expiry.push(Math.max(this.epochAfter(o.end), from), id);
+    const expiresAt = Math.max(this.epochAfter(o.end), from);
+    m.expiry.push(expiresAt, id);
+    this.schedule(m, expiresAt);
   }
 
   private pushLastChance(m: MarketState, o: Occurrence, from: number): void {
     // First epoch with until < τ + W; one already reached needs no trigger (the join is one).
     const at = this.epochAfter(o.until - this.W);
-    if (at >= from) m.lastChance.push(at, o.index);
+    if (at >= from) {
+      m.lastChance.push(at, o.index);
+      this.schedule(m, at);
+    }
   }
 
   private removeFromPool(m: MarketState, o: Occurrence, next: number): void {
