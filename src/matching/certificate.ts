@@ -19,8 +19,8 @@ export interface CertificateReport {
 export interface CertificateOptions {
   /**
    * Relative tolerance, scaled by the largest magnitude among costs, δ and duals
-   * (at least 1) for each constraint, and by max(1, |primal|, that magnitude) for
-   * the duality gap. @default 1e-9
+   * (1 when all are 0) for each constraint, and by max(|primal|, that magnitude)
+   * for the duality gap. @default 1e-9
    */
   readonly relTol?: number;
   /**
@@ -83,13 +83,15 @@ export function checkCertificate(
     return NaN;
   };
 
-  // magnitude scale for the tolerances
-  let scale = 1;
+  // magnitude scale for the tolerances: relative to the numbers involved, so a
+  // certificate of tiny costs is checked as strictly as one of large costs
+  let scale = 0;
   for (let r = 0; r < nRows; r++) scale = Math.max(scale, Math.abs(u[r]!));
   for (let j = 0; j < nCols; j++) scale = Math.max(scale, Math.abs(v[j]!));
   if (delta !== null) for (let r = 0; r < nRows; r++) if (delta[r]! < Infinity) scale = Math.max(scale, Math.abs(delta[r]!));
   const cs = inst.cost;
   for (let k = 0; k < cs.length; k++) if (cs[k]! < Infinity) scale = Math.max(scale, Math.abs(cs[k]!));
+  if (scale === 0) scale = 1;
   const tol = relTol * scale;
 
   // primal feasibility and cost
@@ -115,7 +117,7 @@ export function checkCertificate(
     if (r !== -1 && !(r >= 0 && r < nRows && rowToCol[r] === j)) note(`colToRow[${j}] = ${r} but that row is not on column ${j}`);
   }
   const primalCost = primal.value;
-  const costScale = Math.max(1, Math.abs(primalCost), scale);
+  const costScale = Math.max(Math.abs(primalCost), scale);
   if (!(Math.abs(result.cost - primalCost) <= relTol * costScale)) {
     note(`result.cost = ${result.cost} but the pairs cost ${primalCost}`);
   }

@@ -413,12 +413,15 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   const topCol = new Int32Array(k);
   let scanned = 0;
   const wPair = opts.warm?.rowToCol;
+  let maxAbs = 0;
   for (let r = 0; r < nRows; r++) {
     const base = r * nCols;
     let n = 0;
     for (let j = 0; j < nCols; j++) {
       const c = cost[base + j]!;
       if (!(c < Infinity)) continue;
+      if (c > maxAbs) maxAbs = c;
+      else if (-c > maxAbs) maxAbs = -c;
       if (n === k && c >= topKey[k - 1]!) continue;
       let p = n < k ? n++ : k - 1;
       while (p > 0 && topKey[p - 1]! > c) {
@@ -460,10 +463,10 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
     // price every pair; a pair may miss by rounding noise far below the certificate's tolerance
     const u = res.rowDuals;
     const v = res.colDuals;
-    let scale = 1;
+    let scale = maxAbs;
     for (let r = 0; r < nRows; r++) scale = Math.max(scale, Math.abs(u[r]!));
     for (let j = 0; j < nCols; j++) scale = Math.max(scale, Math.abs(v[j]!));
-    const slack = -1e-11 * scale;
+    const slack = -1e-11 * (scale > 0 ? scale : 1);
     let violations = 0;
     extra.fill(0);
     for (let r = 0; r < nRows; r++) {

@@ -91,6 +91,23 @@ describe('solveDense()/solveSparse() on tiny instances', () => {
   });
 });
 
+describe('solveDense()/solveSparse() across magnitudes', () => {
+  it('stay exact and certified with costs scaled by 1e-9 and 1e9', () => {
+    // Reference: exhaustive enumeration (common practice); scaling every cost and δ
+    // by s > 0 scales the optimum by s.
+    for (let seed = 1; seed <= 150; seed++) {
+      const rand = mulberry32(60_000 + seed);
+      const d = randomDense(rand, { nRows: randInt(rand, 1, 6), nCols: randInt(rand, 1, 6), kind: 'negative', forbidden: 0.2, withDelta: true });
+      const base = bruteForce(d);
+      for (const scale of [1e-9, 1e9]) {
+        const scaled = { ...d, cost: d.cost.map((c) => c * scale), unmatchedCost: d.unmatchedCost!.map((c) => c * scale) };
+        const got = solveBoth(scaled, `seed ${60_000 + seed} ×${scale}`);
+        expect(Math.abs(got - base * scale), `seed ${60_000 + seed} ×${scale}`).toBeLessThanOrEqual(1e-9 * Math.max(Math.abs(base * scale), 6 * 150 * scale));
+      }
+    }
+  });
+});
+
 describe('solveDense() candidates strategy', () => {
   // Every row prefers the same few columns, so each row's cheapest pairs are not
   // enough: pairs must price out and join, or (no δ) the candidates cannot match
@@ -113,6 +130,16 @@ describe('solveDense() candidates strategy', () => {
     const matched = cand.rowToCol.filter((j) => j >= 0).length;
     expect(matched).toBe(full.rowToCol.filter((j) => j >= 0).length);
     expect(matched).toBeGreaterThan(20);
+  });
+
+  it('prices pairs relative to the costs’ magnitude, so tiny costs are certified too', () => {
+    const d = crowded(220, true);
+    const tiny = { ...d, cost: d.cost.map((c) => c * 1e-13), unmatchedCost: d.unmatchedCost!.map((c) => c * 1e-13) };
+    const full = solveDense(tiny, { strategy: 'full' });
+    const cand = solveDense(tiny, { strategy: 'candidates' });
+    certify(tiny, full, 'tiny full');
+    certify(tiny, cand, 'tiny candidates');
+    expect(Math.abs(cand.cost - full.cost)).toBeLessThanOrEqual(1e-9 * Math.abs(full.cost));
   });
 
   it('falls back to the full search when the candidates cannot match every row', () => {
