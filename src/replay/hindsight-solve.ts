@@ -3,13 +3,14 @@
  * typed arrays in and out, the solver and the clock injected, so the same code runs
  * in this thread and in a worker.
  *
- * The full allowed graph is built once (time sweep + grid, see hindsight-graph.ts).
- * It splits into connected components, solved independently. Each component is first
- * solved on a small candidate set (the k cheapest pairs of each demand); a pricing
- * pass then computes the reduced cost `c − u_d − v_s` of EVERY allowed pair under the
- * solver's dual prices. Pairs with negative reduced cost join the candidates and the
- * components they touch are re-solved, warm from the previous prices, until no pair
- * prices out. The final prices are then feasible for the LP over all allowed pairs and
+ * A market is first cut into time segments where no unit spans a gap (no pair
+ * crosses a cut). Each segment's full allowed graph is built once (time sweep + grid,
+ * see hindsight-graph.ts) and splits into connected components, solved independently.
+ * Each component is first solved on a small candidate set (the k cheapest pairs of
+ * each demand and of each supply); a pricing pass then computes the reduced cost
+ * `c − u_d − v_s` of EVERY allowed pair under the solver's dual prices. The most
+ * negative few of each demand join the candidates and the components they touch are
+ * re-solved, warm from the previous prices, until no pair prices out. The final prices are then feasible for the LP over all allowed pairs and
  * their objective equals the primal cost (SPEC §5), which proves the optimum exact.
  *
  * Pairs costing at least P are never needed: with `u_d ≤ P` and `v_s ≤ 0` their
