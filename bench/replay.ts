@@ -292,7 +292,7 @@ export function writeSection(markdown: string, doc = DOC): void {
   const a = text.indexOf(START);
   const b = text.indexOf(END);
   if (a >= 0 && b > a) text = text.slice(0, a) + markdown + text.slice(b + END.length);
-  else text = `${text.trimEnd()}\n\n${markdown}\n`;
+  else text = `${text.trimEnd()}\n\n<!-- bench:replay -->\n${markdown}\n`;
   writeFileSync(doc, text);
 }
 
