@@ -19,6 +19,7 @@ const nRows = Number(nRowsText);
 const nCols = Number(nColsText);
 const repeats = Number(repeatsText);
 const budgetMs = Number(budgetText ?? Infinity);
+const WARMUP_CELLS = 250_000;
 
 // Copied into fresh buffers so the typed arrays are aligned.
 const f64 = (name: string) => new Float64Array(new Uint8Array(readFileSync(join(dir!, name))).buffer);
@@ -38,6 +39,8 @@ if (kind === 'dense') {
   check = (r) => checkCertificate(inst, r).ok;
 }
 
+// Small instances get one untimed solve first (JIT warm-up), as the peers' child does.
+if (nRows * nCols <= WARMUP_CELLS) solve();
 process.stdout.write('ready\n');
 let spent = 0;
 for (let k = 0; k < repeats && spent < budgetMs; k++) {
