@@ -225,6 +225,23 @@ export class PairList {
   cols = new Int32Array(1024);
   costs = new Float64Array(1024);
   n = 0;
+  /**
+   * When set, the CSR arrays of a build are views into buffers kept here and reused
+   * by the next build: only for callers done with one graph before the next.
+   */
+  reuseGraph = false;
+  private csrCol = new Int32Array(0);
+  private csrCost = new Float64Array(0);
+
+  /** CSR buffers of `nnz` pairs: fresh, or views into the reused ones. */
+  graphBuffers(nnz: number): { colIdx: Int32Array; cost: Float64Array } {
+    if (!this.reuseGraph) return { colIdx: new Int32Array(nnz), cost: new Float64Array(nnz) };
+    if (this.csrCol.length < nnz) {
+      this.csrCol = new Int32Array(nnz);
+      this.csrCost = new Float64Array(nnz);
+    }
+    return { colIdx: this.csrCol.subarray(0, nnz), cost: this.csrCost.subarray(0, nnz) };
+  }
 
   push(r: number, c: number, cost: number): void {
     if (this.n === this.rows.length) {
@@ -345,8 +362,7 @@ export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig, scrat
   for (let e = 0; e < nnz; e++) rowPtr[pairs.rows[e]! + 1]!++;
   for (let r = 0; r < nDemand; r++) rowPtr[r + 1]! += rowPtr[r]!;
   const fill = rowPtr.slice(0, nDemand);
-  const colIdx = new Int32Array(nnz);
-  const cost = new Float64Array(nnz);
+  const { colIdx, cost } = pairs.graphBuffers(nnz);
   for (let e = 0; e < nnz; e++) {
     const at2 = fill[pairs.rows[e]!]!++;
     colIdx[at2] = pairs.cols[e]!;

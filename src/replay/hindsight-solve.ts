@@ -288,6 +288,8 @@ export function solvePackedMarket(
   let solves = 0;
   let warmRetries = 0;
   const scratch = new PairList();
+  // Without detail each segment's graph is done with before the next is built.
+  scratch.reuseGraph = !wantDetail;
   for (let q = 0; q < count; q++) {
     const dIdx = ds.idx.subarray(ds.start[q]!, ds.start[q + 1]!);
     const sIdx = ss.idx.subarray(ss.start[q]!, ss.start[q + 1]!);
