@@ -18,6 +18,8 @@ import { defaultNow, finishResult, Sum } from './result.js';
  */
 
 const PRIVATE = -2;
+/** Relative gap below which two reduced costs are taken as tied in the warm repair. */
+const TIE_TOL = 1e-12;
 const NONE = -1;
 
 export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): SolveResult {
@@ -131,7 +133,11 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
         }
         scannedPairs += end - rowPtr[r]!;
         const a = cost[ej]! - v[j]!;
-        if (a <= m) {
+        // A pair handed back from an optimal solve is tight up to rounding, and its
+        // row's next-best option is often tight too (degenerate duals); a raise for a
+        // gap of a few ulps would spend the column's moves and drop the pair, so gaps
+        // within the tie tolerance count as ties.
+        if (a <= m || a - m <= TIE_TOL * (Math.abs(a) + Math.abs(m))) {
           u[r] = a;
           continue;
         }

@@ -133,3 +133,82 @@ describe('warm start on window sequences', () => {
 });
 
 export type { SolveResult };
+
+describe('solveSparse() warm-started from its own optimum', () => {
+  it('keeps every pair and searches no row, despite rounding in degenerate duals', () => {
+    // An optimal solve's pairs and prices are already a certificate (SPEC §5), so a
+    // warm start from them has nothing left to do. Real-valued costs that are sums
+    // (travel + wait, as in the hindsight optimum) leave ulp-sized gaps between tied
+    // reduced costs; those must count as ties, not trigger a repair.
+    for (let seed = 1; seed <= 20; seed++) {
+      const rand = mulberry32(4_200 + seed);
+      const nRows = randInt(rand, 200, 400);
+      const nCols = randInt(rand, 200, 400);
+      // Half the seeds give each row's "unmatched" option as an explicit column at
+      // cost P (as the hindsight optimum does), half as δ.
+      const explicit = seed % 2 === 0;
+      const rowPtr = new Int32Array(nRows + 1);
+      const cols: number[] = [];
+      const costs: number[] = [];
+      for (let r = 0; r < nRows; r++) {
+        const picked = new Set<number>();
+        const k = randInt(rand, 3, 12);
+        while (picked.size < k) picked.add(randInt(rand, 0, nCols - 1));
+        for (const c of [...picked].sort((a, b) => a - b)) {
+          cols.push(c);
+          // travel minutes (km / speed · 60) plus minutes waited, as the cost model forms them
+          costs.push(((rand() * 6.25) / 25) * 60 + Math.floor(rand() * 600_000) / 60_000);
+        }
+        if (explicit) {
+          cols.push(nCols + r);
+          costs.push(8);
+        }
+        rowPtr[r + 1] = cols.length;
+      }
+      const inst: SparseInstance = {
+        nRows, nCols: explicit ? nCols + nRows : nCols, rowPtr, colIdx: Int32Array.from(cols), cost: Float64Array.from(costs),
+        unmatchedCost: explicit ? null : new Float64Array(nRows).fill(8),
+      };
+      const cold = solveSparse(inst);
+      expect(checkCertificate(inst, cold).ok, `seed ${seed}`).toBe(true);
+      const warm = solveSparse(inst, { warm: { colPrices: cold.colDuals, rowPrices: cold.rowDuals, rowToCol: cold.rowToCol } });
+      expect(checkCertificate(inst, warm).ok, `seed ${seed}`).toBe(true);
+      expect(sameCost(warm.cost, cold.cost), `seed ${seed}`).toBe(true);
+      const matched = cold.rowToCol.reduce((n, c) => n + (c >= 0 ? 1 : 0), 0);
+      expect(warm.stats.warmPairsKept, `seed ${seed}`).toBe(matched);
+      expect(warm.stats.augmentations, `seed ${seed}`).toBe(0);
+    }
+  });
+});
+
+describe('solveSparse() warm-started from its own optimum on a hindsight instance', () => {
+  it('keeps every pair: ulp-sized gaps between tied reduced costs count as ties', async () => {
+    // The restricted hindsight problems of the demo city have many degenerate duals
+    // (rows whose second-best option is tight); rounding leaves some of those a few
+    // ulps apart. Repairing such a "violation" once cascaded and dropped half the pairs.
+    const { generateEvents } = await import('../../../src/replay/gen.js');
+    const { packMarket } = await import('../../../src/replay/hindsight-graph.js');
+    const { solvePackedMarket } = await import('../../../src/replay/hindsight-solve.js');
+    const { buildOccurrences } = await import('../../../src/window/occurrences.js');
+    const { DEFAULT_CONFIG } = await import('../../../src/model.js');
+    const events = [...generateEvents({ days: 1, seed: 1, markets: 1, scale: 0.08 })].map((event, seq) => ({
+      event, pos: { file: 'gen', line: seq + 1 }, seq,
+    }));
+    const { occurrences } = buildOccurrences(events, DEFAULT_CONFIG);
+    let checked = 0;
+    const solve = (inst: SparseInstance, opts: Parameters<typeof solveSparse>[1]): SolveResult => {
+      const r = solveSparse(inst, opts);
+      if (inst.nRows > 500 && checked < 3) {
+        checked++;
+        const again = solveSparse(inst, { warm: { colPrices: r.colDuals, rowPrices: r.rowDuals, rowToCol: r.rowToCol } });
+        expect(checkCertificate(inst, again).ok).toBe(true);
+        expect(sameCost(again.cost, r.cost)).toBe(true);
+        expect(again.stats.warmPairsKept).toBe(r.rowToCol.reduce((n, c) => n + (c >= 0 ? 1 : 0), 0));
+        expect(again.stats.augmentations).toBe(0);
+      }
+      return r;
+    };
+    solvePackedMarket('m', packMarket(occurrences, DEFAULT_CONFIG), DEFAULT_CONFIG, solve, {});
+    expect(checked).toBeGreaterThan(0);
+  });
+});
