@@ -68,7 +68,7 @@ export function registerReplay(program: Command): void {
     .description('Replay event logs through the windowed online policy and compare with the hindsight optimum.')
     .argument('<log...>', 'event log files (.jsonl, .jsonl.gz, .avro), read in the order given')
     .option('--window <ms>', 'window length W: 5000, 5s, 1.5m (overrides the config file; default 5s)')
-    .option('--config <file>', 'JSON config of SPEC §2 (every field optional)')
+    .option('--config <file>', 'JSON configuration, every field optional (see README, Configuration)')
     .option('--json', 'print one JSON object on stdout')
     .option('--out <dir>', 'write a run directory: assignments, expirations, epochs, rejects, summary, manifest')
     .option('--rejects <file>', 'without --out, write every reject as JSON Lines to this file')

@@ -106,7 +106,7 @@ export function registerSweep(program: Command): void {
     .description('Replay several window lengths in parallel and rank them, with a bootstrap interval over days.')
     .argument('<log...>', 'event log files (.jsonl, .jsonl.gz, .avro)')
     .requiredOption('--windows <list>', 'window lengths, comma-separated: 1s,5s,30s')
-    .option('--config <file>', 'JSON config of SPEC §2 (its windowMs is ignored)')
+    .option('--config <file>', 'JSON configuration, every field optional (see README, Configuration); its windowMs is ignored')
     .option('--json', 'print one JSON object on stdout')
     .option('--csv <file>', 'also write the table as CSV')
     .option('--out <dir>', 'write sweep.json, sweep.csv and manifest.json (inputs by sha256, config, windows, seed)')
