@@ -1,6 +1,7 @@
 import { mkdir, rename, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { pairflowError } from '../errors.js';
+import { formatReject } from '../consume/index.js';
 import type { Reject } from '../model.js';
 import type { AssignmentRecord, EpochRecord, ExpiryRecord, OutputSink } from '../ports.js';
 import { csvRow } from './csv.js';
@@ -55,14 +56,9 @@ export function epochLine(s: EpochRecord): string {
   }) + '\n';
 }
 
-/** A reject as one JSON line: where (file, line, and for Avro block/record), why, and the raw input. */
+/** A reject as one line of a rejects file, in the one format `formatReject` defines (docs/events.md). */
 export function rejectLine(r: Reject): string {
-  const out: Record<string, unknown> = { file: r.pos.file, line: r.pos.line };
-  if (r.pos.block !== undefined) out.block = r.pos.block;
-  if (r.pos.record !== undefined) out.record = r.pos.record;
-  out.reason = r.reason;
-  out.raw = r.raw;
-  return JSON.stringify(out) + '\n';
+  return formatReject(r) + '\n';
 }
 
 /**
