@@ -2,16 +2,9 @@
  * Seeded randomness for the benchmarks, so every run times the same instances.
  * mulberry32: a small 32-bit PRNG (common practice; public-domain algorithm).
  */
-export function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+
+import { mulberry32 } from '../../src/random.js';
+export { mulberry32 };
 
 /** A uniformly random permutation of 0..n-1 (Fisher–Yates). */
 export function permutation(rand: () => number, n: number): Int32Array {

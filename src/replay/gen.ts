@@ -16,6 +16,7 @@
 import { pairflowError } from '../errors.js';
 import type { ArrivalEvent, PairflowEvent, WithdrawEvent } from '../model.js';
 import { CITY_CENTRE, districtsFor, type District, type Spot } from './gen-city.js';
+import { mulberry32 } from '../random.js';
 
 /** Options of the generator; every field has a default in {@link GEN_DEFAULTS}. */
 export interface GenOptions {
@@ -53,17 +54,6 @@ const MIN_MS = 60_000;
 /** Mean Earth radius (IUGG), the same sphere as the haversine metric (SPEC §2). */
 const EARTH_KM = 6371.0088;
 
-// mulberry32, a small 32-bit PRNG (public-domain algorithm, written from memory).
-function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 // Mixes integers into one 32-bit seed (a murmur3-style finaliser per step), so each
 // (seed, day, market, stream) gets an independent PRNG and days can be made alone.

@@ -4,17 +4,8 @@
  * Tommy Ettinger).
  */
 
-/** A PRNG returning floats in [0, 1), fully determined by `seed`. */
-export function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 } from '../../src/random.js';
+export { mulberry32 };
 
 /** A whole number in [lo, hi] (both inclusive) from `rand`. */
 export function randInt(rand: () => number, lo: number, hi: number): number {
