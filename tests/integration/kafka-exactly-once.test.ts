@@ -6,25 +6,10 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Admin, Consumer, Producer } from 'kafkajs';
 import { createAvroSerde, createEventSerde, createKafka, eventMessage, marketPartitioner, readEventValue } from '../../src/kafka/index.js';
+import type { EventRecord } from '../../src/consume/schema.js';
 import type { PairflowEvent } from '../../src/model.js';
 import { mulberry32, randInt } from '../helpers/random.js';
 import { BROKERS, FAST_CONSUMER, collect, eventSchema, uniqueName } from './helpers/kafka.js';
-
-/** One event as a record of schemas/event.avsc: absent fields are null. */
-interface EventRecord {
-  type: string;
-  id: string;
-  market: string;
-  t: number;
-  until: number | null;
-  lat: number | null;
-  lon: number | null;
-  x: number | null;
-  y: number | null;
-  has: string[] | null;
-  needs: string[] | null;
-  side: string | null;
-}
 
 const SEED = 20261201;
 const MARKETS = ['north', 'harbour', 'old-town', 'airport'];
