@@ -5,14 +5,8 @@
 
 export type Side = 'supply' | 'demand';
 
-/** A validated arrival (SPEC §1). Times are integer ms since the Unix epoch. */
-export interface ArrivalEvent {
-  readonly type: Side;
-  readonly id: string;
-  readonly market: string;
-  readonly t: number;
-  /** Last instant the unit is available; null means `t + patience` of its side. */
-  readonly until: number | null;
+/** Where a unit is and what it has or needs: the fields every pair test reads. */
+export interface UnitPlace {
   /** Location: lat/lon in degrees (haversine) or x/y in km (euclidean). */
   readonly lat?: number;
   readonly lon?: number;
@@ -22,6 +16,16 @@ export interface ArrivalEvent {
   readonly has?: readonly string[];
   /** Demand requirements: allowed only if `needs ⊆ has`. */
   readonly needs?: readonly string[];
+}
+
+/** A validated arrival (SPEC §1). Times are integer ms since the Unix epoch. */
+export interface ArrivalEvent extends UnitPlace {
+  readonly type: Side;
+  readonly id: string;
+  readonly market: string;
+  readonly t: number;
+  /** Last instant the unit is available; null means `t + patience` of its side. */
+  readonly until: number | null;
 }
 
 /** A validated withdraw: ends the id's latest occurrence with `t ≤` this event's `t`. */

@@ -15,19 +15,13 @@
  */
 
 import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
-import type { PairflowConfig } from '../model.js';
+import type { PairflowConfig, UnitPlace } from '../model.js';
 
 /** The fields of a unit occurrence the hindsight needs (a window `Occurrence` fits). */
-export interface HindsightUnit {
+export interface HindsightUnit extends UnitPlace {
   readonly side: 'supply' | 'demand';
   readonly t: number;
   readonly end: number;
-  readonly lat?: number;
-  readonly lon?: number;
-  readonly x?: number;
-  readonly y?: number;
-  readonly has?: readonly string[];
-  readonly needs?: readonly string[];
 }
 
 /**

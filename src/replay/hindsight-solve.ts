@@ -160,7 +160,7 @@ function markCheapest(g: AllowedGraph, k: number, limit: number, inCand: Uint8Ar
 }
 
 /** What one time segment of a market yields. */
-interface SegmentResult {
+interface SegmentResult extends HindsightMarketDetail {
   cost: number;
   matched: number;
   pairsPriced: number;
@@ -168,12 +168,6 @@ interface SegmentResult {
   pricingRounds: number;
   ceiling: number;
   demandCost: Float64Array;
-  graph: AllowedGraph;
-  rowDuals: Float64Array;
-  colDuals: Float64Array;
-  rowToCol: Int32Array;
-  solves: number;
-  warmRetries: number;
 }
 
 /**

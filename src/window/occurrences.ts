@@ -13,10 +13,10 @@
  * - a second withdraw at the same millisecond as the first applies again (a no-op)
  *   and is not counted; one at a later millisecond is counted.
  */
-import { type ArrivalEvent, type PairflowConfig, type Side, type SourcedEvent, untilOf } from '../model.js';
+import { type ArrivalEvent, type PairflowConfig, type Side, type SourcedEvent, type UnitPlace, untilOf } from '../model.js';
 
 /** One unit occurrence (SPEC §1). `end` only ever decreases as the ledger learns more. */
-export interface Occurrence {
+export interface Occurrence extends UnitPlace {
   /** Position in the ledger's creation order; dense from 0. */
   readonly index: number;
   readonly side: Side;
@@ -28,12 +28,6 @@ export interface Occurrence {
   readonly until: number;
   /** `min(until, time it was ended)`: the last instant it is available. */
   end: number;
-  readonly lat?: number;
-  readonly lon?: number;
-  readonly x?: number;
-  readonly y?: number;
-  readonly has?: readonly string[];
-  readonly needs?: readonly string[];
   /** The `seq` of the arrival event (stable file order). */
   readonly seq: number;
 }
