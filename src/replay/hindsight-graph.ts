@@ -12,6 +12,9 @@
  * each arrival looks up the still-present units of the other side in the 3×3 cells
  * around it, then joins its own side's grid. A pair is thus found exactly once, by
  * whichever of the two arrives later, and never by comparing all pairs.
+ *
+ * A week of a busy market has tens of millions of pairs, so the solve keeps them
+ * compact (see {@link CompactGraph}): 9 bytes a pair, written once, in place.
  */
 
 import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
@@ -210,62 +213,102 @@ function assignCells(m: PackedMarket, config: PairflowConfig): Cells {
   return { demandCell, supplyCell, ny, wrap: ny > 1 };
 }
 
+
 /**
- * Growable COO list of pairs. One list can serve many builds in turn (the segments
- * of a market), so its buffers are allocated once instead of once per segment.
+ * The exact hindsight cost of pair (demand d, supply s) of a packed market, or NaN
+ * when the pair is not allowed (too far, `needs ⊄ has`, or a coordinate missing).
+ * Time overlap is not checked. The graph builder computes costs with the same
+ * operations, so a cost recomputed here equals the one it found, bit for bit.
  */
-export class PairList {
-  rows = new Int32Array(1024);
-  cols = new Int32Array(1024);
-  costs = new Float64Array(1024);
-  n = 0;
-  /**
-   * When set, the CSR arrays of a build are views into buffers kept here and reused
-   * by the next build: only for callers done with one graph before the next.
-   */
-  reuseGraph = false;
-  private csrCol = new Int32Array(0);
-  private csrCost = new Float64Array(0);
+export type PairCost = (d: number, s: number) => number;
 
-  /** CSR buffers of `nnz` pairs: fresh, or views into the reused ones. */
-  graphBuffers(nnz: number): { colIdx: Int32Array; cost: Float64Array } {
-    if (!this.reuseGraph) return { colIdx: new Int32Array(nnz), cost: new Float64Array(nnz) };
-    if (this.csrCol.length < nnz) {
-      this.csrCol = new Int32Array(nnz);
-      this.csrCost = new Float64Array(nnz);
-    }
-    return { colIdx: this.csrCol.subarray(0, nnz), cost: this.csrCost.subarray(0, nnz) };
-  }
+/** {@link PairCost} of one packed market under `config`. */
+export function pairCostOf(m: PackedMarket, config: PairflowConfig): PairCost {
+  const euclid = config.metric === 'euclidean';
+  const speed = config.speedKmh;
+  const maxTravel = config.maxTravelMin;
+  const waitWeight = config.waitWeight;
+  const w = m.capWords;
+  const { demandNeeds, supplyHas, demandA, demandB, supplyA, supplyB, demandT, supplyT } = m;
+  return (d: number, s: number): number => {
+    for (let q = 0; q < w; q++) if ((demandNeeds[d * w + q]! & ~supplyHas[s * w + q]!) !== 0) return NaN;
+    const dist = euclid
+      ? euclideanKm(supplyA[s]!, supplyB[s]!, demandA[d]!, demandB[d]!)
+      : haversineKm(supplyA[s]!, supplyB[s]!, demandA[d]!, demandB[d]!);
+    const travel = travelMin(dist, speed);
+    if (!(travel <= maxTravel)) return NaN;
+    const wait = supplyT[s]! - demandT[d]!;
+    // Same operation order as SPEC §2's `waitWeight * (τ − d.t) / 60000`.
+    return travel + (wait > 0 ? (waitWeight * wait) / 60_000 : 0);
+  };
+}
 
-  push(r: number, c: number, cost: number): void {
-    if (this.n === this.rows.length) {
-      const cap = this.n * 2;
-      const rows = new Int32Array(cap);
-      rows.set(this.rows);
-      this.rows = rows;
-      const cols = new Int32Array(cap);
-      cols.set(this.cols);
-      this.cols = cols;
-      const costs = new Float64Array(cap);
-      costs.set(this.costs);
-      this.costs = costs;
-    }
-    this.rows[this.n] = r;
-    this.cols[this.n] = c;
-    this.costs[this.n] = cost;
-    this.n++;
+/**
+ * The allowed pairs of one market in CSR form, stored for size: 4 bytes of column and
+ * 4 of cost (float32) per pair. Rows are graph rows, one per demand, numbered in the
+ * order the time sweep completed them (roughly by `end`), so no row's pairs ever
+ * need moving. The float32 cost is within 2^-24 (relative) of the exact cost;
+ * whatever must be exact (the restricted solves, the certificate, a pricing decision
+ * near zero) recomputes it with {@link pairCostOf}.
+ */
+export interface CompactGraph {
+  readonly nRows: number;
+  readonly nCols: number;
+  /** Demand of each graph row. */
+  readonly rowDemand: Int32Array;
+  /** Graph row of each demand. */
+  readonly demandRow: Int32Array;
+  /** Length nRows + 1: graph row r's pairs are `colIdx[rowPtr[r] .. rowPtr[r + 1])`, in sweep order. */
+  readonly rowPtr: Int32Array;
+  /** Supply of each pair. */
+  readonly colIdx: Int32Array;
+  /** Cost of each pair rounded to float32. */
+  readonly cost32: Float32Array;
+}
+
+// Pairs the first buffers are sized for. Pages of a typed array that are never
+// written are never made resident, so a roomy first reservation costs address space,
+// not memory, and spares the copy (and the doubled footprint) of growing.
+const RESERVE_PAIRS = 1 << 27;
+
+/**
+ * Buffers for the pairs of one build after another (the time segments of a market):
+ * a new build overwrites the previous graph, so only callers done with one graph
+ * before the next may share a store.
+ */
+export class GraphStore {
+  colIdx = new Int32Array(0);
+  cost32 = new Float32Array(0);
+
+  /** Room for at least `n` pairs, keeping the first `keep`. */
+  ensure(n: number, keep: number): void {
+    if (n <= this.colIdx.length) return;
+    const cap = Math.max(n, Math.min(RESERVE_PAIRS, 2 * n), 2 * this.colIdx.length);
+    const col = new Int32Array(cap);
+    col.set(this.colIdx.subarray(0, keep));
+    const cost = new Float32Array(cap);
+    cost.set(this.cost32.subarray(0, keep));
+    this.colIdx = col;
+    this.cost32 = cost;
   }
+}
+
+/** Pairs of a row still present in the sweep. */
+interface RowBuffer {
+  cols: Int32Array;
+  costs: Float32Array;
+  n: number;
 }
 
 /**
  * Every allowed, time-overlapping pair of one market with its hindsight cost, by the
- * time sweep described above. Within a row, pairs are in sweep order.
+ * time sweep described above. A demand's pairs are held aside while it is present
+ * and written out as one row once the sweep passes its `end` (no later arrival can
+ * meet it), so the pairs are written once, in row order, with no sort and no copy.
  *
- * @example
- * const g = buildAllowedGraph(packMarket(units, config), config);
- * // pairs of demand r: g.colIdx[g.rowPtr[r] .. g.rowPtr[r + 1])
+ * @param reserve expected pairs, to size the buffers (a hint; they grow if needed)
  */
-export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig, scratch: PairList = new PairList()): AllowedGraph {
+export function buildCompactGraph(m: PackedMarket, config: PairflowConfig, store: GraphStore = new GraphStore(), reserve = 0): CompactGraph {
   const { nDemand, nSupply, capWords } = m;
   const { demandCell, supplyCell, ny, wrap } = assignCells(m, config);
   const euclid = config.metric === 'euclidean';
@@ -284,16 +327,90 @@ export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig, scrat
 
   const demandGrid = new Map<number, number[]>();
   const supplyGrid = new Map<number, number[]>();
-  const pairs = scratch;
-  pairs.n = 0;
   const neighbours: number[] = [];
+
+  const rowDemand = new Int32Array(nDemand);
+  const demandRow = new Int32Array(nDemand);
+  const rowPtr = new Int32Array(nDemand + 1);
+  let nRows = 0;
+  let nnz = 0;
+  store.ensure(Math.max(1024, Math.min(reserve > 0 ? reserve : RESERVE_PAIRS, nDemand * nSupply)), 0);
+
+  // Present demands, by (end, index) in a binary heap, each with its pairs so far.
+  const heap = new Int32Array(nDemand);
+  let heapSize = 0;
+  const demandEnd = m.demandEnd;
+  const before = (a: number, b: number): boolean => demandEnd[a]! < demandEnd[b]! || (demandEnd[a] === demandEnd[b] && a < b);
+  const buffers: Array<RowBuffer | undefined> = new Array(nDemand);
+  const spare: RowBuffer[] = [];
+  const bufferOf = (d: number): RowBuffer => {
+    let b = buffers[d];
+    if (b === undefined) {
+      b = spare.pop() ?? { cols: new Int32Array(64), costs: new Float32Array(64), n: 0 };
+      buffers[d] = b;
+    }
+    if (b.n === b.cols.length) {
+      const cols = new Int32Array(b.n * 2);
+      cols.set(b.cols);
+      const costs = new Float32Array(b.n * 2);
+      costs.set(b.costs);
+      b.cols = cols;
+      b.costs = costs;
+    }
+    return b;
+  };
+  const finishRow = (d: number): void => {
+    const b = buffers[d];
+    const len = b === undefined ? 0 : b.n;
+    if (len > 0) {
+      store.ensure(nnz + len, nnz);
+      store.colIdx.set(b!.cols.subarray(0, len), nnz);
+      store.cost32.set(b!.costs.subarray(0, len), nnz);
+    }
+    if (b !== undefined) {
+      b.n = 0;
+      buffers[d] = undefined;
+      spare.push(b);
+    }
+    nnz += len;
+    rowDemand[nRows] = d;
+    demandRow[d] = nRows;
+    rowPtr[++nRows] = nnz;
+  };
+  const popRow = (): void => {
+    const top = heap[0]!;
+    const last = heap[--heapSize]!;
+    let p = 0;
+    for (;;) {
+      let c = 2 * p + 1;
+      if (c >= heapSize) break;
+      if (c + 1 < heapSize && before(heap[c + 1]!, heap[c]!)) c++;
+      if (!before(heap[c]!, last)) break;
+      heap[p] = heap[c]!;
+      p = c;
+    }
+    if (heapSize > 0) heap[p] = last;
+    finishRow(top);
+  };
 
   for (let k = 0; k < n; k++) {
     const u = order[k]!;
     const isDemand = u < nDemand;
     const i = isDemand ? u : u - nDemand;
     const t = isDemand ? m.demandT[i]! : m.supplyT[i]!;
+    // Every demand that ended before now has met all it ever will.
+    while (heapSize > 0 && demandEnd[heap[0]!]! < t) popRow();
     const end = isDemand ? m.demandEnd[i]! : m.supplyEnd[i]!;
+    if (isDemand) {
+      let p = heapSize++;
+      while (p > 0) {
+        const parent = (p - 1) >> 1;
+        if (!before(i, heap[parent]!)) break;
+        heap[p] = heap[parent]!;
+        p = parent;
+      }
+      heap[p] = i;
+    }
     const key = isDemand ? demandCell[i]! : supplyCell[i]!;
     // A unit with no location, or ended before it began, can meet nobody.
     if (Number.isNaN(key) || end < t) continue;
@@ -333,14 +450,17 @@ export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig, scrat
           }
         }
         if (!ok) continue;
+        // The operations of pairCostOf, in the same order (costs must agree bit for bit).
         const dist = euclid
           ? euclideanKm(m.supplyA[ss]!, m.supplyB[ss]!, m.demandA[dd]!, m.demandB[dd]!)
           : haversineKm(m.supplyA[ss]!, m.supplyB[ss]!, m.demandA[dd]!, m.demandB[dd]!);
         const travel = travelMin(dist, speed);
         if (!(travel <= maxTravel)) continue;
         const wait = m.supplyT[ss]! - m.demandT[dd]!;
-        // Same operation order as SPEC §2's `waitWeight * (τ − d.t) / 60000`.
-        pairs.push(dd, ss, travel + (wait > 0 ? (waitWeight * wait) / 60_000 : 0));
+        const rb = bufferOf(dd);
+        rb.cols[rb.n] = ss;
+        rb.costs[rb.n] = travel + (wait > 0 ? (waitWeight * wait) / 60_000 : 0);
+        rb.n++;
       }
       bucket.length = keep;
     }
@@ -349,18 +469,48 @@ export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig, scrat
     if (bucket === undefined) own.set(key, [i]);
     else bucket.push(i);
   }
+  while (heapSize > 0) popRow();
+  return {
+    nRows,
+    nCols: nSupply,
+    rowDemand,
+    demandRow,
+    rowPtr,
+    colIdx: store.colIdx.subarray(0, nnz),
+    cost32: store.cost32.subarray(0, nnz),
+  };
+}
 
-  // Counting sort of the pairs by row.
-  const nnz = pairs.n;
-  const rowPtr = new Int32Array(nDemand + 1);
-  for (let e = 0; e < nnz; e++) rowPtr[pairs.rows[e]! + 1]!++;
-  for (let r = 0; r < nDemand; r++) rowPtr[r + 1]! += rowPtr[r]!;
-  const fill = rowPtr.slice(0, nDemand);
-  const { colIdx, cost } = pairs.graphBuffers(nnz);
-  for (let e = 0; e < nnz; e++) {
-    const at2 = fill[pairs.rows[e]!]!++;
-    colIdx[at2] = pairs.cols[e]!;
-    cost[at2] = pairs.costs[e]!;
+/**
+ * Every allowed, time-overlapping pair of one market with its exact hindsight cost,
+ * rows = demand in occurrence order: the compact graph of {@link buildCompactGraph}
+ * re-ordered, costs recomputed. For tests and reports (it holds 12 bytes a pair).
+ *
+ * @example
+ * const g = buildAllowedGraph(packMarket(units, config), config);
+ * // pairs of demand r: g.colIdx[g.rowPtr[r] .. g.rowPtr[r + 1])
+ */
+export function buildAllowedGraph(m: PackedMarket, config: PairflowConfig): AllowedGraph {
+  return expandGraph(buildCompactGraph(m, config), pairCostOf(m, config));
+}
+
+/** A compact graph in occurrence order with exact costs. */
+export function expandGraph(g: CompactGraph, exact: PairCost): AllowedGraph {
+  const rowPtr = new Int32Array(g.nRows + 1);
+  for (let d = 0; d < g.nRows; d++) {
+    const r = g.demandRow[d]!;
+    rowPtr[d + 1] = rowPtr[d]! + g.rowPtr[r + 1]! - g.rowPtr[r]!;
   }
-  return { nRows: nDemand, nCols: nSupply, rowPtr, colIdx, cost };
+  const colIdx = new Int32Array(rowPtr[g.nRows]!);
+  const cost = new Float64Array(colIdx.length);
+  for (let d = 0; d < g.nRows; d++) {
+    const r = g.demandRow[d]!;
+    let at = rowPtr[d]!;
+    for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+      colIdx[at] = g.colIdx[e]!;
+      cost[at] = exact(d, g.colIdx[e]!);
+      at++;
+    }
+  }
+  return { nRows: g.nRows, nCols: g.nCols, rowPtr, colIdx, cost };
 }

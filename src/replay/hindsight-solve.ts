@@ -23,7 +23,15 @@ import { checkCertificate } from '../matching/certificate.js';
 import { pairflowError } from '../errors.js';
 import type { SolveOptions, SolveResult, SparseInstance } from '../matching/types.js';
 import type { PairflowConfig } from '../model.js';
-import { buildAllowedGraph, PairList, type AllowedGraph, type PackedMarket } from './hindsight-graph.js';
+import {
+  buildCompactGraph,
+  expandGraph,
+  GraphStore,
+  pairCostOf,
+  type AllowedGraph,
+  type CompactGraph,
+  type PackedMarket,
+} from './hindsight-graph.js';
 
 /** The per-market figures of the hindsight optimum. */
 export interface HindsightMarketResult {
@@ -47,6 +55,24 @@ export interface HindsightMarketResult {
   ceiling: number;
   /** Wall time by the injected clock. */
   ms: number;
+  /** Where that time went, by the same clock (summed over time segments). */
+  phases: HindsightPhases;
+}
+
+/** Wall time per phase of a market's hindsight solve, in ms. */
+export interface HindsightPhases {
+  /** Building the allowed graph (time sweep + grid). */
+  graphMs: number;
+  /** Connected components and the first candidate choice. */
+  setupMs: number;
+  /** The first restricted solve of every component. */
+  firstSolveMs: number;
+  /** Pricing passes over every allowed pair. */
+  pricingMs: number;
+  /** Re-solves after violators were added (warm starts and their certificate checks). */
+  resolveMs: number;
+  /** The match ceiling (Hopcroft–Karp). */
+  ceilingMs: number;
 }
 
 /** Per-demand figures, in the market's occurrence order. */
@@ -90,6 +116,8 @@ export interface HindsightMarketDetail {
   solves: number;
   /** Warm re-solves whose prices failed the certificate and were redone cold. */
   warmRetries: number;
+  /** Pricing decisions the float32 cost could not make, settled on the exact cost. */
+  rechecks: number;
 }
 
 /** @default candidatesPerDemand */
@@ -100,6 +128,9 @@ export const DEFAULT_ADD_PER_ROW = 4;
 // A non-candidate pair prices out below this (relative to its cost): well under the
 // certificate's 1e-9 yet above the rounding of duals built from sums of costs.
 const PRICE_TOL = 1e-11;
+// A float32 cost is within 2^-24 of the exact one (relative); twice that again covers
+// the rounding of the reduced cost computed from it.
+const F32_SLACK = 2 ** -22;
 
 function find(parent: Int32Array, x: number): number {
   let r = x;
@@ -117,8 +148,8 @@ function find(parent: Int32Array, x: number): number {
  * supply that is nobody's favourite still gets its best demands, so the first prices
  * are not blind to it.
  */
-function markCheapest(g: AllowedGraph, k: number, limit: number, inCand: Uint8Array): void {
-  const { nRows, nCols, rowPtr, colIdx, cost } = g;
+function markCheapest(g: CompactGraph, k: number, limit: number, inCand: Uint8Array): void {
+  const { nRows, nCols, rowPtr, colIdx, cost32: cost } = g;
   // Per-row (then per-column) best k by insertion into a small sorted buffer.
   const bestCost = new Float64Array(k);
   const bestEdge = new Int32Array(k);
@@ -160,7 +191,7 @@ function markCheapest(g: AllowedGraph, k: number, limit: number, inCand: Uint8Ar
 }
 
 /** What one time segment of a market yields. */
-interface SegmentResult extends HindsightMarketDetail {
+interface SegmentResult {
   cost: number;
   matched: number;
   pairsPriced: number;
@@ -168,6 +199,12 @@ interface SegmentResult extends HindsightMarketDetail {
   pricingRounds: number;
   ceiling: number;
   demandCost: Float64Array;
+  phases: HindsightPhases;
+  solves: number;
+  warmRetries: number;
+  rechecks: number;
+  /** With `wantDetail`: the segment's graph and prices, rows in its demand order. */
+  detail: HindsightMarketDetail | null;
 }
 
 /**
@@ -261,6 +298,7 @@ export function solvePackedMarket(
     pricingRounds: 0,
     ceiling: 0,
     ms: 0,
+    phases: { graphMs: 0, setupMs: 0, firstSolveMs: 0, pricingMs: 0, resolveMs: 0, ceilingMs: 0 } as HindsightPhases,
     demandT: m.demandT.slice(),
     demandCost: new Float64Array(m.nDemand),
     detail: null as HindsightMarketDetail | null,
@@ -281,29 +319,31 @@ export function solvePackedMarket(
   const parts: Array<{ dIdx: Int32Array; sIdx: Int32Array; r: SegmentResult }> = [];
   let solves = 0;
   let warmRetries = 0;
-  const scratch = new PairList();
-  // Without detail each segment's graph is done with before the next is built.
-  scratch.reuseGraph = !wantDetail;
+  let rechecks = 0;
+  // Each segment's graph is done with before the next is built.
+  const store = new GraphStore();
   for (let q = 0; q < count; q++) {
     const dIdx = ds.idx.subarray(ds.start[q]!, ds.start[q + 1]!);
     const sIdx = ss.idx.subarray(ss.start[q]!, ss.start[q + 1]!);
     if (dIdx.length === 0 && !wantDetail) continue;
     const sub = count === 1 ? m : subMarket(m, dIdx, sIdx);
-    const r = solveSegment(sub, config, solve, opts, now, scratch);
+    const r = solveSegment(sub, config, solve, opts, now, store, wantDetail);
     for (let i = 0; i < dIdx.length; i++) out.demandCost[dIdx[i]!] = r.demandCost[i]!;
     out.matched += r.matched;
     out.pairsPriced += r.pairsPriced;
     out.pairsSolved += r.pairsSolved;
     out.pricingRounds = Math.max(out.pricingRounds, r.pricingRounds);
     out.ceiling += r.ceiling;
+    for (const key of Object.keys(out.phases) as Array<keyof HindsightPhases>) out.phases[key] += r.phases[key];
     solves += r.solves;
     warmRetries += r.warmRetries;
+    rechecks += r.rechecks;
     if (wantDetail) parts.push({ dIdx, sIdx, r });
   }
   // Summed in occurrence order, so the total does not depend on how segments fell.
   for (let i = 0; i < m.nDemand; i++) out.cost += out.demandCost[i]!;
   out.abandoned = m.nDemand - out.matched;
-  if (wantDetail) out.detail = mergeDetail(m, parts, solves, warmRetries);
+  if (wantDetail) out.detail = mergeDetail(m, parts, solves, warmRetries, rechecks);
   out.ms = now() - t0;
   return out;
 }
@@ -313,6 +353,7 @@ function mergeDetail(
   parts: ReadonlyArray<{ dIdx: Int32Array; sIdx: Int32Array; r: SegmentResult }>,
   solves: number,
   warmRetries: number,
+  rechecks: number,
 ): HindsightMarketDetail {
   const rowDuals = new Float64Array(m.nDemand);
   const colDuals = new Float64Array(m.nSupply);
@@ -320,13 +361,15 @@ function mergeDetail(
   const rowPtr = new Int32Array(m.nDemand + 1);
   let nnz = 0;
   for (const { dIdx, r } of parts) {
-    nnz += r.graph.colIdx.length;
-    for (let i = 0; i < dIdx.length; i++) rowPtr[dIdx[i]! + 1] = r.graph.rowPtr[i + 1]! - r.graph.rowPtr[i]!;
+    const g = r.detail!.graph;
+    nnz += g.colIdx.length;
+    for (let i = 0; i < dIdx.length; i++) rowPtr[dIdx[i]! + 1] = g.rowPtr[i + 1]! - g.rowPtr[i]!;
   }
   for (let d = 0; d < m.nDemand; d++) rowPtr[d + 1]! += rowPtr[d]!;
   const colIdx = new Int32Array(nnz);
   const cost = new Float64Array(nnz);
-  for (const { dIdx, sIdx, r } of parts) {
+  for (const { dIdx, sIdx, r: seg } of parts) {
+    const r = seg.detail!;
     const g = r.graph;
     for (let i = 0; i < dIdx.length; i++) {
       const d = dIdx[i]!;
@@ -342,7 +385,7 @@ function mergeDetail(
     }
     for (let j = 0; j < sIdx.length; j++) colDuals[sIdx[j]!] = r.colDuals[j]!;
   }
-  return { graph: { nRows: m.nDemand, nCols: m.nSupply, rowPtr, colIdx, cost }, rowDuals, colDuals, rowToCol, solves, warmRetries };
+  return { graph: { nRows: m.nDemand, nCols: m.nSupply, rowPtr, colIdx, cost }, rowDuals, colDuals, rowToCol, solves, warmRetries, rechecks };
 }
 
 /** The exact optimum of one time segment (or of a market that has just one). */
@@ -352,27 +395,40 @@ function solveSegment(
   solve: SparseSolver,
   opts: HindsightMarketOptions,
   now: () => number,
-  scratch: PairList,
+  store: GraphStore,
+  wantDetail: boolean,
 ): SegmentResult {
   const k = Math.max(1, Math.floor(opts.candidatesPerDemand ?? DEFAULT_CANDIDATES_PER_DEMAND));
   const P = config.abandonPenalty;
-  const g = buildAllowedGraph(m, config, scratch);
-  const { nRows, nCols, rowPtr, colIdx, cost } = g;
+  const phases: HindsightPhases = { graphMs: 0, setupMs: 0, firstSolveMs: 0, pricingMs: 0, resolveMs: 0, ceilingMs: 0 };
+  let tPhase = now();
+  const lap = (key: keyof HindsightPhases): void => {
+    const t = now();
+    phases[key] += t - tPhase;
+    tPhase = t;
+  };
+  const g = buildCompactGraph(m, config, store);
+  const exact = pairCostOf(m, config);
+  lap('graphMs');
+  const { nRows, nCols, rowPtr, colIdx, cost32, rowDemand } = g;
   const nnz = colIdx.length;
+  // Every pair whose exact cost is below P has a float32 cost below this.
+  const pCut = P + Math.abs(P) * F32_SLACK;
 
-  // Connected components over the pairs that can matter (cost < P).
+  // Connected components over the pairs that can matter (cost < P, or a float32
+  // cost that cannot tell): a superset of the useful pairs only merges components.
   const parent = new Int32Array(nRows + nCols);
   for (let i = 0; i < parent.length; i++) parent[i] = i;
   for (let r = 0; r < nRows; r++) {
     for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-      if (!(cost[e]! < P)) continue;
+      if (!(cost32[e]! < pCut)) continue;
       const a = find(parent, r);
       const b = find(parent, nRows + colIdx[e]!);
       if (a !== b) parent[a < b ? b : a] = a < b ? a : b;
     }
   }
-  // Dense component ids for components holding at least one useful pair; rows and
-  // columns keep their global order inside a component (rows are in time order, so
+  // Dense component ids for components holding at least one such pair; rows and
+  // columns keep their graph order inside a component (rows are in time order, so
   // augmenting paths stay local).
   const compOfRoot = new Int32Array(nRows + nCols).fill(-1);
   const rowComp = new Int32Array(nRows).fill(-1);
@@ -381,7 +437,7 @@ function solveSegment(
   for (let r = 0; r < nRows; r++) {
     let useful = false;
     for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-      if (cost[e]! < P) {
+      if (cost32[e]! < pCut) {
         useful = true;
         break;
       }
@@ -408,11 +464,35 @@ function solveSegment(
   const compCols = new Int32Array(compColStart[nComp]!);
   for (let c = 0; c < nCols; c++) if (colComp[c]! >= 0) compCols[compColStart[colComp[c]!]! + colLocal[c]!] = c;
 
+  // The candidate pairs, the only ones the restricted solves see, with exact costs,
+  // as a CSR over graph rows (`inCand` marks them in the graph).
   const inCand = new Uint8Array(nnz);
-  markCheapest(g, k, P, inCand);
+  markCheapest(g, k, pCut, inCand);
+  let cand = new CandidateRows(nRows, 0);
+  {
+    let n = 0;
+    for (let e = 0; e < nnz; e++) n += inCand[e]!;
+    cand = new CandidateRows(nRows, n);
+    let at = 0;
+    for (let r = 0; r < nRows; r++) {
+      const d = rowDemand[r]!;
+      for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
+        if (inCand[e] === 0) continue;
+        const c = exact(d, colIdx[e]!);
+        if (!(c < P)) {
+          inCand[e] = 0;
+          continue;
+        }
+        cand.edge[at] = e;
+        cand.cost[at] = c;
+        at++;
+      }
+      cand.ptr[r + 1] = at;
+    }
+  }
 
-  // Prices and assignment of the whole market; rows with no useful pair stay
-  // unmatched at u = P, columns outside every component keep v = 0.
+  // Prices and assignment per graph row; rows with no useful pair stay unmatched at
+  // u = P, columns outside every component keep v = 0.
   const rowDuals = new Float64Array(nRows).fill(P);
   const colDuals = new Float64Array(nCols);
   const rowToCol = new Int32Array(nRows).fill(-1);
@@ -428,8 +508,15 @@ function solveSegment(
   const addPerRow = Math.max(1, Math.floor(opts.addPerRow ?? DEFAULT_ADD_PER_ROW));
   const addRed = new Float64Array(addPerRow);
   const addEdge = new Int32Array(addPerRow);
+  const addCost = new Float64Array(addPerRow);
+  // The pairs a pricing pass adds, in row order.
+  let newRow = new Int32Array(1024);
+  let newEdge = new Int32Array(1024);
+  let newCost = new Float64Array(1024);
   let warmRetries = 0;
   let solves = 0;
+  let rechecks = 0;
+  lap('setupMs');
 
   for (;;) {
     for (let q = 0; q < nComp; q++) {
@@ -438,16 +525,26 @@ function solveSegment(
       dirty[q] = 0;
       solved[q] = 1;
     }
+    lap(pricingRounds === 0 ? 'firstSolveMs' : 'resolveMs');
     pricingRounds++;
     let violators = 0;
+    let nNew = 0;
     for (let r = 0; r < nRows; r++) {
       const u = rowDuals[r]!;
+      const au = Math.abs(u);
+      const d = rowDemand[r]!;
       let nb = 0;
       for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
         if (inCand[e] === 1) continue;
-        const c = cost[e]!;
-        const red = c - u - colDuals[colIdx[e]!]!;
+        const c32 = cost32[e]!;
+        const v = colDuals[colIdx[e]!]!;
+        // Far from zero the float32 cost decides; near zero the exact cost does.
+        if (c32 - u - v >= F32_SLACK * (Math.abs(c32) + au + Math.abs(v))) continue;
+        rechecks++;
+        const c = exact(d, colIdx[e]!);
+        const red = c - u - v;
         if (red >= -PRICE_TOL * (1 + Math.abs(c))) continue;
+        if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
         violators++;
         // Keep the addPerRow most negative: adding every violator at once floods
         // the restricted solve with pairs that the next prices no longer want.
@@ -456,39 +553,87 @@ function solveSegment(
         while (p > 0 && addRed[p - 1]! > red) {
           addRed[p] = addRed[p - 1]!;
           addEdge[p] = addEdge[p - 1]!;
+          addCost[p] = addCost[p - 1]!;
           p--;
         }
         addRed[p] = red;
         addEdge[p] = e;
+        addCost[p] = c;
       }
       if (nb > 0) {
-        for (let q = 0; q < nb; q++) inCand[addEdge[q]!] = 1;
+        if (nNew + nb > newRow.length) {
+          const grow = <T extends Int32Array | Float64Array>(a: T): T => {
+            const b = new (a.constructor as new (n: number) => T)(Math.max(2 * a.length, nNew + nb));
+            b.set(a);
+            return b;
+          };
+          newRow = grow(newRow);
+          newEdge = grow(newEdge);
+          newCost = grow(newCost);
+        }
+        for (let q = 0; q < nb; q++) {
+          inCand[addEdge[q]!] = 1;
+          newRow[nNew] = r;
+          newEdge[nNew] = addEdge[q]!;
+          newCost[nNew] = addCost[q]!;
+          nNew++;
+        }
         dirty[rowComp[r]!] = 1;
       }
     }
+    if (nNew > 0) cand = cand.merged(newRow, newEdge, newCost, nNew);
+    lap('pricingMs');
     if (violators === 0) break;
   }
 
-  let pairsSolved = 0;
-  for (let e = 0; e < nnz; e++) pairsSolved += inCand[e]!;
-
+  const pairsSolved = cand.ptr[nRows]!;
   const demandCost = new Float64Array(nRows).fill(P);
   let total = 0;
   let matched = 0;
   for (let r = 0; r < nRows; r++) {
     const c = rowToCol[r]!;
+    const d = rowDemand[r]!;
     if (c >= 0) {
-      for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-        if (colIdx[e] === c) {
-          demandCost[r] = cost[e]!;
+      for (let q = cand.ptr[r]!; q < cand.ptr[r + 1]!; q++) {
+        if (colIdx[cand.edge[q]!] === c) {
+          demandCost[d] = cand.cost[q]!;
           break;
         }
       }
       matched++;
     }
-    total += demandCost[r]!;
+  }
+  for (let d = 0; d < nRows; d++) total += demandCost[d]!;
+  let detail: HindsightMarketDetail | null = null;
+  if (wantDetail) {
+    const rd = new Float64Array(nRows);
+    const rc = new Int32Array(nRows);
+    for (let r = 0; r < nRows; r++) {
+      rd[rowDemand[r]!] = rowDuals[r]!;
+      rc[rowDemand[r]!] = rowToCol[r]!;
+    }
+    detail = { graph: expandGraph(g, exact), rowDuals: rd, colDuals, rowToCol: rc, solves, warmRetries, rechecks };
+  }
+  lap('setupMs');
+  // Hopcroft–Karp seeds itself greedily with each row's first free pair: with the
+  // optimum's pair first in each row, that seed is the optimum's matching, and
+  // only the few rows it leaves short need augmenting.
+  for (let r = 0; r < nRows; r++) {
+    const c = rowToCol[r]!;
+    if (c < 0) continue;
+    const first = rowPtr[r]!;
+    for (let e = first; e < rowPtr[r + 1]!; e++) {
+      if (colIdx[e] !== c) continue;
+      colIdx[e] = colIdx[first]!;
+      colIdx[first] = c;
+      const t = cost32[e]!;
+      cost32[e] = cost32[first]!;
+      cost32[first] = t;
+      break;
+    }
   }
   const ceiling = maxCardinalityMatching(g).size;
+  lap('ceilingMs');
 
   return {
     cost: total,
@@ -498,12 +643,11 @@ function solveSegment(
     pricingRounds,
     ceiling,
     demandCost,
-    graph: g,
-    rowDuals,
-    colDuals,
-    rowToCol,
+    phases,
     solves,
     warmRetries,
+    rechecks,
+    detail,
   };
 
   function solveComponent(q: number): void {
@@ -513,9 +657,7 @@ function solveSegment(
     const ptr = new Int32Array(nr + 1);
     for (let i = 0; i < nr; i++) {
       const r = rows[i]!;
-      let deg = 1;
-      for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) deg += inCand[e]!;
-      ptr[i + 1] = ptr[i]! + deg;
+      ptr[i + 1] = ptr[i]! + cand.ptr[r + 1]! - cand.ptr[r]! + 1;
     }
     const cols = new Int32Array(ptr[nr]!);
     const costs = new Float64Array(ptr[nr]!);
@@ -523,11 +665,9 @@ function solveSegment(
     let at = 0;
     for (let i = 0; i < nr; i++) {
       const r = rows[i]!;
-      for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-        if (inCand[e] === 0) continue;
-        const c = colIdx[e]!;
-        cols[at] = colLocal[c]!;
-        costs[at] = cost[e]!;
+      for (let t = cand.ptr[r]!; t < cand.ptr[r + 1]!; t++) {
+        cols[at] = colLocal[colIdx[cand.edge[t]!]!]!;
+        costs[at] = cand.cost[t]!;
         at++;
       }
       cols[at] = nc + i;
@@ -584,5 +724,41 @@ function solveSegment(
       rowDuals[r] = res.rowDuals[i]! + vp;
     }
     for (let j = 0; j < nc; j++) colDuals[colGlobal[j]!] = res.colDuals[j]!;
+  }
+}
+
+/** Candidate pairs per graph row: graph edge and exact cost, CSR. */
+class CandidateRows {
+  readonly ptr: Int32Array;
+  readonly edge: Int32Array;
+  readonly cost: Float64Array;
+
+  constructor(nRows: number, n: number) {
+    this.ptr = new Int32Array(nRows + 1);
+    this.edge = new Int32Array(n);
+    this.cost = new Float64Array(n);
+  }
+
+  /** These rows plus `n` more pairs (rows ascending), each row's new pairs after its old. */
+  merged(rows: Int32Array, edges: Int32Array, costs: Float64Array, n: number): CandidateRows {
+    const nRows = this.ptr.length - 1;
+    const out = new CandidateRows(nRows, this.edge.length + n);
+    let at = 0;
+    let q = 0;
+    for (let r = 0; r < nRows; r++) {
+      const a = this.ptr[r]!;
+      const b = this.ptr[r + 1]!;
+      out.edge.set(this.edge.subarray(a, b), at);
+      out.cost.set(this.cost.subarray(a, b), at);
+      at += b - a;
+      while (q < n && rows[q] === r) {
+        out.edge[at] = edges[q]!;
+        out.cost[at] = costs[q]!;
+        at++;
+        q++;
+      }
+      out.ptr[r + 1] = at;
+    }
+    return out;
   }
 }

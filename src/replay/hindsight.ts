@@ -20,10 +20,11 @@ import {
   type HindsightMarketDetail,
   type HindsightMarketOptions,
   type HindsightMarketResult,
+  type HindsightPhases,
 } from './hindsight-solve.js';
 import type { WorkerReply, WorkerTask } from './hindsight-worker.js';
 
-export type { HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail };
+export type { HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail, HindsightPhases };
 export { DEFAULT_CANDIDATES_PER_DEMAND } from './hindsight-solve.js';
 
 /** The hindsight optimum of a whole log: totals over markets, then each market. */
@@ -43,6 +44,8 @@ export interface HindsightResult {
   ceiling: number;
   /** Wall time of the whole solve. */
   ms: number;
+  /** Time per phase summed over markets (CPU time on the workers, so it can exceed `ms`). */
+  phases: HindsightPhases;
   /** Per market, in market order (markets sorted by their key, code-unit order). */
   markets: HindsightMarketResult[];
   /**
@@ -167,6 +170,7 @@ export async function solveHindsight(
     pricingRounds: 0,
     ceiling: 0,
     ms: 0,
+    phases: { graphMs: 0, setupMs: 0, firstSolveMs: 0, pricingMs: 0, resolveMs: 0, ceilingMs: 0 },
     markets: [],
     demandT,
     demandCost,
@@ -186,6 +190,7 @@ export async function solveHindsight(
     out.pairsSolved += m.pairsSolved;
     out.pricingRounds = Math.max(out.pricingRounds, m.pricingRounds);
     out.ceiling += m.ceiling;
+    for (const key of Object.keys(out.phases) as Array<keyof HindsightPhases>) out.phases[key] += m.phases[key];
     out.markets.push(m);
   }
   out.ms = performance.now() - t0;

@@ -295,7 +295,8 @@ describe('solveHindsight() threads', () => {
     const log = smallLog(4242, 12);
     // Four markets so the two threads each take more than one.
     const events = sorted(log.events.flatMap((e) => [e, { ...e, market: `${e.market}x` }]));
-    const strip = (h: HindsightResult): unknown => ({ ...h, ms: 0, markets: h.markets.map((m) => ({ ...m, ms: 0 })) });
+    const zero = { graphMs: 0, setupMs: 0, firstSolveMs: 0, pricingMs: 0, resolveMs: 0, ceilingMs: 0 };
+    const strip = (h: HindsightResult): unknown => ({ ...h, ms: 0, phases: zero, markets: h.markets.map((m) => ({ ...m, ms: 0, phases: zero })) });
     const progress: number[] = [];
     const inThread = await solveHindsight(events, log.config, { threads: 0 });
     const threaded = await solveHindsight(events, log.config, { threads: 2, onProgress: (d) => progress.push(d) });
