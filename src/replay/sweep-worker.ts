@@ -1,16 +1,20 @@
 /**
- * Worker-thread entry of `pairflow sweep`: receives the parsed log once (workerData),
- * then replays one window length per message with the same `replayEvents` a single
- * replay uses, and posts the plain-data result back.
+ * Worker-thread entry of `pairflow sweep`: receives the log once (workerData), packed
+ * in shared memory (see sweep-log.ts), then replays one window length per message
+ * through the same `replaySource` a single replay uses, decoding events as it goes,
+ * and posts the plain-data result back.
  */
 import { parentPort, workerData } from 'node:worker_threads';
-import type { PairflowConfig, SourcedEvent } from '../model.js';
+import type { PairflowConfig } from '../model.js';
+import type { EventSource } from '../ports.js';
 import type { BucketPlan } from './bootstrap.js';
-import { replayEvents } from './run.js';
+import { replaySource } from './run.js';
+import { unpackLog, type PackedLog } from './sweep-log.js';
 
 /** What the sweep hands each worker once. */
 export interface SweepWorkerData {
-  events: SourcedEvent[];
+  /** The log's events, in replay order, shared by every worker. */
+  log: PackedLog;
   config: PairflowConfig;
   plan: BucketPlan;
   warm: boolean;
@@ -26,7 +30,14 @@ const data = workerData as SweepWorkerData | null;
 if (parentPort && data) {
   const port = parentPort;
   port.on('message', (job: SweepJob) => {
-    replayEvents(data.events, { ...data.config, windowMs: job.windowMs }, { warm: data.warm, plan: data.plan }).then(
+    const source: EventSource = {
+      expected: data.log.count,
+      async *items() {
+        for (const ev of unpackLog(data.log)) yield { kind: 'event', ev };
+      },
+      close: async () => {},
+    };
+    replaySource(source, { ...data.config, windowMs: job.windowMs }, { warm: data.warm, plan: data.plan }).then(
       (run) => port.postMessage({ id: job.id, ok: true, run }),
       (err: unknown) => {
         const e = err as { message?: string; code?: string; params?: unknown; stack?: string };

@@ -20,6 +20,7 @@ import { bootstrapWindows, bucketPlan, bucketSums, type BucketPlan } from './boo
 import { solveHindsight, type HindsightResult } from './hindsight.js';
 import { hindsightStats, replayEvents, type LoadedLog, type OnlineRun } from './run.js';
 import { regretAndRatio, type EpochSolveTimes, type HindsightStats, type OnlineStats } from './summary.js';
+import { packLog } from './sweep-log.js';
 import type { SweepJob, SweepWorkerData } from './sweep-worker.js';
 
 /** Options of {@link runSweep}. */
@@ -261,7 +262,8 @@ export async function sweepLoaded(
   }
   const poolSize = useWorkers ? Math.min(threads, windows.length) : 1;
   const queue = new PQueue({ concurrency: poolSize });
-  const pool = useWorkers ? new WorkerPool(poolSize, { events, config, plan, warm }) : null;
+  // Workers read one shared copy of the log instead of a structured clone each.
+  const pool = useWorkers ? new WorkerPool(poolSize, { log: packLog(events), config, plan, warm }) : null;
   try {
     await Promise.all(windows.map((windowMs, i) => queue.add(async () => {
       runs[i] = pool
