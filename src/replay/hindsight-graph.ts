@@ -334,7 +334,7 @@ export function buildCompactGraph(m: PackedMarket, config: PairflowConfig, store
   const rowPtr = new Int32Array(nDemand + 1);
   let nRows = 0;
   let nnz = 0;
-  store.ensure(Math.max(1024, Math.min(reserve > 0 ? reserve : RESERVE_PAIRS, nDemand * nSupply)), 0);
+  store.ensure(reserve > 0 ? reserve : Math.max(1024, Math.min(RESERVE_PAIRS, nDemand * nSupply)), 0);
 
   // Present demands, by (end, index) in a binary heap, each with its pairs so far.
   const heap = new Int32Array(nDemand);

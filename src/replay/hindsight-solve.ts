@@ -116,7 +116,7 @@ export interface HindsightMarketDetail {
   solves: number;
   /** Warm re-solves whose prices failed the certificate and were redone cold. */
   warmRetries: number;
-  /** Pricing decisions the float32 cost could not make, settled on the exact cost. */
+  /** Pricing decisions too close to call on the float32 cost, settled on the exact cost. */
   rechecks: number;
 }
 
@@ -148,8 +148,16 @@ function find(parent: Int32Array, x: number): number {
  * supply that is nobody's favourite still gets its best demands, so the first prices
  * are not blind to it.
  */
-function markCheapest(g: CompactGraph, k: number, limit: number, inCand: Uint8Array): void {
+function markCheapest(g: CompactGraph, kAsked: number, limit: number, inCand: Uint8Array): void {
   const { nRows, nCols, rowPtr, colIdx, cost32: cost } = g;
+  // No row or column has more pairs than the largest degree: a larger k buys nothing
+  // but a per-column buffer of nCols · k.
+  let maxDeg = 0;
+  for (let r = 0; r < nRows; r++) maxDeg = Math.max(maxDeg, rowPtr[r + 1]! - rowPtr[r]!);
+  const colDeg = new Int32Array(nCols);
+  for (let e = 0; e < colIdx.length; e++) colDeg[colIdx[e]!]!++;
+  for (let c = 0; c < nCols; c++) maxDeg = Math.max(maxDeg, colDeg[c]!);
+  const k = Math.max(1, Math.min(kAsked, maxDeg));
   // Per-row (then per-column) best k by insertion into a small sorted buffer.
   const bestCost = new Float64Array(k);
   const bestEdge = new Int32Array(k);
@@ -274,7 +282,9 @@ function subMarket(m: PackedMarket, dIdx: Int32Array, sIdx: Int32Array): PackedM
  * Solves one packed market exactly, time segment by time segment. `solve` is the
  * sparse assignment solver (the caller passes `solveSparse`); it is injected so this
  * module stays free of imports a worker would not need. With `wantDetail` the
- * segments' graphs and prices are put back together into market-wide ones.
+ * segments' graphs and prices are put back together into market-wide ones. `store`
+ * holds the pairs; a worker passes the same one for market after market, so the
+ * memory of one market's pairs is reused by the next instead of waiting for the GC.
  */
 export function solvePackedMarket(
   market: string,
@@ -283,6 +293,7 @@ export function solvePackedMarket(
   solve: SparseSolver,
   opts: HindsightMarketOptions = {},
   wantDetail = false,
+  store: GraphStore = new GraphStore(),
 ): HindsightMarketResult & HindsightDemandCosts & { detail: HindsightMarketDetail | null } {
   const now = opts.now ?? (() => performance.now());
   const t0 = now();
@@ -320,8 +331,7 @@ export function solvePackedMarket(
   let solves = 0;
   let warmRetries = 0;
   let rechecks = 0;
-  // Each segment's graph is done with before the next is built.
-  const store = new GraphStore();
+  // Each segment's graph is done with before the next is built, so they share `store`.
   for (let q = 0; q < count; q++) {
     const dIdx = ds.idx.subarray(ds.start[q]!, ds.start[q + 1]!);
     const sIdx = ss.idx.subarray(ss.start[q]!, ss.start[q + 1]!);
@@ -538,13 +548,19 @@ function solveSegment(
         if (inCand[e] === 1) continue;
         const c32 = cost32[e]!;
         const v = colDuals[colIdx[e]!]!;
-        // Far from zero the float32 cost decides; near zero the exact cost does.
-        if (c32 - u - v >= F32_SLACK * (Math.abs(c32) + au + Math.abs(v))) continue;
-        rechecks++;
-        const c = exact(d, colIdx[e]!);
-        const red = c - u - v;
-        if (red >= -PRICE_TOL * (1 + Math.abs(c))) continue;
-        if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
+        // Far from zero the float32 cost decides either way; near zero the exact cost
+        // does. The reduced cost kept for ranking may be the float32 one: any choice
+        // among true violators is sound.
+        let red = c32 - u - v;
+        const slack = F32_SLACK * (Math.abs(c32) + au + Math.abs(v));
+        if (red >= slack) continue;
+        let c = NaN;
+        if (red >= -slack - 2 * PRICE_TOL * (1 + Math.abs(c32))) {
+          rechecks++;
+          c = exact(d, colIdx[e]!);
+          red = c - u - v;
+          if (red >= -PRICE_TOL * (1 + Math.abs(c))) continue;
+        }
         violators++;
         // Keep the addPerRow most negative: adding every violator at once floods
         // the restricted solve with pairs that the next prices no longer want.
@@ -572,10 +588,14 @@ function solveSegment(
           newCost = grow(newCost);
         }
         for (let q = 0; q < nb; q++) {
-          inCand[addEdge[q]!] = 1;
+          const e = addEdge[q]!;
+          const c = Number.isNaN(addCost[q]!) ? exact(d, colIdx[e]!) : addCost[q]!;
+          // A violator has c < u + v ≤ P; anything else is a bug in the prices.
+          if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
+          inCand[e] = 1;
           newRow[nNew] = r;
-          newEdge[nNew] = addEdge[q]!;
-          newCost[nNew] = addCost[q]!;
+          newEdge[nNew] = e;
+          newCost[nNew] = c;
           nNew++;
         }
         dirty[rowComp[r]!] = 1;

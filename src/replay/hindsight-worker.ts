@@ -9,7 +9,7 @@ import { parentPort } from 'node:worker_threads';
 import { PairflowError } from '../errors.js';
 import { solveSparse } from '../matching/index.js';
 import type { PairflowConfig } from '../model.js';
-import type { PackedMarket } from './hindsight-graph.js';
+import { GraphStore, type PackedMarket } from './hindsight-graph.js';
 import {
   solvePackedMarket,
   type HindsightDemandCosts,
@@ -32,10 +32,12 @@ export type WorkerReply =
   | { readonly ok: false; readonly index: number; readonly message: string; readonly code?: string; readonly params?: unknown };
 
 const port = parentPort;
+// One pair store for every market this worker solves (one at a time).
+const store = new GraphStore();
 if (port !== null) {
   port.on('message', (task: WorkerTask) => {
     try {
-      const { detail: _detail, ...result } = solvePackedMarket(task.market, task.packed, task.config, solveSparse, task.opts);
+      const { detail: _detail, ...result } = solvePackedMarket(task.market, task.packed, task.config, solveSparse, task.opts, false, store);
       const reply: WorkerReply = { ok: true, index: task.index, result };
       port.postMessage(reply, [result.demandT.buffer as ArrayBuffer, result.demandCost.buffer as ArrayBuffer]);
     } catch (err) {

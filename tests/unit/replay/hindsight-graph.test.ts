@@ -1,7 +1,15 @@
 import { describe, expect, it } from 'vitest';
 
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
-import { buildAllowedGraph, packMarket, type HindsightUnit } from '../../../src/replay/hindsight-graph.js';
+import {
+  buildAllowedGraph,
+  buildCompactGraph,
+  GraphStore,
+  packMarket,
+  pairCostOf,
+  type CompactGraph,
+  type HindsightUnit,
+} from '../../../src/replay/hindsight-graph.js';
 import { euclideanKm, haversineKm, travelMin } from '../../../src/window/geo.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
@@ -153,5 +161,64 @@ describe('buildAllowedGraph()', () => {
     ];
     const g = buildAllowedGraph(packMarket(units, config), config);
     expect(Array.from(g.rowPtr)).toEqual([0, 0, 1]);
+  });
+});
+
+/** A compact graph's pairs keyed by (demand, supply), with their float32 costs. */
+function compactPairs(g: CompactGraph): Map<string, number> {
+  const out = new Map<string, number>();
+  for (let r = 0; r < g.nRows; r++) {
+    for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) out.set(`${g.rowDemand[r]},${g.colIdx[e]}`, g.cost32[e]!);
+  }
+  return out;
+}
+
+describe('buildCompactGraph()', () => {
+  const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', maxTravelMin: 12, waitWeight: 1.3 };
+  const plane = (rand: () => number): Partial<HindsightUnit> => ({ x: rand() * 8, y: rand() * 8 });
+
+  it('holds the all-pairs set, each cost the float32 rounding of the exact one, and a row per demand', () => {
+    for (let seed = 1; seed <= 10; seed++) {
+      const units = randomUnits(seed, plane, 90);
+      const m = packMarket(units, config);
+      const g = buildCompactGraph(m, config);
+      const want = allPairs(units, config);
+      const got = compactPairs(g);
+      expect([...got.keys()].sort(), `seed ${seed}`).toEqual([...want.keys()].sort());
+      for (const [k, c] of want) expect(got.get(k), `seed ${seed} pair ${k}`).toBe(Math.fround(c));
+      // rowDemand and demandRow are inverse permutations of the demand.
+      expect(g.nRows).toBe(m.nDemand);
+      expect([...g.rowDemand].sort((a, b) => a - b)).toEqual(Array.from({ length: m.nDemand }, (_, i) => i));
+      for (let r = 0; r < g.nRows; r++) expect(g.demandRow[g.rowDemand[r]!]).toBe(r);
+      // pairCostOf recomputes the exact cost of every pair; NaN off the graph's distance limit.
+      const exact = pairCostOf(m, config);
+      for (const [k, c] of want) {
+        const [d, s] = k.split(',').map(Number) as [number, number];
+        expect(exact(d, s)).toBe(c);
+      }
+    }
+  });
+
+  it('writes the rows of demands that ended earlier first', () => {
+    const units = randomUnits(3, plane, 120);
+    const m = packMarket(units, config);
+    const g = buildCompactGraph(m, config);
+    // Among demands that can meet anyone (end ≥ t), rows follow `end` (ties by index).
+    const ends = Array.from(g.rowDemand).filter((d) => m.demandEnd[d]! >= m.demandT[d]!).map((d) => m.demandEnd[d]!);
+    expect(ends.length).toBeGreaterThan(20);
+    expect(ends).toEqual([...ends].sort((a, b) => a - b));
+  });
+
+  it('gives the same graphs from one store shared by several builds, and from one that must grow', () => {
+    const store = new GraphStore();
+    for (let seed = 1; seed <= 6; seed++) {
+      const units = randomUnits(seed, plane, 40 + 30 * seed);
+      const m = packMarket(units, config);
+      const fresh = buildCompactGraph(m, config);
+      // A reservation of one pair makes the store grow, several times, mid-build.
+      const shared = buildCompactGraph(m, config, store, 1);
+      expect(compactPairs(shared), `seed ${seed}`).toEqual(compactPairs(fresh));
+      expect(Array.from(shared.rowPtr)).toEqual(Array.from(fresh.rowPtr));
+    }
   });
 });

@@ -202,6 +202,32 @@ describe('solveHindsightMarket()', () => {
     }
   });
 
+  it('stays exact where float32 costs cannot tell pairs apart (costs near 1e6): such decisions go to the exact cost', () => {
+    let rechecks = 0;
+    for (const seed of SEEDS.slice(0, 20)) {
+      const log = smallLog(seed, 3);
+      // A minute of waiting costs 2e5: the float32 cost of a pair is off by up to ~0.1,
+      // far more than the certificate's tolerance, so only exact rechecks keep it.
+      const config: PairflowConfig = { ...log.config, waitWeight: 2e5, abandonPenalty: 3e6 };
+      const { occurrences } = buildOccurrences(sorted(log.events), config);
+      for (const occ of byMarket(occurrences).values()) {
+        const r = solveHindsightMarketDetailed(occ, config, { candidatesPerDemand: 1 });
+        const full = solveHindsightMarket(occ, config, { candidatesPerDemand: 1_000_000 });
+        expect(close(r.cost, full.cost), `seed ${seed}: ${r.cost} vs all pairs ${full.cost}`).toBe(true);
+        const { graph, rowDuals, colDuals, rowToCol } = r.detail;
+        const colToRow = new Int32Array(graph.nCols).fill(-1);
+        rowToCol.forEach((c, row) => {
+          if (c >= 0) colToRow[c] = row;
+        });
+        const inst = { ...graph, unmatchedCost: new Float64Array(graph.nRows).fill(config.abandonPenalty) };
+        const rep = checkCertificate(inst, { cost: r.cost, rowToCol, colToRow, rowDuals, colDuals, stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false } });
+        expect(rep.ok, `seed ${seed}: ${rep.problems.join('; ')}`).toBe(true);
+        rechecks += r.detail.rechecks;
+      }
+    }
+    expect(rechecks).toBeGreaterThan(0);
+  });
+
   it('reports per-demand costs that add up to the market cost, in occurrence order', () => {
     const log = smallLog(7, 3);
     const { occurrences } = buildOccurrences(sorted(log.events), log.config);
