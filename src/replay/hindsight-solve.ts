@@ -91,12 +91,12 @@ export interface HindsightMarketOptions {
   /**
    * Candidate pairs per demand in the first restricted solve (its k cheapest). Any
    * k ≥ 1 gives the same optimum; a small k means more pricing rounds.
-   * @default 6
+   * @default 12
    */
   candidatesPerDemand?: number;
   /**
    * Pairs added per demand in each pricing round: its most negative reduced costs.
-   * @default 4
+   * @default 12
    */
   addPerRow?: number;
   /** Clock for `ms`. @default performance.now */
@@ -118,12 +118,14 @@ export interface HindsightMarketDetail {
   warmRetries: number;
   /** Pricing decisions too close to call on the float32 cost, settled on the exact cost. */
   rechecks: number;
+  /** Row pricings over all rounds (a row whose prices stood still is not priced again). */
+  rowsPriced: number;
 }
 
 /** @default candidatesPerDemand */
-export const DEFAULT_CANDIDATES_PER_DEMAND = 6;
+export const DEFAULT_CANDIDATES_PER_DEMAND = 12;
 /** @default addPerRow */
-export const DEFAULT_ADD_PER_ROW = 4;
+export const DEFAULT_ADD_PER_ROW = 12;
 
 // A non-candidate pair prices out below this (relative to its cost): well under the
 // certificate's 1e-9 yet above the rounding of duals built from sums of costs.
@@ -211,6 +213,7 @@ interface SegmentResult {
   solves: number;
   warmRetries: number;
   rechecks: number;
+  rowsPriced: number;
   /** With `wantDetail`: the segment's graph and prices, rows in its demand order. */
   detail: HindsightMarketDetail | null;
 }
@@ -331,6 +334,7 @@ export function solvePackedMarket(
   let solves = 0;
   let warmRetries = 0;
   let rechecks = 0;
+  let rowsPriced = 0;
   // Each segment's graph is done with before the next is built, so they share `store`.
   for (let q = 0; q < count; q++) {
     const dIdx = ds.idx.subarray(ds.start[q]!, ds.start[q + 1]!);
@@ -348,12 +352,13 @@ export function solvePackedMarket(
     solves += r.solves;
     warmRetries += r.warmRetries;
     rechecks += r.rechecks;
+    rowsPriced += r.rowsPriced;
     if (wantDetail) parts.push({ dIdx, sIdx, r });
   }
   // Summed in occurrence order, so the total does not depend on how segments fell.
   for (let i = 0; i < m.nDemand; i++) out.cost += out.demandCost[i]!;
   out.abandoned = m.nDemand - out.matched;
-  if (wantDetail) out.detail = mergeDetail(m, parts, solves, warmRetries, rechecks);
+  if (wantDetail) out.detail = mergeDetail(m, parts, solves, warmRetries, rechecks, rowsPriced);
   out.ms = now() - t0;
   return out;
 }
@@ -364,6 +369,7 @@ function mergeDetail(
   solves: number,
   warmRetries: number,
   rechecks: number,
+  rowsPriced: number,
 ): HindsightMarketDetail {
   const rowDuals = new Float64Array(m.nDemand);
   const colDuals = new Float64Array(m.nSupply);
@@ -395,7 +401,7 @@ function mergeDetail(
     }
     for (let j = 0; j < sIdx.length; j++) colDuals[sIdx[j]!] = r.colDuals[j]!;
   }
-  return { graph: { nRows: m.nDemand, nCols: m.nSupply, rowPtr, colIdx, cost }, rowDuals, colDuals, rowToCol, solves, warmRetries, rechecks };
+  return { graph: { nRows: m.nDemand, nCols: m.nSupply, rowPtr, colIdx, cost }, rowDuals, colDuals, rowToCol, solves, warmRetries, rechecks, rowsPriced };
 }
 
 /** The exact optimum of one time segment (or of a market that has just one). */
@@ -478,11 +484,8 @@ function solveSegment(
   // as a CSR over graph rows (`inCand` marks them in the graph).
   const inCand = new Uint8Array(nnz);
   markCheapest(g, k, pCut, inCand);
-  let cand = new CandidateRows(nRows, 0);
+  const cand = new CandidateRows(nRows, nnz);
   {
-    let n = 0;
-    for (let e = 0; e < nnz; e++) n += inCand[e]!;
-    cand = new CandidateRows(nRows, n);
     let at = 0;
     for (let r = 0; r < nRows; r++) {
       const d = rowDemand[r]!;
@@ -523,10 +526,39 @@ function solveSegment(
   let newRow = new Int32Array(1024);
   let newEdge = new Int32Array(1024);
   let newCost = new Float64Array(1024);
+  // The restricted instances of every round, written over the same buffers (a
+  // component's pairs: at most every pair, plus one private column per row).
+  const instPtr = new Int32Array(nRows + 1);
+  const instCol = new Int32Array(nnz + nRows);
+  const instCost = new Float64Array(nnz + nRows);
   let warmRetries = 0;
   let solves = 0;
   let rechecks = 0;
   lap('setupMs');
+
+  // Incremental pricing. A row whose last pricing found it clean (no violator left
+  // out) needs no new pass while its price and the prices of all its columns stand
+  // still: its reduced costs are then the same numbers. Columns are in arrival order,
+  // so a row's columns lie in a short index range, and "did a column in the range
+  // move?" is one lookup in a prefix count of the columns that moved.
+  const colLo = new Int32Array(nRows);
+  const colHi = new Int32Array(nRows);
+  for (let r = 0; r < nRows; r++) {
+    let lo = nCols;
+    let hi = -1;
+    for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
+      const c = colIdx[e]!;
+      if (c < lo) lo = c;
+      if (c > hi) hi = c;
+    }
+    colLo[r] = lo;
+    colHi[r] = hi;
+  }
+  const rowClean = new Uint8Array(nRows);
+  const pricedU = new Float64Array(nRows);
+  const pricedV = new Float64Array(nCols);
+  const movedBefore = new Int32Array(nCols + 1);
+  let rowsPriced = 0;
 
   for (;;) {
     for (let q = 0; q < nComp; q++) {
@@ -539,11 +571,22 @@ function solveSegment(
     pricingRounds++;
     let violators = 0;
     let nNew = 0;
+    // Columns whose price moved since the previous pass (every one, the first time).
+    for (let c = 0; c < nCols; c++) {
+      const v = colDuals[c]!;
+      const moved = pricingRounds === 1 || v !== pricedV[c] ? 1 : 0;
+      movedBefore[c + 1] = movedBefore[c]! + moved;
+      pricedV[c] = v;
+    }
     for (let r = 0; r < nRows; r++) {
       const u = rowDuals[r]!;
+      if (rowClean[r] === 1 && u === pricedU[r] && (colHi[r]! < colLo[r]! || movedBefore[colHi[r]! + 1] === movedBefore[colLo[r]!])) continue;
+      pricedU[r] = u;
+      rowsPriced++;
       const au = Math.abs(u);
       const d = rowDemand[r]!;
       let nb = 0;
+      let rowViolators = 0;
       for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
         if (inCand[e] === 1) continue;
         const c32 = cost32[e]!;
@@ -562,6 +605,7 @@ function solveSegment(
           if (red >= -PRICE_TOL * (1 + Math.abs(c))) continue;
         }
         violators++;
+        rowViolators++;
         // Keep the addPerRow most negative: adding every violator at once floods
         // the restricted solve with pairs that the next prices no longer want.
         if (nb === addPerRow && red >= addRed[nb - 1]!) continue;
@@ -576,6 +620,8 @@ function solveSegment(
         addEdge[p] = e;
         addCost[p] = c;
       }
+      // Clean when every violator found is added now.
+      rowClean[r] = rowViolators > nb ? 0 : 1;
       if (nb > 0) {
         if (nNew + nb > newRow.length) {
           const grow = <T extends Int32Array | Float64Array>(a: T): T => {
@@ -601,7 +647,7 @@ function solveSegment(
         dirty[rowComp[r]!] = 1;
       }
     }
-    if (nNew > 0) cand = cand.merged(newRow, newEdge, newCost, nNew);
+    if (nNew > 0) cand.merge(newRow, newEdge, newCost, nNew);
     lap('pricingMs');
     if (violators === 0) break;
   }
@@ -632,7 +678,7 @@ function solveSegment(
       rd[rowDemand[r]!] = rowDuals[r]!;
       rc[rowDemand[r]!] = rowToCol[r]!;
     }
-    detail = { graph: expandGraph(g, exact), rowDuals: rd, colDuals, rowToCol: rc, solves, warmRetries, rechecks };
+    detail = { graph: expandGraph(g, exact), rowDuals: rd, colDuals, rowToCol: rc, solves, warmRetries, rechecks, rowsPriced };
   }
   lap('setupMs');
   // Hopcroft–Karp seeds itself greedily with each row's first free pair: with the
@@ -667,6 +713,7 @@ function solveSegment(
     solves,
     warmRetries,
     rechecks,
+    rowsPriced,
     detail,
   };
 
@@ -674,13 +721,13 @@ function solveSegment(
     const rows = compRows.subarray(compRowStart[q]!, compRowStart[q + 1]!);
     const nr = rows.length;
     const nc = compColCount[q + 1]!;
-    const ptr = new Int32Array(nr + 1);
+    const ptr = instPtr.subarray(0, nr + 1);
     for (let i = 0; i < nr; i++) {
       const r = rows[i]!;
       ptr[i + 1] = ptr[i]! + cand.ptr[r + 1]! - cand.ptr[r]! + 1;
     }
-    const cols = new Int32Array(ptr[nr]!);
-    const costs = new Float64Array(ptr[nr]!);
+    const cols = instCol.subarray(0, ptr[nr]!);
+    const costs = instCost.subarray(0, ptr[nr]!);
     const colGlobal = compCols.subarray(compColStart[q]!, compColStart[q + 1]!);
     let at = 0;
     for (let i = 0; i < nr; i++) {
@@ -747,38 +794,47 @@ function solveSegment(
   }
 }
 
-/** Candidate pairs per graph row: graph edge and exact cost, CSR. */
+/**
+ * Candidate pairs per graph row: graph edge and exact cost, CSR. Room for every pair
+ * of the graph is reserved up front; pages never written cost no memory, and the
+ * rounds' additions are merged in place, with no second copy.
+ */
 class CandidateRows {
   readonly ptr: Int32Array;
   readonly edge: Int32Array;
   readonly cost: Float64Array;
 
-  constructor(nRows: number, n: number) {
+  constructor(nRows: number, capacity: number) {
     this.ptr = new Int32Array(nRows + 1);
-    this.edge = new Int32Array(n);
-    this.cost = new Float64Array(n);
+    this.edge = new Int32Array(capacity);
+    this.cost = new Float64Array(capacity);
   }
 
-  /** These rows plus `n` more pairs (rows ascending), each row's new pairs after its old. */
-  merged(rows: Int32Array, edges: Int32Array, costs: Float64Array, n: number): CandidateRows {
-    const nRows = this.ptr.length - 1;
-    const out = new CandidateRows(nRows, this.edge.length + n);
-    let at = 0;
-    let q = 0;
-    for (let r = 0; r < nRows; r++) {
-      const a = this.ptr[r]!;
-      const b = this.ptr[r + 1]!;
-      out.edge.set(this.edge.subarray(a, b), at);
-      out.cost.set(this.cost.subarray(a, b), at);
-      at += b - a;
-      while (q < n && rows[q] === r) {
-        out.edge[at] = edges[q]!;
-        out.cost[at] = costs[q]!;
-        at++;
-        q++;
+  /** Adds `n` pairs (rows ascending), each row's new pairs after its old ones. */
+  merge(rows: Int32Array, edges: Int32Array, costs: Float64Array, n: number): void {
+    const { ptr, edge, cost } = this;
+    // From the last row down, each row's block moves right by the pairs added at or
+    // after it, so nothing is overwritten before it has moved.
+    let q = n - 1;
+    let shift = n;
+    let oldEnd = ptr[ptr.length - 1]!;
+    for (let r = ptr.length - 2; r >= 0 && shift > 0; r--) {
+      const a = ptr[r]!;
+      let m = 0;
+      while (q - m >= 0 && rows[q - m] === r) m++;
+      const to = a + shift - m;
+      if (to !== a) {
+        edge.copyWithin(to, a, oldEnd);
+        cost.copyWithin(to, a, oldEnd);
       }
-      out.ptr[r + 1] = at;
+      for (let t = 0; t < m; t++) {
+        edge[oldEnd + shift - m + t] = edges[q - m + 1 + t]!;
+        cost[oldEnd + shift - m + t] = costs[q - m + 1 + t]!;
+      }
+      ptr[r + 1] = oldEnd + shift;
+      q -= m;
+      shift -= m;
+      oldEnd = a;
     }
-    return out;
   }
 }
