@@ -4,7 +4,8 @@
  * generated city log (`pairflow gen --days N`, about 43k demand and 43k supply
  * occurrences per day over 4 markets) it measures
  *   - replay at W = 10 s (online alone, then with the hindsight optimum alongside),
- *   - the exact hindsight optimum (alone, as the sweep computes it once),
+ *   - the exact hindsight optimum (alone, as the sweep computes it once, with where
+ *     its time went: graph, candidate solve, pricing passes, re-solves, ceiling),
  *   - a six-window sweep, and warm versus cold epoch solves,
  *   - peak RSS of each child (/usr/bin/time -v, else the child's own maxRSS),
  * for 1, 2, 4 and 7 days, and writes the table between the bench:replay markers of
@@ -12,7 +13,7 @@
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
-import { cpus, totalmem } from 'node:os';
+import { cpus, loadavg, totalmem } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -65,11 +66,13 @@ export interface SizeRow {
   hindsightAlone: boolean;
 }
 
+type Phases = { graphMs: number; setupMs: number; firstSolveMs: number; pricingMs: number; resolveMs: number; ceilingMs: number };
+
 type Solves = { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
 type DueSolves = { warm: Solves; cold: Solves };
 
 export interface ReplayBenchResult {
-  machine: { cpu: string; cores: number; memGb: number; node: string; date: string };
+  machine: { cpu: string; cores: number; memGb: number; node: string; date: string; loadStart: number; loadEnd: number };
   quick: boolean;
   sizes: SizeRow[];
   largest: {
@@ -78,7 +81,7 @@ export interface ReplayBenchResult {
     coldOnlineMs: number;
     /** commit "due": epoch solves of the warm run (split by whether the solver used the warm start) and of the cold run. */
     due: { days: number; warm: DueSolves; cold: DueSolves; warmOnlineMs: number; coldOnlineMs: number; warmCost: number; coldCost: number };
-    sweep: { windows: string; wallMs: number; rssMb: number | null; hindsightMs: number | null; windowsMs: number; threads: number; best: number };
+    sweep: { windows: string; wallMs: number; rssMb: number | null; hindsightMs: number | null; hindsightPhases: Phases | null; windowsMs: number; threads: number; best: number };
   };
   markdown: string;
 }
@@ -138,16 +141,16 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   const scale = quick ? 0.01 : 1;
   const daysList = opts.days ?? (quick ? [1] : [1, 2, 4, 7]);
   const sizes: SizeRow[] = [];
-  const largestDays = daysList[daysList.length - 1]!;
+  const loadStart = loadavg()[0]!;
   for (const days of daysList) {
     log(`bench:replay: ${days} day(s): generating`);
     const file = ensureLog(outDir, days, scale);
     log(`bench:replay: ${days} day(s): online replay at W = 10 s`);
     const online = runChild(['replay', file, '--window', '10s', '--json', '--no-hindsight']);
-    // At the largest size the sweep below computes the hindsight once, alone: not twice.
     log(`bench:replay:   online ${JSON.stringify(get(online.json, 'timings'))} wall ${online.wallMs.toFixed(0)} ms rss ${online.peakRssMb} MB`);
-    if (days !== largestDays) log(`bench:replay: ${days} day(s): replay with the hindsight optimum`);
-    const full = days === largestDays ? null : runChild(['replay', file, '--window', '10s', '--json']);
+    // Every size, the largest too: its peak memory (replay and hindsight side by side) is a target.
+    log(`bench:replay: ${days} day(s): replay with the hindsight optimum`);
+    const full = runChild(['replay', file, '--window', '10s', '--json']);
     if (full) log(`bench:replay:   full ${JSON.stringify({ h: full.json.hindsight, o: full.json.online, t: full.json.timings })} wall ${full.wallMs.toFixed(0)} ms rss ${full.peakRssMb} MB`);
     sizes.push({
       days,
@@ -190,6 +193,7 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   log(`bench:replay: ${last.days} day(s): sweep ${windows} (the hindsight optimum once, then the windows)`);
   const sweep = runChild(['sweep', file, '--windows', windows, '--json', '--bootstrap', quick ? '100' : '1000']);
   log(`bench:replay:   sweep ${JSON.stringify({ h: sweep.json.hindsight, t: sweep.json.timings, best: sweep.json.best })} wall ${sweep.wallMs.toFixed(0)} ms rss ${sweep.peakRssMb} MB`);
+  const largestReplay = { hindsightMs: last.hindsightMs, wallMs: last.replayWallMs };
   Object.assign(last, {
     hindsightMs: num(sweep.json, 'timings.hindsightMs'),
     pairsPriced: num(sweep.json, 'hindsight.pairsPriced'),
@@ -205,6 +209,8 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
     memGb: Math.round(totalmem() / 2 ** 30),
     node: process.version,
     date: new Date().toISOString().slice(0, 16).replace('T', ' ') + ' UTC',
+    loadStart,
+    loadEnd: loadavg()[0]!,
   };
   const largest: ReplayBenchResult['largest'] = {
     days: last.days,
@@ -224,6 +230,7 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
       wallMs: sweep.wallMs,
       rssMb: sweep.peakRssMb,
       hindsightMs: get(sweep.json, 'timings.hindsightMs') as number | null,
+      hindsightPhases: (get(sweep.json, 'timings.hindsightPhases') as Phases | undefined) ?? null,
       windowsMs: num(sweep.json, 'timings.windowsMs'),
       threads: num(sweep.json, 'timings.threads'),
       best: num(sweep.json, 'best.windowMs'),
@@ -236,7 +243,8 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   md.push('');
   md.push(`Generated by \`bench/replay.ts\` on ${machine.date}: ${machine.cpu}, ${machine.cores} cores, ${machine.memGb} GB, Node ${machine.node}. ` +
     'Each figure is one run of the built CLI in a child process (`pairflow gen --days N --seed 1`, 4 markets, default config, W = 10 s); ' +
-    'peak memory is the child\'s maximum RSS. The machine is shared with other work, so figures carry noise of that kind.');
+    'peak memory is the child\'s maximum RSS. The machine is shared with other work, so figures carry noise of that kind ' +
+    `(1-minute load average ${machine.loadStart.toFixed(1)} at the start, ${machine.loadEnd.toFixed(1)} at the end).`);
   md.push('');
   md.push('| days | demand | supply | log MB (gz) | online replay s | online peak MB | hindsight s | replay + hindsight wall s | peak MB | pairs priced | pairs solved | pricing rounds | online cost | hindsight cost | ratio |');
   md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
@@ -246,8 +254,8 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   md.push('');
   md.push('"online replay s" is the engine loop alone (`timings.onlineMs`, log parsing excluded; the whole `--no-hindsight` process took ' +
     sizes.map((r) => `${s1(r.onlineWallMs)} s`).join(', ') + ' wall); "hindsight s" is the exact optimum\'s wall time while the online replay runs alongside on the same two cores, ' +
-    'except * = alone, as the sweep computes it once before the windows (the largest size is not replayed with hindsight a second time); ' +
-    '"replay + hindsight wall s" is the whole `pairflow replay` process, parsing included.');
+    `except * = alone, as the sweep computes it once before the windows (the replay with hindsight alongside took ${s1(largestReplay.hindsightMs)} s for it at that size); ` +
+    '"replay + hindsight wall s" and its "peak MB" are the whole `pairflow replay` process, parsing included.');
   md.push('');
   const both = (x: DueSolves): Solves => {
     const count = x.warm.count + x.cold.count;
@@ -272,6 +280,14 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   md.push(`Sweep, ${last.days} day(s), windows ${sw.windows}, ${sw.threads} worker threads, bootstrap ${quick ? 100 : 1000} resamples: ${s1(sw.wallMs)} s wall ` +
     `(hindsight alone ${s1(sw.hindsightMs)} s, windows ${s1(sw.windowsMs)} s), peak ${f1(sw.rssMb)} MB; best window ${sw.best / 1000} s.`);
   md.push('');
+  const ph = sw.hindsightPhases;
+  if (ph !== null) {
+    md.push(`Where the hindsight's time went (${last.days} day(s), thread time summed over markets, ${sw.threads} threads): ` +
+      `allowed graph ${s1(ph.graphMs)} s, components and candidates ${s1(ph.setupMs)} s, first restricted solves ${s1(ph.firstSolveMs)} s, ` +
+      `pricing passes ${s1(ph.pricingMs)} s, warm re-solves ${s1(ph.resolveMs)} s, match ceiling ${s1(ph.ceilingMs)} s; ` +
+      `${int(last.pricingRounds)} pricing rounds, ${int(last.pairsSolved)} of ${int(last.pairsPriced)} allowed pairs in the final restricted solves.`);
+    md.push('');
+  }
   if (!quick) {
     const t = sizes.find((r) => r.days === 7) ?? last;
     const ok = (v: number | null, limit: number): string => (v === null ? 'not measured' : v <= limit ? 'met' : 'MISSED');

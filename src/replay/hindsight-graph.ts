@@ -127,6 +127,21 @@ export function packMarket(units: readonly HindsightUnit[], config: PairflowConf
   return p;
 }
 
+const DEG = Math.PI / 180;
+
+/**
+ * haversineKm of window/geo.ts with each point's cos(latitude) passed in: the same
+ * operations in the same order, so the same result bit for bit (the graph tests
+ * compare against haversineKm exactly).
+ */
+function haversineCosKm(lat1: number, lon1: number, cos1: number, lat2: number, lon2: number, cos2: number): number {
+  const sLat = Math.sin(((lat2 - lat1) * DEG) / 2);
+  const sLon = Math.sin(((lon2 - lon1) * DEG) / 2);
+  const h = sLat * sLat + cos1 * cos2 * sLon * sLon;
+  const hc = Math.min(1, h);
+  return 2 * EARTH_RADIUS_KM * Math.atan2(Math.sqrt(hc), Math.sqrt(1 - hc));
+}
+
 /** The largest distance in km of an allowed pair: `maxTravelMin` at `speedKmh`. */
 export function maxDistanceKm(config: PairflowConfig): number {
   return (config.maxTravelMin * config.speedKmh) / 60;
@@ -328,6 +343,14 @@ export function buildCompactGraph(m: PackedMarket, config: PairflowConfig, store
   const demandGrid = new Map<number, number[]>();
   const supplyGrid = new Map<number, number[]>();
   const neighbours: number[] = [];
+  // cos(latitude) of every unit, computed once rather than twice per pair.
+  const cosOf = (lat: Float64Array): Float64Array => {
+    const out = new Float64Array(euclid ? 0 : lat.length);
+    for (let i = 0; i < out.length; i++) out[i] = Math.cos(lat[i]! * DEG);
+    return out;
+  };
+  const demandCos = cosOf(m.demandA);
+  const supplyCos = cosOf(m.supplyA);
 
   const rowDemand = new Int32Array(nDemand);
   const demandRow = new Int32Array(nDemand);
@@ -453,7 +476,7 @@ export function buildCompactGraph(m: PackedMarket, config: PairflowConfig, store
         // The operations of pairCostOf, in the same order (costs must agree bit for bit).
         const dist = euclid
           ? euclideanKm(m.supplyA[ss]!, m.supplyB[ss]!, m.demandA[dd]!, m.demandB[dd]!)
-          : haversineKm(m.supplyA[ss]!, m.supplyB[ss]!, m.demandA[dd]!, m.demandB[dd]!);
+          : haversineCosKm(m.supplyA[ss]!, m.supplyB[ss]!, supplyCos[ss]!, m.demandA[dd]!, m.demandB[dd]!, demandCos[dd]!);
         const travel = travelMin(dist, speed);
         if (!(travel <= maxTravel)) continue;
         const wait = m.supplyT[ss]! - m.demandT[dd]!;

@@ -17,7 +17,7 @@ import { buildManifest, csvRow } from '../emit/index.js';
 import { pairflowError, PairflowError, type ErrorCode, type ErrorParams } from '../errors.js';
 import type { PairflowConfig, Reject, SourcedEvent } from '../model.js';
 import { bootstrapWindows, bucketPlan, bucketSums, type BucketPlan } from './bootstrap.js';
-import { solveHindsight, type HindsightResult } from './hindsight.js';
+import { solveHindsight, type HindsightPhases, type HindsightResult } from './hindsight.js';
 import { hindsightStats, replayEvents, type LoadedLog, type OnlineRun } from './run.js';
 import { regretAndRatio, type EpochSolveTimes, type HindsightStats, type OnlineStats } from './summary.js';
 import { packLog } from './sweep-log.js';
@@ -82,7 +82,15 @@ export interface SweepResult {
   best: { windowMs: number; cost: number; regret: number; bestShare: number | null };
   bootstrap: { resamples: number; seed: number; level: number; unit: 'day' | 'hour'; buckets: number } | null;
   inputs: string[];
-  timings: { loadMs: number; hindsightMs: number | null; windowsMs: number; totalMs: number; threads: number };
+  timings: {
+    loadMs: number;
+    hindsightMs: number | null;
+    /** Where the hindsight's time went, summed over markets (thread time); null when reused. */
+    hindsightPhases: HindsightPhases | null;
+    windowsMs: number;
+    totalMs: number;
+    threads: number;
+  };
 }
 
 const defaultNow = (): number => performance.now();
@@ -314,6 +322,6 @@ export async function sweepLoaded(
     best: { windowMs: bw.windowMs, cost: bw.online.cost, regret: bw.regret, bestShare: bw.bestShare },
     bootstrap: boot ? { resamples: boot.resamples, seed: boot.seed, level: boot.level, unit: plan.unit, buckets: plan.count } : null,
     inputs: loaded.inputs.map((i) => basename(i.file)),
-    timings: { loadMs: at.loadMs, hindsightMs, windowsMs, totalMs: now() - start, threads: poolSize },
+    timings: { loadMs: at.loadMs, hindsightMs, hindsightPhases: opts.hindsight ? null : { ...hindsight.phases }, windowsMs, totalMs: now() - start, threads: poolSize },
   };
 }

@@ -32,6 +32,8 @@ describe('runSweep()', () => {
   it('gives each window the figures of a separate runReplay, sharing one hindsight optimum', async () => {
     const r = await runSweep([week], config, { windows, threads: 1, bootstrap: 200, seed: 4 });
     expect(r.windows.map((w) => w.windowMs)).toEqual(windows);
+    // Computed here, so where its time went is reported.
+    expect(Object.keys(r.timings.hindsightPhases!).sort()).toEqual(['ceilingMs', 'firstSolveMs', 'graphMs', 'pricingMs', 'resolveMs', 'setupMs']);
     for (const w of r.windows) {
       const single = await runReplay([week], { ...config, windowMs: w.windowMs }, { threads: 0 });
       expect(w.online, `W ${w.windowMs}`).toEqual(single.online);
@@ -74,6 +76,7 @@ describe('runSweep()', () => {
     expect(r.bootstrap).toBeNull();
     expect(r.windows[0]!.interval).toBeNull();
     expect(r.timings.hindsightMs).toBeNull();
+    expect(r.timings.hindsightPhases).toBeNull();
     expect(r.hindsight.cost).toBe(h.cost);
   });
 
