@@ -325,6 +325,12 @@ async function main(): Promise<void> {
     // The warm/cold sequences run in this process: warm the JIT on a throwaway instance
     // (the children do the same for their own cases).
     solveSparse(sparseWithPermutation(1, 5000, 10, 'float'));
+    // ... and the warm-start code paths, on a small throwaway sequence
+    {
+      const seq = windowSequence({ seed: 1, units: 2000, steps: 4, fraction: 0.3, policy: 'due' }, (inst) => solveSparse(inst));
+      let prev = solveSparse(seq[0]!.instance);
+      for (const st of seq.slice(1)) prev = solveSparse(st.instance, { warm: warmFromPrevious(st, prev) });
+    }
 
     // A peer that hit the cap is not run on larger matrices (marked "skipped").
     const cappedAt: Partial<Record<PeerName, number>> = {};
