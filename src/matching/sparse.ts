@@ -3,6 +3,7 @@ import type { SolveOptions, SolveResult, SparseInstance } from './types.js';
 import { validateSparse, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
 import { applyWarmStart, releaseFreeColumns } from './warm.js';
+import { heapPopRoot, heapUp } from './heap.js';
 
 /*
  * Shortest augmenting paths with dual prices (the Jonker–Volgenant family) on a CSR
@@ -390,48 +391,13 @@ class SparseSearch {
           continue;
         }
         p = dj === Infinity ? hsize++ : hpos[j]!;
-        while (p > 0) {
-          const parent = (p - 1) >> 1;
-          const pk = hkey[parent]!;
-          if (pk <= x) break;
-          const pj = hcol[parent]!;
-          hkey[p] = pk;
-          hcol[p] = pj;
-          hpos[pj] = p;
-          p = parent;
-        }
-        hkey[p] = x;
-        hcol[p] = j;
-        hpos[j] = p;
+        heapUp(hkey, hcol, hpos, p, x, j);
       }
       scanned += end - start;
       if (hsize === 0 || hkey[0]! >= bound) break;
       j = hcol[0]!;
       const dmin = hkey[0]!;
-      hsize--;
-      if (hsize > 0) {
-        const lk = hkey[hsize]!;
-        const lj = hcol[hsize]!;
-        p = 0;
-        for (;;) {
-          let c = 2 * p + 1;
-          if (c >= hsize) break;
-          let ck = hkey[c]!;
-          if (c + 1 < hsize && hkey[c + 1]! < ck) {
-            c++;
-            ck = hkey[c]!;
-          }
-          if (ck >= lk) break;
-          const cj = hcol[c]!;
-          hkey[p] = ck;
-          hcol[p] = cj;
-          hpos[cj] = p;
-          p = c;
-        }
-        hkey[p] = lk;
-        hcol[p] = lj;
-        hpos[lj] = p;
-      }
+      heapPopRoot(hkey, hcol, hpos, hsize--);
       pd[2 * j + 1] = -Infinity;
       settledDist[nSettled] = dmin;
       settled[nSettled++] = j;

@@ -1,3 +1,4 @@
+import { heapPopRoot, heapUp } from './heap.js';
 import type { SparseInstance, WarmStart } from './types.js';
 
 /*
@@ -256,49 +257,14 @@ class ReverseSearch {
         }
         dist[i] = x;
         predCol[i] = c;
-        while (p > 0) {
-          const parent = (p - 1) >> 1;
-          const pk = hkey[parent]!;
-          if (pk <= x) break;
-          const pi = hrow[parent]!;
-          hkey[p] = pk;
-          hrow[p] = pi;
-          hpos[pi] = p;
-          p = parent;
-        }
-        hkey[p] = x;
-        hrow[p] = i;
-        hpos[i] = p;
+        heapUp(hkey, hrow, hpos, p, x, i);
       }
       scanned += stop - colPtr[c]!;
       if (hsize === 0 || hkey[0]! >= best) break;
       // pop the nearest row
       const i = hrow[0]!;
       const d = hkey[0]!;
-      hsize--;
-      if (hsize > 0) {
-        const lk = hkey[hsize]!;
-        const li = hrow[hsize]!;
-        p = 0;
-        for (;;) {
-          let ch = 2 * p + 1;
-          if (ch >= hsize) break;
-          let ck = hkey[ch]!;
-          if (ch + 1 < hsize && hkey[ch + 1]! < ck) {
-            ch++;
-            ck = hkey[ch]!;
-          }
-          if (ck >= lk) break;
-          const cr = hrow[ch]!;
-          hkey[p] = ck;
-          hrow[p] = cr;
-          hpos[cr] = p;
-          p = ch;
-        }
-        hkey[p] = lk;
-        hrow[p] = li;
-        hpos[li] = p;
-      }
+      heapPopRoot(hkey, hrow, hpos, hsize--);
       dist[i] = -Infinity;
       c = rowToCol[i]!;
       if (c === NONE) {

@@ -100,7 +100,7 @@ describe('warm start on window sequences', () => {
 
   it('a warm start from the previous optimum, with every row shifted by its own wait term, needs no search', () => {
     // Shifting all of a row's costs by a constant keeps every previous pair optimal
-    // (common practice: row reduction), so the repaired warm start is already optimal.
+    // (common practice: row reduction), so the warm start is already optimal.
     for (let seed = 1; seed <= 20; seed++) {
       const rand = mulberry32(31_000 + seed);
       const n = randInt(rand, 20, 60);
@@ -139,7 +139,7 @@ describe('solveSparse() warm-started from its own optimum', () => {
     // An optimal solve's pairs and prices are already a certificate (SPEC §5), so a
     // warm start from them has nothing left to do. Real-valued costs that are sums
     // (travel + wait, as in the hindsight optimum) leave ulp-sized gaps between tied
-    // reduced costs; those must count as ties, not trigger a repair.
+    // reduced costs; those must count as ties, not count as violations.
     for (let seed = 1; seed <= 20; seed++) {
       const rand = mulberry32(4_200 + seed);
       const nRows = randInt(rand, 200, 400);
@@ -185,7 +185,7 @@ describe('solveSparse() warm-started from its own optimum on a hindsight instanc
   it('keeps every pair: ulp-sized gaps between tied reduced costs count as ties', async () => {
     // The restricted hindsight problems of the demo city have many degenerate duals
     // (rows whose second-best option is tight); rounding leaves some of those a few
-    // ulps apart. Repairing such a "violation" once cascaded and dropped half the pairs.
+    // ulps apart. Treating such a gap as a violation once cascaded and dropped half the pairs.
     const { generateEvents } = await import('../../../src/replay/gen.js');
     const { packMarket } = await import('../../../src/replay/hindsight-graph.js');
     const { solvePackedMarket } = await import('../../../src/replay/hindsight-solve.js');
