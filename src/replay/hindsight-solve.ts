@@ -416,6 +416,10 @@ function solveSegment(
 ): SegmentResult {
   const k = Math.max(1, Math.floor(opts.candidatesPerDemand ?? DEFAULT_CANDIDATES_PER_DEMAND));
   const P = config.abandonPenalty;
+  // Costs ≥ 0 (the config check asks waitWeight ≥ 0) let a sign mark the candidates.
+  if (!(config.waitWeight >= 0)) {
+    throw pairflowError('PAIRFLOW_ERR_CONFIG_INVALID', { file: 'config', detail: `waitWeight must be ≥ 0 for the hindsight optimum, got ${config.waitWeight}` });
+  }
   const phases: HindsightPhases = { graphMs: 0, setupMs: 0, firstSolveMs: 0, pricingMs: 0, resolveMs: 0, ceilingMs: 0 };
   let tPhase = now();
   const lap = (key: keyof HindsightPhases): void => {
@@ -481,11 +485,13 @@ function solveSegment(
   for (let c = 0; c < nCols; c++) if (colComp[c]! >= 0) compCols[compColStart[colComp[c]!]! + colLocal[c]!] = c;
 
   // The candidate pairs, the only ones the restricted solves see, with exact costs,
-  // as a CSR over graph rows (`inCand` marks them in the graph).
-  const inCand = new Uint8Array(nnz);
-  markCheapest(g, k, pCut, inCand);
+  // as a CSR over graph rows. In the graph a candidate is marked by the sign of its
+  // float32 cost (costs are ≥ 0, and a candidate's is not read again): a byte per
+  // pair saved, and one array fewer for the pricing passes to stream through.
   const cand = new CandidateRows(nRows, nnz);
   {
+    const inCand = new Uint8Array(nnz);
+    markCheapest(g, k, pCut, inCand);
     let at = 0;
     for (let r = 0; r < nRows; r++) {
       const d = rowDemand[r]!;
@@ -499,6 +505,7 @@ function solveSegment(
         cand.edge[at] = e;
         cand.cost[at] = c;
         at++;
+        markCandidate(cost32, e);
       }
       cand.ptr[r + 1] = at;
     }
@@ -588,8 +595,8 @@ function solveSegment(
       let nb = 0;
       let rowViolators = 0;
       for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-        if (inCand[e] === 1) continue;
         const c32 = cost32[e]!;
+        if (c32 < 0) continue;
         const v = colDuals[colIdx[e]!]!;
         // Far from zero the float32 cost decides either way; near zero the exact cost
         // does. The reduced cost kept for ranking may be the float32 one: any choice
@@ -638,7 +645,7 @@ function solveSegment(
           const c = Number.isNaN(addCost[q]!) ? exact(d, colIdx[e]!) : addCost[q]!;
           // A violator has c < u + v ≤ P; anything else is a bug in the prices.
           if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
-          inCand[e] = 1;
+          markCandidate(cost32, e);
           newRow[nNew] = r;
           newEdge[nNew] = e;
           newCost[nNew] = c;
@@ -792,6 +799,15 @@ function solveSegment(
     }
     for (let j = 0; j < nc; j++) colDuals[colGlobal[j]!] = res.colDuals[j]!;
   }
+}
+
+// The least float32 above 0: a candidate of cost 0 is marked by its negative.
+const F32_TINY = 2 ** -149;
+
+/** Marks pair `e` a candidate: its float32 cost (≥ 0) turns negative. */
+function markCandidate(cost32: Float32Array, e: number): void {
+  const c = cost32[e]!;
+  cost32[e] = c > 0 ? -c : -F32_TINY;
 }
 
 /**

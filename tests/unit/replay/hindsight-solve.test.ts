@@ -76,4 +76,9 @@ describe('solvePackedMarket()', () => {
     expect(underP).toBeLessThan(graph.cost.length);
     expect(realPairs).toBe(underP);
   });
+
+  it('refuses a negative waitWeight with PAIRFLOW_ERR_CONFIG_INVALID (costs must be ≥ 0)', () => {
+    const bad: PairflowConfig = { ...config, waitWeight: -1 };
+    expect(() => solvePackedMarket('a', packMarket(market(6), bad), bad, solveSparse)).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_CONFIG_INVALID' }));
+  });
 });
