@@ -49,14 +49,14 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
 }
 
 /**
- * The candidates strategy pays off on large matrices that are about square. When
- * columns outnumber rows by half or more, most rows get a column of their own in the
- * first reduction pass, so the full search ends after about one read of the matrix,
- * which candidates (one read to pick them, then pricing) cannot beat (measured, see
- * docs/benchmarks.md).
+ * The candidates strategy pays off on large matrices that are square or nearly so.
+ * Once columns outnumber rows by a tenth or more, the first reduction pass gives
+ * most rows a column of their own and the full search ends after little more than
+ * one read of the matrix (measured: 1000 × 1050 about even, 1000 × 1100 and wider
+ * the full search 2–3× faster; 1000 × 1000 the candidates 3× faster).
  */
 function preferCandidates(nRows: number, nCols: number, k: number): boolean {
-  return nRows * nCols >= CANDIDATE_MIN_CELLS && 4 * k <= nCols && 2 * nCols < 3 * nRows;
+  return nRows * nCols >= CANDIDATE_MIN_CELLS && 4 * k <= nCols && 100 * nCols < 108 * nRows;
 }
 
 /** The error for an infeasible row, raised only once the cells are known to be valid. */
@@ -540,15 +540,16 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   let slotCost = new Float64Array(nRows * cap);
   const count = new Int32Array(nRows);
   const floor = new Float64Array(nRows);
-  const bufKey = new Float64Array(2 * k);
-  const bufCol = new Int32Array(2 * k);
+  const bufKey = new Float64Array(4 * k);
+  const bufCol = new Int32Array(4 * k);
   const maxAbs = new Float64Array(1);
+  const guess = Float64Array.of(Infinity);
   let scanned = nRows * nCols;
   const wPair = opts.warm?.rowToCol;
   for (let r = 0; r < nRows; r++) {
     const base = r * nCols;
     const at = r * cap;
-    let n = pickRow(cost, base, nCols, k, bufKey, bufCol, r, at, slots, slotCost, floor, maxAbs);
+    let n = pickRow(cost, base, nCols, k, bufKey, bufCol, guess, r, at, slots, slotCost, floor, maxAbs);
     if (n < 0) checkDenseCells(inst);
     if (wPair !== undefined) n = addWarmPair(cost, base, nCols, wPair[r]!, at, n, slots, slotCost);
     count[r] = n;
@@ -640,6 +641,7 @@ function pickRow(
   k: number,
   key: Float64Array,
   col: Int32Array,
+  guess: Float64Array,
   r: number,
   at: number,
   slots: Int32Array,
@@ -647,7 +649,7 @@ function pickRow(
   floor: Float64Array,
   maxAbs: Float64Array,
 ): number {
-  const n = cheapestK(cost, base, nCols, k, key, col);
+  const n = cheapestK(cost, base, nCols, k, key, col, guess);
   let top = -Infinity;
   let big = maxAbs[0]!;
   for (let t = 0; t < n; t++) {
@@ -712,28 +714,47 @@ function certified(res: SolveResult, augmentations: number, scanned: number, opt
 
 /**
  * Moves the k cheapest allowed pairs of one row (as a set, ties broken by position)
- * into key/col[0 .. returned count). Pairs are gathered below a threshold into a
- * buffer of 2k; when it fills, a selection keeps the k cheapest and lowers the
- * threshold to the dearest kept, so a row costs one read and O(k) per refill.
+ * into key/col[0 .. returned count); `key` holds 4k. Pairs below a threshold are
+ * gathered; when the buffer fills, a selection keeps the 2k cheapest and lowers the
+ * threshold to the dearest kept. The threshold starts at `guess[0]`, the previous
+ * row's 2k-th cheapest cost (rows of one matrix tend to look alike), so a row costs
+ * one read and about 2k gathered pairs; when fewer than k pairs fall below it the
+ * row is read again from +Infinity. Any guess gives the same set; a good one is
+ * only faster. The row's 2k-th cheapest becomes the next guess.
  */
-function cheapestK(cost: Float64Array, base: number, nCols: number, k: number, key: Float64Array, col: Int32Array): number {
+function cheapestK(cost: Float64Array, base: number, nCols: number, k: number, key: Float64Array, col: Int32Array, guess: Float64Array): number {
+  let n = gatherBelow(cost, base, nCols, 2 * k, key, col, guess[0]!);
+  if (n < k && guess[0]! < Infinity) n = gatherBelow(cost, base, nCols, 2 * k, key, col, Infinity);
+  if (n >= 2 * k) {
+    guess[0] = keepCheapest(key, col, n, 2 * k);
+    n = 2 * k;
+  }
+  if (n > k) {
+    keepCheapest(key, col, n, k);
+    n = k;
+  }
+  return n;
+}
+
+/**
+ * Gathers the row's pairs with cost below `threshold` into key/col; whenever the
+ * buffer fills, keeps the `keep` cheapest and lowers the threshold to the dearest of
+ * them, so the `keep` cheapest pairs below the starting threshold are always among
+ * those gathered. Returns how many were gathered.
+ */
+function gatherBelow(cost: Float64Array, base: number, nCols: number, keep: number, key: Float64Array, col: Int32Array, threshold: number): number {
   const size = key.length;
   let n = 0;
-  let threshold = Infinity;
   for (let j = 0; j < nCols; j++) {
     const c = cost[base + j]!;
     if (c < threshold) {
       key[n] = c;
       col[n++] = j;
       if (n === size) {
-        threshold = keepCheapest(key, col, n, k);
-        n = k;
+        threshold = keepCheapest(key, col, n, keep);
+        n = keep;
       }
     }
-  }
-  if (n > k) {
-    keepCheapest(key, col, n, k);
-    n = k;
   }
   return n;
 }
