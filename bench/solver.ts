@@ -151,7 +151,7 @@ const repeatBudgetMs = (args: Args) => (args.quick ? 10_000 : 60_000);
  * size, and a stream processor solves thousands in one process; the sparse cases
  * compare pairflow with scipy alone and are timed from the first solve.
  */
-const denseWarmUp = (args: Args): WarmUp => (args.quick ? { solves: 2, ms: 200 } : { solves: 5, ms: 2000 });
+const denseWarmUp = (args: Args): WarmUp => (args.quick ? { solves: 2, ms: 200 } : { solves: 10, ms: 3000 });
 
 const relClose = (a: number, b: number) => Math.abs(a - b) <= 1e-9 * Math.max(1, Math.abs(a), Math.abs(b));
 
