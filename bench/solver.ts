@@ -12,7 +12,7 @@
  */
 
 import { mkdtempSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { checkCertificate, solveSparse } from '../src/matching/index.js';
@@ -224,6 +224,8 @@ interface Results {
   readonly capMs: number;
   readonly pairflowCapMs: number;
   readonly warmUp: WarmUp;
+  /** 1-minute load average once every case has run (machine.loadAtStart is the other end). */
+  loadAtEnd: number;
   readonly dense: DenseRow[];
   readonly sparse: SparseRow[];
   readonly warm: WarmRow[];
@@ -306,6 +308,7 @@ async function main(): Promise<void> {
       capMs: args.capMs,
       pairflowCapMs: args.pairflowCapMs,
       warmUp: denseWarmUp(args),
+      loadAtEnd: NaN,
       dense: [],
       sparse: [],
       warm: [],
@@ -417,6 +420,7 @@ async function main(): Promise<void> {
       }
     }
 
+    results.loadAtEnd = loadavg()[0] ?? NaN;
     const table = render(results, args.note);
     if (args.json) process.stdout.write(`${JSON.stringify(results)}\n`);
     else process.stdout.write(table);
@@ -477,7 +481,7 @@ function render(res: Results, note: string | null): string {
   lines.push('## Solver (`npm run bench:solver`)', '');
   lines.push(
     `Run ${res.date.slice(0, 16).replace('T', ' ')} UTC, ${res.mode} mode, on ${m.cpu} (${m.cores} cores, ${m.memoryGb} GB), ` +
-      `Node ${m.node}, Python ${m.python ?? '—'}, scipy ${m.scipy ?? '—'}, numpy ${m.numpy ?? '—'}; 1-minute load at start ${m.loadAtStart.toFixed(2)}.`,
+      `Node ${m.node}, Python ${m.python ?? '—'}, scipy ${m.scipy ?? '—'}, numpy ${m.numpy ?? '—'}; 1-minute load at start ${m.loadAtStart.toFixed(2)}, at end ${res.loadAtEnd.toFixed(2)}.`,
   );
   lines.push('');
   lines.push(

@@ -12,7 +12,7 @@ import type { SparseInstance, WarmStart } from './types.js';
  * is < +Infinity (NaN compares false everywhere, so it is skipped the same way).
  *
  * Layout for the JIT: every loop over a row lives in a small kernel (foldColumnMins,
- * cheapestExcept, twoCheapest, relaxRow, cheapestK, countPricedOut) called once per
+ * cheapestExcept, twoCheapest, relaxRow, gatherBelow, countPricedOut) called once per
  * row, so the engine optimises each kernel within the first solve and keeps it. One
  * large function holding every phase's loops was compiled loop by loop and thrown
  * away again as each later phase ran for the first time, which made the first few
