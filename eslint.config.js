@@ -2,7 +2,7 @@ import js from '@eslint/js';
 import tseslint from 'typescript-eslint';
 
 export default tseslint.config(
-  { ignores: ['dist/**', 'node_modules/**', 'coverage/**', '.cache/**', 'replay-logs/**'] },
+  { ignores: ['dist/**', 'node_modules/**', 'coverage/**', '.cache/**', 'replay-logs/**', 'bench/out/**'] },
   js.configs.recommended,
   ...tseslint.configs.recommended,
   {

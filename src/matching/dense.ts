@@ -1,7 +1,7 @@
 import type { DenseInstance, SolveOptions, SolveResult } from './types.js';
 import { checkDenseCells, validateDenseShape, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
-import { infeasibleRow, mustMatchAll, shiftToNonPositive, solveSparseCore, unreachableColumn } from './sparse.js';
+import { infeasibleRow, mustMatchAll, shiftToNonPositive, solveSparseChecked, solveSparseCore, unreachableColumn } from './sparse.js';
 import { PairflowError } from '../errors.js';
 import type { SparseInstance, WarmStart } from './types.js';
 
@@ -20,9 +20,10 @@ import type { SparseInstance, WarmStart } from './types.js';
  *
  * The cells are read once before any result: every path's first pass (column
  * reduction, the first reduction pass over all rows, or the candidates scan) looks
- * at each cell, notices a -Infinity there and lets checkDenseCells name it; the warm
- * repair is the exception and checks the cells up front. An infeasibility error is
- * raised only after checking the cells, so a bad cell is always reported as such.
+ * at each cell, notices a -Infinity there and lets checkDenseCells name it; a warm
+ * start runs on the CSR of the allowed cells, whose building pass checks them. An
+ * infeasibility error is raised only after checking the cells, so a bad cell is
+ * always reported as such.
  */
 
 const PRIVATE = -2;
@@ -66,7 +67,9 @@ function infeasible(inst: DenseInstance, r: number): Error {
 }
 
 function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => number, t0: number): SolveResult {
-  const warm = opts.warm;
+  // A warm start runs on the allowed cells as CSR: the warm start of warm.ts needs rows
+  // by column, which the sparse core builds, and a warm re-solve searches little.
+  if (opts.warm?.rowToCol !== undefined) return solveSparseChecked(denseToCsr(inst), opts, now, t0);
 
   const { nRows, nCols, cost } = inst;
   const delta = inst.unmatchedCost ?? null;
@@ -77,97 +80,12 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
   const colToRow = new Int32Array(nCols).fill(NONE);
   let scannedPairs = 0;
   let augmentations = 0;
-  let usedWarm = false;
-
   let j = 0;
   let r = 0;
-  let x = 0;
-  let base = 0;
-
-  if (warm !== undefined && warm.rowToCol !== undefined) checkDenseCells(inst);
-  // ---- warm start: the repair of sparse.ts (see there), with whole-row scans.
-  if (warm !== undefined && warm.rowToCol !== undefined) {
-    const wCol = warm.colPrices;
-    const wRow = warm.rowPrices;
-    const wPair = warm.rowToCol;
-    let nPairs = 0;
-    for (r = 0; r < nRows; r++) {
-      j = wPair[r]!;
-      if (j < 0 || j >= nCols || colToRow[j] !== NONE) continue;
-      const c = cost[r * nCols + j]!;
-      if (!(c < Infinity)) continue;
-      let p = wCol !== undefined ? wCol[j]! : NaN;
-      if (!Number.isFinite(p)) {
-        const q = wRow !== undefined ? wRow[r]! : NaN;
-        p = Number.isFinite(q) ? c - q : 0;
-      }
-      v[j] = p < 0 ? p : 0;
-      colToRow[j] = r;
-      rowToCol[r] = j;
-      nPairs++;
-    }
-    if (nPairs > 0) {
-      usedWarm = true;
-      const moves = new Uint8Array(nCols);
-      const queue = new Int32Array(nRows);
-      const queued = new Uint8Array(nRows);
-      let qHead = 0;
-      let qLen = 0;
-      for (r = 0; r < nRows; r++) {
-        if (rowToCol[r] === NONE) continue;
-        queue[(qHead + qLen++) % nRows] = r;
-        queued[r] = 1;
-      }
-      while (qLen > 0) {
-        r = queue[qHead]!;
-        qHead = (qHead + 1) % nRows;
-        qLen--;
-        queued[r] = 0;
-        const jr = rowToCol[r]!;
-        if (jr === NONE) continue;
-        base = r * nCols;
-        let m = delta !== null ? delta[r]! : Infinity;
-        for (j = 0; j < nCols; j++) {
-          if (j === jr) continue;
-          x = cost[base + j]! - v[j]!;
-          if (x < m) m = x;
-        }
-        scannedPairs += nCols;
-        const c = cost[base + jr]!;
-        const a = c - v[jr]!;
-        if (a <= m) {
-          u[r] = a;
-          continue;
-        }
-        const need = c - m;
-        let next: number;
-        let kept = true;
-        if (need <= 0 && moves[jr]! < 2) {
-          next = need;
-        } else {
-          rowToCol[r] = NONE;
-          colToRow[jr] = NONE;
-          next = 0;
-          kept = false;
-        }
-        moves[jr] = moves[jr]! + 1;
-        if (!(next > v[jr]!)) continue;
-        v[jr] = next;
-        if (kept) u[r] = c - next;
-        for (let i = 0; i < nRows; i++) {
-          if (i === r || queued[i] === 1 || rowToCol[i] === NONE || !(cost[i * nCols + jr]! < Infinity)) continue;
-          queue[(qHead + qLen++) % nRows] = i;
-          queued[i] = 1;
-        }
-      }
-    }
-  }
 
   // ---- a perfect assignment starts from column reduction and reduction transfer
   // (see sparse.ts for why that is allowed there).
-  let warmPairsKept = 0;
-  for (r = 0; r < nRows; r++) if (rowToCol[r] !== NONE) warmPairsKept++;
-  const perfect = nRows === nCols && nRows > 0 && !usedWarm && mustMatchAll(delta);
+  const perfect = nRows === nCols && nRows > 0 && mustMatchAll(delta);
   if (perfect) scannedPairs += columnStart(inst, u, v, rowToCol, colToRow);
 
   // ---- augmenting row reduction, then shortest augmenting paths for what is left
@@ -199,8 +117,8 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
     augmentations,
     scannedPairs,
     ms: now() - t0,
-    warm: usedWarm,
-    warmPairsKept,
+    warm: false,
+    warmPairsKept: 0,
     searchedRows,
   });
 }
@@ -825,4 +743,33 @@ function packCandidates(
     sub.set(slotCost.subarray(at, at + n), rowPtr[r]!);
   }
   return { nRows, nCols, rowPtr, colIdx, cost: sub, unmatchedCost };
+}
+
+/**
+ * The allowed cells of a dense matrix (cost < +Infinity; NaN is not allowed) as CSR.
+ * Its first pass reads every cell, so it is where a -Infinity is caught on this path.
+ */
+function denseToCsr(inst: DenseInstance): SparseInstance {
+  const { nRows, nCols, cost } = inst;
+  const rowPtr = new Int32Array(nRows + 1);
+  let nnz = 0;
+  for (let k = 0; k < cost.length; k++) {
+    const c = cost[k]!;
+    if (c < Infinity) nnz++;
+    if (c === -Infinity) checkDenseCells(inst);
+  }
+  const colIdx = new Int32Array(nnz);
+  const sub = new Float64Array(nnz);
+  let e = 0;
+  for (let r = 0; r < nRows; r++) {
+    const base = r * nCols;
+    for (let j = 0; j < nCols; j++) {
+      const c = cost[base + j]!;
+      if (!(c < Infinity)) continue;
+      colIdx[e] = j;
+      sub[e++] = c;
+    }
+    rowPtr[r + 1] = e;
+  }
+  return { nRows, nCols, rowPtr, colIdx, cost: sub, unmatchedCost: inst.unmatchedCost ?? null };
 }

@@ -2,6 +2,8 @@ import { pairflowError } from '../errors.js';
 import type { SolveOptions, SolveResult, SparseInstance } from './types.js';
 import { validateSparse, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
+import { applyWarmStart, releaseFreeColumns } from './warm.js';
+import { heapPopRoot, heapUp } from './heap.js';
 
 /*
  * Shortest augmenting paths with dual prices (the Jonker–Volgenant family) on a CSR
@@ -18,8 +20,6 @@ import { defaultNow, finishResult, Sum } from './result.js';
  */
 
 const PRIVATE = -2;
-/** Relative gap below which two reduced costs are taken as tied in the warm repair. */
-const TIE_TOL = 1e-12;
 const NONE = -1;
 
 export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): SolveResult {
@@ -27,6 +27,11 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   const t0 = now();
   validateSparse(inst);
   validateWarm(opts.warm, inst.nRows, inst.nCols);
+  return solveSparseFull(inst, opts, now, t0);
+}
+
+/** The sparse solve of an instance known to be well formed (dense.ts converts its own). */
+export function solveSparseChecked(inst: SparseInstance, opts: SolveOptions, now: () => number, t0: number): SolveResult {
   return solveSparseFull(inst, opts, now, t0);
 }
 
@@ -50,120 +55,14 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   let r = 0;
   let x = 0;
 
-  // ---- warm start. Previous pairs that are still allowed start matched, at the
-  // previous column prices (clamped to ≤ 0); every other column restarts at 0, so a
-  // garbage price can never be left on a column that ends free. A kept pair must be
-  // the row's cheapest option at these prices; when it is not, its column's price is
-  // raised just enough (at most twice per column, never above 0), or else the pair is
-  // dropped and the column goes back to 0. A raise can spoil the pairs of rows that
-  // also reach that column, so those are re-checked from a worklist: prices only
-  // rise and each column moves at most three times, so the repair ends, and what
-  // survives satisfies the same invariants as a cold start.
+  // ---- warm start (warm.ts): kept pairs, repriced free columns, reverse searches
+  let warmPairsKept = 0;
+  let reverseSearches = 0;
   if (warm !== undefined && warm.rowToCol !== undefined) {
-    const wCol = warm.colPrices;
-    const wRow = warm.rowPrices;
-    const wPair = warm.rowToCol;
-    const pairEdge = new Int32Array(nRows).fill(NONE);
-    let nPairs = 0;
-    for (r = 0; r < nRows; r++) {
-      j = wPair[r]!;
-      if (j < 0 || j >= nCols || colToRow[j] !== NONE) continue;
-      end = rowPtr[r + 1]!;
-      let found = NONE;
-      for (e = rowPtr[r]!; e < end; e++) {
-        if (colIdx[e] === j) {
-          found = e;
-          break;
-        }
-      }
-      scannedPairs += end - rowPtr[r]!;
-      if (found === NONE) continue;
-      let p = wCol !== undefined ? wCol[j]! : NaN;
-      if (!Number.isFinite(p)) {
-        const q = wRow !== undefined ? wRow[r]! : NaN;
-        p = Number.isFinite(q) ? cost[found]! - q : 0;
-      }
-      v[j] = p < 0 ? p : 0;
-      colToRow[j] = r;
-      rowToCol[r] = j;
-      pairEdge[r] = found;
-      nPairs++;
-    }
-    if (nPairs > 0) {
-      usedWarm = true;
-      // rows by column (CSC) of the pairs' rows only, for the re-check worklist
-      const colPtr = new Int32Array(nCols + 1);
-      for (r = 0; r < nRows; r++) {
-        if (pairEdge[r] === NONE) continue;
-        end = rowPtr[r + 1]!;
-        for (e = rowPtr[r]!; e < end; e++) colPtr[colIdx[e]! + 1]!++;
-      }
-      for (j = 0; j < nCols; j++) colPtr[j + 1]! += colPtr[j]!;
-      const colRows = new Int32Array(colPtr[nCols]!);
-      const fillAt = colPtr.slice(0, nCols);
-      for (r = 0; r < nRows; r++) {
-        if (pairEdge[r] === NONE) continue;
-        end = rowPtr[r + 1]!;
-        for (e = rowPtr[r]!; e < end; e++) colRows[fillAt[colIdx[e]!]!++] = r;
-      }
-      const moves = new Uint8Array(nCols);
-      const queue = new Int32Array(nRows);
-      const queued = new Uint8Array(nRows);
-      let qHead = 0;
-      let qLen = 0;
-      for (r = 0; r < nRows; r++) {
-        if (pairEdge[r] === NONE) continue;
-        queue[(qHead + qLen++) % nRows] = r;
-        queued[r] = 1;
-      }
-      while (qLen > 0) {
-        r = queue[qHead]!;
-        qHead = (qHead + 1) % nRows;
-        qLen--;
-        queued[r] = 0;
-        const ej = pairEdge[r]!;
-        if (ej === NONE) continue;
-        j = colIdx[ej]!;
-        let m = delta !== null ? delta[r]! : Infinity;
-        end = rowPtr[r + 1]!;
-        for (e = rowPtr[r]!; e < end; e++) {
-          if (e === ej) continue;
-          x = cost[e]! - v[colIdx[e]!]!;
-          if (x < m) m = x;
-        }
-        scannedPairs += end - rowPtr[r]!;
-        const a = cost[ej]! - v[j]!;
-        // A pair handed back from an optimal solve is tight up to rounding, and its
-        // row's next-best option is often tight too (degenerate duals); a raise for a
-        // gap of a few ulps would spend the column's moves and drop the pair, so gaps
-        // within the tie tolerance count as ties.
-        if (a <= m || a - m <= TIE_TOL * (Math.abs(a) + Math.abs(m))) {
-          u[r] = a;
-          continue;
-        }
-        const need = cost[ej]! - m;
-        let next: number;
-        if (need <= 0 && moves[j]! < 2) {
-          next = need;
-        } else {
-          pairEdge[r] = NONE;
-          rowToCol[r] = NONE;
-          colToRow[j] = NONE;
-          next = 0;
-        }
-        moves[j] = moves[j]! + 1;
-        if (!(next > v[j]!)) continue;
-        v[j] = next;
-        if (pairEdge[r] !== NONE) u[r] = cost[ej]! - next;
-        const stop = colPtr[j + 1]!;
-        for (let t = colPtr[j]!; t < stop; t++) {
-          const i = colRows[t]!;
-          if (i === r || queued[i] === 1 || pairEdge[i] === NONE) continue;
-          queue[(qHead + qLen++) % nRows] = i;
-          queued[i] = 1;
-        }
-      }
-    }
+    const w = applyWarmStart(inst, delta, warm, u, v, rowToCol, colToRow);
+    usedWarm = w.used;
+    warmPairsKept = w.pairsKept;
+    scannedPairs += w.scanned;
   }
 
   // ---- a perfect assignment (square, every row must be matched) ends with every
@@ -171,8 +70,6 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   // the end. That admits the Jonker–Volgenant start: column reduction (each column
   // priced at its cheapest pair, given to that row if still free), then reduction
   // transfer (a row holding one column moves its slack onto that column's price).
-  let warmPairsKept = 0;
-  for (r = 0; r < nRows; r++) if (rowToCol[r] !== NONE) warmPairsKept++;
   const perfect = nRows === nCols && nRows > 0 && !usedWarm && mustMatchAll(delta);
   if (perfect) {
     const colArg = new Int32Array(nCols).fill(NONE);
@@ -229,7 +126,11 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   let nFree = 0;
   for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
   let nextRows = new Int32Array(nRows);
-  for (let pass = 0; pass < 2 && nFree > 0; pass++) {
+  // After a warm start one pass suffices, and it takes only what is free: near the
+  // previous optimum most best columns are held and tied, and displacing their rows
+  // mostly moves ties around (measured: more work than the searches it saves).
+  const noDisplace = usedWarm;
+  for (let pass = 0; pass < (usedWarm ? 1 : 2) && nFree > 0; pass++) {
     let nNext = 0;
     let k = 0;
     let budget = nRows; // bounds same-pass re-processing of displaced rows
@@ -267,6 +168,10 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
       }
       let target = j1;
       let ur = u1;
+      if (noDisplace && colToRow[j1] !== NONE && !(u1 === u2 && j2 !== NONE && (j2 === PRIVATE || colToRow[j2] === NONE))) {
+        nextRows[nNext++] = r;
+        continue;
+      }
       if (u1 < u2) {
         if (u2 < Infinity) {
           v[j1] = v[j1]! - (u2 - u1);
@@ -302,6 +207,7 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   // ---- shortest augmenting paths (Dijkstra on reduced costs, indexed binary heap,
   // lazy reset of only what each search touched).
   const searchedRows = nFree;
+
   if (nFree > 0) {
     const search = new SparseSearch(inst, delta, u, v, rowToCol, colToRow);
     try {
@@ -314,6 +220,13 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
     }
   }
 
+  // ---- warm only: free columns left below 0 (warm.ts, step 3)
+  if (usedWarm) {
+    const rev = releaseFreeColumns(inst, u, v, rowToCol, colToRow);
+    reverseSearches += rev.searches;
+    augmentations += rev.searches;
+    scannedPairs += rev.scanned;
+  }
   if (perfect) shiftToNonPositive(v);
   // exact row duals from the final prices: matched pairs tight, unmatched rows at δ
   const primal = new Sum();
@@ -339,6 +252,7 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
     ms: now() - t0,
     warm: usedWarm,
     warmPairsKept,
+    reverseSearches,
     searchedRows,
   });
 }
@@ -423,7 +337,12 @@ class SparseSearch {
     for (let j = 0; j < v.length; j++) v[j] = pd[2 * j]!;
   }
 
-  /** Augments from free row r0 (or settles it unmatched); returns the pairs scanned. */
+  /**
+   * Augments from free row r0 (or settles it unmatched); returns the pairs scanned.
+   * A free column has nowhere to go on, so it is never a heap entry: it is a terminal
+   * candidate as soon as it is reached, and the search stops once no heap entry can
+   * beat the best terminal (a free column or a private one).
+   */
   run(r0: number): number {
     const { rowPtr, colIdx, cost } = this.inst;
     const { delta, u, rowToCol, colToRow, pd, pred, hpos, hcol, hkey, touched, settled, settledDist } = this;
@@ -433,16 +352,15 @@ class SparseSearch {
     let scanned = 0;
     let bestPriv = Infinity;
     let privRow = NONE;
+    let bestSink = Infinity;
     let sink = NONE;
-    let minVal = 0;
     let i = r0;
     let base = 0;
     let ui = 0;
     let j = 0;
     let x = 0;
     let p = 0;
-    // No column reached at or beyond the best sink found so far can be settled
-    // before the search ends, so it is not worth a heap slot.
+    // no column reached at or beyond this can still lead to a better terminal
     let bound = Infinity;
     for (;;) {
       if (delta !== null) {
@@ -461,88 +379,51 @@ class SparseSearch {
         const dj = pd[2 * j + 1]!;
         x = off + cost[e]! - pd[2 * j]!;
         if (!(x < dj) || x >= bound) continue; // also skips settled columns (dj = -Infinity)
-        if (colToRow[j] === NONE) bound = x;
-        if (dj === Infinity) {
-          touched[nTouched++] = j;
-          p = hsize++;
-        } else {
-          p = hpos[j]!;
-        }
+        if (dj === Infinity) touched[nTouched++] = j;
         pd[2 * j + 1] = x;
         pred[j] = i;
-        while (p > 0) {
-          const parent = (p - 1) >> 1;
-          const pk = hkey[parent]!;
-          if (pk <= x) break;
-          const pj = hcol[parent]!;
-          hkey[p] = pk;
-          hcol[p] = pj;
-          hpos[pj] = p;
-          p = parent;
+        if (colToRow[j] === NONE) {
+          if (x < bestSink) {
+            bestSink = x;
+            sink = j;
+            if (x < bound) bound = x;
+          }
+          continue;
         }
-        hkey[p] = x;
-        hcol[p] = j;
-        hpos[j] = p;
+        p = dj === Infinity ? hsize++ : hpos[j]!;
+        heapUp(hkey, hcol, hpos, p, x, j);
       }
       scanned += end - start;
-      if (hsize === 0 || hkey[0]! > bestPriv) {
-        if (bestPriv === Infinity) {
-          this.reset(nTouched);
-          throw infeasibleRow(r0);
-        }
-        minVal = bestPriv;
-        break;
-      }
+      if (hsize === 0 || hkey[0]! >= bound) break;
       j = hcol[0]!;
       const dmin = hkey[0]!;
-      hsize--;
-      if (hsize > 0) {
-        const lk = hkey[hsize]!;
-        const lj = hcol[hsize]!;
-        p = 0;
-        for (;;) {
-          let c = 2 * p + 1;
-          if (c >= hsize) break;
-          let ck = hkey[c]!;
-          if (c + 1 < hsize && hkey[c + 1]! < ck) {
-            c++;
-            ck = hkey[c]!;
-          }
-          if (ck >= lk) break;
-          const cj = hcol[c]!;
-          hkey[p] = ck;
-          hcol[p] = cj;
-          hpos[cj] = p;
-          p = c;
-        }
-        hkey[p] = lk;
-        hcol[p] = lj;
-        hpos[lj] = p;
-      }
+      heapPopRoot(hkey, hcol, hpos, hsize--);
       pd[2 * j + 1] = -Infinity;
-      if (colToRow[j] === NONE) {
-        sink = j;
-        minVal = dmin;
-        break;
-      }
       settledDist[nSettled] = dmin;
       settled[nSettled++] = j;
       i = colToRow[j]!;
       base = dmin;
       ui = u[i]!;
     }
+    const toColumn = sink !== NONE && bestSink <= bestPriv;
+    const minVal = toColumn ? bestSink : bestPriv;
+    if (minVal === Infinity) {
+      this.reset(nTouched);
+      throw infeasibleRow(r0);
+    }
 
-    // dual update on everything settled closer than the sink
+    // dual update on everything settled closer than the terminal
     for (let t = 0; t < nSettled; t++) {
-      j = settled[t]!;
       const d = minVal - settledDist[t]!;
+      if (!(d > 0)) continue;
+      j = settled[t]!;
       pd[2 * j] = pd[2 * j]! - d;
       const ri = colToRow[j]!;
       u[ri] = u[ri]! + d;
     }
     u[r0] = minVal;
 
-    if (sink === NONE) {
+    if (!toColumn) {
       // privRow leaves its column for its private one
       j = privRow === r0 ? NONE : rowToCol[privRow]!;
       rowToCol[privRow] = NONE;

@@ -30,9 +30,11 @@ export interface DenseInstance {
 
 /**
  * Warm-start hints from a previous solve, already mapped onto this instance's indices.
- * Prices are used only for the columns of previous pairs (`rowToCol`): every other
- * column restarts at price 0, because a price below 0 left on a column that ends
- * free would break the certificate. Without `rowToCol` the hints are ignored.
+ * Prices are used only for the columns of previous pairs (`rowToCol`) that are still
+ * allowed: every other column is priced afresh from the kept pairs (column reduction),
+ * and a free column left below 0 is fixed by a reverse shortest-path search, because a
+ * free column must end at price 0 for the certificate. Without `rowToCol` the hints
+ * are ignored.
  */
 export interface WarmStart {
   /** Column prices v (length nCols); NaN where unknown (a new column). */
@@ -67,8 +69,10 @@ export interface SolveStats {
   ms: number;
   /** Whether a warm start was used. */
   warm: boolean;
-  /** Warm pairs still matched after the price repair (0 when cold). */
+  /** Warm pairs kept matched when the warm start began (0 when cold). */
   warmPairsKept?: number;
+  /** Reverse searches the warm start ran from freed columns with a price below 0 (also counted in `augmentations`). */
+  reverseSearches?: number;
   /** Rows left for shortest-path search after the warm start and greedy passes. */
   searchedRows?: number;
 }

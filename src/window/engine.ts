@@ -13,7 +13,7 @@
  */
 import { pairflowError } from '../errors.js';
 import { checkCertificate, solveSparse } from '../matching/index.js';
-import type { SolveResult, SparseInstance, WarmStart } from '../matching/index.js';
+import type { SolveOptions, SolveResult, SparseInstance, WarmStart } from '../matching/index.js';
 import { type PairflowConfig, reserveOf, type Side, type SourcedEvent } from '../model.js';
 import { capabilitiesAllow, travelMin } from './geo.js';
 import { cellKmFor, type GridOptions, SpatialGrid } from './grid.js';
@@ -108,6 +108,8 @@ export interface EngineOptions {
   now?: () => number;
   /** Run `checkCertificate` on every solve and throw on failure (for tests). @default false */
   verify?: boolean;
+  /** The sparse solver; injected to observe or record epoch solves (benchmarks, tests). @default solveSparse */
+  solve?: (inst: SparseInstance, opts: SolveOptions) => SolveResult;
 }
 
 /** A unit of a {@link PoolSnapshot}: an occurrence the engine still holds (pending or in the pool). */
@@ -262,6 +264,7 @@ export class WindowEngine {
   private readonly R: number;
   private readonly due: boolean;
   private readonly warmOn: boolean;
+  private readonly solver: (inst: SparseInstance, opts: SolveOptions) => SolveResult;
   private readonly verify: boolean;
   private readonly now: (() => number) | undefined;
   private readonly haversine: boolean;
@@ -313,6 +316,7 @@ export class WindowEngine {
     this.R = reserveOf(config);
     this.due = config.commit === 'due';
     this.warmOn = opts.warm ?? true;
+    this.solver = opts.solve ?? solveSparse;
     this.verify = opts.verify ?? false;
     this.now = opts.now;
     this.haversine = config.metric === 'haversine';
@@ -745,7 +749,7 @@ export class WindowEngine {
         ? { colPrices: this.colPrices.subarray(0, nCols), rowPrices: rowPrices.subarray(0, nRows), rowToCol: warmPairs.subarray(0, nRows) }
         : { colPrices: this.colPrices.subarray(0, nCols), rowPrices: rowPrices.subarray(0, nRows) };
     }
-    const res: SolveResult = solveSparse(inst, this.now !== undefined ? { warm, now: this.now } : { warm });
+    const res: SolveResult = this.solver(inst, this.now !== undefined ? { warm, now: this.now } : { warm });
     if (this.verify) {
       const rep = checkCertificate(inst, res);
       if (!rep.ok) {

@@ -103,6 +103,10 @@ Rejected lines are counted in "rejects", the first ${REJECTS_SHOWN} printed on s
       });
       progress.done();
       rejects.finish();
+      if (summary.demandUnits + summary.supplyUnits === 0) {
+        const why = summary.rejects > 0 ? `every one of its ${summary.rejects} lines or records was rejected` : 'it holds no events';
+        process.stderr.write(`pairflow: warning: ${logs.join(', ')}: ${why}, so every figure is 0\n`);
+      }
       process.stdout.write(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary));
     });
 }

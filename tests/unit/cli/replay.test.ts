@@ -74,6 +74,22 @@ describe('pairflow replay', () => {
     expect(lax.stderr).toContain(`${withBad}:41`);
   });
 
+  it('a log without a valid event still gives a summary (exit 0), with a warning naming the file', () => {
+    const empty = join(dir, 'empty.jsonl');
+    writeFileSync(empty, '');
+    const allBad = join(dir, 'all-bad.jsonl');
+    writeFileSync(allBad, 'not json\n{"type":"demand","id":"","market":"m","t":1}\n');
+    const e = run(['replay', empty, '--json']);
+    expect(e.status, e.stderr).toBe(0);
+    expect((JSON.parse(e.stdout) as { demandUnits: number }).demandUnits).toBe(0);
+    expect(e.stderr).toContain(`warning: ${empty}: it holds no events`);
+    const b = run(['replay', allBad, '--json']);
+    expect(b.status, b.stderr).toBe(0);
+    expect(b.stderr).toContain(`warning: ${allBad}: every one of its 2 lines or records was rejected`);
+    // a log with events has no such warning
+    expect(run(['replay', good, '--json', '--no-hindsight']).stderr).not.toContain('warning');
+  });
+
   it('exit 1 when the run directory cannot be written', () => {
     const file = join(dir, 'plain-file');
     writeFileSync(file, 'x');
