@@ -12,7 +12,7 @@
  */
 
 import { mkdtempSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 import { checkCertificate, solveSparse } from '../src/matching/index.js';
@@ -29,6 +29,7 @@ import {
   type PeerOutcome,
   type ScipyCase,
   type ScipyRun,
+  type WarmUp,
 } from './lib/children.js';
 import { denseUniform, sparseWithPermutation, warmFromPrevious, windowSequence, type CostKind, type SequenceStep, type TurnoverPolicy } from './lib/instances.js';
 import { engineDueSequence, type RecordedSolve } from './lib/engine-sequence.js';
@@ -157,6 +158,15 @@ function parseArgs(argv: string[]): Args {
 /** pairflow and scipy start no new repeat once this much solving time is spent on a case. */
 const repeatBudgetMs = (args: Args) => (args.quick ? 10_000 : 60_000);
 
+/**
+ * The warm-up of a dense case, the same for pairflow, scipy and every npm peer: the
+ * case's own matrix solved untimed until this many solves are done or this much
+ * solving time is spent. A JIT reaches its steady code only after a few solves of a
+ * size, and a stream processor solves thousands in one process; the sparse cases
+ * compare pairflow with scipy alone and are timed from the first solve.
+ */
+const denseWarmUp = (args: Args): WarmUp => (args.quick ? { solves: 2, ms: 200 } : { solves: 10, ms: 3000 });
+
 const relClose = (a: number, b: number) => Math.abs(a - b) <= 1e-9 * Math.max(1, Math.abs(a), Math.abs(b));
 
 interface Timed {
@@ -169,7 +179,8 @@ interface Timed {
 
 /** pairflow in a child process under `capMs`, as the peers are. */
 async function timePairflow(kind: 'dense' | 'sparse', dir: string, nRows: number, nCols: number, repeats: number, args: Args): Promise<Timed> {
-  const out = await runPairflow(kind, dir, nRows, nCols, repeats, args.pairflowCapMs, repeatBudgetMs(args));
+  const warm = kind === 'dense' ? denseWarmUp(args) : { solves: 0, ms: 0 };
+  const out = await runPairflow(kind, dir, nRows, nCols, repeats, args.pairflowCapMs, repeatBudgetMs(args), warm);
   if (out.error !== undefined) throw new Error(`pairflow child failed on ${dir}: ${out.error}`);
   if (out.certified === false) log(`  certificate FAILED on ${dir}`);
   return { ms: out.ms, cost: out.cost ?? NaN, certified: out.certified === true, capped: out.capped };
@@ -228,6 +239,9 @@ interface Results {
   readonly machine: ReturnType<typeof machineInfo> & { python?: string; scipy?: string; numpy?: string };
   readonly capMs: number;
   readonly pairflowCapMs: number;
+  readonly warmUp: WarmUp;
+  /** 1-minute load average once every case has run (machine.loadAtStart is the other end). */
+  loadAtEnd: number;
   readonly dense: DenseRow[];
   readonly sparse: SparseRow[];
   readonly warm: WarmRow[];
@@ -277,7 +291,8 @@ async function main(): Promise<void> {
       if (c.group === 'dense') {
         const inst = denseUniform(seed, c.nRows, c.nCols, c.kind);
         writeDense(dir, inst);
-        scipyCases.push({ name: c.name, kind: 'dense', dir, nRows: c.nRows, nCols: c.nCols, repeats: c.repeats, budgetMs: repeatBudgetMs(args) });
+        const warm = denseWarmUp(args);
+        scipyCases.push({ name: c.name, kind: 'dense', dir, nRows: c.nRows, nCols: c.nCols, repeats: c.repeats, budgetMs: repeatBudgetMs(args), warmSolves: warm.solves, warmMs: warm.ms });
       } else if (c.group === 'sparse') {
         const inst = sparseWithPermutation(seed, c.n, c.perRow, 'float');
         sparse.set(c.name, inst);
@@ -317,6 +332,8 @@ async function main(): Promise<void> {
       machine: { ...machine, ...(scipy ? { python: scipy.python, scipy: scipy.scipy, numpy: scipy.numpy } : {}) },
       capMs: args.capMs,
       pairflowCapMs: args.pairflowCapMs,
+      warmUp: denseWarmUp(args),
+      loadAtEnd: NaN,
       dense: [],
       sparse: [],
       warm: [],
@@ -345,7 +362,7 @@ async function main(): Promise<void> {
             peers[peer] = 'skipped';
             continue;
           }
-          const out = await runPeer(peer, join(work, c.name), c.nRows, c.nCols, c.repeats, args.capMs);
+          const out = await runPeer(peer, join(work, c.name), c.nRows, c.nCols, c.repeats, args.capMs, denseWarmUp(args));
           if (out.capped) cappedAt[peer] = area;
           if (out.error) log(`  ${peer} ${c.name}: ${out.error}`);
           peers[peer] = out;
@@ -442,6 +459,7 @@ async function main(): Promise<void> {
       }
     }
 
+    results.loadAtEnd = loadavg()[0] ?? NaN;
     const table = render(results, args.note);
     if (args.json) process.stdout.write(`${JSON.stringify(results)}\n`);
     else process.stdout.write(table);
@@ -502,7 +520,7 @@ function render(res: Results, note: string | null): string {
   lines.push('## Solver (`npm run bench:solver`)', '');
   lines.push(
     `Run ${res.date.slice(0, 16).replace('T', ' ')} UTC, ${res.mode} mode, on ${m.cpu} (${m.cores} cores, ${m.memoryGb} GB), ` +
-      `Node ${m.node}, Python ${m.python ?? '—'}, scipy ${m.scipy ?? '—'}, numpy ${m.numpy ?? '—'}; 1-minute load at start ${m.loadAtStart.toFixed(2)}.`,
+      `Node ${m.node}, Python ${m.python ?? '—'}, scipy ${m.scipy ?? '—'}, numpy ${m.numpy ?? '—'}; 1-minute load at start ${m.loadAtStart.toFixed(2)}, at end ${res.loadAtEnd.toFixed(2)}.`,
   );
   lines.push('');
   lines.push(
@@ -510,7 +528,8 @@ function render(res: Results, note: string | null): string {
       'pairflow and the npm peers in Node, scipy timed inside Python with `time.perf_counter`. Ratios divide medians from this same run. ' +
       `pairflow (dense and sparse cases) and each npm peer run in their own child process; a peer is stopped when one solve exceeds ${res.capMs / 1000} s, ` +
       `pairflow when one exceeds ${res.pairflowCapMs / 1000} s; no new repeat starts once a peer has spent its cap, or pairflow or scipy 60 s (10 s in quick mode), on a case. ` +
-      'In those Node children an instance of at most 250,000 cells is first solved once untimed (JIT warm-up), for pairflow and the peers alike. ' +
+      `Dense cases are first solved untimed until ${res.warmUp.solves} solves are done or ${res.warmUp.ms / 1000} s of solving is spent (warm-up: a JIT reaches its steady code only after a few solves), ` +
+        'by the same rule for pairflow, scipy and every npm peer, each warm-up solve under the same cap as a timed one; sparse cases are timed from their first solve. ' +
       '"same cost" means pairflow\'s cost equals scipy\'s to 1e-9 relative and its dual certificate (SPEC §5) holds.',
   );
   if (note) lines.push('', note);

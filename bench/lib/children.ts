@@ -43,6 +43,20 @@ export interface ScipyCase {
   readonly budgetMs?: number;
   /** Sparse only: the instance has per-row unmatched costs in `delta.f64`. */
   readonly delta?: boolean;
+  /** Untimed solves before timing, until this many are done or `warmMs` is spent. */
+  readonly warmSolves?: number;
+  readonly warmMs?: number;
+}
+
+/**
+ * The warm-up rule, the same for every solver of a case (pairflow, scipy, each npm
+ * peer): untimed solves of the case's own instance until `solves` are done or `ms` of
+ * solving is spent (the first always runs when `solves` > 0). Each warm-up solve is
+ * bound by the time cap like a timed one.
+ */
+export interface WarmUp {
+  readonly solves: number;
+  readonly ms: number;
 }
 
 export interface ScipyOutcome {
@@ -92,18 +106,27 @@ export interface PeerOutcome {
  * Runs one npm peer on one dense instance. The child stops repeating once `capMs` of
  * solving is spent; the parent kills it when one solve runs longer than `capMs`.
  */
-export function runPeer(peer: PeerName, dir: string, nRows: number, nCols: number, repeats: number, capMs: number): Promise<PeerOutcome> {
+export function runPeer(peer: PeerName, dir: string, nRows: number, nCols: number, repeats: number, capMs: number, warm: WarmUp): Promise<PeerOutcome> {
   const script = join(here, '..', 'peers', 'run-peer.mjs');
-  return runCapped([script, peer, dir, String(nRows), String(nCols), String(repeats), String(capMs)], capMs);
+  return runCapped([script, peer, dir, String(nRows), String(nCols), String(repeats), String(capMs), String(warm.solves), String(warm.ms)], capMs);
 }
 
 /**
  * Runs pairflow's solver on one instance in a child (see run-pairflow.ts): killed when
  * one solve exceeds `capMs`, no new repeat once `budgetMs` of solving is spent.
  */
-export function runPairflow(kind: 'dense' | 'sparse', dir: string, nRows: number, nCols: number, repeats: number, capMs: number, budgetMs: number): Promise<PeerOutcome> {
+export function runPairflow(
+  kind: 'dense' | 'sparse',
+  dir: string,
+  nRows: number,
+  nCols: number,
+  repeats: number,
+  capMs: number,
+  budgetMs: number,
+  warm: WarmUp,
+): Promise<PeerOutcome> {
   const script = join(here, 'run-pairflow.ts');
-  return runCapped(['--import', 'tsx', script, kind, dir, String(nRows), String(nCols), String(repeats), String(budgetMs)], capMs);
+  return runCapped(['--import', 'tsx', script, kind, dir, String(nRows), String(nCols), String(repeats), String(budgetMs), String(warm.solves), String(warm.ms)], capMs);
 }
 
 function runCapped(argv: string[], capMs: number): Promise<PeerOutcome> {
@@ -130,7 +153,9 @@ function runCapped(argv: string[], capMs: number): Promise<PeerOutcome> {
       while (nl >= 0) {
         const line = buffered.slice(0, nl);
         buffered = buffered.slice(nl + 1);
-        if (line === 'ready') arm();
+        // "ready" once loaded, "warm" after each untimed warm-up solve: the cap
+        // restarts for the next solve either way
+        if (line === 'ready' || line === 'warm') arm();
         else if (line !== '') {
           const rec = JSON.parse(line) as { ms: number; cost: number; certified?: boolean };
           ms.push(rec.ms);

@@ -1,20 +1,23 @@
 // One npm assignment package on one dense instance, in its own process so the bench
-// can stop it at the time cap. Usage: node run-peer.mjs PEER DIR NROWS NCOLS REPEATS BUDGET_MS
-// Prints "ready" once the matrix is built and, for small ones, solved once untimed
-// (loading and warm-up are not timed), then one JSON line
-// {"ms", "cost"} per repeat; the cost is recomputed from the returned pairs. No new
-// repeat starts once BUDGET_MS of solving is spent.
+// can stop it at the time cap. Usage:
+//   node run-peer.mjs PEER DIR NROWS NCOLS REPEATS BUDGET_MS WARM_SOLVES WARM_MS
+// Prints "ready" once the matrix is loaded, then "warm" after each untimed warm-up
+// solve (until WARM_SOLVES are done or WARM_MS of solving is spent: the rule
+// pairflow's child and scipy follow too), then one JSON line {"ms", "cost"} per
+// repeat; the cost is recomputed from the returned pairs. No new repeat starts once
+// BUDGET_MS of solving is spent.
 import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
 
-const [peer, dir, nRowsText, nColsText, repeatsText, budgetText] = process.argv.slice(2);
+const [peer, dir, nRowsText, nColsText, repeatsText, budgetText, warmSolvesText, warmMsText] = process.argv.slice(2);
 const nRows = Number(nRowsText);
 const nCols = Number(nColsText);
 const repeats = Number(repeatsText);
 const budgetMs = Number(budgetText ?? Infinity);
-const WARMUP_CELLS = 250_000;
+const warmSolves = Number(warmSolvesText ?? 0);
+const warmMs = Number(warmMsText ?? 0);
 
 const bytes = readFileSync(join(dir, 'cost.f64'));
 // Copied out so the Float64Array is aligned whatever offset the Buffer pool chose.
@@ -43,9 +46,16 @@ async function loadSolver() {
 }
 
 const solve = await loadSolver();
-// Small instances get one untimed solve first (JIT warm-up), as pairflow's child does.
-if (nRows * nCols <= WARMUP_CELLS) solve(fresh());
 process.stdout.write('ready\n');
+let warmSpent = 0;
+for (let k = 0; k < warmSolves && warmSpent < warmMs; k++) {
+  // A fresh copy per solve (some peers pad or modify their input); building it is not timed.
+  const m = fresh();
+  const t0 = performance.now();
+  solve(m);
+  warmSpent += performance.now() - t0;
+  process.stdout.write('warm\n');
+}
 let spent = 0;
 for (let i = 0; i < repeats && spent < budgetMs; i++) {
   // A fresh copy per repeat: some peers pad or modify their input.

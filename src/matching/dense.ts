@@ -1,5 +1,5 @@
 import type { DenseInstance, SolveOptions, SolveResult } from './types.js';
-import { validateDense, validateWarm } from './validate.js';
+import { checkDenseCells, validateDenseShape, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
 import { infeasibleRow, mustMatchAll, shiftToNonPositive, solveSparseChecked, solveSparseCore, unreachableColumn } from './sparse.js';
 import { PairflowError } from '../errors.js';
@@ -10,19 +10,36 @@ import type { SparseInstance, WarmStart } from './types.js';
  * scans whole rows against a shrinking list of unsettled columns instead of a heap,
  * which is what pays off when every pair is allowed. A pair is allowed iff its cost
  * is < +Infinity (NaN compares false everywhere, so it is skipped the same way).
+ *
+ * Layout for the JIT: every loop over a row lives in a small kernel (foldColumnMins,
+ * cheapestExcept, twoCheapest, relaxRow, gatherBelow, countPricedOut) called once per
+ * row, so the engine optimises each kernel within the first solve and keeps it. One
+ * large function holding every phase's loops was compiled loop by loop and thrown
+ * away again as each later phase ran for the first time, which made the first few
+ * solves in a process several times slower than the rest.
+ *
+ * The cells are read once before any result: every path's first pass (column
+ * reduction, the first reduction pass over all rows, or the candidates scan) looks
+ * at each cell, notices a -Infinity there and lets checkDenseCells name it; a warm
+ * start runs on the CSR of the allowed cells, whose building pass checks them. An
+ * infeasibility error is raised only after checking the cells, so a bad cell is
+ * always reported as such.
  */
 
 const PRIVATE = -2;
 const NONE = -1;
 
+/** Below this many cells the full search is used (measured crossover). */
+const CANDIDATE_MIN_CELLS = 250_000;
+
 export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveResult {
   const now = opts.now ?? defaultNow;
   const t0 = now();
-  validateDense(inst);
+  validateDenseShape(inst);
   validateWarm(opts.warm, inst.nRows, inst.nCols);
   const k = candidateCount(inst.nCols);
   const strategy = opts.strategy ?? 'auto';
-  if (strategy === 'candidates' || (strategy === 'auto' && inst.nRows * inst.nCols >= 250_000 && 4 * k <= inst.nCols)) {
+  if (strategy === 'candidates' || (strategy === 'auto' && preferCandidates(inst.nRows, inst.nCols, k))) {
     const res = solveByCandidates(inst, opts, k);
     if (res !== null) {
       res.stats.ms = now() - t0;
@@ -30,6 +47,23 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
     }
   }
   return solveDenseFull(inst, opts, now, t0);
+}
+
+/**
+ * The candidates strategy pays off on large matrices that are square or nearly so.
+ * Once columns outnumber rows by a tenth or more, the first reduction pass gives
+ * most rows a column of their own and the full search ends after little more than
+ * one read of the matrix (measured: 1000 × 1050 about even, 1000 × 1100 and wider
+ * the full search 2–3× faster; 1000 × 1000 the candidates 3× faster).
+ */
+function preferCandidates(nRows: number, nCols: number, k: number): boolean {
+  return nRows * nCols >= CANDIDATE_MIN_CELLS && 4 * k <= nCols && 100 * nCols < 108 * nRows;
+}
+
+/** The error for an infeasible row, raised only once the cells are known to be valid. */
+function infeasible(inst: DenseInstance, r: number): Error {
+  checkDenseCells(inst);
+  return infeasibleRow(r);
 }
 
 function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => number, t0: number): SolveResult {
@@ -46,96 +80,182 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
   const colToRow = new Int32Array(nCols).fill(NONE);
   let scannedPairs = 0;
   let augmentations = 0;
-
   let j = 0;
   let r = 0;
-  let x = 0;
-  let base = 0;
 
   // ---- a perfect assignment starts from column reduction and reduction transfer
   // (see sparse.ts for why that is allowed there).
   const perfect = nRows === nCols && nRows > 0 && mustMatchAll(delta);
-  if (perfect) {
-    const colArg = new Int32Array(nCols).fill(NONE);
-    v.fill(Infinity);
-    for (r = 0; r < nRows; r++) {
-      base = r * nCols;
-      for (j = 0; j < nCols; j++) {
-        x = cost[base + j]!;
-        if (x < v[j]!) {
-          v[j] = x;
-          colArg[j] = r;
-        }
-      }
-    }
-    scannedPairs += nRows * nCols;
-    const hits = new Int32Array(nRows);
-    for (j = nCols - 1; j >= 0; j--) {
-      const i = colArg[j]!;
-      if (i === NONE) throw unreachableColumn(j);
-      if (hits[i]!++ === 0) {
-        rowToCol[i] = j;
-        colToRow[j] = i;
-      } else if (v[j]! < v[rowToCol[i]!]!) {
-        colToRow[rowToCol[i]!] = NONE;
-        rowToCol[i] = j;
-        colToRow[j] = i;
-      }
-    }
-    for (r = 0; r < nRows; r++) {
-      const j1 = rowToCol[r]!;
-      u[r] = 0;
-      if (j1 === NONE || hits[r] !== 1) continue;
-      base = r * nCols;
-      let m = Infinity;
-      for (j = 0; j < nCols; j++) {
-        if (j === j1) continue;
-        x = cost[base + j]! - v[j]!;
-        if (x < m) m = x;
-      }
-      scannedPairs += nCols;
-      if (m < Infinity) {
-        v[j1] = v[j1]! - m;
-        u[r] = m;
-      }
+  if (perfect) scannedPairs += columnStart(inst, u, v, rowToCol, colToRow);
+
+  // ---- augmenting row reduction, then shortest augmenting paths for what is left
+  const reduced = reduceRows(inst, delta, u, v, rowToCol, colToRow);
+  scannedPairs += reduced.scanned;
+  const searchedRows = reduced.nFree;
+  if (reduced.nFree > 0) {
+    const search = new DenseSearch(inst, delta, u, v, rowToCol, colToRow);
+    for (let f = 0; f < reduced.nFree; f++) {
+      augmentations++;
+      scannedPairs += search.run(reduced.freeRows[f]!);
     }
   }
 
+  if (perfect) shiftToNonPositive(v);
+  const primal = new Sum();
+  for (r = 0; r < nRows; r++) {
+    j = rowToCol[r]!;
+    if (j === NONE) {
+      u[r] = delta![r]!;
+      primal.add(u[r]!);
+    } else {
+      const c = cost[r * nCols + j]!;
+      u[r] = c - v[j]!;
+      primal.add(c);
+    }
+  }
+  return finishResult(primal.value, rowToCol, colToRow, u, v, {
+    augmentations,
+    scannedPairs,
+    ms: now() - t0,
+    warm: false,
+    warmPairsKept: 0,
+    searchedRows,
+  });
+}
+
+/**
+ * Column reduction (each column priced at its cheapest pair, given to that row if
+ * still free) and reduction transfer (a row holding one column moves its slack onto
+ * that column's price), for a square instance where every row must be matched.
+ * Reads every cell first. Returns the pairs scanned.
+ */
+function columnStart(inst: DenseInstance, u: Float64Array, v: Float64Array, rowToCol: Int32Array, colToRow: Int32Array): number {
+  const { nRows, nCols, cost } = inst;
+  const colArg = new Int32Array(nCols).fill(NONE);
+  v.fill(Infinity);
+  for (let r = 0; r < nRows; r++) foldColumnMins(cost, r * nCols, nCols, r, v, colArg);
+  for (let j = 0; j < nCols; j++) if (v[j] === -Infinity) checkDenseCells(inst);
+  let scanned = nRows * nCols;
+  const hits = new Int32Array(nRows);
+  for (let j = nCols - 1; j >= 0; j--) {
+    const i = colArg[j]!;
+    if (i === NONE) throw unreachableColumn(j);
+    if (hits[i]!++ === 0) {
+      rowToCol[i] = j;
+      colToRow[j] = i;
+    } else if (v[j]! < v[rowToCol[i]!]!) {
+      colToRow[rowToCol[i]!] = NONE;
+      rowToCol[i] = j;
+      colToRow[j] = i;
+    }
+  }
+  for (let r = 0; r < nRows; r++) {
+    const j1 = rowToCol[r]!;
+    u[r] = 0;
+    if (j1 === NONE || hits[r] !== 1) continue;
+    const m = cheapestExcept(cost, r * nCols, nCols, v, j1);
+    scanned += nCols;
+    if (m < Infinity) {
+      v[j1] = v[j1]! - m;
+      u[r] = m;
+    }
+  }
+  return scanned;
+}
+
+/** Column reduction, one row: lowers each column's running minimum to this row's cost. */
+function foldColumnMins(cost: Float64Array, base: number, nCols: number, r: number, v: Float64Array, colArg: Int32Array): void {
+  for (let j = 0; j < nCols; j++) {
+    const x = cost[base + j]!;
+    if (x < v[j]!) {
+      v[j] = x;
+      colArg[j] = r;
+    }
+  }
+}
+
+/** The row's lowest reduced cost over every column but `skip`. */
+function cheapestExcept(cost: Float64Array, base: number, nCols: number, v: Float64Array, skip: number): number {
+  let m = Infinity;
+  for (let j = 0; j < nCols; j++) {
+    if (j === skip) continue;
+    const x = cost[base + j]! - v[j]!;
+    if (x < m) m = x;
+  }
+  return m;
+}
+
+/**
+ * The row's two lowest reduced costs and their columns, starting from option
+ * (`u0`, `j0`) — the private column, or none. Writes u1, u2, j1, j2 into `out`.
+ */
+function twoCheapest(cost: Float64Array, base: number, nCols: number, v: Float64Array, u0: number, j0: number, out: Float64Array): void {
+  let u1 = u0;
+  let j1 = j0;
+  let u2 = Infinity;
+  let j2 = NONE;
+  for (let j = 0; j < nCols; j++) {
+    const x = cost[base + j]! - v[j]!;
+    if (x < u2) {
+      if (x < u1) {
+        u2 = u1;
+        j2 = j1;
+        u1 = x;
+        j1 = j;
+      } else {
+        u2 = x;
+        j2 = j;
+      }
+    }
+  }
+  out[0] = u1;
+  out[1] = u2;
+  out[2] = j1;
+  out[3] = j2;
+}
+
+interface Reduced {
+  /** Rows still free, in `freeRows[0 .. nFree)`. */
+  readonly freeRows: Int32Array;
+  readonly nFree: number;
+  readonly scanned: number;
+}
+
+/**
+ * Two passes of augmenting row reduction (see sparse.ts). Without a column start
+ * every row is free, so the first pass reads every cell: that is where a -Infinity
+ * cell is caught on that path.
+ */
+function reduceRows(
+  inst: DenseInstance,
+  delta: Float64Array | null,
+  u: Float64Array,
+  v: Float64Array,
+  rowToCol: Int32Array,
+  colToRow: Int32Array,
+): Reduced {
+  const { nRows, nCols, cost } = inst;
+  const two = new Float64Array(4);
   let freeRows = new Int32Array(nRows);
   let nFree = 0;
-  for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
+  for (let r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
   let nextRows = new Int32Array(nRows);
+  let scanned = 0;
   for (let pass = 0; pass < 2 && nFree > 0; pass++) {
     let nNext = 0;
     let k = 0;
     let budget = nRows;
     while (k < nFree) {
-      r = freeRows[k++]!;
-      let u1 = Infinity;
-      let j1 = NONE;
-      if (delta !== null && delta[r]! < Infinity) {
-        u1 = delta[r]!;
-        j1 = PRIVATE;
-      }
-      let u2 = Infinity;
-      let j2 = NONE;
-      base = r * nCols;
-      for (j = 0; j < nCols; j++) {
-        x = cost[base + j]! - v[j]!;
-        if (x < u2) {
-          if (x < u1) {
-            u2 = u1;
-            j2 = j1;
-            u1 = x;
-            j1 = j;
-          } else {
-            u2 = x;
-            j2 = j;
-          }
-        }
-      }
-      scannedPairs += nCols;
-      if (j1 === NONE) throw infeasibleRow(r);
+      const r = freeRows[k++]!;
+      const hasPrivate = delta !== null && delta[r]! < Infinity;
+      twoCheapest(cost, r * nCols, nCols, v, hasPrivate ? delta[r]! : Infinity, hasPrivate ? PRIVATE : NONE, two);
+      scanned += nCols;
+      const u1 = two[0]!;
+      const u2 = two[1]!;
+      const j1 = two[2]!;
+      const j2 = two[3]!;
+      if (u1 === -Infinity) checkDenseCells(inst);
+      if (j1 === NONE) throw infeasible(inst, r);
       if (j1 === PRIVATE) {
         u[r] = u1;
         continue;
@@ -173,105 +293,106 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
     nextRows = tmp;
     nFree = nNext;
   }
+  return { freeRows, nFree, scanned };
+}
 
-  const searchedRows = nFree;
-  if (nFree > 0) {
-    const dist = new Float64Array(nCols);
-    const pred = new Int32Array(nCols);
-    const remaining = new Int32Array(nCols);
-    const done = new Int32Array(nCols);
+/**
+ * One shortest-augmenting-path search at a time over whole rows (Dijkstra on
+ * reduced costs against the list of unsettled columns), reusing its arrays.
+ */
+class DenseSearch {
+  private readonly dist: Float64Array;
+  private readonly pred: Int32Array;
+  private readonly remaining: Int32Array;
+  private readonly done: Int32Array;
 
-    for (let f = 0; f < nFree; f++) {
-      const r0 = freeRows[f]!;
-      augmentations++;
-      dist.fill(Infinity);
-      for (j = 0; j < nCols; j++) remaining[j] = j;
-      let nRem = nCols;
-      let nDone = 0;
-      let bestPriv = Infinity;
-      let privRow = NONE;
-      let sink = NONE;
-      let minVal = 0;
-      let i = r0;
-      let ui = 0;
-      base = 0;
-      for (;;) {
-        if (delta !== null) {
-          x = base + delta[i]! - ui;
-          if (x < bestPriv) {
-            bestPriv = x;
-            privRow = i;
-          }
+  constructor(
+    private readonly inst: DenseInstance,
+    private readonly delta: Float64Array | null,
+    private readonly u: Float64Array,
+    private readonly v: Float64Array,
+    private readonly rowToCol: Int32Array,
+    private readonly colToRow: Int32Array,
+  ) {
+    const n = inst.nCols;
+    this.dist = new Float64Array(n);
+    this.pred = new Int32Array(n);
+    this.remaining = new Int32Array(n);
+    this.done = new Int32Array(n);
+  }
+
+  /** Augments from free row r0 (or settles it unmatched); returns the pairs scanned. */
+  run(r0: number): number {
+    const { inst, delta, u, v, rowToCol, colToRow, dist, pred, remaining, done } = this;
+    const { nCols, cost } = inst;
+    dist.fill(Infinity);
+    for (let j = 0; j < nCols; j++) remaining[j] = j;
+    let nRem = nCols;
+    let nDone = 0;
+    let bestPriv = Infinity;
+    let privRow = NONE;
+    let sink = NONE;
+    let minVal = 0;
+    let i = r0;
+    let ui = 0;
+    let base = 0;
+    let scanned = 0;
+    let j = 0;
+    for (;;) {
+      if (delta !== null) {
+        const x = base + delta[i]! - ui;
+        if (x < bestPriv) {
+          bestPriv = x;
+          privRow = i;
         }
-        const at = relaxRow(cost, i * nCols, base - ui, i, v, dist, pred, remaining, nRem, colToRow);
-        const lowest = at === NONE ? Infinity : dist[remaining[at]!]!;
-        scannedPairs += nRem;
-        if (at === NONE || lowest > bestPriv) {
-          if (bestPriv === Infinity) throw infeasibleRow(r0);
-          minVal = bestPriv;
-          break;
-        }
-        j = remaining[at]!;
-        if (colToRow[j] === NONE) {
-          sink = j;
-          minVal = lowest;
-          break;
-        }
-        remaining[at] = remaining[--nRem]!;
-        done[nDone++] = j;
-        i = colToRow[j]!;
-        base = lowest;
-        ui = u[i]!;
       }
-
-      for (let t = 0; t < nDone; t++) {
-        j = done[t]!;
-        const d = minVal - dist[j]!;
-        v[j] = v[j]! - d;
-        const ri = colToRow[j]!;
-        u[ri] = u[ri]! + d;
+      const at = relaxRow(cost, i * nCols, base - ui, i, v, dist, pred, remaining, nRem, colToRow);
+      const lowest = at === NONE ? Infinity : dist[remaining[at]!]!;
+      scanned += nRem;
+      if (at === NONE || lowest > bestPriv) {
+        if (bestPriv === Infinity) throw infeasible(inst, r0);
+        minVal = bestPriv;
+        break;
       }
-      u[r0] = minVal;
-
-      if (sink === NONE) {
-        j = privRow === r0 ? NONE : rowToCol[privRow]!;
-        rowToCol[privRow] = NONE;
-        u[privRow] = delta![privRow]!;
-        if (j !== NONE) colToRow[j] = NONE;
+      j = remaining[at]!;
+      if (colToRow[j] === NONE) {
         sink = j;
+        minVal = lowest;
+        break;
       }
-      j = sink;
-      while (j !== NONE) {
-        i = pred[j]!;
-        const prevCol = i === r0 ? NONE : rowToCol[i]!;
-        rowToCol[i] = j;
-        colToRow[j] = i;
-        j = prevCol;
-      }
+      remaining[at] = remaining[--nRem]!;
+      done[nDone++] = j;
+      i = colToRow[j]!;
+      base = lowest;
+      ui = u[i]!;
     }
-  }
 
-  if (perfect) shiftToNonPositive(v);
-  const primal = new Sum();
-  for (r = 0; r < nRows; r++) {
-    j = rowToCol[r]!;
-    if (j === NONE) {
-      u[r] = delta![r]!;
-      primal.add(u[r]!);
-    } else {
-      const c = cost[r * nCols + j]!;
-      u[r] = c - v[j]!;
-      primal.add(c);
+    for (let t = 0; t < nDone; t++) {
+      j = done[t]!;
+      const d = minVal - dist[j]!;
+      v[j] = v[j]! - d;
+      const ri = colToRow[j]!;
+      u[ri] = u[ri]! + d;
     }
+    u[r0] = minVal;
+
+    if (sink === NONE) {
+      j = privRow === r0 ? NONE : rowToCol[privRow]!;
+      rowToCol[privRow] = NONE;
+      u[privRow] = delta![privRow]!;
+      if (j !== NONE) colToRow[j] = NONE;
+      sink = j;
+    }
+    j = sink;
+    while (j !== NONE) {
+      i = pred[j]!;
+      const prevCol = i === r0 ? NONE : rowToCol[i]!;
+      rowToCol[i] = j;
+      colToRow[j] = i;
+      j = prevCol;
+    }
+    return scanned;
   }
-  return finishResult(primal.value, rowToCol, colToRow, u, v, {
-    augmentations,
-    scannedPairs,
-    ms: now() - t0,
-    warm: false,
-    warmPairsKept: 0,
-    searchedRows,
-  });
 }
 
 /**
@@ -323,55 +444,41 @@ function candidateCount(nCols: number): number {
  * a warm re-solve. When none prices out, the duals certify the dense instance too:
  * the constraints are the same, only checked on more pairs. Returns null when the
  * subset cannot be matched (the caller then searches the full matrix).
+ *
+ * Most rows are priced without reading them again: a pair left out of row r costs at
+ * least floor[r] (its dearest candidate), and every column price is at most vTop
+ * (≤ 0), so floor[r] − u[r] − vTop ≥ 0 proves the whole row. Only rows where that
+ * bound fails are read pair by pair.
  */
 function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): SolveResult | null {
   const { nRows, nCols, cost } = inst;
   // per-row candidate lists, grown in place: row r owns slots [r * cap, r * cap + count[r])
   let cap = k + 1;
   let slots = new Int32Array(nRows * cap);
+  let slotCost = new Float64Array(nRows * cap);
   const count = new Int32Array(nRows);
-  const topKey = new Float64Array(k);
-  const topCol = new Int32Array(k);
-  let scanned = 0;
+  const floor = new Float64Array(nRows);
+  const bufKey = new Float64Array(4 * k);
+  const bufCol = new Int32Array(4 * k);
+  const maxAbs = new Float64Array(1);
+  const guess = Float64Array.of(Infinity);
+  let scanned = nRows * nCols;
   const wPair = opts.warm?.rowToCol;
-  let maxAbs = 0;
   for (let r = 0; r < nRows; r++) {
     const base = r * nCols;
-    let n = 0;
-    for (let j = 0; j < nCols; j++) {
-      const c = cost[base + j]!;
-      if (!(c < Infinity)) continue;
-      if (c > maxAbs) maxAbs = c;
-      else if (-c > maxAbs) maxAbs = -c;
-      if (n === k && c >= topKey[k - 1]!) continue;
-      let p = n < k ? n++ : k - 1;
-      while (p > 0 && topKey[p - 1]! > c) {
-        topKey[p] = topKey[p - 1]!;
-        topCol[p] = topCol[p - 1]!;
-        p--;
-      }
-      topKey[p] = c;
-      topCol[p] = j;
-    }
     const at = r * cap;
-    for (let t = 0; t < n; t++) slots[at + t] = topCol[t]!;
+    let n = pickRow(cost, base, nCols, k, bufKey, bufCol, guess, r, at, slots, slotCost, floor, maxAbs);
+    if (n < 0) checkDenseCells(inst);
+    if (wPair !== undefined) n = addWarmPair(cost, base, nCols, wPair[r]!, at, n, slots, slotCost);
     count[r] = n;
-    if (wPair !== undefined) {
-      const wj = wPair[r]!;
-      if (wj >= 0 && wj < nCols && cost[base + wj]! < Infinity) {
-        let seen = false;
-        for (let t = 0; t < n; t++) if (topCol[t] === wj) seen = true;
-        if (!seen) slots[at + count[r]!++] = wj;
-      }
-    }
   }
-  scanned += nRows * nCols;
 
   let warm: WarmStart | undefined = opts.warm;
   let augmentations = 0;
   const extra = new Int32Array(nRows);
+  let stamp: Int32Array | null = null;
   for (let round = 0; round < 20; round++) {
-    const sub = packCandidates(inst, slots, cap, count);
+    const sub = packCandidates(nRows, nCols, slots, slotCost, cap, count, inst.unmatchedCost ?? null);
     let res: SolveResult;
     try {
       res = solveSparseCore(sub, { ...(warm !== undefined ? { warm } : {}), ...(opts.now !== undefined ? { now: opts.now } : {}), strategy: 'full' });
@@ -381,82 +488,276 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
     }
     augmentations += res.stats.augmentations;
     scanned += res.stats.scannedPairs;
-    // price every pair; a pair may miss by rounding noise far below the certificate's tolerance
+    // price every pair; a pair may miss by rounding noise far below the certificate's
+    // tolerance. The scale takes the candidates' costs and the duals: a pair left out
+    // costs at least its row's cheapest candidate, so a pair that prices out is no
+    // larger than these in magnitude.
     const u = res.rowDuals;
     const v = res.colDuals;
-    let scale = maxAbs;
+    let scale = maxAbs[0]!;
     for (let r = 0; r < nRows; r++) scale = Math.max(scale, Math.abs(u[r]!));
-    for (let j = 0; j < nCols; j++) scale = Math.max(scale, Math.abs(v[j]!));
+    let vTop = -Infinity;
+    for (let j = 0; j < nCols; j++) {
+      scale = Math.max(scale, Math.abs(v[j]!));
+      if (v[j]! > vTop) vTop = v[j]!;
+    }
     const slack = -1e-11 * (scale > 0 ? scale : 1);
     let violations = 0;
-    extra.fill(0);
     for (let r = 0; r < nRows; r++) {
-      const base = r * nCols;
       const ur = u[r]!;
-      for (let j = 0; j < nCols; j++) {
-        if (cost[base + j]! - ur - v[j]! < slack) {
-          extra[r]!++;
-          violations++;
-        }
-      }
+      // The bound is computed in the same order as the per-pair test and rounding is
+      // monotone, so when it holds no pair of the row can fail that test.
+      const proven = floor[r]! - ur - vTop >= slack;
+      const miss = proven ? 0 : countPricedOut(cost, r * nCols, nCols, ur, v, slack);
+      if (!proven) scanned += nCols;
+      extra[r] = miss;
+      violations += miss;
     }
-    scanned += nRows * nCols;
-    if (violations === 0) {
-      return {
-        ...res,
-        stats: { ...res.stats, augmentations, scannedPairs: scanned, warm: opts.warm !== undefined && res.stats.warm, ms: 0 },
-      };
-    }
-    // grow the lists and add the pairs that priced out (they are not candidates yet:
-    // a candidate never prices out after a solve)
+    if (violations === 0) return certified(res, augmentations, scanned, opts);
+    // grow the lists and add the pairs that priced out and are not candidates yet
     let need = 0;
     for (let r = 0; r < nRows; r++) need = Math.max(need, count[r]! + extra[r]!);
     if (need > cap) {
       const nextCap = Math.max(need, 2 * cap);
       const grown = new Int32Array(nRows * nextCap);
-      for (let r = 0; r < nRows; r++) grown.set(slots.subarray(r * cap, r * cap + count[r]!), r * nextCap);
+      const grownCost = new Float64Array(nRows * nextCap);
+      for (let r = 0; r < nRows; r++) {
+        grown.set(slots.subarray(r * cap, r * cap + count[r]!), r * nextCap);
+        grownCost.set(slotCost.subarray(r * cap, r * cap + count[r]!), r * nextCap);
+      }
       slots = grown;
+      slotCost = grownCost;
       cap = nextCap;
     }
+    stamp ??= new Int32Array(nCols);
+    let added = 0;
     for (let r = 0; r < nRows; r++) {
       if (extra[r] === 0) continue;
-      const base = r * nCols;
-      const ur = u[r]!;
-      for (let j = 0; j < nCols; j++) {
-        if (cost[base + j]! - ur - v[j]! < slack) slots[r * cap + count[r]!++] = j;
-      }
+      const n = addPricedOut(cost, r * nCols, nCols, u[r]!, v, slack, stamp, r + 1, r * cap, count[r]!, slots, slotCost);
+      added += n - count[r]!;
+      count[r] = n;
+      scanned += nCols;
     }
-    scanned += nRows * nCols;
+    // only candidates missed, by rounding within the sparse solve's own certificate
+    if (added === 0) return certified(res, augmentations, scanned, opts);
     warm = { colPrices: v, rowPrices: u, rowToCol: res.rowToCol };
   }
   return null;
 }
 
-function packCandidates(inst: DenseInstance, slots: Int32Array, cap: number, count: Int32Array): SparseInstance {
-  const { nRows, nCols, cost } = inst;
+/**
+ * Row r's candidates: its k cheapest allowed pairs go to slots/slotCost from `at`;
+ * floor[r] becomes a lower bound on the cost of every allowed pair left out (the
+ * dearest candidate, or +Infinity when none is left out) and maxAbs[0] the largest
+ * |cost| among the candidates so far. Returns the count, or -1 when the row holds a
+ * -Infinity cell.
+ */
+function pickRow(
+  cost: Float64Array,
+  base: number,
+  nCols: number,
+  k: number,
+  key: Float64Array,
+  col: Int32Array,
+  guess: Float64Array,
+  r: number,
+  at: number,
+  slots: Int32Array,
+  slotCost: Float64Array,
+  floor: Float64Array,
+  maxAbs: Float64Array,
+): number {
+  const n = cheapestK(cost, base, nCols, k, key, col, guess);
+  let top = -Infinity;
+  let big = maxAbs[0]!;
+  for (let t = 0; t < n; t++) {
+    const c = key[t]!;
+    if (c === -Infinity) return -1;
+    if (c > top) top = c;
+    if (c > big) big = c;
+    else if (-c > big) big = -c;
+    slots[at + t] = col[t]!;
+    slotCost[at + t] = c;
+  }
+  maxAbs[0] = big;
+  floor[r] = n < k ? Infinity : top;
+  return n;
+}
+
+/** Adds the row's warm pair to its n candidates unless it is one or not allowed; returns the count. */
+function addWarmPair(cost: Float64Array, base: number, nCols: number, wj: number, at: number, n: number, slots: Int32Array, slotCost: Float64Array): number {
+  if (wj < 0 || wj >= nCols || !(cost[base + wj]! < Infinity)) return n;
+  for (let t = 0; t < n; t++) if (slots[at + t] === wj) return n;
+  slots[at + n] = wj;
+  slotCost[at + n] = cost[base + wj]!;
+  return n + 1;
+}
+
+/**
+ * Appends to the row's n candidates (from `at`) each pair that prices out and is not
+ * a candidate yet; returns the new count.
+ */
+function addPricedOut(
+  cost: Float64Array,
+  base: number,
+  nCols: number,
+  ur: number,
+  v: Float64Array,
+  slack: number,
+  stamp: Int32Array,
+  mark: number,
+  at: number,
+  n: number,
+  slots: Int32Array,
+  slotCost: Float64Array,
+): number {
+  for (let t = 0; t < n; t++) stamp[slots[at + t]!] = mark;
+  let m = n;
+  for (let j = 0; j < nCols; j++) {
+    const c = cost[base + j]!;
+    if (c - ur - v[j]! < slack && stamp[j] !== mark) {
+      slots[at + m] = j;
+      slotCost[at + m++] = c;
+    }
+  }
+  return m;
+}
+
+function certified(res: SolveResult, augmentations: number, scanned: number, opts: SolveOptions): SolveResult {
+  return {
+    ...res,
+    stats: { ...res.stats, augmentations, scannedPairs: scanned, warm: opts.warm !== undefined && res.stats.warm, ms: 0 },
+  };
+}
+
+/**
+ * Moves the k cheapest allowed pairs of one row (as a set, ties broken by position)
+ * into key/col[0 .. returned count); `key` holds 4k. Pairs below a threshold are
+ * gathered; when the buffer fills, a selection keeps the 2k cheapest and lowers the
+ * threshold to the dearest kept. The threshold starts at `guess[0]`, the previous
+ * row's 2k-th cheapest cost (rows of one matrix tend to look alike), so a row costs
+ * one read and about 2k gathered pairs; when fewer than k pairs fall below it the
+ * row is read again from +Infinity. Any guess gives the same set; a good one is
+ * only faster. The row's 2k-th cheapest becomes the next guess.
+ */
+function cheapestK(cost: Float64Array, base: number, nCols: number, k: number, key: Float64Array, col: Int32Array, guess: Float64Array): number {
+  let n = gatherBelow(cost, base, nCols, 2 * k, key, col, guess[0]!);
+  if (n < k && guess[0]! < Infinity) n = gatherBelow(cost, base, nCols, 2 * k, key, col, Infinity);
+  if (n >= 2 * k) {
+    guess[0] = keepCheapest(key, col, n, 2 * k);
+    n = 2 * k;
+  }
+  if (n > k) {
+    keepCheapest(key, col, n, k);
+    n = k;
+  }
+  return n;
+}
+
+/**
+ * Gathers the row's pairs with cost below `threshold` into key/col; whenever the
+ * buffer fills, keeps the `keep` cheapest and lowers the threshold to the dearest of
+ * them, so the `keep` cheapest pairs below the starting threshold are always among
+ * those gathered. Returns how many were gathered.
+ */
+function gatherBelow(cost: Float64Array, base: number, nCols: number, keep: number, key: Float64Array, col: Int32Array, threshold: number): number {
+  const size = key.length;
+  let n = 0;
+  for (let j = 0; j < nCols; j++) {
+    const c = cost[base + j]!;
+    if (c < threshold) {
+      key[n] = c;
+      col[n++] = j;
+      if (n === size) {
+        threshold = keepCheapest(key, col, n, keep);
+        n = keep;
+      }
+    }
+  }
+  return n;
+}
+
+/**
+ * Selection (Hoare partition around a median of three) that leaves the k smallest
+ * of key[0 .. n) in key[0 .. k), columns alongside; returns the largest of them.
+ */
+function keepCheapest(key: Float64Array, col: Int32Array, n: number, k: number): number {
+  const want = k - 1;
+  let lo = 0;
+  let hi = n - 1;
+  while (lo < hi) {
+    const a = key[lo]!;
+    const b = key[(lo + hi) >> 1]!;
+    const c = key[hi]!;
+    const pivot = a < b ? (b < c ? b : a < c ? c : a) : a < c ? a : b < c ? c : b;
+    let i = lo;
+    let j = hi;
+    while (i <= j) {
+      while (key[i]! < pivot) i++;
+      while (key[j]! > pivot) j--;
+      if (i <= j) {
+        const tk = key[i]!;
+        key[i] = key[j]!;
+        key[j] = tk;
+        const tc = col[i]!;
+        col[i] = col[j]!;
+        col[j] = tc;
+        i++;
+        j--;
+      }
+    }
+    if (want <= j) hi = j;
+    else if (want >= i) lo = i;
+    else break;
+  }
+  let top = -Infinity;
+  for (let t = 0; t < k; t++) if (key[t]! > top) top = key[t]!;
+  return top;
+}
+
+/** Pairs of one row whose reduced cost is below `slack` (negative: they price out). */
+function countPricedOut(cost: Float64Array, base: number, nCols: number, ur: number, v: Float64Array, slack: number): number {
+  let n = 0;
+  for (let j = 0; j < nCols; j++) if (cost[base + j]! - ur - v[j]! < slack) n++;
+  return n;
+}
+
+function packCandidates(
+  nRows: number,
+  nCols: number,
+  slots: Int32Array,
+  slotCost: Float64Array,
+  cap: number,
+  count: Int32Array,
+  unmatchedCost: Float64Array | null,
+): SparseInstance {
   const rowPtr = new Int32Array(nRows + 1);
   for (let r = 0; r < nRows; r++) rowPtr[r + 1] = rowPtr[r]! + count[r]!;
   const nnz = rowPtr[nRows]!;
   const colIdx = new Int32Array(nnz);
   const sub = new Float64Array(nnz);
   for (let r = 0; r < nRows; r++) {
-    let e = rowPtr[r]!;
     const at = r * cap;
-    for (let t = 0; t < count[r]!; t++, e++) {
-      const j = slots[at + t]!;
-      colIdx[e] = j;
-      sub[e] = cost[r * nCols + j]!;
-    }
+    const n = count[r]!;
+    colIdx.set(slots.subarray(at, at + n), rowPtr[r]!);
+    sub.set(slotCost.subarray(at, at + n), rowPtr[r]!);
   }
-  return { nRows, nCols, rowPtr, colIdx, cost: sub, unmatchedCost: inst.unmatchedCost ?? null };
+  return { nRows, nCols, rowPtr, colIdx, cost: sub, unmatchedCost };
 }
 
-/** The allowed cells of a dense matrix (cost < +Infinity; NaN is not allowed) as CSR. */
+/**
+ * The allowed cells of a dense matrix (cost < +Infinity; NaN is not allowed) as CSR.
+ * Its first pass reads every cell, so it is where a -Infinity is caught on this path.
+ */
 function denseToCsr(inst: DenseInstance): SparseInstance {
   const { nRows, nCols, cost } = inst;
   const rowPtr = new Int32Array(nRows + 1);
   let nnz = 0;
-  for (let k = 0; k < cost.length; k++) if (cost[k]! < Infinity) nnz++;
+  for (let k = 0; k < cost.length; k++) {
+    const c = cost[k]!;
+    if (c < Infinity) nnz++;
+    if (c === -Infinity) checkDenseCells(inst);
+  }
   const colIdx = new Int32Array(nnz);
   const sub = new Float64Array(nnz);
   let e = 0;

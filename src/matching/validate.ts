@@ -60,17 +60,33 @@ export function validateSparse(inst: SparseInstance): void {
 
 /** Throws PAIRFLOW_ERR_SOLVER_INPUT unless `inst` is a well-formed dense instance. O(nRows·nCols). */
 export function validateDense(inst: DenseInstance): void {
+  validateDenseShape(inst);
+  checkDenseCells(inst);
+}
+
+/**
+ * The O(nRows + nCols) part of {@link validateDense}: sizes, types, lengths and δ,
+ * but not the cells. The dense solver looks at every cell in its first pass anyway,
+ * so it spots a -Infinity there and calls {@link checkDenseCells} for the message,
+ * instead of reading the whole matrix one more time up front.
+ */
+export function validateDenseShape(inst: DenseInstance): void {
   const nRows = checkSize('nRows', inst.nRows);
   const nCols = checkSize('nCols', inst.nCols);
   const { cost } = inst;
   if (!(cost instanceof Float64Array)) bad('cost: expected a Float64Array');
   if (cost.length !== nRows * nCols) bad(`cost: length ${cost.length}, expected nRows·nCols = ${nRows * nCols}`);
+  checkUnmatched(inst.unmatchedCost, nRows);
+}
+
+/** Throws PAIRFLOW_ERR_SOLVER_INPUT naming the first -Infinity cell, if there is one. */
+export function checkDenseCells(inst: DenseInstance): void {
+  const { cost, nCols } = inst;
   for (let k = 0; k < cost.length; k++) {
     if (cost[k] === -Infinity) {
       bad(`cost[${k}] (row ${Math.floor(k / nCols)}, column ${k % nCols}): got -Infinity, expected a finite number, or +Infinity/NaN for a pair that is not allowed`);
     }
   }
-  checkUnmatched(inst.unmatchedCost, nRows);
 }
 
 /** Throws PAIRFLOW_ERR_SOLVER_INPUT when a warm-start array has the wrong type or length. */
