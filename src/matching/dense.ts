@@ -3,6 +3,7 @@ import { checkDenseCells, validateDenseShape, validateWarm } from './validate.js
 import { defaultNow, finishResult, Sum } from './result.js';
 import { infeasibleRow, mustMatchAll, shiftToNonPositive, solveSparseChecked, solveSparseCore, unreachableColumn } from './sparse.js';
 import { PairflowError } from '../errors.js';
+import { NONE, PRIVATE, reduceRows, type Reduced } from './reduction.js';
 import type { SparseInstance, WarmStart } from './types.js';
 
 /*
@@ -26,8 +27,6 @@ import type { SparseInstance, WarmStart } from './types.js';
  * always reported as such.
  */
 
-const PRIVATE = -2;
-const NONE = -1;
 
 /** Below this many cells the full search is used (measured crossover). */
 const CANDIDATE_MIN_CELLS = 250_000;
@@ -89,7 +88,7 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
   if (perfect) scannedPairs += columnStart(inst, u, v, rowToCol, colToRow);
 
   // ---- augmenting row reduction, then shortest augmenting paths for what is left
-  const reduced = reduceRows(inst, delta, u, v, rowToCol, colToRow);
+  const reduced = reduceDenseRows(inst, delta, u, v, rowToCol, colToRow);
   scannedPairs += reduced.scanned;
   const searchedRows = reduced.nFree;
   if (reduced.nFree > 0) {
@@ -214,19 +213,12 @@ function twoCheapest(cost: Float64Array, base: number, nCols: number, v: Float64
   out[3] = j2;
 }
 
-interface Reduced {
-  /** Rows still free, in `freeRows[0 .. nFree)`. */
-  readonly freeRows: Int32Array;
-  readonly nFree: number;
-  readonly scanned: number;
-}
-
 /**
- * Two passes of augmenting row reduction (see sparse.ts). Without a column start
+ * Two passes of augmenting row reduction (reduction.ts). Without a column start
  * every row is free, so the first pass reads every cell: that is where a -Infinity
  * cell is caught on that path.
  */
-function reduceRows(
+function reduceDenseRows(
   inst: DenseInstance,
   delta: Float64Array | null,
   u: Float64Array,
@@ -235,65 +227,20 @@ function reduceRows(
   colToRow: Int32Array,
 ): Reduced {
   const { nRows, nCols, cost } = inst;
-  const two = new Float64Array(4);
-  let freeRows = new Int32Array(nRows);
+  const freeRows = new Int32Array(nRows);
   let nFree = 0;
   for (let r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
-  let nextRows = new Int32Array(nRows);
-  let scanned = 0;
-  for (let pass = 0; pass < 2 && nFree > 0; pass++) {
-    let nNext = 0;
-    let k = 0;
-    let budget = nRows;
-    while (k < nFree) {
-      const r = freeRows[k++]!;
+  return reduceRows(freeRows, nFree, u, v, rowToCol, colToRow, {
+    passes: 2,
+    noDisplace: false,
+    cheapestTwo: (r, two) => {
       const hasPrivate = delta !== null && delta[r]! < Infinity;
       twoCheapest(cost, r * nCols, nCols, v, hasPrivate ? delta[r]! : Infinity, hasPrivate ? PRIVATE : NONE, two);
-      scanned += nCols;
-      const u1 = two[0]!;
-      const u2 = two[1]!;
-      const j1 = two[2]!;
-      const j2 = two[3]!;
-      if (u1 === -Infinity) checkDenseCells(inst);
-      if (j1 === NONE) throw infeasible(inst, r);
-      if (j1 === PRIVATE) {
-        u[r] = u1;
-        continue;
-      }
-      let target = j1;
-      let ur = u1;
-      if (u1 < u2) {
-        if (u2 < Infinity) {
-          v[j1] = v[j1]! - (u2 - u1);
-          ur = u2;
-        }
-      } else if (colToRow[j1] !== NONE && j2 !== NONE && (j2 === PRIVATE || colToRow[j2] === NONE)) {
-        target = j2;
-      }
-      if (target === PRIVATE) {
-        u[r] = ur;
-        continue;
-      }
-      const prev = colToRow[target]!;
-      colToRow[target] = r;
-      rowToCol[r] = target;
-      u[r] = ur;
-      if (prev !== NONE) {
-        rowToCol[prev] = NONE;
-        if (u1 < u2 && budget > 0) {
-          budget--;
-          freeRows[--k] = prev;
-        } else {
-          nextRows[nNext++] = prev;
-        }
-      }
-    }
-    const tmp = freeRows;
-    freeRows = nextRows;
-    nextRows = tmp;
-    nFree = nNext;
-  }
-  return { freeRows, nFree, scanned };
+      if (two[0] === -Infinity) checkDenseCells(inst);
+      return nCols;
+    },
+    infeasible: (r) => infeasible(inst, r),
+  });
 }
 
 /**

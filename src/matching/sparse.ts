@@ -4,6 +4,7 @@ import { validateSparse, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
 import { applyWarmStart, releaseFreeColumns } from './warm.js';
 import { heapPopRoot, heapUp } from './heap.js';
+import { NONE, PRIVATE, reduceRows } from './reduction.js';
 
 /*
  * Shortest augmenting paths with dual prices (the Jonker–Volgenant family) on a CSR
@@ -19,8 +20,7 @@ import { heapPopRoot, heapUp } from './heap.js';
  * adjacent to it), so it is settled for good.
  */
 
-const PRIVATE = -2;
-const NONE = -1;
+
 
 export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): SolveResult {
   const now = opts.now ?? defaultNow;
@@ -122,87 +122,19 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   // ---- augmenting row reduction: cheap greedy passes that settle most rows before
   // any shortest-path search. Each step lowers only the price of the column the row
   // takes, so the invariants hold throughout.
-  let freeRows = new Int32Array(nRows);
-  let nFree = 0;
-  for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeRows[nFree++] = r;
-  let nextRows = new Int32Array(nRows);
-  // After a warm start one pass suffices, and it takes only what is free: near the
-  // previous optimum most best columns are held and tied, and displacing their rows
-  // mostly moves ties around (measured: more work than the searches it saves).
-  const noDisplace = usedWarm;
-  for (let pass = 0; pass < (usedWarm ? 1 : 2) && nFree > 0; pass++) {
-    let nNext = 0;
-    let k = 0;
-    let budget = nRows; // bounds same-pass re-processing of displaced rows
-    while (k < nFree) {
-      r = freeRows[k++]!;
-      let u1 = Infinity;
-      let j1 = NONE;
-      if (delta !== null && delta[r]! < Infinity) {
-        u1 = delta[r]!;
-        j1 = PRIVATE;
-      }
-      let u2 = Infinity;
-      let j2 = NONE;
-      end = rowPtr[r + 1]!;
-      for (e = rowPtr[r]!; e < end; e++) {
-        j = colIdx[e]!;
-        x = cost[e]! - v[j]!;
-        if (x < u2) {
-          if (x < u1) {
-            u2 = u1;
-            j2 = j1;
-            u1 = x;
-            j1 = j;
-          } else {
-            u2 = x;
-            j2 = j;
-          }
-        }
-      }
-      scannedPairs += end - rowPtr[r]!;
-      if (j1 === NONE) throw infeasibleRow(r);
-      if (j1 === PRIVATE) {
-        u[r] = u1;
-        continue;
-      }
-      let target = j1;
-      let ur = u1;
-      if (noDisplace && colToRow[j1] !== NONE && !(u1 === u2 && j2 !== NONE && (j2 === PRIVATE || colToRow[j2] === NONE))) {
-        nextRows[nNext++] = r;
-        continue;
-      }
-      if (u1 < u2) {
-        if (u2 < Infinity) {
-          v[j1] = v[j1]! - (u2 - u1);
-          ur = u2;
-        }
-      } else if (colToRow[j1] !== NONE && j2 !== NONE && (j2 === PRIVATE || colToRow[j2] === NONE)) {
-        target = j2;
-      }
-      if (target === PRIVATE) {
-        u[r] = ur;
-        continue;
-      }
-      const prev = colToRow[target]!;
-      colToRow[target] = r;
-      rowToCol[r] = target;
-      u[r] = ur;
-      if (prev !== NONE) {
-        rowToCol[prev] = NONE;
-        if (u1 < u2 && budget > 0) {
-          budget--;
-          freeRows[--k] = prev;
-        } else {
-          nextRows[nNext++] = prev;
-        }
-      }
-    }
-    const tmp = freeRows;
-    freeRows = nextRows;
-    nextRows = tmp;
-    nFree = nNext;
-  }
+  const freeAtStart = new Int32Array(nRows);
+  let nFreeAtStart = 0;
+  for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeAtStart[nFreeAtStart++] = r;
+  // After a warm start one pass suffices, and it takes only what is free (measured:
+  // displacing near the previous optimum costs more than the searches it saves).
+  const reduced = reduceRows(freeAtStart, nFreeAtStart, u, v, rowToCol, colToRow, {
+    passes: usedWarm ? 1 : 2,
+    noDisplace: usedWarm,
+    cheapestTwo: (row, two) => cheapestTwoSparse(inst, delta, v, row, two),
+    infeasible: infeasibleRow,
+  });
+  scannedPairs += reduced.scanned;
+  const { freeRows, nFree } = reduced;
 
   // ---- shortest augmenting paths (Dijkstra on reduced costs, indexed binary heap,
   // lazy reset of only what each search touched).
@@ -289,6 +221,41 @@ function infeasibleRow(r: number): Error {
 }
 
 export { infeasibleRow };
+
+/** Row r's two cheapest options at prices v, for {@link reduceRows}. */
+function cheapestTwoSparse(inst: SparseInstance, delta: Float64Array | null, v: Float64Array, r: number, two: Float64Array): number {
+  const { rowPtr, colIdx, cost } = inst;
+  let u1 = Infinity;
+  let j1 = NONE;
+  if (delta !== null && delta[r]! < Infinity) {
+    u1 = delta[r]!;
+    j1 = PRIVATE;
+  }
+  let u2 = Infinity;
+  let j2 = NONE;
+  const start = rowPtr[r]!;
+  const end = rowPtr[r + 1]!;
+  for (let e = start; e < end; e++) {
+    const j = colIdx[e]!;
+    const x = cost[e]! - v[j]!;
+    if (x < u2) {
+      if (x < u1) {
+        u2 = u1;
+        j2 = j1;
+        u1 = x;
+        j1 = j;
+      } else {
+        u2 = x;
+        j2 = j;
+      }
+    }
+  }
+  two[0] = u1;
+  two[1] = u2;
+  two[2] = j1;
+  two[3] = j2;
+  return end - start;
+}
 
 /**
  * One shortest-augmenting-path search at a time, reusing its arrays: every search
