@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { checkCertificate, solveDense } from '../../../src/matching/index.js';
 import type { DenseInstance, SolveOptions } from '../../../src/matching/types.js';
-import { runPythonJson, scipyVersion } from '../../helpers/python.js';
+import { scipyDenseCosts, scipyVersion } from '../../helpers/python.js';
 import { bruteForce, mulberry32, randInt } from './gen.js';
 
 /*
@@ -14,25 +14,6 @@ import { bruteForce, mulberry32, randInt } from './gen.js';
  * costs as the usual dummy columns (column nCols + r allowed only for row r, at δ_r).
  */
 
-const SCRIPT = `
-import json, sys
-import numpy as np
-from scipy.optimize import linear_sum_assignment
-out = []
-for inst in json.load(sys.stdin):
-    m, n = inst['nRows'], inst['nCols']
-    c = np.array([np.inf if x is None else x for x in inst['cost']], dtype=float).reshape(m, n)
-    if inst['delta'] is not None:
-        d = np.full((m, m), np.inf)
-        np.fill_diagonal(d, inst['delta'])
-        c = np.hstack([c, d])
-    try:
-        r, k = linear_sum_assignment(c)
-        out.append(float(c[r, k].sum()) if len(r) == m else None)
-    except ValueError:
-        out.append(None)
-print(json.dumps(out))
-`;
 
 const version = scipyVersion();
 const INPUT = expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' });
@@ -59,15 +40,6 @@ function build(seed: number, nRows: number, nCols: number, kind: Kind, forbidden
   }
   const unmatchedCost = withDelta ? Float64Array.from({ length: nRows }, () => (kind === 'int' ? randInt(rand, 200, 1500) : randInt(rand, 1, 4))) : null;
   return { nRows, nCols, cost, unmatchedCost };
-}
-
-function toPython(inst: DenseInstance): unknown {
-  return {
-    nRows: inst.nRows,
-    nCols: inst.nCols,
-    cost: Array.from(inst.cost, (x) => (x < Infinity ? x : null)),
-    delta: inst.unmatchedCost ? Array.from(inst.unmatchedCost) : null,
-  };
 }
 
 function expectOptimal(inst: DenseInstance, want: number, label: string): void {
@@ -144,7 +116,7 @@ describe.skipIf(version === null)(`solveDense() against scipy ${version} linear_
       cases.push({ label: `seed ${seed} ${kind} ${nRows}×${nCols}`, inst });
       seed++;
     }
-    const want = runPythonJson<(number | null)[]>(SCRIPT, cases.map(({ inst }) => toPython(inst)));
+    const want = scipyDenseCosts(cases.map(({ inst }) => inst));
     let feasible = 0;
     cases.forEach(({ label, inst }, k) => {
       const ref = want[k];

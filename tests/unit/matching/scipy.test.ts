@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { checkCertificate, solveDense, solveSparse } from '../../../src/matching/index.js';
 import type { DenseInstance } from '../../../src/matching/types.js';
-import { runPythonJson, scipyVersion } from '../../helpers/python.js';
+import { scipyDenseCosts, scipyVersion } from '../../helpers/python.js';
 import { denseToSparse, mulberry32, randInt, randomDense, type CostKind } from './gen.js';
 
 /*
@@ -10,25 +10,6 @@ import { denseToSparse, mulberry32, randInt, randomDense, type CostKind } from '
  * dummy-column augmentation: n extra columns, column n + r allowed only for row r at
  * cost δ_r. All instances go to Python in one batch.
  */
-const SCRIPT = `
-import json, sys
-import numpy as np
-from scipy.optimize import linear_sum_assignment
-out = []
-for inst in json.load(sys.stdin):
-    m, n = inst['nRows'], inst['nCols']
-    c = np.array([np.inf if x is None else x for x in inst['cost']], dtype=float).reshape(m, n)
-    if inst['delta'] is not None:
-        d = np.full((m, m), np.inf)
-        np.fill_diagonal(d, inst['delta'])
-        c = np.hstack([c, d])
-    try:
-        r, k = linear_sum_assignment(c)
-        out.append(float(c[r, k].sum()) if len(r) == m else None)
-    except ValueError:
-        out.append(None)
-print(json.dumps(out))
-`;
 
 const version = scipyVersion();
 
@@ -63,15 +44,7 @@ function instances(count: number): { seed: number; inst: DenseInstance }[] {
 describe.skipIf(version === null)(`solvers against scipy ${version} linear_sum_assignment`, () => {
   it('solveDense() and solveSparse() reach scipy’s optimum on 240 seeded instances, each certified', () => {
     const cases = instances(240);
-    const want = runPythonJson<(number | null)[]>(
-      SCRIPT,
-      cases.map(({ inst }) => ({
-        nRows: inst.nRows,
-        nCols: inst.nCols,
-        cost: Array.from(inst.cost, (x) => (x < Infinity ? x : null)),
-        delta: inst.unmatchedCost ? Array.from(inst.unmatchedCost) : null,
-      })),
-    );
+    const want = scipyDenseCosts(cases.map(({ inst }) => inst));
     let feasible = 0;
     cases.forEach(({ seed, inst }, k) => {
       const label = `seed ${seed} (${inst.nRows}×${inst.nCols}, δ ${inst.unmatchedCost ? 'yes' : 'no'})`;
