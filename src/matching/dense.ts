@@ -3,7 +3,7 @@ import { checkDenseCells, validateDenseShape, validateWarm } from './validate.js
 import { defaultNow, finishResult, Sum } from './result.js';
 import { infeasibleRow, mustMatchAll, shiftToNonPositive, solveSparseChecked, solveSparseCore, unreachableColumn } from './sparse.js';
 import { PairflowError } from '../errors.js';
-import { NONE, PRIVATE, reduceRows, type Reduced } from './reduction.js';
+import { NONE, PRIVATE, reduceRows, shiftAlongPath, type Reduced } from './reduction.js';
 import type { SparseInstance, WarmStart } from './types.js';
 
 /*
@@ -323,21 +323,7 @@ class DenseSearch {
     }
     u[r0] = minVal;
 
-    if (sink === NONE) {
-      j = privRow === r0 ? NONE : rowToCol[privRow]!;
-      rowToCol[privRow] = NONE;
-      u[privRow] = delta![privRow]!;
-      if (j !== NONE) colToRow[j] = NONE;
-      sink = j;
-    }
-    j = sink;
-    while (j !== NONE) {
-      i = pred[j]!;
-      const prevCol = i === r0 ? NONE : rowToCol[i]!;
-      rowToCol[i] = j;
-      colToRow[j] = i;
-      j = prevCol;
-    }
+    shiftAlongPath(r0, sink, privRow, pred, delta, u, rowToCol, colToRow);
     return scanned;
   }
 }

@@ -106,3 +106,36 @@ export function reduceRows(
   }
   return { freeRows, nFree, scanned };
 }
+
+/**
+ * Ends a forward search from free row r0 (shared by the dense and sparse searches):
+ * with `sink` a free column, every row on the path back to r0 moves one column over
+ * (`pred[col]` is the row that reached it); with `sink` NONE the search ended on
+ * `privRow`'s own unmatched option, so privRow leaves its column (price u = δ) and the
+ * path ends at that column instead.
+ */
+export function shiftAlongPath(
+  r0: number,
+  sink: number,
+  privRow: number,
+  pred: Int32Array,
+  delta: Float64Array | null,
+  u: Float64Array,
+  rowToCol: Int32Array,
+  colToRow: Int32Array,
+): void {
+  let j = sink;
+  if (j === NONE) {
+    j = privRow === r0 ? NONE : rowToCol[privRow]!;
+    rowToCol[privRow] = NONE;
+    u[privRow] = delta![privRow]!;
+    if (j !== NONE) colToRow[j] = NONE;
+  }
+  while (j !== NONE) {
+    const i = pred[j]!;
+    const prevCol = i === r0 ? NONE : rowToCol[i]!;
+    rowToCol[i] = j;
+    colToRow[j] = i;
+    j = prevCol;
+  }
+}

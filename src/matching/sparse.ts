@@ -4,7 +4,7 @@ import { validateSparse, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
 import { applyWarmStart, releaseFreeColumns } from './warm.js';
 import { heapPopRoot, heapUp } from './heap.js';
-import { NONE, PRIVATE, reduceRows } from './reduction.js';
+import { NONE, PRIVATE, reduceRows, shiftAlongPath } from './reduction.js';
 
 /*
  * Shortest augmenting paths with dual prices (the Jonker–Volgenant family) on a CSR
@@ -390,22 +390,7 @@ class SparseSearch {
     }
     u[r0] = minVal;
 
-    if (!toColumn) {
-      // privRow leaves its column for its private one
-      j = privRow === r0 ? NONE : rowToCol[privRow]!;
-      rowToCol[privRow] = NONE;
-      u[privRow] = delta![privRow]!;
-      if (j !== NONE) colToRow[j] = NONE;
-      sink = j;
-    }
-    j = sink;
-    while (j !== NONE) {
-      i = pred[j]!;
-      const prevCol = i === r0 ? NONE : rowToCol[i]!;
-      rowToCol[i] = j;
-      colToRow[j] = i;
-      j = prevCol;
-    }
+    shiftAlongPath(r0, toColumn ? sink : NONE, privRow, pred, delta, u, rowToCol, colToRow);
     this.reset(nTouched);
     return scanned;
   }
