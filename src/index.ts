@@ -4,7 +4,7 @@ export {
   EVENT_SCHEMA, toEventRecord, toJsonLine,
   type LogItem, type LogInput, type LogFormat, type LoadLogOptions, type ReadLogOptions, type EventRecord,
 } from './consume/index.js';
-export { generateEvents, generateDay, GEN_DEFAULTS, type GenOptions } from './replay/gen.js';
+export { generateEvents, generateDay, GEN_DEFAULTS, type GenOptions } from './gen/gen.js';
 export {
   WindowEngine,
   type AssignmentRecord, type ExpiryRecord, type EpochRecord, type EngineSink, type EngineTotals, type EngineOptions,

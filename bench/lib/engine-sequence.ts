@@ -7,7 +7,7 @@
 import type { SolveOptions, SolveResult, SparseInstance, WarmStart } from '../../src/matching/index.js';
 import { solveSparse } from '../../src/matching/index.js';
 import { DEFAULT_CONFIG, type PairflowConfig, type SourcedEvent } from '../../src/model.js';
-import { generateEvents } from '../../src/replay/gen.js';
+import { generateEvents } from '../../src/gen/gen.js';
 import { WindowEngine, type EngineSink } from '../../src/window/engine.js';
 
 export interface RecordedSolve {

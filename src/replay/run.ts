@@ -10,16 +10,16 @@ import { basename } from 'node:path';
 import { loadLog } from '../consume/index.js';
 import { buildManifest, openRejectsFile, openRunDir, RUN_FILES, type RunDirSink } from '../emit/index.js';
 import type { PairflowConfig, Reject, SourcedEvent } from '../model.js';
-import type { AssignmentRecord, EngineSink, EpochRecord, EventSource, ExpiryRecord, OutputSink } from '../ports.js';
-import { WindowEngine, type EngineTotals } from '../window/engine.js';
-import { bucketOf, type BucketPlan } from './bootstrap.js';
-import { solveHindsight, type HindsightResult } from './hindsight.js';
-import {
-  quantileLinear, regretAndRatio,
-  type EpochSolveTimes, type HindsightStats, type MarketSummary, type OnlineStats, type ReplaySummary,
-} from './summary.js';
+import { drive, fileSource, Pipeline, teeRecords } from '../pipeline/drive.js';
+import type { EventSource, OutputSink } from '../ports.js';
+import type { BucketPlan } from './buckets.js';
+import { ReplayStats, type OnlineRun } from './stats.js';
+import { solveHindsight, type HindsightResult } from '../hindsight/hindsight.js';
+import { regretAndRatio, type HindsightStats, type MarketSummary, type ReplaySummary } from './summary.js';
 
 export type { ReplaySummary } from './summary.js';
+export type { OnlineRun } from './stats.js';
+export { fileSource } from '../pipeline/drive.js';
 
 const defaultNow = (): number => performance.now();
 
@@ -45,117 +45,6 @@ export interface ReplayEventsOptions {
   onProgress?: (p: ReplayProgress) => void;
 }
 
-/** The outcome of one online replay over loaded events: plain data (it crosses worker threads). */
-export interface OnlineRun {
-  windowMs: number;
-  totals: EngineTotals;
-  online: OnlineStats;
-  markets: { market: string; cost: number; matched: number; abandoned: number }[];
-  epochs: { solved: number; warm: number; cold: number };
-  epochSolve: { warm: EpochSolveTimes; cold: EpochSolveTimes };
-  /** Per-bucket online cost (executed pair costs by the demand's t, plus P per abandoned demand by its t). */
-  buckets: Float64Array | null;
-  /** Sum of the records' costs; equals totals.cost when the engine's records and totals agree. */
-  recordedCost: number;
-  ms: number;
-}
-
-/** Growable Float64Array: waits of 300k assignments without 300k boxed numbers. */
-class FloatList {
-  data = new Float64Array(1024);
-  length = 0;
-  push(v: number): void {
-    if (this.length === this.data.length) {
-      const next = new Float64Array(this.data.length * 2);
-      next.set(this.data);
-      this.data = next;
-    }
-    this.data[this.length++] = v;
-  }
-  view(): Float64Array {
-    return this.data.subarray(0, this.length);
-  }
-}
-
-function solveTimes(list: FloatList): EpochSolveTimes {
-  const v = list.view();
-  let total = 0;
-  for (let i = 0; i < v.length; i++) total += v[i]!;
-  return {
-    count: v.length,
-    totalMs: total,
-    meanMs: v.length > 0 ? total / v.length : null,
-    p95Ms: quantileLinear(v.slice(), 0.95),
-  };
-}
-
-/** Derives the summary figures from the engine's records as they stream past. */
-class Collector implements EngineSink {
-  readonly waits = new FloatList();
-  readonly warmMs = new FloatList();
-  readonly coldMs = new FloatList();
-  readonly markets = new Map<string, { cost: number; matched: number; abandoned: number }>();
-  readonly buckets: Float64Array | null;
-  solved = 0;
-  cost = 0;
-
-  constructor(private readonly plan: BucketPlan | undefined) {
-    this.buckets = plan ? new Float64Array(plan.count) : null;
-  }
-
-  private market(name: string): { cost: number; matched: number; abandoned: number } {
-    let m = this.markets.get(name);
-    if (!m) {
-      m = { cost: 0, matched: 0, abandoned: 0 };
-      this.markets.set(name, m);
-    }
-    return m;
-  }
-
-  assignment(a: AssignmentRecord): void {
-    this.waits.push((a.decidedAt - a.demandT) / 60_000);
-    const m = this.market(a.market);
-    m.cost += a.cost;
-    m.matched += 1;
-    this.cost += a.cost;
-    if (this.buckets) this.buckets[bucketOf(this.plan!, a.demandT)]! += a.cost;
-  }
-
-  expiry(e: ExpiryRecord): void {
-    if (e.side !== 'demand') return;
-    const m = this.market(e.market);
-    m.cost += e.cost;
-    m.abandoned += 1;
-    this.cost += e.cost;
-    if (this.buckets) this.buckets[bucketOf(this.plan!, e.t)]! += e.cost;
-  }
-
-  epoch(s: EpochRecord): void {
-    if (s.poolDemand === 0 || s.poolSupply === 0) return;
-    this.solved += 1;
-    (s.warm ? this.warmMs : this.coldMs).push(s.solveMs);
-  }
-}
-
-/** How many events between checks of the sink's backpressure. */
-const PRESSURE_CHECK_EVERY = 256;
-
-/**
- * A file source over a loaded log: its rejects first (they were found while reading),
- * then its events in event-time order, stable by file order. Live mode puts a Kafka
- * source behind the same port.
- */
-export function fileSource(loaded: { events: readonly SourcedEvent[]; rejects: readonly Reject[] }): EventSource {
-  return {
-    expected: loaded.events.length + loaded.rejects.length,
-    async *items() {
-      for (const reject of loaded.rejects) yield { kind: 'reject', reject };
-      for (const ev of loaded.events) yield { kind: 'event', ev };
-    },
-    close: async () => {},
-  };
-}
-
 /**
  * Replays loaded events (sorted by t, stable) through the window engine with
  * `config.windowMs`. The core of both `runReplay` and each sweep worker, so a sweep's
@@ -170,9 +59,8 @@ export async function replayEvents(
 }
 
 /**
- * Drives the window engine from a source in delivery order — `advanceTo(t)` then
- * `ingest` for each event, rejects to the sink — then `finish()`, awaiting the sink
- * whenever it reports backpressure.
+ * The replay composition: a source through the pipeline into the caller's sink, with
+ * the statistics of the summary gathered by a sink of their own beside it.
  */
 export async function replaySource(
   source: EventSource,
@@ -181,62 +69,15 @@ export async function replaySource(
 ): Promise<OnlineRun> {
   const now = opts.now ?? defaultNow;
   const start = now();
-  const collector = new Collector(opts.plan);
+  const stats = new ReplayStats(opts.plan);
   const out = opts.sink;
-  const sink: EngineSink = out
-    ? {
-        assignment: (a) => { collector.assignment(a); out.assignment(a); },
-        expiry: (e) => { collector.expiry(e); out.expiry(e); },
-        epoch: (r) => { collector.epoch(r); out.epoch(r); },
-      }
-    : collector;
-  const engine = new WindowEngine(config, sink, { warm: opts.warm ?? true, now, verify: opts.verify ?? false });
-  const total = source.expected ?? 0;
-  const progressEvery = Math.max(1, Math.floor(total / 200));
-  let i = 0;
-  try {
-    for await (const item of source.items()) {
-      if (item.kind === 'event') {
-        engine.advanceTo(item.ev.event.t);
-        engine.ingest(item.ev);
-      } else if (out) out.reject(item.reject);
-      if (out && i % PRESSURE_CHECK_EVERY === 0 && out.pressure) await out.drain();
-      if (opts.onProgress && i % progressEvery === 0) opts.onProgress({ phase: 'online', done: i, total });
-      i += 1;
-    }
-  } finally {
-    await source.close();
-  }
-  engine.finish();
-  if (out && out.pressure) await out.drain();
-  opts.onProgress?.({ phase: 'online', done: i, total: Math.max(i, total) });
-
-  const totals = engine.totals();
-  const waits = collector.waits.view();
-  let waitSum = 0;
-  for (let i = 0; i < waits.length; i++) waitSum += waits[i]!;
-  const online: OnlineStats = {
-    cost: totals.cost,
-    matched: totals.matched,
-    abandoned: totals.abandoned,
-    meanWaitMin: waits.length > 0 ? waitSum / waits.length : null,
-    p95WaitMin: quantileLinear(waits, 0.95),
-  };
-  const warmTimes = solveTimes(collector.warmMs);
-  const coldTimes = solveTimes(collector.coldMs);
-  return {
-    windowMs: config.windowMs,
-    totals: { ...totals },
-    online,
-    markets: [...collector.markets.entries()]
-      .sort((a, b) => (a[0] < b[0] ? -1 : a[0] > b[0] ? 1 : 0))
-      .map(([market, m]) => ({ market, ...m })),
-    epochs: { solved: collector.solved, warm: warmTimes.count, cold: coldTimes.count },
-    epochSolve: { warm: warmTimes, cold: coldTimes },
-    buckets: collector.buckets,
-    recordedCost: collector.cost,
-    ms: now() - start,
-  };
+  const pipeline = new Pipeline(config, out ? teeRecords([stats, out]) : stats, {
+    warm: opts.warm ?? true, now, verify: opts.verify ?? false,
+  });
+  await drive(source, pipeline, out ?? null, {
+    ...(opts.onProgress ? { onProgress: (done: number, total: number) => opts.onProgress!({ phase: 'online', done, total }) } : {}),
+  });
+  return stats.result(config.windowMs, pipeline.engine.totals(), now() - start);
 }
 
 /** Options of {@link runReplay}. */

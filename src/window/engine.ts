@@ -331,9 +331,10 @@ export class WindowEngine {
    * Takes one event. In replay, call `advanceTo(ev.t)` first, so that an event at
    * exactly an epoch τ is not known at τ. An event whose time is before an epoch
    * already closed for its market is late: counted, and its unit joins from the next
-   * epoch if still available.
+   * epoch if still available. Returns null when the event was taken, or the reason it
+   * was refused (the pipeline turns it into a reject).
    */
-  ingest(sourced: SourcedEvent): void {
+  ingest(sourced: SourcedEvent): string | null {
     const ev = sourced.event;
     const m = this.marketOf(ev.market);
     if (ev.t < m.lastClosed) this.tot.late++;
@@ -351,6 +352,7 @@ export class WindowEngine {
     } else if (out.kind === 'withdraw') {
       if (out.changed) this.endMoved(m, out.ended);
     }
+    return null;
   }
 
   /**

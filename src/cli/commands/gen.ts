@@ -1,7 +1,7 @@
 /**
  * `pairflow gen`: writes a deterministic synthetic scenario of the invented city of
- * src/replay/gen-city.ts as a log file (the generator itself is pure, in
- * src/replay/gen.ts). Invented data, for demos and benchmarks only.
+ * src/gen/city.ts as a log file (the generator itself is pure, in
+ * src/gen/gen.ts). Invented data, for demos and benchmarks only.
  */
 import { readFile, writeFile } from 'node:fs/promises';
 import { basename, dirname, relative } from 'node:path';
@@ -10,9 +10,9 @@ import { logFormatOf, toJsonLine } from '../../consume/index.js';
 import { parseRfc3339 } from '../../consume/validate.js';
 import { pairflowError } from '../../errors.js';
 import type { PairflowEvent } from '../../model.js';
-import { CITY_NAME } from '../../replay/gen-city.js';
-import { writeEventLog, type LogWriteFormat, type WrittenLog } from '../../replay/gen-write.js';
-import { generateEvents, GEN_DEFAULTS, resolveGenOptions, syncMarkerFor, type GenOptions } from '../../replay/gen.js';
+import { CITY_NAME } from '../../gen/city.js';
+import { writeEventLog, type LogWriteFormat, type WrittenLog } from '../../gen/write.js';
+import { generateEvents, GEN_DEFAULTS, resolveGenOptions, syncMarkerFor, type GenOptions } from '../../gen/gen.js';
 import { packageVersion } from '../main.js';
 import { parseNumber } from '../parse.js';
 

@@ -7,7 +7,7 @@ import type { Command } from 'commander';
 import { TextFileWriter } from '../../emit/index.js';
 import { pairflowError } from '../../errors.js';
 import { formatWindow, textTable } from '../../replay/summary.js';
-import { runSweep, sweepCsv, type SweepResult } from '../../replay/sweep.js';
+import { runSweep, sweepCsv, type SweepResult } from '../../sweep/sweep.js';
 import { resolveConfig } from '../config-file.js';
 import { parseDuration, parseNumber } from '../parse.js';
 import { parseThreads, rejectReporter } from './replay.js';

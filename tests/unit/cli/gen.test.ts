@@ -6,7 +6,7 @@ import { afterAll, afterEach, describe, expect, it, vi } from 'vitest';
 import { commandLine, outputFormat, parseStart } from '../../../src/cli/commands/gen.js';
 import { main } from '../../../src/cli/main.js';
 import { loadLog } from '../../../src/consume/index.js';
-import { GEN_DEFAULTS, resolveGenOptions } from '../../../src/replay/gen.js';
+import { GEN_DEFAULTS, resolveGenOptions } from '../../../src/gen/gen.js';
 
 const dir = mkdtempSync(join(tmpdir(), 'pairflow-gen-cli-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

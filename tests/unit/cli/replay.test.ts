@@ -4,7 +4,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { toJsonLine } from '../../../src/consume/index.js';
-import { generateEvents } from '../../../src/replay/gen.js';
+import { generateEvents } from '../../../src/gen/gen.js';
 
 // The CLI is tested as users run it: the built bin (npm test builds first).
 const bin = new URL('../../../bin/pairflow.js', import.meta.url).pathname;

@@ -186,9 +186,9 @@ describe('solveSparse() warm-started from its own optimum on a hindsight instanc
     // The restricted hindsight problems of the demo city have many degenerate duals
     // (rows whose second-best option is tight); rounding leaves some of those a few
     // ulps apart. Treating such a gap as a violation once cascaded and dropped half the pairs.
-    const { generateEvents } = await import('../../../src/replay/gen.js');
-    const { packMarket } = await import('../../../src/replay/hindsight-graph.js');
-    const { solvePackedMarket } = await import('../../../src/replay/hindsight-solve.js');
+    const { generateEvents } = await import('../../../src/gen/gen.js');
+    const { packMarket } = await import('../../../src/hindsight/graph.js');
+    const { solvePackedMarket } = await import('../../../src/hindsight/solve.js');
     const { buildOccurrences } = await import('../../../src/window/occurrences.js');
     const { DEFAULT_CONFIG } = await import('../../../src/model.js');
     const events = [...generateEvents({ days: 1, seed: 1, markets: 1, scale: 0.08 })].map((event, seq) => ({

@@ -5,7 +5,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { DEFAULT_CONFIG, type PairflowConfig, type PairflowEvent, type SourcedEvent } from '../../../src/model.js';
-import { solveHindsight } from '../../../src/replay/hindsight.js';
+import { solveHindsight } from '../../../src/hindsight/hindsight.js';
 import { replayEvents } from '../../../src/replay/run.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 

@@ -6,8 +6,8 @@ import { describe, expect, it } from 'vitest';
 import { toJsonLine } from '../../../src/consume/index.js';
 import { RUN_FILES } from '../../../src/emit/index.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
-import { generateEvents } from '../../../src/replay/gen.js';
-import { solveHindsight } from '../../../src/replay/hindsight.js';
+import { generateEvents } from '../../../src/gen/gen.js';
+import { solveHindsight } from '../../../src/hindsight/hindsight.js';
 import { runReplay, type ReplaySummary } from '../../../src/replay/run.js';
 import { runPythonJson, scipyVersion } from '../../helpers/python.js';
 

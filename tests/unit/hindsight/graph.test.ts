@@ -9,7 +9,7 @@ import {
   pairCostOf,
   type CompactGraph,
   type HindsightUnit,
-} from '../../../src/replay/hindsight-graph.js';
+} from '../../../src/hindsight/graph.js';
 import { euclideanKm, haversineKm, travelMin } from '../../../src/window/geo.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 

@@ -1,15 +1,14 @@
 /**
  * Worker-thread entry of `pairflow sweep`: receives the log once (workerData), packed
  * in shared memory (see sweep-log.ts), then replays one window length per message
- * through the same `replaySource` a single replay uses, decoding events as it goes,
+ * through the same pipeline composition (`replaySource`) a single replay uses, decoding events as it goes,
  * and posts the plain-data result back.
  */
 import { parentPort, workerData } from 'node:worker_threads';
 import type { PairflowConfig } from '../model.js';
-import type { EventSource } from '../ports.js';
 import type { BucketPlan } from './bootstrap.js';
-import { replaySource } from './run.js';
-import { unpackLog, type PackedLog } from './sweep-log.js';
+import { replaySource } from '../replay/run.js';
+import { packedSource, type PackedLog } from './packed-log.js';
 
 /** What the sweep hands each worker once. */
 export interface SweepWorkerData {
@@ -30,14 +29,7 @@ const data = workerData as SweepWorkerData | null;
 if (parentPort && data) {
   const port = parentPort;
   port.on('message', (job: SweepJob) => {
-    const source: EventSource = {
-      expected: data.log.count,
-      async *items() {
-        for (const ev of unpackLog(data.log)) yield { kind: 'event', ev };
-      },
-      close: async () => {},
-    };
-    replaySource(source, { ...data.config, windowMs: job.windowMs }, { warm: data.warm, plan: data.plan }).then(
+    replaySource(packedSource(data.log), { ...data.config, windowMs: job.windowMs }, { warm: data.warm, plan: data.plan }).then(
       (run) => port.postMessage({ id: job.id, ok: true, run }),
       (err: unknown) => {
         const e = err as { message?: string; code?: string; params?: unknown; stack?: string };

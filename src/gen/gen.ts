@@ -15,7 +15,7 @@
  */
 import { pairflowError } from '../errors.js';
 import type { ArrivalEvent, PairflowEvent, WithdrawEvent } from '../model.js';
-import { CITY_CENTRE, districtsFor, type District, type Spot } from './gen-city.js';
+import { CITY_CENTRE, districtsFor, type District, type Spot } from './city.js';
 import { mulberry32 } from '../random.js';
 
 /** Options of the generator; every field has a default in {@link GEN_DEFAULTS}. */

@@ -3,8 +3,8 @@ import { describe, expect, it } from 'vitest';
 import { solveSparse } from '../../../src/matching/index.js';
 import type { SolveOptions, SolveResult, SparseInstance } from '../../../src/matching/types.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
-import { packMarket, type HindsightUnit } from '../../../src/replay/hindsight-graph.js';
-import { solvePackedMarket } from '../../../src/replay/hindsight-solve.js';
+import { packMarket, type HindsightUnit } from '../../../src/hindsight/graph.js';
+import { solvePackedMarket } from '../../../src/hindsight/solve.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
 const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', speedKmh: 20, abandonPenalty: 25 };

@@ -6,10 +6,10 @@ import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 import { loadLog, toJsonLine } from '../../../src/consume/index.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
-import { generateEvents } from '../../../src/replay/gen.js';
-import { solveHindsight } from '../../../src/replay/hindsight.js';
+import { generateEvents } from '../../../src/gen/gen.js';
+import { solveHindsight } from '../../../src/hindsight/hindsight.js';
 import { runReplay } from '../../../src/replay/run.js';
-import { runSweep, sweepLoaded, sweepWorkerUrl, type SweepResult } from '../../../src/replay/sweep.js';
+import { runSweep, sweepLoaded, sweepWorkerUrl, type SweepResult } from '../../../src/sweep/sweep.js';
 
 const dir = mkdtempSync(join(tmpdir(), 'pairflow-sweep-'));
 

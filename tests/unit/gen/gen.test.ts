@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { validateEvent } from '../../../src/consume/validate.js';
 import type { ArrivalEvent, PairflowEvent, WithdrawEvent } from '../../../src/model.js';
-import { CITY_CENTRE, DISTRICTS, districtsFor } from '../../../src/replay/gen-city.js';
-import { DEMAND_PER_DAY, generateDay, generateEvents, GEN_DEFAULTS, resolveGenOptions, syncMarkerFor, type GenOptions } from '../../../src/replay/gen.js';
+import { CITY_CENTRE, DISTRICTS, districtsFor } from '../../../src/gen/city.js';
+import { DEMAND_PER_DAY, generateDay, generateEvents, GEN_DEFAULTS, resolveGenOptions, syncMarkerFor, type GenOptions } from '../../../src/gen/gen.js';
 
 const DAY = 86_400_000;
 // One default day, shared by the tests that only read it.

@@ -10,7 +10,7 @@ import {
   solveHindsightMarket,
   solveHindsightMarketDetailed,
   type HindsightResult,
-} from '../../../src/replay/hindsight.js';
+} from '../../../src/hindsight/hindsight.js';
 import { buildOccurrences, type Occurrence } from '../../../src/window/occurrences.js';
 import { runPythonJson, scipyVersion } from '../../helpers/python.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
@@ -338,7 +338,7 @@ describe('solveHindsight() threads', () => {
   const available = hindsightWorkerAvailable();
   if (!available && ci) {
     it('needs the compiled worker under CI (npm test builds first)', () => {
-      expect.fail('dist/replay/hindsight-worker.js is missing: run `npm run build` before the tests');
+      expect.fail('dist/hindsight/worker.js is missing: run `npm run build` before the tests');
     });
   }
   // Skipped locally when dist/ has not been built; `npm test` builds first.

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { bootstrapWindows, bucketOf, bucketPlan, bucketSums, seededRandom } from '../../../src/replay/bootstrap.js';
+import { bootstrapWindows, bucketOf, bucketPlan, bucketSums, seededRandom } from '../../../src/sweep/bootstrap.js';
 import { mulberry32 } from '../../helpers/random.js';
 
 const DAY = 86_400_000;

@@ -13,7 +13,7 @@ import { ERROR_CODES, pairflowError, PairflowError, type ErrorCode, type ErrorPa
 import { solveSparse } from '../matching/index.js';
 import type { PairflowConfig, SourcedEvent } from '../model.js';
 import { buildOccurrences, type Occurrence } from '../window/occurrences.js';
-import { packMarket, type PackedMarket } from './hindsight-graph.js';
+import { packMarket, type PackedMarket } from './graph.js';
 import {
   solvePackedMarket,
   type HindsightDemandCosts,
@@ -21,11 +21,11 @@ import {
   type HindsightMarketOptions,
   type HindsightMarketResult,
   type HindsightPhases,
-} from './hindsight-solve.js';
-import type { WorkerReply, WorkerTask } from './hindsight-worker.js';
+} from './solve.js';
+import type { WorkerReply, WorkerTask } from './worker.js';
 
 export type { HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail, HindsightPhases };
-export { DEFAULT_CANDIDATES_PER_DEMAND } from './hindsight-solve.js';
+export { DEFAULT_CANDIDATES_PER_DEMAND } from './solve.js';
 
 /** The hindsight optimum of a whole log: totals over markets, then each market. */
 export interface HindsightResult {
@@ -102,8 +102,8 @@ export function solveHindsightMarketDetailed(
   return { ...r, detail: detail! };
 }
 
-/** The compiled worker entry: `dist/replay/` seen from both `src/replay/` and `dist/replay/`. */
-const WORKER_URL = new URL('../../dist/replay/hindsight-worker.js', import.meta.url);
+/** The compiled worker entry: `dist/hindsight/` seen from both `src/hindsight/` and `dist/hindsight/`. */
+const WORKER_URL = new URL('../../dist/hindsight/worker.js', import.meta.url);
 
 /** Whether the compiled worker exists, so threads can be used. */
 export function hindsightWorkerAvailable(): boolean {

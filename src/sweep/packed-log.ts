@@ -11,6 +11,7 @@
 import { Buffer } from 'node:buffer';
 
 import type { PairflowEvent, SourcedEvent } from '../model.js';
+import type { EventSource } from '../ports.js';
 
 /** Numbers per event: t, until (NaN = null), lat, lon, x, y (NaN = absent). */
 const NUM = 6;
@@ -170,4 +171,15 @@ export function* unpackLog(log: PackedLog): Generator<SourcedEvent> {
       : { file: shared(int[k + 3]!), line: int[k + 4]!, ...(block !== NONE ? { block } : {}), ...(record !== NONE ? { record } : {}) };
     yield { event, pos, seq: int[k + 7]! };
   }
+}
+
+/** An event source over a packed log: its events in packed order, decoded one at a time. */
+export function packedSource(log: PackedLog): EventSource {
+  return {
+    expected: log.count,
+    async *items() {
+      for (const ev of unpackLog(log)) yield { kind: 'event', ev };
+    },
+    close: async () => {},
+  };
 }

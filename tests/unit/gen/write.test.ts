@@ -8,8 +8,8 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { loadLog } from '../../../src/consume/index.js';
 import { toJsonLine } from '../../../src/consume/schema.js';
 import type { PairflowEvent } from '../../../src/model.js';
-import { generateDay, generateEvents, syncMarkerFor } from '../../../src/replay/gen.js';
-import { writeEventLog } from '../../../src/replay/gen-write.js';
+import { generateDay, generateEvents, syncMarkerFor } from '../../../src/gen/gen.js';
+import { writeEventLog } from '../../../src/gen/write.js';
 
 const dir = mkdtempSync(join(tmpdir(), 'pairflow-genwrite-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

@@ -31,7 +31,7 @@ import {
   type AllowedGraph,
   type CompactGraph,
   type PackedMarket,
-} from './hindsight-graph.js';
+} from './graph.js';
 
 /** The per-market figures of the hindsight optimum. */
 export interface HindsightMarketResult {

@@ -1,6 +1,6 @@
 /**
  * Worker-thread entry of the hindsight optimum: solves one packed market per message.
- * Loaded from the compiled `dist/replay/hindsight-worker.js` by hindsight.ts; only
+ * Loaded from the compiled `dist/hindsight/worker.js` by hindsight.ts; only
  * plain data (typed arrays, the config object) crosses the thread boundary.
  */
 
@@ -9,13 +9,13 @@ import { parentPort } from 'node:worker_threads';
 import { PairflowError } from '../errors.js';
 import { solveSparse } from '../matching/index.js';
 import type { PairflowConfig } from '../model.js';
-import { GraphStore, type PackedMarket } from './hindsight-graph.js';
+import { GraphStore, type PackedMarket } from './graph.js';
 import {
   solvePackedMarket,
   type HindsightDemandCosts,
   type HindsightMarketOptions,
   type HindsightMarketResult,
-} from './hindsight-solve.js';
+} from './solve.js';
 
 /** One market to solve. */
 export interface WorkerTask {

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 
 import type { PairflowEvent, SourcedEvent } from '../../../src/model.js';
-import { packLog, unpackLog } from '../../../src/replay/sweep-log.js';
+import { packLog, unpackLog } from '../../../src/sweep/packed-log.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
 /** Seeded events of every shape the validator produces: both metrics, withdraws, until, capabilities, Avro positions. */

@@ -17,11 +17,11 @@ import { buildManifest, csvRow } from '../emit/index.js';
 import { pairflowError, PairflowError, type ErrorCode, type ErrorParams } from '../errors.js';
 import type { PairflowConfig, Reject, SourcedEvent } from '../model.js';
 import { bootstrapWindows, bucketPlan, bucketSums, type BucketPlan } from './bootstrap.js';
-import { solveHindsight, type HindsightPhases, type HindsightResult } from './hindsight.js';
-import { hindsightStats, replayEvents, type LoadedLog, type OnlineRun } from './run.js';
-import { regretAndRatio, type EpochSolveTimes, type HindsightStats, type OnlineStats } from './summary.js';
-import { packLog } from './sweep-log.js';
-import type { SweepJob, SweepWorkerData } from './sweep-worker.js';
+import { solveHindsight, type HindsightPhases, type HindsightResult } from '../hindsight/hindsight.js';
+import { hindsightStats, replayEvents, type LoadedLog, type OnlineRun } from '../replay/run.js';
+import { regretAndRatio, type EpochSolveTimes, type HindsightStats, type OnlineStats } from '../replay/summary.js';
+import { packLog } from './packed-log.js';
+import type { SweepJob, SweepWorkerData } from './worker.js';
 
 /** Options of {@link runSweep}. */
 export interface SweepOptions {
@@ -95,9 +95,9 @@ export interface SweepResult {
 
 const defaultNow = (): number => performance.now();
 
-/** Where the compiled worker lives: `dist/replay/` under the package root, from both `src/replay` and `dist/replay`. */
+/** Where the compiled worker lives: `dist/sweep/` under the package root, from both `src/sweep` and `dist/sweep`. */
 export function sweepWorkerUrl(): URL {
-  return new URL('../../dist/replay/sweep-worker.js', import.meta.url);
+  return new URL('../../dist/sweep/worker.js', import.meta.url);
 }
 
 /** The bucket plan of a log: over the event times of its demand arrivals. */
