@@ -4,9 +4,9 @@
  * ones, so both drive the one engine the same way (docs/principles.md).
  */
 import type { Reject, SourcedEvent } from './model.js';
-import type { AssignmentRecord, EngineSink, EpochRecord, ExpiryRecord } from './window/engine.js';
+import type { AssignmentRecord, EngineSink, EpochRecord, ExpiryRecord, PriceRecord } from './window/engine.js';
 
-export type { AssignmentRecord, EngineSink, EpochRecord, ExpiryRecord };
+export type { AssignmentRecord, EngineSink, EpochRecord, ExpiryRecord, PriceRecord };
 
 /** One item from a source: a valid event, or a line/record that was rejected. */
 export type SourceItem = { kind: 'event'; ev: SourcedEvent } | { kind: 'reject'; reject: Reject };
@@ -69,7 +69,9 @@ export function nullSink(): OutputSink {
 
 /** Fans one stream of records out to several sinks (the first is awaited first). */
 export function teeSink(sinks: readonly OutputSink[]): OutputSink {
+  const priced = sinks.filter((s) => s.prices !== undefined);
   return {
+    ...(priced.length > 0 ? { prices: (p: PriceRecord) => { for (const s of priced) s.prices!(p); } } : {}),
     assignment: (a) => { for (const s of sinks) s.assignment(a); },
     expiry: (e) => { for (const s of sinks) s.expiry(e); },
     epoch: (r) => { for (const s of sinks) s.epoch(r); },

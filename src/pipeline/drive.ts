@@ -139,10 +139,14 @@ export function fileSource(loaded: { events: readonly SourcedEvent[]; rejects: r
 
 /** Fans records out to several sinks, in order. */
 export function teeRecords(sinks: readonly RecordSink[]): RecordSink {
-  return {
+  const tee: RecordSink = {
     assignment: (a) => { for (const s of sinks) s.assignment(a); },
     expiry: (e) => { for (const s of sinks) s.expiry(e); },
     epoch: (r) => { for (const s of sinks) s.epoch(r); },
     reject: (r) => { for (const s of sinks) s.reject(r); },
   };
+  // Only when someone listens: the engine skips building price records otherwise.
+  const priced = sinks.filter((s) => s.prices !== undefined);
+  if (priced.length > 0) tee.prices = (p) => { for (const s of priced) s.prices!(p); };
+  return tee;
 }

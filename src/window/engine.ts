@@ -50,6 +50,28 @@ export interface ExpiryRecord {
   epoch: number;
   /** P for demand, 0 for supply. */
   cost: number;
+  /** Where the unit was (lat/lon or x/y, per the metric): for maps of unserved demand. Not part of the bus record. */
+  lat?: number;
+  lon?: number;
+  x?: number;
+  y?: number;
+}
+
+/**
+ * The dual prices of one side of one solve, unit by unit, with where each unit is. The
+ * arrays are views into the engine's buffers: valid during the call only.
+ */
+export interface PriceRecord {
+  market: string;
+  epoch: number;
+  side: Side;
+  /** Units in this record. */
+  n: number;
+  /** Coordinates of unit k: (a[k], b[k]) = (lat, lon) under haversine, (x, y) under euclidean. */
+  a: Float64Array;
+  b: Float64Array;
+  /** Dual price of unit k in this solve (SPEC §5: u_d for demand, v_s ≤ 0 for supply). */
+  price: Float64Array;
 }
 
 /** What happened at one solved epoch of one market. */
@@ -81,6 +103,11 @@ export interface EngineSink {
   assignment(a: AssignmentRecord): void;
   expiry(e: ExpiryRecord): void;
   epoch(s: EpochRecord): void;
+  /**
+   * Optional: the dual prices of every solve, per side (for maps of where supply was
+   * scarce). Left out, the engine builds nothing for it.
+   */
+  prices?(p: PriceRecord): void;
 }
 
 /** Running totals over every market. */
@@ -668,7 +695,44 @@ export class WindowEngine {
       this.tot.abandoned++;
       this.tot.cost += this.P;
     }
-    this.sink.expiry({ market: m.name, side: o.side, id: o.id, t: o.t, end: o.end, epoch: tau, cost: demand ? this.P : 0 });
+    const e: ExpiryRecord = { market: m.name, side: o.side, id: o.id, t: o.t, end: o.end, epoch: tau, cost: demand ? this.P : 0 };
+    if (this.haversine) {
+      e.lat = o.lat;
+      e.lon = o.lon;
+    } else {
+      e.x = o.x;
+      e.y = o.y;
+    }
+    this.sink.expiry(e);
+  }
+
+  private priceA: Float64Array = new Float64Array(64);
+  private priceB: Float64Array = new Float64Array(64);
+  private priceV: Float64Array = new Float64Array(64);
+
+  private emitPrices(
+    market: string, tau: number,
+    nRows: number, rowOcc: Int32Array, rowDuals: ArrayLike<number>,
+    nCols: number, colOcc: Int32Array, colDuals: ArrayLike<number>,
+  ): void {
+    const occs = this.ledger.occurrences;
+    const n = Math.max(nRows, nCols);
+    this.priceA = growF64(this.priceA, n);
+    this.priceB = growF64(this.priceB, n);
+    this.priceV = growF64(this.priceV, n);
+    const sides: Array<[Side, number, Int32Array, ArrayLike<number>]> = [['demand', nRows, rowOcc, rowDuals], ['supply', nCols, colOcc, colDuals]];
+    for (const [side, count, ids, duals] of sides) {
+      for (let k = 0; k < count; k++) {
+        const [a, b] = this.coords(occs[ids[k]!]!);
+        this.priceA[k] = a;
+        this.priceB[k] = b;
+        this.priceV[k] = duals[k]!;
+      }
+      this.sink.prices!({
+        market, epoch: tau, side, n: count,
+        a: this.priceA.subarray(0, count), b: this.priceB.subarray(0, count), price: this.priceV.subarray(0, count),
+      });
+    }
   }
 
   private solve(m: MarketState, tau: number): void {
@@ -780,6 +844,8 @@ export class WindowEngine {
       if (v < pMin) pMin = v;
       if (v > pMax) pMax = v;
     }
+
+    if (this.sink.prices) this.emitPrices(m.name, tau, nRows, rowOcc, res.rowDuals, nCols, this.colOcc, res.colDuals);
 
     let matched = 0;
     let tentative = 0;
