@@ -162,8 +162,8 @@ describe('WindowEngine: deferral cost P at the last chance, R otherwise', () => 
     ], { abandonPenalty: 7, reserve: 5 });
     expect(pairs(rec)).toEqual([]);
     expect(rec.expiries).toEqual([
-      { market: 'm', side: 'demand', id: 'd', t: 0, end: 4500, epoch: 5000, cost: 7 },
-      { market: 'm', side: 'supply', id: 's', t: 0, end: 30 * MIN, epoch: 30 * MIN + 1000, cost: 0 },
+      { market: 'm', side: 'demand', id: 'd', t: 0, end: 4500, epoch: 5000, cost: 7, x: 0, y: 0 },
+      { market: 'm', side: 'supply', id: 's', t: 0, end: 30 * MIN, epoch: 30 * MIN + 1000, cost: 0, x: 8, y: 0 },
     ]);
     expect(engine.totals()).toMatchObject({ demandUnits: 1, supplyUnits: 1, matched: 0, abandoned: 1, cost: 7 });
   });
@@ -210,8 +210,8 @@ describe('WindowEngine: abandonment and expiry records', () => {
       { type: 'supply', id: 's', t: 200, x: 50 },
     ]);
     expect(rec.expiries).toEqual([
-      { market: 'm', side: 'demand', id: 'd', t: 100, end: 100 + 10 * MIN, epoch: 601_000, cost: 30 },
-      { market: 'm', side: 'supply', id: 's', t: 200, end: 200 + 30 * MIN, epoch: 1_801_000, cost: 0 },
+      { market: 'm', side: 'demand', id: 'd', t: 100, end: 100 + 10 * MIN, epoch: 601_000, cost: 30, x: 0, y: 0 },
+      { market: 'm', side: 'supply', id: 's', t: 200, end: 200 + 30 * MIN, epoch: 1_801_000, cost: 0, x: 50, y: 0 },
     ]);
     expect(engine.totals()).toMatchObject({ abandoned: 1, cost: 30, matched: 0 });
   });
@@ -223,7 +223,7 @@ describe('WindowEngine: abandonment and expiry records', () => {
       { type: 'withdraw', side: 'demand', id: 'd', t: 1500 },
     ]);
     expect(pairs(rec)).toEqual([]);
-    expect(rec.expiries[0]).toEqual({ market: 'm', side: 'demand', id: 'd', t: 1100, end: 1500, epoch: 2000, cost: 30 });
+    expect(rec.expiries[0]).toEqual({ market: 'm', side: 'demand', id: 'd', t: 1100, end: 1500, epoch: 2000, cost: 30, x: 0, y: 0 });
     expect(engine.totals().abandoned).toBe(1);
   });
 
