@@ -1,0 +1,35 @@
+/**
+ * The match ceiling of a segment: the maximum-cardinality matching of its allowed
+ * graph (no policy can match more pairs), seeded with the optimum's own pairs. Pure.
+ */
+
+import { maxCardinalityMatching } from '../matching/cardinality.js';
+import type { CompactGraph } from './graph.js';
+
+/**
+ * Size of a maximum-cardinality matching of `g`. Hopcroft–Karp seeds itself greedily
+ * with each row's first free pair: with the optimum's pair moved first in each row,
+ * that seed is the optimum's matching, and only the few rows it leaves short need
+ * augmenting. Reorders pairs within rows of `g` (the graph is done with otherwise).
+ *
+ * @param rowToCol the optimum's column per graph row, -1 when unmatched
+ */
+export function matchCeiling(g: CompactGraph, rowToCol: Int32Array): number {
+  const { nRows, rowPtr, colIdx, cost32 } = g;
+  for (let r = 0; r < nRows; r++) {
+    const c = rowToCol[r]!;
+    if (c < 0) continue;
+    const first = rowPtr[r]!;
+    const end = rowPtr[r + 1]!;
+    for (let e = first; e < end; e++) {
+      if (colIdx[e] !== c) continue;
+      colIdx[e] = colIdx[first]!;
+      colIdx[first] = c;
+      const t = cost32[e]!;
+      cost32[e] = cost32[first]!;
+      cost32[first] = t;
+      break;
+    }
+  }
+  return maxCardinalityMatching(g).size;
+}

@@ -1,0 +1,173 @@
+/**
+ * The pricing pass of the hindsight optimum (SPEC §4): under the restricted solves'
+ * prices, the reduced cost `c − u_d − v_s` of every allowed pair that is not a
+ * candidate yet; the most negative few of each row become candidates. A pass that
+ * finds none proves the prices feasible for the LP over all allowed pairs. Pure.
+ *
+ * Incremental: a row whose last pricing found it clean (no violator left out) needs
+ * no new pass while its price and the prices of all its columns stand still, as its
+ * reduced costs are then the same numbers. Columns are in arrival order, so a row's
+ * columns lie in a short index range, and "did a column in the range move?" is one
+ * lookup in a prefix count of the columns that moved.
+ */
+
+import { pairflowError } from '../errors.js';
+import { markCandidate } from './candidates.js';
+import type { CompactGraph, PairCost } from './graph.js';
+
+// A non-candidate pair prices out below this (relative to its cost): well under the
+// certificate's 1e-9 yet above the rounding of duals built from sums of costs.
+const PRICE_TOL = 1e-11;
+/**
+ * A stored float32 cost is within 2^-24 + 1e-12 of the exact one (relative, see
+ * buildCompactGraph); this covers that and the rounding of the reduced cost
+ * computed from it.
+ */
+export const F32_SLACK = 2 ** -22;
+
+/** The pairs one pass adds, rows ascending (each row's in the order found). */
+export interface PricedOut {
+  /** Pairs that price out, added or not. */
+  readonly violators: number;
+  readonly n: number;
+  readonly rows: Int32Array;
+  readonly edges: Int32Array;
+  readonly costs: Float64Array;
+}
+
+export class Pricer {
+  private readonly rowClean: Uint8Array;
+  private readonly pricedU: Float64Array;
+  private readonly pricedV: Float64Array;
+  private readonly movedBefore: Int32Array;
+  private readonly addRed: Float64Array;
+  private readonly addEdge: Int32Array;
+  private readonly addCost: Float64Array;
+  private newRow = new Int32Array(1024);
+  private newEdge = new Int32Array(1024);
+  private newCost = new Float64Array(1024);
+  private passes = 0;
+  /** Row pricings over all passes (a clean row whose prices stood still is skipped). */
+  rowsPriced = 0;
+  /** Decisions too close to call on the float32 cost, settled on the exact cost. */
+  rechecks = 0;
+
+  /**
+   * @param colLo per row, its lowest column (see FirstCandidates)
+   * @param colHi per row, its highest column
+   * @param addPerRow pairs added per row and pass: its most negative reduced costs
+   * @param P the unmatched cost: a violator costs less (its c < u + v ≤ P)
+   */
+  constructor(
+    private readonly g: CompactGraph,
+    private readonly exact: PairCost,
+    private readonly colLo: Int32Array,
+    private readonly colHi: Int32Array,
+    private readonly addPerRow: number,
+    private readonly P: number,
+  ) {
+    this.rowClean = new Uint8Array(g.nRows);
+    this.pricedU = new Float64Array(g.nRows);
+    this.pricedV = new Float64Array(g.nCols);
+    this.movedBefore = new Int32Array(g.nCols + 1);
+    this.addRed = new Float64Array(addPerRow);
+    this.addEdge = new Int32Array(addPerRow);
+    this.addCost = new Float64Array(addPerRow);
+  }
+
+  /**
+   * One pass under prices (u per graph row, v per column); the pairs it returns are
+   * marked candidates in the graph. The arrays returned are reused by the next pass.
+   */
+  pass(rowDuals: Float64Array, colDuals: Float64Array): PricedOut {
+    const { g, exact, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCost } = this;
+    const { nRows, nCols, rowPtr, colIdx, cost32, rowDemand } = g;
+    const first = this.passes++ === 0;
+    // Columns whose price moved since the previous pass (every one, the first time).
+    for (let c = 0; c < nCols; c++) {
+      const v = colDuals[c]!;
+      const moved = first || v !== pricedV[c] ? 1 : 0;
+      movedBefore[c + 1] = movedBefore[c]! + moved;
+      pricedV[c] = v;
+    }
+    let violators = 0;
+    let nNew = 0;
+    let rechecks = 0;
+    let rowsPriced = 0;
+    for (let r = 0; r < nRows; r++) {
+      const u = rowDuals[r]!;
+      if (rowClean[r] === 1 && u === pricedU[r] && (colHi[r]! < colLo[r]! || movedBefore[colHi[r]! + 1] === movedBefore[colLo[r]!])) continue;
+      pricedU[r] = u;
+      rowsPriced++;
+      const au = Math.abs(u);
+      const d = rowDemand[r]!;
+      let nb = 0;
+      let rowViolators = 0;
+      const end = rowPtr[r + 1]!;
+      for (let e = rowPtr[r]!; e < end; e++) {
+        const c32 = cost32[e]!;
+        if (c32 < 0) continue;
+        const v = colDuals[colIdx[e]!]!;
+        // Far from zero the float32 cost decides either way; near zero the exact cost
+        // does. The reduced cost kept for ranking may be the float32 one: any choice
+        // among true violators is sound.
+        let red = c32 - u - v;
+        const slack = F32_SLACK * (c32 + au + Math.abs(v));
+        if (red >= slack) continue;
+        let c = NaN;
+        if (red >= -slack - 2 * PRICE_TOL * (1 + c32)) {
+          rechecks++;
+          c = exact(d, colIdx[e]!);
+          red = c - u - v;
+          if (red >= -PRICE_TOL * (1 + Math.abs(c))) continue;
+        }
+        violators++;
+        rowViolators++;
+        // Keep the addPerRow most negative: adding every violator at once floods
+        // the restricted solve with pairs that the next prices no longer want.
+        if (nb === addPerRow && red >= addRed[nb - 1]!) continue;
+        let p = nb < addPerRow ? nb++ : addPerRow - 1;
+        while (p > 0 && addRed[p - 1]! > red) {
+          addRed[p] = addRed[p - 1]!;
+          addEdge[p] = addEdge[p - 1]!;
+          addCost[p] = addCost[p - 1]!;
+          p--;
+        }
+        addRed[p] = red;
+        addEdge[p] = e;
+        addCost[p] = c;
+      }
+      // Clean when every violator found is added now.
+      rowClean[r] = rowViolators > nb ? 0 : 1;
+      if (nb === 0) continue;
+      if (nNew + nb > this.newRow.length) this.grow(nNew + nb);
+      for (let q = 0; q < nb; q++) {
+        const e = addEdge[q]!;
+        const c = Number.isNaN(addCost[q]!) ? exact(d, colIdx[e]!) : addCost[q]!;
+        // A violator has c < u + v ≤ P; anything else is a bug in the prices.
+        if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
+        markCandidate(cost32, e);
+        this.newRow[nNew] = r;
+        this.newEdge[nNew] = e;
+        this.newCost[nNew] = c;
+        nNew++;
+      }
+    }
+    this.rechecks += rechecks;
+    this.rowsPriced += rowsPriced;
+    return { violators, n: nNew, rows: this.newRow, edges: this.newEdge, costs: this.newCost };
+  }
+
+  private grow(need: number): void {
+    const size = Math.max(2 * this.newRow.length, need);
+    const rows = new Int32Array(size);
+    rows.set(this.newRow);
+    const edges = new Int32Array(size);
+    edges.set(this.newEdge);
+    const costs = new Float64Array(size);
+    costs.set(this.newCost);
+    this.newRow = rows;
+    this.newEdge = edges;
+    this.newCost = costs;
+  }
+}
