@@ -3,6 +3,7 @@ import type { SolveOptions, SolveResult, SparseInstance } from './types.js';
 import { validateSparse, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
 import { applyWarmStart, releaseFreeColumns } from './warm.js';
+import { auctionPrices } from './auction.js';
 import { heapPopRoot, heapUp } from './heap.js';
 import { NONE, PRIVATE, reduceRows, shiftAlongPath } from './reduction.js';
 
@@ -27,6 +28,11 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   const t0 = now();
   validateSparse(inst);
   validateWarm(opts.warm, inst.nRows, inst.nCols);
+  if (opts.presolve === 'auction') {
+    // Prices from the auction, then the exact solver warm from them (auction.ts).
+    const a = auctionPrices(inst, opts.warm?.colPrices !== undefined ? { colPrices: opts.warm.colPrices } : {});
+    return solveSparseFull(inst, { ...opts, warm: { rowToCol: a.rowToCol, colPrices: a.colPrices } }, now, t0);
+  }
   return solveSparseFull(inst, opts, now, t0);
 }
 

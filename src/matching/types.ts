@@ -58,6 +58,13 @@ export interface SolveOptions {
    * (measured crossovers; wider ones are faster searched in full). @default 'auto'
    */
   readonly strategy?: 'auto' | 'full' | 'candidates';
+  /**
+   * How the shortest-path solver is started. `'auction'` first finds near-optimal
+   * prices with the forward–reverse auction (auction.ts) and warm-starts from them
+   * (from `warm`'s column prices when given): much faster on costs with many
+   * near-ties; the result is exact and certified either way. @default 'none'
+   */
+  readonly presolve?: 'none' | 'auction';
 }
 
 export interface SolveStats {
