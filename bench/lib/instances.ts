@@ -26,6 +26,69 @@ export function denseUniform(seed: number, nRows: number, nCols: number, kind: C
 }
 
 /**
+ * The structured dense families of bench:solver, the costs users have rather than
+ * uniform random numbers (named after the classes of the dense-assignment literature,
+ * e.g. Dell'Amico & Toth 2000, "Algorithms and codes for dense assignment problems:
+ * the state of the art" — from memory):
+ * - `geometric`: rows and columns are random points in a 1000 × 1000 square, cost =
+ *   Euclidean distance (the DIMACS "geometric" generator's idea);
+ * - `clustered`: the same, the points drawn around 10 random centres (normal, σ = 30);
+ * - `few-ints`: uniform integers 0..9 (few distinct costs, many ties);
+ * - `machol-wien`: c_ij = (i + 1)(j + 1) (Machol & Wien 1976), every assignment has
+ *   nearly the same cost, a known hard case for shortest-path methods;
+ * - `rank-one`: c_ij = a_i · b_j + noise, a and b uniform in [1, 100), noise uniform in [0, 1).
+ * Instances built here and nowhere else; the names say what they imitate.
+ */
+export type DenseFamily = 'geometric' | 'clustered' | 'few-ints' | 'machol-wien' | 'rank-one';
+export const DENSE_FAMILIES: readonly DenseFamily[] = ['geometric', 'clustered', 'few-ints', 'machol-wien', 'rank-one'];
+
+export function denseFamily(seed: number, n: number, family: DenseFamily): DenseInstance {
+  const rand = mulberry32(seed);
+  const cost = new Float64Array(n * n);
+  const points = (count: number, draw: () => [number, number]): Float64Array => {
+    const xy = new Float64Array(2 * count);
+    for (let i = 0; i < count; i++) [xy[2 * i], xy[2 * i + 1]] = draw();
+    return xy;
+  };
+  const distances = (a: Float64Array, b: Float64Array): void => {
+    for (let i = 0; i < n; i++) {
+      for (let j = 0; j < n; j++) cost[i * n + j] = Math.hypot(a[2 * i]! - b[2 * j]!, a[2 * i + 1]! - b[2 * j + 1]!);
+    }
+  };
+  switch (family) {
+    case 'geometric': {
+      const draw = (): [number, number] => [rand() * 1000, rand() * 1000];
+      distances(points(n, draw), points(n, draw));
+      break;
+    }
+    case 'clustered': {
+      const centres = points(10, () => [rand() * 1000, rand() * 1000]);
+      // Box–Muller: two uniforms give one standard normal.
+      const normal = (): number => Math.sqrt(-2 * Math.log(1 - rand())) * Math.cos(2 * Math.PI * rand());
+      const draw = (): [number, number] => {
+        const c = Math.floor(rand() * 10);
+        return [centres[2 * c]! + 30 * normal(), centres[2 * c + 1]! + 30 * normal()];
+      };
+      distances(points(n, draw), points(n, draw));
+      break;
+    }
+    case 'few-ints':
+      for (let k = 0; k < cost.length; k++) cost[k] = Math.floor(rand() * 10);
+      break;
+    case 'machol-wien':
+      for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) cost[i * n + j] = (i + 1) * (j + 1);
+      break;
+    case 'rank-one': {
+      const a = Float64Array.from({ length: n }, () => 1 + rand() * 99);
+      const b = Float64Array.from({ length: n }, () => 1 + rand() * 99);
+      for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) cost[i * n + j] = a[i]! * b[j]! + rand();
+      break;
+    }
+  }
+  return { nRows: n, nCols: n, cost };
+}
+
+/**
  * n × n with `perRow` distinct candidate columns per row, one of them from a random
  * permutation, so a perfect matching exists (scipy's full matching needs one).
  */

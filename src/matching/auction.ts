@@ -269,6 +269,6 @@ export function auctionPrices(inst: SparseInstance, opts: AuctionOptions = {}): 
   const rowToCol = new Int32Array(nRows);
   for (let r = 0; r < nRows; r++) rowToCol[r] = rowTo[r]! >= 0 ? rowTo[r]! : -1;
   const colPrices = new Float64Array(nCols);
-  for (let j = 0; j < nCols; j++) colPrices[j] = -p[j]!;
+  for (let j = 0; j < nCols; j++) colPrices[j] = p[j]! > 0 ? -p[j]! : 0;
   return { rowToCol, colPrices, bids, reverseBids, scanned, finished };
 }

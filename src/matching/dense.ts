@@ -4,6 +4,7 @@ import { defaultNow, finishResult, Sum } from './result.js';
 import { infeasibleRow, mustMatchAll, shiftToNonPositive, solveSparseChecked, solveSparseCore, unreachableColumn } from './sparse.js';
 import { PairflowError } from '../errors.js';
 import { NONE, PRIVATE, reduceRows, shiftAlongPath, type Reduced } from './reduction.js';
+import { denseAuction } from './dense-auction.js';
 import type { SparseInstance, WarmStart } from './types.js';
 
 /*
@@ -91,11 +92,27 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
   const reduced = reduceDenseRows(inst, delta, u, v, rowToCol, colToRow);
   scannedPairs += reduced.scanned;
   const searchedRows = reduced.nFree;
+  let auctionBids = 0;
   if (reduced.nFree > 0) {
     const search = new DenseSearch(inst, delta, u, v, rowToCol, colToRow);
-    for (let f = 0; f < reduced.nFree; f++) {
+    // A perfect assignment whose searches keep scanning most of the matrix each (the
+    // n³ behaviour of structured costs) switches to the auction (dense-auction.ts)
+    // once the searches have read SEARCH_BUDGET matrices; the rows it leaves short of
+    // exact are searched after it.
+    const budget = perfect && nRows >= AUCTION_MIN_N ? SEARCH_BUDGET * nRows * nCols : Infinity;
+    let spent = 0;
+    let f = 0;
+    for (; f < reduced.nFree && spent <= budget; f++) {
       augmentations++;
-      scannedPairs += search.run(reduced.freeRows[f]!);
+      const n = search.run(reduced.freeRows[f]!);
+      spent += n;
+      scannedPairs += n;
+    }
+    if (f < reduced.nFree) {
+      const out = finishByAuction(inst, u, v, rowToCol, colToRow, search);
+      auctionBids = out.bids;
+      augmentations += out.searches;
+      scannedPairs += out.scanned;
     }
   }
 
@@ -119,7 +136,75 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
     warm: false,
     warmPairsKept: 0,
     searchedRows,
+    ...(auctionBids > 0 ? { auctionBids } : {}),
   });
+}
+
+/** Square instances below this size never switch to the auction (searches are cheap there). */
+const AUCTION_MIN_N = 200;
+/** Matrices' worth of cells the searches may read before the auction takes over. */
+const SEARCH_BUDGET = 4;
+
+/**
+ * The rest of a perfect assignment by the auction: prices from the searches so far
+ * (v = −price) go in, ε-optimal prices and a full assignment come out; every row
+ * whose pair is then its exact cheapest option at those prices keeps it (tight, and
+ * every other pair of it feasible), the others are searched again. Free columns may
+ * have any price in the perfect case (the prices are shifted at the end).
+ */
+function finishByAuction(
+  inst: DenseInstance,
+  u: Float64Array,
+  v: Float64Array,
+  rowToCol: Int32Array,
+  colToRow: Int32Array,
+  search: DenseSearch,
+): { bids: number; searches: number; scanned: number } {
+  const { nRows: n, cost } = inst;
+  let scale = 0;
+  for (let k = 0; k < cost.length; k++) {
+    const a = Math.abs(cost[k]!);
+    if (a < Infinity && a > scale) scale = a;
+  }
+  if (!(scale > 0)) scale = 1;
+  const price = new Float64Array(n);
+  for (let j = 0; j < n; j++) price[j] = -v[j]!;
+  const assigned = new Int32Array(n);
+  // ε from a 64th of the largest cost down to 1e-7 of it, by 8 per phase (measured
+  // on the structured families of bench/solver.ts).
+  const a = denseAuction(cost, n, price, assigned, scale / 64, scale * 1e-7, 8, 400 * n * n);
+  let scanned = a.scanned;
+  if (!a.finished) {
+    // Out of budget (e.g. a row that cannot be matched): the searches finish alone.
+    let searches = 0;
+    for (let r = 0; r < n; r++) {
+      if (rowToCol[r] !== NONE) continue;
+      searches++;
+      scanned += search.run(r);
+    }
+    return { bids: a.bids, searches, scanned };
+  }
+  rowToCol.fill(NONE);
+  colToRow.fill(NONE);
+  for (let j = 0; j < n; j++) v[j] = -price[j]!;
+  const tie = 1e-12 * scale;
+  const free: number[] = [];
+  for (let r = 0; r < n; r++) {
+    const j = assigned[r]!;
+    const base = r * n;
+    const m = cheapestExcept(cost, base, n, v, -1);
+    scanned += n;
+    const own = cost[base + j]! - v[j]!;
+    if (j >= 0 && own - m <= tie) {
+      rowToCol[r] = j;
+      colToRow[j] = r;
+      u[r] = own;
+    } else {
+      free.push(r);
+    }
+  }
+  for (const r of free) scanned += search.run(r);
+  return { bids: a.bids, searches: free.length, scanned };
 }
 
 /**

@@ -82,6 +82,8 @@ export interface SolveStats {
   reverseSearches?: number;
   /** Rows left for shortest-path search after the warm start and greedy passes. */
   searchedRows?: number;
+  /** Bids of the auction, when the dense solver handed over to it (dense-auction.ts). */
+  auctionBids?: number;
 }
 
 export interface SolveResult {
