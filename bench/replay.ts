@@ -9,7 +9,18 @@
  *   - a six-window sweep, and warm versus cold epoch solves,
  *   - peak RSS of each child (/usr/bin/time -v, else the child's own maxRSS),
  * for 1, 2, 4 and 7 days, and writes the table between the bench:replay markers of
- * docs/benchmarks.md. `--quick` runs a tiny log (smoke test); `--no-write` prints only.
+ * docs/benchmarks.md. Then the growth tables of density and length: one day at
+ * `--scale` 1, 2, 4 and 8, and 1, 2, 4 and 7 days at scale 4 (replay with the
+ * hindsight as users run it, and the hindsight alone in a child of its own,
+ * bench/lib/hindsight-child.mjs, for where its time goes).
+ *
+ *   tsx bench/replay.ts [--quick] [--no-write] [--no-growth] [--root DIR] [--label TEXT]
+ *                       [--json-out FILE] [--before FILE]
+ *
+ * `--quick` runs tiny logs (smoke test); `--no-write` prints only; `--root DIR`
+ * measures another built checkout (its bin/ and dist/, e.g. the code before a
+ * change); `--json-out FILE` keeps the figures; `--before FILE` (figures of an earlier
+ * run) adds that run's growth tables above this one's, for comparison.
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
@@ -18,7 +29,9 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
-const BIN = join(ROOT, 'bin', 'pairflow.js');
+/** The checkout whose CLI is measured (`--root`). */
+let target = ROOT;
+const bin = (): string => join(target, 'bin', 'pairflow.js');
 const DOC = join(ROOT, 'docs', 'benchmarks.md');
 const START = '<!-- bench:replay:start -->';
 const END = '<!-- bench:replay:end -->';
@@ -35,6 +48,46 @@ export interface ReplayBenchOptions {
   days?: number[];
   /** Progress lines. @default stderr */
   log?: (line: string) => void;
+  /** Also the growth tables of density and length. @default true */
+  growth?: boolean;
+  /** A built checkout to measure instead of this one (its bin/ and dist/). @default this repository */
+  root?: string;
+  /** What the figures are of, e.g. a commit. @default the checkout's HEAD */
+  label?: string;
+  /** Growth figures of an earlier run (its `--json-out`), shown above this run's. */
+  before?: GrowthResult | null;
+}
+
+/** One log of the growth tables. */
+export interface GrowthRow {
+  scale: number;
+  days: number;
+  demandUnits: number;
+  supplyUnits: number;
+  pairsPriced: number;
+  pairsSolved: number;
+  pricingRounds: number;
+  /** `pairflow replay LOG --json`: the whole process, hindsight included. */
+  replayWallMs: number;
+  replayRssMb: number | null;
+  /** The hindsight alone (bench/lib/hindsight-child.mjs), when measured. */
+  alone: { ms: number; phases: Phases; rssMb: number } | null;
+  onlineCost: number;
+  hindsightCost: number;
+  /** 1-minute load average right after the replay. */
+  load: number;
+}
+
+/** The growth tables' figures, kept by `--json-out` for a later `--before`. */
+export interface GrowthResult {
+  label: string;
+  date: string;
+  loadStart: number;
+  loadEnd: number;
+  byScale: GrowthRow[];
+  byDays: GrowthRow[];
+  /** The demo week's hindsight alone (the sweep's), scale 1. */
+  demoWeekHindsightMs: number | null;
 }
 
 /** One child process run. */
@@ -83,6 +136,7 @@ export interface ReplayBenchResult {
     due: { days: number; warm: DueSolves; cold: DueSolves; warmOnlineMs: number; coldOnlineMs: number; warmCost: number; coldCost: number };
     sweep: { windows: string; wallMs: number; rssMb: number | null; hindsightMs: number | null; hindsightPhases: Phases | null; windowsMs: number; threads: number; best: number };
   };
+  growth: GrowthResult | null;
   markdown: string;
 }
 
@@ -108,7 +162,7 @@ export function runChild(args: string[], parseJson = true): ChildRun {
 function runChildOnce(args: string[], parseJson: boolean): ChildRun {
   const t0 = performance.now();
   const cmd = haveTimeV ? '/usr/bin/time' : process.execPath;
-  const argv = haveTimeV ? ['-v', process.execPath, BIN, ...args] : [BIN, ...args];
+  const argv = haveTimeV ? ['-v', process.execPath, bin(), ...args] : [bin(), ...args];
   const r = spawnSync(cmd, argv, { encoding: 'utf8', maxBuffer: 1 << 28 });
   const wallMs = performance.now() - t0;
   if (r.status !== 0) throw new Error(`pairflow ${args.join(' ')} exited ${r.status}: ${r.stderr.slice(-2000)}`);
@@ -136,6 +190,7 @@ const int = (v: number): string => (Number.isFinite(v) ? v.toLocaleString('en-US
 export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult {
   const quick = opts.quick ?? false;
   const log = opts.log ?? ((line: string) => process.stderr.write(`${line}\n`));
+  target = opts.root ?? ROOT;
   const outDir = opts.outDir ?? join(ROOT, 'bench', 'out');
   mkdirSync(outDir, { recursive: true });
   const scale = quick ? 0.01 : 1;
@@ -202,6 +257,8 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
     hindsightCost: num(sweep.json, 'hindsight.cost'),
     hindsightAlone: true,
   });
+
+  const growth = opts.growth ?? true ? measureGrowth(quick, outDir, log, opts.label ?? headOf(target), num(sweep.json, 'timings.hindsightMs')) : null;
 
   const machine = {
     cpu: cpus()[0]?.model.trim() ?? 'unknown',
@@ -296,10 +353,125 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
       `peak memory ≤ 2 GB — ${f1(Math.max(t.replayRssMb ?? 0, sw.rssMb ?? 0))} MB (${ok(Math.max(t.replayRssMb ?? 0, sw.rssMb ?? 0), 2048)}).`);
     md.push('');
   }
+  if (opts.before) md.push(...renderGrowth(opts.before, `Before: ${opts.before.label}`, null));
+  if (growth !== null) md.push(...renderGrowth(growth, opts.before ? `After: ${growth.label}` : null, quick ? null : targetsOf(growth)));
   md.push(END);
   const markdown = md.join('\n');
   if (opts.write ?? true) writeSection(markdown);
-  return { machine, quick, sizes, largest, markdown };
+  return { machine, quick, sizes, largest, growth, markdown };
+}
+
+function headOf(root: string): string {
+  const r = spawnSync('git', ['-C', root, 'log', '-1', '--format=%h %s'], { encoding: 'utf8' });
+  return r.status === 0 ? r.stdout.trim().slice(0, 80) : root;
+}
+
+/** The hindsight alone in a child process (bench/lib/hindsight-child.mjs) of the measured checkout. */
+function hindsightAlone(file: string): { ms: number; phases: Phases; rssMb: number } {
+  const script = fileURLToPath(new URL('./lib/hindsight-child.mjs', import.meta.url));
+  const r = spawnSync(process.execPath, [script, target, file, '2'], { encoding: 'utf8', maxBuffer: 1 << 26 });
+  if (r.status !== 0) throw new Error(`hindsight child failed on ${file}: ${r.stderr.slice(-2000)}`);
+  const j = JSON.parse(r.stdout.trim().split('\n').pop()!) as { ms: number; phases: Phases; peakRssMb: number };
+  return { ms: j.ms, phases: j.phases, rssMb: j.peakRssMb };
+}
+
+/**
+ * One day at each density, then each length at scale 4: `pairflow replay` (hindsight
+ * included) for time and peak memory as users see them, and the hindsight alone for
+ * where its time went (every density; the longest log only).
+ */
+function measureGrowth(quick: boolean, outDir: string, log: (line: string) => void, label: string, demoWeekHindsightMs: number): GrowthResult {
+  const scales = quick ? [0.01, 0.02] : [1, 2, 4, 8];
+  const daysScale = quick ? 0.02 : 4;
+  const daysList = quick ? [1] : [1, 2, 4, 7];
+  const loadStart = loadavg()[0]!;
+  const row = (scale: number, days: number, alone: boolean): GrowthRow => {
+    const file = ensureLog(outDir, days, scale);
+    log(`bench:replay: growth: ${days} day(s) at scale ${scale}: replay with the hindsight`);
+    const full = runChild(['replay', file, '--window', '10s', '--json']);
+    const load = loadavg()[0]!;
+    log(`bench:replay:   wall ${full.wallMs.toFixed(0)} ms rss ${full.peakRssMb} MB load ${load.toFixed(2)}`);
+    let a: GrowthRow['alone'] = null;
+    if (alone) {
+      log(`bench:replay: growth: ${days} day(s) at scale ${scale}: the hindsight alone`);
+      a = hindsightAlone(file);
+      log(`bench:replay:   ${JSON.stringify(a)}`);
+    }
+    return {
+      scale,
+      days,
+      demandUnits: num(full.json, 'demandUnits'),
+      supplyUnits: num(full.json, 'supplyUnits'),
+      pairsPriced: num(full.json, 'hindsight.pairsPriced'),
+      pairsSolved: num(full.json, 'hindsight.pairsSolved'),
+      pricingRounds: num(full.json, 'hindsight.pricingRounds'),
+      replayWallMs: full.wallMs,
+      replayRssMb: full.peakRssMb,
+      alone: a,
+      onlineCost: num(full.json, 'online.cost'),
+      hindsightCost: num(full.json, 'hindsight.cost'),
+      load,
+    };
+  };
+  const byScale = scales.map((scale) => row(scale, 1, true));
+  const byDays = daysList.map((days, k) => (days === 1 ? byScale.find((r) => r.scale === daysScale) ?? row(daysScale, 1, false) : row(daysScale, days, k === daysList.length - 1)));
+  return { label, date: new Date().toISOString().slice(0, 16).replace('T', ' ') + ' UTC', loadStart, loadEnd: loadavg()[0]!, byScale, byDays, demoWeekHindsightMs };
+}
+
+const phaseLine = (ph: Phases): string =>
+  `graph ${s1(ph.graphMs)}, setup ${s1(ph.setupMs)}, first solves ${s1(ph.firstSolveMs)}, pricing ${s1(ph.pricingMs)}, re-solves ${s1(ph.resolveMs)}, ceiling ${s1(ph.ceilingMs)}`;
+
+/** The two growth tables (and where the hindsight's time went) of one run. */
+function renderGrowth(g: GrowthResult, title: string | null, targets: string[] | null): string[] {
+  const md: string[] = [];
+  md.push(`### Growth with density and with length${title ? ` — ${title}` : ''}`);
+  md.push('');
+  md.push(`Run ${g.date} of ${g.label}; 1-minute load average ${g.loadStart.toFixed(1)} at the start, ${g.loadEnd.toFixed(1)} at the end (each row gives its own). ` +
+    '"wall s" and "peak MB" are the whole `pairflow replay LOG --window 10s --json` process (parsing, online replay and the hindsight on 2 worker threads alongside); ' +
+    '"alone s" is the hindsight by itself in a process of its own (bench/lib/hindsight-child.mjs, 2 threads), and its phases are thread time summed over markets.');
+  md.push('');
+  const base = g.byScale.find((r) => r.scale === 1) ?? g.byScale[0]!;
+  md.push('One day, `pairflow gen --days 1 --seed 1 --scale S`:');
+  md.push('');
+  md.push('| scale | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | peak MB | time ÷ scale 1 | memory ÷ scale 1 | alone s | alone peak MB | load |');
+  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+  for (const r of g.byScale) {
+    md.push(`| ${r.scale} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${s1(r.replayWallMs)} | ${f1(r.replayRssMb)} | ` +
+      `${f2(r.replayWallMs / base.replayWallMs)}× | ${f2((r.replayRssMb ?? NaN) / (base.replayRssMb ?? NaN))}× | ${s1(r.alone?.ms)} | ${f1(r.alone?.rssMb)} | ${f1(r.load)} |`);
+  }
+  md.push('');
+  md.push('Where the hindsight\'s time went (alone, s of thread time): ' + g.byScale.filter((r) => r.alone).map((r) => `scale ${r.scale}: ${phaseLine(r.alone!.phases)}`).join('; ') + '.');
+  md.push('');
+  md.push(`${g.byDays[0] ? `At scale ${g.byDays[0].scale}` : ''}, \`pairflow gen --days N --seed 1\`:`);
+  md.push('');
+  md.push('| days | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | peak MB | alone s | load |');
+  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+  for (const r of g.byDays) {
+    md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${s1(r.replayWallMs)} | ${f1(r.replayRssMb)} | ${s1(r.alone?.ms)} | ${f1(r.load)} |`);
+  }
+  const last = g.byDays[g.byDays.length - 1];
+  if (last?.alone) {
+    md.push('');
+    md.push(`Where the hindsight's time went (${last.days} days, alone): ${phaseLine(last.alone.phases)}.`);
+  }
+  if (targets) md.push('', ...targets);
+  md.push('');
+  return md;
+}
+
+/** The density and length targets of the growth tables. */
+function targetsOf(g: GrowthResult): string[] {
+  const ok = (pass: boolean | null): string => (pass === null ? 'not measured' : pass ? 'met' : 'MISSED');
+  const s1r = g.byScale.find((r) => r.scale === 1);
+  const s4r = g.byScale.find((r) => r.scale === 4);
+  const week = g.byDays.find((r) => r.days === 7);
+  const time = s1r && s4r ? s4r.replayWallMs / s1r.replayWallMs : null;
+  const mem = s1r && s4r && s1r.replayRssMb && s4r.replayRssMb ? s4r.replayRssMb / s1r.replayRssMb : null;
+  return [
+    `Targets: one day at scale 4 ≤ 5× the time of scale 1 — ${f2(time)}× (${ok(time === null ? null : time <= 5)}), ≤ 4× the memory — ${f2(mem)}× (${ok(mem === null ? null : mem <= 4)}); ` +
+      `7 days at scale 4, replay with the exact hindsight ≤ 4 min — ${s1(week?.replayWallMs)} s (${ok(week ? week.replayWallMs <= 240_000 : null)}) and ≤ 4 GB — ${f1(week?.replayRssMb)} MB (${ok(week?.replayRssMb ? week.replayRssMb <= 4096 : null)}); ` +
+      `the demo week's hindsight (scale 1, alone, as the sweep computes it) ≤ 20 s — ${s1(g.demoWeekHindsightMs)} s (${ok(Number.isFinite(g.demoWeekHindsightMs) ? g.demoWeekHindsightMs! <= 20_000 : null)}).`,
+  ];
 }
 
 /** Replaces the bench:replay section of docs/benchmarks.md (creating the file or the section). */
@@ -315,6 +487,22 @@ export function writeSection(markdown: string, doc = DOC): void {
 const isMain = process.argv[1] !== undefined && fileURLToPath(import.meta.url) === process.argv[1];
 if (isMain) {
   const args = process.argv.slice(2);
-  const result = runReplayBench({ quick: args.includes('--quick'), write: !args.includes('--no-write') });
+  const value = (flag: string): string | undefined => {
+    const i = args.indexOf(flag);
+    return i >= 0 ? args[i + 1] : undefined;
+  };
+  const beforeFile = value('--before');
+  const root = value('--root');
+  const label = value('--label');
+  const result = runReplayBench({
+    quick: args.includes('--quick'),
+    write: !args.includes('--no-write'),
+    growth: !args.includes('--no-growth'),
+    before: beforeFile ? (JSON.parse(readFileSync(beforeFile, 'utf8')) as GrowthResult) : null,
+    ...(root ? { root } : {}),
+    ...(label ? { label } : {}),
+  });
+  const out = value('--json-out');
+  if (out && result.growth) writeFileSync(out, `${JSON.stringify(result.growth, null, 1)}\n`);
   process.stdout.write(`${result.markdown}\n`);
 }
