@@ -37,6 +37,8 @@ export class FirstCandidates implements RowVisitor {
   readonly colHi: Int32Array;
   private readonly colCost: Float64Array;
   private readonly colEdge: Int32Array;
+  /** Per column, its k-th cheapest so far (colCost's last slot) in a small array of its own: most pairs stop at this test. */
+  private readonly colBar: Float32Array;
   private readonly bestCost: Float64Array;
   private readonly bestEdge: Int32Array;
 
@@ -57,12 +59,13 @@ export class FirstCandidates implements RowVisitor {
     this.colHi = new Int32Array(nRows);
     this.colCost = new Float64Array(nCols * k).fill(Infinity);
     this.colEdge = new Int32Array(nCols * k).fill(-1);
+    this.colBar = new Float32Array(nCols).fill(Infinity);
     this.bestCost = new Float64Array(k);
     this.bestEdge = new Int32Array(k);
   }
 
   row(r: number, _demand: number, start: number, end: number, colIdx: Int32Array, cost32: Float32Array): void {
-    const { k, limit, parent, colCost, colEdge, bestCost, bestEdge, nRows } = this;
+    const { k, limit, parent, colCost, colEdge, colBar, bestCost, bestEdge, nRows } = this;
     let lo = this.nCols;
     let hi = -1;
     let n = 0;
@@ -96,17 +99,24 @@ export class FirstCandidates implements RowVisitor {
         bestCost[p] = c;
         bestEdge[p] = e;
       }
-      // The column's k cheapest so far.
-      const base = j * k;
-      if (c < colCost[base + k - 1]!) {
-        let p = k - 1;
-        while (p > 0 && colCost[base + p - 1]! > c) {
-          colCost[base + p] = colCost[base + p - 1]!;
-          colEdge[base + p] = colEdge[base + p - 1]!;
-          p--;
+      // The column's k cheapest so far: a max-heap of k slots (+Infinity while not
+      // full), whose top — the k-th cheapest — also sits in colBar, where most pairs
+      // stop (costs are float32 already, so the copy is exact).
+      if (c < colBar[j]!) {
+        const base = j * k;
+        let p = 0;
+        for (;;) {
+          let ch = 2 * p + 1;
+          if (ch >= k) break;
+          if (ch + 1 < k && colCost[base + ch + 1]! > colCost[base + ch]!) ch++;
+          if (!(colCost[base + ch]! > c)) break;
+          colCost[base + p] = colCost[base + ch]!;
+          colEdge[base + p] = colEdge[base + ch]!;
+          p = ch;
         }
         colCost[base + p] = c;
         colEdge[base + p] = e;
+        colBar[j] = colCost[base]!;
       }
     }
     this.colLo[r] = lo;

@@ -322,7 +322,7 @@ export class GraphStore {
  * over the pool: per pair that is one lookup of the row's slot (start and count side
  * by side) and one store, where an object per row cost a chain of pointer loads.
  * A full slice moves to the pool's end at twice its size; when the pool is full, the
- * open rows are copied to the front of a pool at least twice what they hold.
+ * open rows are copied to the front of a pool four times what they hold.
  */
 class RowArena {
   cols = new Int32Array(1 << 16);
@@ -364,7 +364,7 @@ class RowArena {
     const slot = this.slot;
     let live = extra;
     for (let q = 0; q < nOpen; q++) live += slot[3 * open[q]! + 2]!;
-    const size = Math.max(1 << 16, 2 * live);
+    const size = Math.max(1 << 16, 4 * live);
     const cols = size > this.cols.length ? new Int32Array(size) : this.cols;
     const costs = size > this.costs.length ? new Float32Array(size) : this.costs;
     // In pool order, so an in-place copy never overwrites a slice not yet moved.

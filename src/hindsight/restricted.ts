@@ -47,8 +47,6 @@ export class RestrictedSolves {
     private readonly P: number,
     private readonly solve: SparseSolver,
     private readonly now: () => number,
-    /** How the first solve of a component starts (the auction pays off on large ones). */
-    private readonly firstPresolve: (rows: number, pairs: number) => SolveOptions['presolve'] = () => 'none',
   ) {
     this.rowDuals = new Float64Array(nRows).fill(P);
     this.colDuals = new Float64Array(nCols);
@@ -129,15 +127,14 @@ export class RestrictedSolves {
       }
       opts = { warm: { rowPrices, colPrices, rowToCol: prevMatch }, now: this.now };
     } else {
-      const presolve = this.firstPresolve(nr, size);
-      opts = presolve === 'auction' ? { now: this.now, presolve } : { now: this.now };
+      opts = { now: this.now };
     }
     let res = this.solve(inst, opts);
     this.solves++;
     // A warm start that fails its certificate is retried cold; a cold solve that
     // fails it is a solver bug.
     if (!checkCertificate(inst, res).ok) {
-      if (opts.warm !== undefined || opts.presolve === 'auction') {
+      if (opts.warm !== undefined) {
         this.warmRetries++;
         res = this.solve(inst, { now: this.now });
       }

@@ -215,14 +215,6 @@ export function solvePackedMarket(
   return out;
 }
 
-/**
- * Components with at least this many rows start their first solve with the auction
- * (matching/auction.ts): on the large, scarce-supply components of a busy day it
- * reaches the first exact prices several times faster; on small ones its fixed cost
- * (rows by column) does not pay.
- */
-const AUCTION_MIN_ROWS = 2000;
-
 /** The exact optimum of one time segment (or of a market that has just one). */
 function solveSegment(
   m: PackedMarket,
@@ -253,9 +245,7 @@ function solveSegment(
   first.markColumns(g.cost32);
   const comps = first.components();
   const cand = CandidateRows.fromMarks(g, exact, P);
-  const restricted = new RestrictedSolves(nRows, nCols, comps, cand, colIdx, P, solve, now, (rows) =>
-    rows >= AUCTION_MIN_ROWS ? 'auction' : 'none',
-  );
+  const restricted = new RestrictedSolves(nRows, nCols, comps, cand, colIdx, P, solve, now);
   const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P);
   lap('setupMs');
 
