@@ -5,14 +5,15 @@
  *
  * A market is cut into time segments where no unit spans a gap (segments.ts: no
  * pair crosses a cut). Each segment's full allowed graph is built once (graph.ts:
- * time sweep + grid), and while it is built the first candidates are picked and the
- * graph split into connected components (candidates.ts). Each component is first
- * solved on its candidates alone (restricted.ts); a pricing pass (pricing.ts) then
- * computes the reduced cost `c − u_d − v_s` of EVERY allowed pair under the solver's
- * dual prices. The most negative few of each demand join the candidates and the
- * components they touch are re-solved, warm from the previous prices, until no pair
- * prices out. The final prices are then feasible for the LP over all allowed pairs
- * and their objective equals the primal cost (SPEC §5), which proves the optimum
+ * time sweep + grid), and while it is built the first candidates are picked
+ * (candidates.ts). The segment is first solved on its candidates alone, cold; a
+ * pricing pass (pricing.ts) then computes the reduced cost `c − u_d − v_s` of EVERY
+ * allowed pair under the solver's dual prices. The most negative few of each demand
+ * join the candidates and the restricted assignment is solved again from where it
+ * stood (matching/incremental.ts: only the rows the new pairs disturb are searched),
+ * until no pair prices out. The final prices and pairs are then checked against the
+ * certificate of SPEC §5 on the candidates: feasible for every allowed pair (the last
+ * pricing pass) with an objective equal to the primal cost, which proves the optimum
  * exact. Last, the match ceiling (ceiling.ts).
  *
  * Pairs costing at least P are never needed: with `u_d ≤ P` and `v_s ≤ 0` their
@@ -21,15 +22,18 @@
  */
 
 import { pairflowError } from '../errors.js';
+import { checkCertificate } from '../matching/certificate.js';
+import { GrowingAssignment } from '../matching/incremental.js';
+import type { SolveOptions, SolveResult, SparseInstance } from '../matching/types.js';
 import type { PairflowConfig } from '../model.js';
-import { CandidateRows, FirstCandidates } from './candidates.js';
+import { FirstCandidates, unmarkCandidate } from './candidates.js';
 import { matchCeiling } from './ceiling.js';
 import { buildCompactGraph, expandGraph, GraphStore, pairCostOf, type AllowedGraph, type PackedMarket } from './graph.js';
 import { F32_SLACK, Pricer } from './pricing.js';
-import { RestrictedSolves, type SparseSolver } from './restricted.js';
 import { mergeProofs, subMarket, timeSegments, type SegmentProof } from './segments.js';
 
-export type { SparseSolver } from './restricted.js';
+/** A sparse assignment solver with the contract of src/matching/types.ts. */
+export type SparseSolver = (inst: SparseInstance, opts?: SolveOptions) => SolveResult;
 
 /** The per-market figures of the hindsight optimum. */
 export interface HindsightMarketResult {
@@ -107,10 +111,10 @@ export interface HindsightMarketDetail {
   colDuals: Float64Array;
   /** Supply per demand, -1 when unmatched. */
   rowToCol: Int32Array;
-  /** Component solves (all rounds). */
+  /** Restricted solves (all rounds, all time segments). */
   solves: number;
-  /** Warm re-solves whose prices failed the certificate and were redone cold. */
-  warmRetries: number;
+  /** Final prices that failed the certificate and were found again by a cold solve. */
+  retries: number;
   /** Pricing decisions too close to call on the float32 cost, settled on the exact cost. */
   rechecks: number;
   /** Row pricings over all rounds (a row whose prices stood still is not priced again). */
@@ -132,7 +136,7 @@ interface SegmentResult {
   demandCost: Float64Array;
   phases: HindsightPhases;
   solves: number;
-  warmRetries: number;
+  retries: number;
   rechecks: number;
   rowsPriced: number;
   /** With `wantDetail`: the segment's graph and prices, rows in its demand order. */
@@ -184,7 +188,7 @@ export function solvePackedMarket(
   const seg = timeSegments(m);
   const parts: Array<{ dIdx: Int32Array; sIdx: Int32Array; proof: SegmentProof }> = [];
   let solves = 0;
-  let warmRetries = 0;
+  let retries = 0;
   let rechecks = 0;
   let rowsPriced = 0;
   // Each segment's graph is done with before the next is built, so they share `store`.
@@ -202,7 +206,7 @@ export function solvePackedMarket(
     out.ceiling += r.ceiling;
     for (const key of Object.keys(out.phases) as Array<keyof HindsightPhases>) out.phases[key] += r.phases[key];
     solves += r.solves;
-    warmRetries += r.warmRetries;
+    retries += r.retries;
     rechecks += r.rechecks;
     rowsPriced += r.rowsPriced;
     if (wantDetail) parts.push({ dIdx, sIdx, proof: r.proof! });
@@ -210,7 +214,7 @@ export function solvePackedMarket(
   // Summed in occurrence order, so the total does not depend on how segments fell.
   for (let i = 0; i < m.nDemand; i++) out.cost += out.demandCost[i]!;
   out.abandoned = m.nDemand - out.matched;
-  if (wantDetail) out.detail = { ...mergeProofs(m, parts), solves, warmRetries, rechecks, rowsPriced };
+  if (wantDetail) out.detail = { ...mergeProofs(m, parts), solves, retries, rechecks, rowsPriced };
   out.ms = now() - t0;
   return out;
 }
@@ -241,36 +245,67 @@ function solveSegment(
   const g = buildCompactGraph(m, config, store, 0, first);
   const exact = pairCostOf(m, config);
   lap('graphMs');
-  const { nRows, nCols, colIdx, rowDemand } = g;
-  first.markColumns(g.cost32);
-  const comps = first.components();
-  const cand = CandidateRows.fromMarks(g, exact, P);
-  const restricted = new RestrictedSolves(nRows, nCols, comps, cand, colIdx, P, solve, now);
+  const { nRows, nCols, rowPtr, colIdx, cost32, rowDemand } = g;
+  first.markColumns(cost32);
+  // The restricted assignment over graph rows, every row free to stay unmatched at P;
+  // its pairs are the marked ones, at their exact costs (a pair whose float32 cost
+  // could not tell and is not below P after all is unmarked).
+  const restricted = new GrowingAssignment(nRows, nCols, new Float64Array(nRows).fill(P), now);
+  for (let r = 0; r < nRows; r++) {
+    const d = rowDemand[r]!;
+    for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
+      if (!(cost32[e]! < 0)) continue;
+      const c = exact(d, colIdx[e]!);
+      if (c < P) restricted.add(r, colIdx[e]!, c);
+      else unmarkCandidate(cost32, e);
+    }
+  }
   const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P);
   lap('setupMs');
 
   let pricingRounds = 0;
+  let solves = 0;
+  let retries = 0;
+  let final: SolveResult | null = null;
+  // First a cold solve by the injected solver, its prices adopted; then each round
+  // from where the last one stood.
+  restricted.adopt(certified(restricted.instance(), solve(restricted.instance(), { now }), solve, now, () => retries++));
+  solves++;
   for (;;) {
-    restricted.solveDirty();
     lap(pricingRounds === 0 ? 'firstSolveMs' : 'resolveMs');
     pricingRounds++;
-    const found = pricer.pass(restricted.rowDuals, restricted.colDuals);
-    for (let q = 0; q < found.n; q++) restricted.touch(found.rows[q]!);
-    if (found.n > 0) cand.merge(found.rows, found.edges, found.costs, found.n);
+    const found = pricer.pass(restricted.u, restricted.v);
+    for (let q = 0; q < found.n; q++) restricted.add(found.rows[q]!, colIdx[found.edges[q]!]!, found.costs[q]!);
     lap('pricingMs');
-    if (found.violators === 0) break;
+    if (found.violators === 0) {
+      // No allowed pair prices out: the prices prove the optimum once they certify
+      // the restricted assignment itself (SPEC §5). Prices that do not are found again
+      // cold and priced once more.
+      const inst = restricted.instance();
+      const res = restricted.result({ augmentations: 0, scannedPairs: 0, ms: 0, warm: true });
+      if (checkCertificate(inst, res).ok) {
+        final = res;
+        break;
+      }
+      retries++;
+      restricted.adopt(certified(inst, solve(inst, { now }), solve, now, () => {}));
+    } else {
+      restricted.solve();
+    }
+    solves++;
   }
+  lap('resolveMs');
 
-  const { rowDuals, colDuals, rowToCol } = restricted;
-  const pairsSolved = cand.ptr[nRows]!;
+  const { rowDuals, colDuals, rowToCol } = final;
+  const inst = restricted.instance();
   const demandCost = new Float64Array(nRows).fill(P);
   let matched = 0;
   for (let r = 0; r < nRows; r++) {
     const c = rowToCol[r]!;
     if (c < 0) continue;
-    for (let q = cand.ptr[r]!; q < cand.ptr[r + 1]!; q++) {
-      if (colIdx[cand.edge[q]!] === c) {
-        demandCost[rowDemand[r]!] = cand.cost[q]!;
+    for (let e = inst.rowPtr[r]!; e < inst.rowPtr[r + 1]!; e++) {
+      if (inst.colIdx[e] === c) {
+        demandCost[rowDemand[r]!] = inst.cost[e]!;
         break;
       }
     }
@@ -293,15 +328,32 @@ function solveSegment(
   return {
     matched,
     pairsPriced: colIdx.length,
-    pairsSolved,
+    pairsSolved: inst.colIdx.length,
     pricingRounds,
     ceiling,
     demandCost,
     phases,
-    solves: restricted.solves,
-    warmRetries: restricted.warmRetries,
+    solves,
+    retries,
     rechecks: pricer.rechecks,
     rowsPriced: pricer.rowsPriced,
     proof,
   };
+}
+
+/**
+ * A cold solve's result once its certificate holds; one that fails is solved once
+ * more (`onRetry`), and a second failure is a solver bug.
+ */
+function certified(inst: SparseInstance, res: SolveResult, solve: SparseSolver, now: () => number, onRetry: () => void): SolveResult {
+  if (checkCertificate(inst, res).ok) return res;
+  onRetry();
+  const again = solve(inst, { now });
+  const rep = checkCertificate(inst, again);
+  if (!rep.ok) {
+    throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', {
+      detail: `hindsight: solver prices do not certify optimality: ${rep.problems.slice(0, 3).join('; ')}`,
+    });
+  }
+  return again;
 }

@@ -136,7 +136,7 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   const reduced = reduceRows(freeAtStart, nFreeAtStart, u, v, rowToCol, colToRow, {
     passes: usedWarm ? 1 : 2,
     noDisplace: usedWarm,
-    cheapestTwo: (row, two) => cheapestTwoSparse(inst, delta, v, row, two),
+    cheapestTwo: (row, two) => cheapestTwoSparse(rowsOf(inst), delta, v, row, two),
     infeasible: infeasibleRow,
   });
   scannedPairs += reduced.scanned;
@@ -147,7 +147,7 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   const searchedRows = nFree;
 
   if (nFree > 0) {
-    const search = new SparseSearch(inst, delta, u, v, rowToCol, colToRow);
+    const search = new SparseSearch(rowsOf(inst), nCols, delta, u, v, rowToCol, colToRow);
     try {
       for (let f = 0; f < nFree; f++) {
         augmentations++;
@@ -228,9 +228,26 @@ function infeasibleRow(r: number): Error {
 
 export { infeasibleRow };
 
+/**
+ * The pairs of an instance by row, as ranges that need not be contiguous from one row
+ * to the next: a CSR instance (`rowEnd` = `rowPtr` shifted by one) or a store whose
+ * rows grow in place (incremental.ts).
+ */
+export interface RowsView {
+  readonly rowStart: Int32Array;
+  readonly rowEnd: Int32Array;
+  readonly colIdx: Int32Array;
+  readonly cost: Float64Array;
+}
+
+/** The rows view of a CSR instance. */
+export function rowsOf(inst: SparseInstance): RowsView {
+  return { rowStart: inst.rowPtr, rowEnd: inst.rowPtr.subarray(1), colIdx: inst.colIdx, cost: inst.cost };
+}
+
 /** Row r's two cheapest options at prices v, for {@link reduceRows}. */
-function cheapestTwoSparse(inst: SparseInstance, delta: Float64Array | null, v: Float64Array, r: number, two: Float64Array): number {
-  const { rowPtr, colIdx, cost } = inst;
+export function cheapestTwoSparse(rows: RowsView, delta: Float64Array | null, v: Float64Array, r: number, two: Float64Array): number {
+  const { rowStart, rowEnd, colIdx, cost } = rows;
   let u1 = Infinity;
   let j1 = NONE;
   if (delta !== null && delta[r]! < Infinity) {
@@ -239,8 +256,8 @@ function cheapestTwoSparse(inst: SparseInstance, delta: Float64Array | null, v: 
   }
   let u2 = Infinity;
   let j2 = NONE;
-  const start = rowPtr[r]!;
-  const end = rowPtr[r + 1]!;
+  const start = rowStart[r]!;
+  const end = rowEnd[r]!;
   for (let e = start; e < end; e++) {
     const j = colIdx[e]!;
     const x = cost[e]! - v[j]!;
@@ -271,7 +288,7 @@ function cheapestTwoSparse(inst: SparseInstance, delta: Float64Array | null, v: 
  * the distance is +Infinity until reached and -Infinity once settled), and the heap
  * keeps each key beside its column.
  */
-class SparseSearch {
+export class SparseSearch {
   private readonly pd: Float64Array;
   private readonly pred: Int32Array;
   private readonly hpos: Int32Array;
@@ -282,14 +299,15 @@ class SparseSearch {
   private readonly settledDist: Float64Array;
 
   constructor(
-    private readonly inst: SparseInstance,
+    private readonly rows: RowsView,
+    nCols: number,
     private readonly delta: Float64Array | null,
     private readonly u: Float64Array,
     private readonly v: Float64Array,
     private readonly rowToCol: Int32Array,
     private readonly colToRow: Int32Array,
   ) {
-    const n = inst.nCols;
+    const n = nCols;
     this.pd = new Float64Array(2 * n);
     for (let j = 0; j < n; j++) {
       this.pd[2 * j] = v[j]!;
@@ -317,7 +335,7 @@ class SparseSearch {
    * beat the best terminal (a free column or a private one).
    */
   run(r0: number): number {
-    const { rowPtr, colIdx, cost } = this.inst;
+    const { rowStart, rowEnd, colIdx, cost } = this.rows;
     const { delta, u, rowToCol, colToRow, pd, pred, hpos, hcol, hkey, touched, settled, settledDist } = this;
     let nTouched = 0;
     let nSettled = 0;
@@ -344,8 +362,8 @@ class SparseSearch {
           if (x < bound) bound = x;
         }
       }
-      const start = rowPtr[i]!;
-      const end = rowPtr[i + 1]!;
+      const start = rowStart[i]!;
+      const end = rowEnd[i]!;
       const off = base - ui;
       for (let e = start; e < end; e++) {
         j = colIdx[e]!;

@@ -145,12 +145,43 @@ export function applyWarmStart(
   return { used: true, pairsKept: kept, scanned };
 }
 
+/** The pairs of an instance by column, as ranges (see RowsView in sparse.ts). */
+export interface ColumnsView {
+  readonly colStart: Int32Array;
+  readonly colEnd: Int32Array;
+  /** Row of each entry. */
+  readonly colRow: Int32Array;
+  readonly colCost: Float64Array;
+}
+
+/** The pairs of a CSR instance by column (CSC). */
+export function columnsOf(inst: SparseInstance): ColumnsView {
+  const { nRows, nCols, rowPtr, colIdx, cost } = inst;
+  const colPtr = new Int32Array(nCols + 1);
+  const nEdges = rowPtr[nRows]!;
+  for (let e = 0; e < nEdges; e++) colPtr[colIdx[e]! + 1]!++;
+  for (let j = 0; j < nCols; j++) colPtr[j + 1]! += colPtr[j]!;
+  const colRow = new Int32Array(nEdges);
+  const colCost = new Float64Array(nEdges);
+  const fill = colPtr.slice(0, nCols);
+  for (let r = 0; r < nRows; r++) {
+    const end = rowPtr[r + 1]!;
+    for (let e = rowPtr[r]!; e < end; e++) {
+      const at = fill[colIdx[e]!]!++;
+      colRow[at] = r;
+      colCost[at] = cost[e]!;
+    }
+  }
+  return { colStart: colPtr, colEnd: colPtr.subarray(1), colRow, colCost };
+}
+
 /**
  * Step 3, once every row is matched or settled unmatched (u = δ): a reverse search
- * from every free column priced below 0. Returns the searches run and pairs scanned.
+ * from every free column priced below 0. `cols` (the pairs by column) is built only
+ * when such a column exists. Returns the searches run and pairs scanned.
  */
 export function releaseFreeColumns(
-  inst: SparseInstance,
+  inst: SparseInstance | { nRows: number; nCols: number; columns: () => ColumnsView },
   u: Float64Array,
   v: Float64Array,
   rowToCol: Int32Array,
@@ -160,8 +191,9 @@ export function releaseFreeColumns(
   let first = NONE;
   for (let j = 0; j < nCols && first === NONE; j++) if (colToRow[j] === NONE && v[j]! < 0) first = j;
   if (first === NONE) return { searches: 0, scanned: 0 };
-  const search = new ReverseSearch(inst, u, v, rowToCol, colToRow);
-  let scanned = inst.rowPtr[inst.nRows]!;
+  const cols = 'columns' in inst ? inst.columns() : columnsOf(inst);
+  const search = new ReverseSearch(cols, inst.nRows, u, v, rowToCol, colToRow);
+  let scanned = 'rowPtr' in inst ? inst.rowPtr[inst.nRows]! : 0;
   let searches = 0;
   for (let j = first; j < nCols; j++) {
     if (colToRow[j] !== NONE || !(v[j]! < 0)) continue;
@@ -178,9 +210,6 @@ export function releaseFreeColumns(
  * column goes free at price 0, costing its distance − v.
  */
 class ReverseSearch {
-  private readonly colPtr: Int32Array;
-  private readonly colRow: Int32Array;
-  private readonly colCost: Float64Array;
   private readonly dist: Float64Array;
   private readonly predCol: Int32Array;
   private readonly hpos: Int32Array;
@@ -191,32 +220,13 @@ class ReverseSearch {
   private readonly settledRowDist: Float64Array;
 
   constructor(
-    inst: SparseInstance,
+    private readonly cols: ColumnsView,
+    nRows: number,
     private readonly u: Float64Array,
     private readonly v: Float64Array,
     private readonly rowToCol: Int32Array,
     private readonly colToRow: Int32Array,
   ) {
-    const { nRows, nCols, rowPtr, colIdx, cost } = inst;
-    // rows by column (CSC)
-    const colPtr = new Int32Array(nCols + 1);
-    const nEdges = rowPtr[nRows]!;
-    for (let e = 0; e < nEdges; e++) colPtr[colIdx[e]! + 1]!++;
-    for (let j = 0; j < nCols; j++) colPtr[j + 1]! += colPtr[j]!;
-    const colRow = new Int32Array(nEdges);
-    const colCost = new Float64Array(nEdges);
-    const fill = colPtr.slice(0, nCols);
-    for (let r = 0; r < nRows; r++) {
-      const end = rowPtr[r + 1]!;
-      for (let e = rowPtr[r]!; e < end; e++) {
-        const at = fill[colIdx[e]!]!++;
-        colRow[at] = r;
-        colCost[at] = cost[e]!;
-      }
-    }
-    this.colPtr = colPtr;
-    this.colRow = colRow;
-    this.colCost = colCost;
     this.dist = new Float64Array(nRows).fill(Infinity);
     this.predCol = new Int32Array(nRows);
     this.hpos = new Int32Array(nRows);
@@ -229,7 +239,8 @@ class ReverseSearch {
 
   /** Fixes free column j0 (price < 0): matches it or raises it to 0. Returns pairs scanned. */
   run(j0: number): number {
-    const { colPtr, colRow, colCost, dist, predCol, hpos, hrow, hkey, touched, settledRow, settledRowDist, u, v, rowToCol, colToRow } = this;
+    const { dist, predCol, hpos, hrow, hkey, touched, settledRow, settledRowDist, u, v, rowToCol, colToRow } = this;
+    const { colStart, colEnd, colRow, colCost } = this.cols;
     let best = -v[j0]!;
     let bestCol = j0;
     let bestRow = NONE;
@@ -243,8 +254,8 @@ class ReverseSearch {
     for (;;) {
       // expand column c, reached at distance dc
       const off = dc - v[c]!;
-      const stop = colPtr[c + 1]!;
-      for (let t = colPtr[c]!; t < stop; t++) {
+      const stop = colEnd[c]!;
+      for (let t = colStart[c]!; t < stop; t++) {
         const i = colRow[t]!;
         const di = dist[i]!;
         const x = off + colCost[t]! - u[i]!;
@@ -259,7 +270,7 @@ class ReverseSearch {
         predCol[i] = c;
         heapUp(hkey, hrow, hpos, p, x, i);
       }
-      scanned += stop - colPtr[c]!;
+      scanned += stop - colStart[c]!;
       if (hsize === 0 || hkey[0]! >= best) break;
       // pop the nearest row
       const i = hrow[0]!;

@@ -1,0 +1,278 @@
+import { pairflowError } from '../errors.js';
+import { defaultNow, finishResult, Sum } from './result.js';
+import { NONE, reduceRows } from './reduction.js';
+import { cheapestTwoSparse, infeasibleRow, SparseSearch, type RowsView } from './sparse.js';
+import type { SolveResult, SolveStats, SparseInstance } from './types.js';
+import { releaseFreeColumns, type ColumnsView } from './warm.js';
+
+/*
+ * An assignment that grows: pairs are added between solves, and each solve starts
+ * from the previous optimum, its prices and pairs kept in place. This is what column
+ * generation needs (the hindsight optimum adds the pairs a pricing pass found and
+ * solves again, a dozen times): a warm start through `solveSparse` rebuilds the
+ * instance, re-reads every pair to re-derive its state, and builds the pairs by
+ * column again on every round, which on a large restricted instance costs more than
+ * the few searches the new pairs call for.
+ *
+ * Invariants between solves are sparse.ts's: every pair has reduced cost
+ * c − u − v ≥ 0, a matched pair is tight, v ≤ 0, a free column has v = 0, and an
+ * unmatched row has u = δ. Added pairs may break the first: a row with an added pair
+ * of negative reduced cost (its only way to become infeasible) loses its pair and is
+ * searched again; its column keeps its price, and if it is still free and below 0
+ * after the searches, the reverse search of warm.ts brings it back (step 3 there).
+ * Every other row and price stays as it was, so a solve costs what the new pairs
+ * disturb, not what the instance holds.
+ */
+
+/** Pair storage by rows (or by columns) that grow in place: each line a slice of a shared pool. */
+class Lines {
+  readonly start: Int32Array;
+  readonly end: Int32Array;
+  private readonly cap: Int32Array;
+  index = new Int32Array(1024);
+  cost = new Float64Array(1024);
+  private used = 0;
+
+  constructor(n: number) {
+    this.start = new Int32Array(n);
+    this.end = new Int32Array(n);
+    this.cap = new Int32Array(n);
+  }
+
+  /** Appends (index, cost) to line l; a full slice moves to the pool's end at twice its size. */
+  push(l: number, index: number, cost: number): void {
+    let at = this.end[l]!;
+    if (at === this.start[l]! + this.cap[l]!) {
+      const len = at - this.start[l]!;
+      const cap = Math.max(4, 2 * len);
+      if (this.used + cap > this.index.length) this.grow(this.used + cap);
+      const to = this.used;
+      this.index.copyWithin(to, this.start[l]!, at);
+      this.cost.copyWithin(to, this.start[l]!, at);
+      this.start[l] = to;
+      this.cap[l] = cap;
+      at = to + len;
+      this.used += cap;
+    }
+    this.index[at] = index;
+    this.cost[at] = cost;
+    this.end[l] = at + 1;
+  }
+
+  /** The pool grows (moved slices leave holes; a long run of rounds is a few dozen of them). */
+  private grow(need: number): void {
+    const size = Math.max(need, 2 * this.index.length);
+    const index = new Int32Array(size);
+    index.set(this.index.subarray(0, this.used));
+    const cost = new Float64Array(size);
+    cost.set(this.cost.subarray(0, this.used));
+    this.index = index;
+    this.cost = cost;
+  }
+
+  /** Pairs held in all lines. */
+  size(): number {
+    let n = 0;
+    for (let l = 0; l < this.start.length; l++) n += this.end[l]! - this.start[l]!;
+    return n;
+  }
+}
+
+/**
+ * A min-cost assignment (the contract of types.ts, every row with a finite unmatched
+ * cost δ) to which pairs are added between solves. Each pair must be added once.
+ *
+ * @example
+ * const a = new GrowingAssignment(2, 2, Float64Array.of(10, 10));
+ * a.add(0, 0, 4); a.add(1, 0, 1);
+ * a.solve();           // row 1 → column 0, row 0 unmatched: cost 11
+ * a.add(0, 1, 2);
+ * a.solve();           // only row 0 is searched again: cost 3
+ */
+export class GrowingAssignment {
+  private readonly rows: Lines;
+  private readonly cols: Lines;
+  /** u per row, v per column (SPEC §5), the assignment, as of the last solve. */
+  readonly u: Float64Array;
+  readonly v: Float64Array;
+  readonly rowToCol: Int32Array;
+  readonly colToRow: Int32Array;
+  /** Rows with an added pair of negative reduced cost since the last solve. */
+  private readonly dirty: Uint8Array;
+  private dirtyList: number[] = [];
+  private solved = false;
+
+  constructor(
+    readonly nRows: number,
+    readonly nCols: number,
+    private readonly delta: Float64Array,
+    private readonly now: () => number = defaultNow,
+  ) {
+    for (let r = 0; r < nRows; r++) {
+      if (!(delta[r]! < Infinity) || Number.isNaN(delta[r]!)) {
+        throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail: `unmatchedCost[${r}]: got ${delta[r]}, expected a finite number (a growing assignment lets every row go unmatched)` });
+      }
+    }
+    this.rows = new Lines(nRows);
+    this.cols = new Lines(nCols);
+    this.u = Float64Array.from(delta);
+    this.v = new Float64Array(nCols);
+    this.rowToCol = new Int32Array(nRows).fill(NONE);
+    this.colToRow = new Int32Array(nCols).fill(NONE);
+    this.dirty = new Uint8Array(nRows);
+  }
+
+  /** Adds pair (row r, column j) at cost c (finite). */
+  add(r: number, j: number, c: number): void {
+    if (!(r >= 0 && r < this.nRows && j >= 0 && j < this.nCols) || !Number.isFinite(c)) {
+      throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail: `pair (${r}, ${j}) at cost ${c}: expected 0 ≤ row < ${this.nRows}, 0 ≤ column < ${this.nCols} and a finite cost` });
+    }
+    this.rows.push(r, j, c);
+    this.cols.push(j, r, c);
+    // The only way an added pair breaks the optimum: it prices out under the prices held.
+    if (this.solved && this.dirty[r] === 0 && c - this.u[r]! - this.v[j]! < 0) {
+      this.dirty[r] = 1;
+      this.dirtyList.push(r);
+    }
+  }
+
+  /** The pairs by row, for the searches. */
+  private view(): RowsView {
+    return { rowStart: this.rows.start, rowEnd: this.rows.end, colIdx: this.rows.index, cost: this.rows.cost };
+  }
+
+  private columns(): ColumnsView {
+    return { colStart: this.cols.start, colEnd: this.cols.end, colRow: this.cols.index, colCost: this.cols.cost };
+  }
+
+  /**
+   * Solves to optimality: the first time from scratch (every row searched), then only
+   * the rows that added pairs disturbed. Returns the work done.
+   */
+  solve(): SolveStats {
+    const t0 = this.now();
+    const { nRows, nCols, u, v, rowToCol, colToRow, delta } = this;
+    let free: Int32Array;
+    let nFree = 0;
+    if (!this.solved) {
+      free = new Int32Array(nRows);
+      for (let r = 0; r < nRows; r++) free[nFree++] = r;
+    } else {
+      free = new Int32Array(this.dirtyList.length);
+      for (const r of this.dirtyList) {
+        this.dirty[r] = 0;
+        free[nFree++] = r;
+        const j = rowToCol[r]!;
+        if (j !== NONE) {
+          // The column keeps its price: every row but r already prices it feasibly.
+          rowToCol[r] = NONE;
+          colToRow[j] = NONE;
+        }
+      }
+      this.dirtyList = [];
+    }
+    const rows = this.view();
+    // Augmenting row reduction: two passes from scratch, one that takes only free
+    // columns after (sparse.ts measured the same split for its warm starts).
+    const reduced = reduceRows(free, nFree, u, v, rowToCol, colToRow, {
+      passes: this.solved ? 1 : 2,
+      noDisplace: this.solved,
+      cheapestTwo: (row, two) => cheapestTwoSparse(rows, delta, v, row, two),
+      infeasible: infeasibleRow,
+    });
+    let scanned = reduced.scanned;
+    let augmentations = 0;
+    if (reduced.nFree > 0) {
+      const search = new SparseSearch(rows, nCols, delta, u, v, rowToCol, colToRow);
+      try {
+        for (let f = 0; f < reduced.nFree; f++) {
+          augmentations++;
+          scanned += search.run(reduced.freeRows[f]!);
+        }
+      } finally {
+        search.flush();
+      }
+    }
+    const rev = releaseFreeColumns({ nRows, nCols, columns: () => this.columns() }, u, v, rowToCol, colToRow);
+    scanned += rev.scanned;
+    augmentations += rev.searches;
+    this.settleRowPrices();
+    const warm = this.solved;
+    this.solved = true;
+    return { augmentations, scannedPairs: scanned, ms: this.now() - t0, warm, reverseSearches: rev.searches, searchedRows: reduced.nFree };
+  }
+
+  /**
+   * Takes over the prices and pairs of a solve of {@link instance} made elsewhere (a
+   * cold solve, say), as if this assignment had found them; later solves start there.
+   */
+  adopt(res: SolveResult): void {
+    this.u.set(res.rowDuals);
+    this.v.set(res.colDuals);
+    this.rowToCol.set(res.rowToCol);
+    this.colToRow.set(res.colToRow);
+    for (const r of this.dirtyList) this.dirty[r] = 0;
+    this.dirtyList = [];
+    this.solved = true;
+  }
+
+  /** Exact row prices from the column prices: matched pairs tight, unmatched rows at δ. */
+  private settleRowPrices(): void {
+    const { nRows, u, v, rowToCol, delta } = this;
+    const { start, end, index, cost } = this.rows;
+    for (let r = 0; r < nRows; r++) {
+      const j = rowToCol[r]!;
+      if (j === NONE) {
+        u[r] = delta[r]!;
+        continue;
+      }
+      for (let e = start[r]!; e < end[r]!; e++) {
+        if (index[e] === j) {
+          u[r] = cost[e]! - v[j]!;
+          break;
+        }
+      }
+    }
+  }
+
+  /** Pairs added so far. */
+  pairs(): number {
+    return this.rows.size();
+  }
+
+  /** The instance as it stands (CSR, rows in order), e.g. for a certificate check. */
+  instance(): SparseInstance {
+    const { nRows, nCols, delta } = this;
+    const { start, end, index, cost } = this.rows;
+    const rowPtr = new Int32Array(nRows + 1);
+    for (let r = 0; r < nRows; r++) rowPtr[r + 1] = rowPtr[r]! + end[r]! - start[r]!;
+    const colIdx = new Int32Array(rowPtr[nRows]!);
+    const c = new Float64Array(rowPtr[nRows]!);
+    for (let r = 0; r < nRows; r++) {
+      colIdx.set(index.subarray(start[r]!, end[r]!), rowPtr[r]!);
+      c.set(cost.subarray(start[r]!, end[r]!), rowPtr[r]!);
+    }
+    return { nRows, nCols, rowPtr, colIdx, cost: c, unmatchedCost: delta };
+  }
+
+  /** The last solve as a {@link SolveResult} (copies), for {@link checkCertificate}. */
+  result(stats: SolveStats): SolveResult {
+    const { nRows, rowToCol, delta, u, v } = this;
+    const { start, end, index, cost } = this.rows;
+    const primal = new Sum();
+    for (let r = 0; r < nRows; r++) {
+      const j = rowToCol[r]!;
+      if (j === NONE) {
+        primal.add(delta[r]!);
+        continue;
+      }
+      for (let e = start[r]!; e < end[r]!; e++) {
+        if (index[e] === j) {
+          primal.add(cost[e]!);
+          break;
+        }
+      }
+    }
+    return finishResult(primal.value, rowToCol.slice(), this.colToRow.slice(), u.slice(), v.slice(), stats);
+  }
+}

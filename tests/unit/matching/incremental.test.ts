@@ -1,0 +1,100 @@
+import { describe, expect, it } from 'vitest';
+import { GrowingAssignment } from '../../../src/matching/incremental.js';
+import { checkCertificate, solveSparse } from '../../../src/matching/index.js';
+import { bruteForce, mulberry32, randInt } from './gen.js';
+
+/*
+ * A growing assignment must equal a cold solve of the pairs it holds after every
+ * round of additions (and exhaustive search on tiny instances, common practice),
+ * with a certificate (SPEC §5) each time.
+ */
+
+function sameCost(a: number, b: number): boolean {
+  return Math.abs(a - b) <= 1e-9 * Math.max(1, Math.abs(a), Math.abs(b));
+}
+
+describe('GrowingAssignment', () => {
+  it('solves the example of its documentation, searching only the disturbed row', () => {
+    const a = new GrowingAssignment(2, 2, Float64Array.of(10, 10));
+    a.add(0, 0, 4);
+    a.add(1, 0, 1);
+    a.solve();
+    let r = a.result({ augmentations: 0, scannedPairs: 0, ms: 0, warm: false });
+    expect(r.cost).toBe(11);
+    expect(Array.from(r.rowToCol)).toEqual([-1, 0]);
+    a.add(0, 1, 2);
+    const st = a.solve();
+    r = a.result(st);
+    expect(r.cost).toBe(3);
+    expect(Array.from(r.rowToCol)).toEqual([1, 0]);
+    expect(st.searchedRows).toBeLessThanOrEqual(1);
+    expect(checkCertificate(a.instance(), r).problems).toEqual([]);
+  });
+
+  it('equals a cold solve after every round of additions, 60 seeded growing instances', () => {
+    for (let seed = 1; seed <= 60; seed++) {
+      const rand = mulberry32(8_100 + seed);
+      const nRows = randInt(rand, 1, 120);
+      const nCols = randInt(rand, 1, 120);
+      const delta = Float64Array.from({ length: nRows }, () => 5 + rand() * 40);
+      const a = new GrowingAssignment(nRows, nCols, delta);
+      const taken = new Set<number>();
+      const rounds = randInt(rand, 1, 6);
+      for (let round = 0; round < rounds; round++) {
+        const adds = randInt(rand, 0, 3 * nRows);
+        for (let q = 0; q < adds; q++) {
+          const r = randInt(rand, 0, nRows - 1);
+          const j = randInt(rand, 0, nCols - 1);
+          if (taken.has(r * nCols + j)) continue;
+          taken.add(r * nCols + j);
+          // ties now and then (integer costs), as sums of travel and wait produce
+          a.add(r, j, seed % 3 === 0 ? randInt(rand, 0, 9) : rand() * 40);
+        }
+        const res = a.result(a.solve());
+        const inst = a.instance();
+        expect(checkCertificate(inst, res).problems, `seed ${seed} round ${round}`).toEqual([]);
+        expect(sameCost(res.cost, solveSparse(inst).cost), `seed ${seed} round ${round}`).toBe(true);
+      }
+    }
+  });
+
+  it('reaches the exhaustive optimum on 300 tiny seeded instances grown pair by pair', () => {
+    for (let seed = 1; seed <= 300; seed++) {
+      const rand = mulberry32(9_300 + seed);
+      const nRows = randInt(rand, 1, 6);
+      const nCols = randInt(rand, 1, 6);
+      const delta = Float64Array.from({ length: nRows }, () => randInt(rand, 0, 12));
+      const cost = new Float64Array(nRows * nCols).fill(Infinity);
+      const a = new GrowingAssignment(nRows, nCols, delta);
+      for (let r = 0; r < nRows; r++) {
+        for (let j = 0; j < nCols; j++) {
+          if (rand() < 0.4) continue;
+          cost[r * nCols + j] = randInt(rand, -3, 10);
+          a.add(r, j, cost[r * nCols + j]!);
+          if (rand() < 0.3) a.solve();
+        }
+      }
+      const res = a.result(a.solve());
+      expect(checkCertificate(a.instance(), res).problems, `seed ${seed}`).toEqual([]);
+      expect(res.cost, `seed ${seed}`).toBe(bruteForce({ nRows, nCols, cost, unmatchedCost: delta }));
+    }
+  });
+
+  it('takes over a cold solve with adopt() and goes on from there', () => {
+    const rand = mulberry32(77);
+    const n = 60;
+    const a = new GrowingAssignment(n, n, new Float64Array(n).fill(30));
+    for (let r = 0; r < n; r++) for (let q = 0; q < 4; q++) if (rand() < 0.9) a.add(r, (r + q * 7) % n, rand() * 20);
+    a.adopt(solveSparse(a.instance()));
+    for (let r = 0; r < n; r++) a.add(r, (r + 3) % n, rand() * 5);
+    const res = a.result(a.solve());
+    expect(checkCertificate(a.instance(), res).problems).toEqual([]);
+    expect(sameCost(res.cost, solveSparse(a.instance()).cost)).toBe(true);
+  });
+
+  it('refuses a row that may not stay unmatched and a cost that is not finite (PAIRFLOW_ERR_SOLVER_INPUT)', () => {
+    expect(() => new GrowingAssignment(2, 2, Float64Array.of(1, Infinity))).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' }));
+    const a = new GrowingAssignment(1, 1, Float64Array.of(1));
+    expect(() => a.add(0, 0, NaN)).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' }));
+  });
+});
