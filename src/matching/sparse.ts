@@ -1,5 +1,5 @@
 import { pairflowError } from '../errors.js';
-import type { SolveOptions, SolveResult, SparseInstance } from './types.js';
+import type { SolveOptions, SolveResult, SparseInstance, WarmStart } from './types.js';
 import { validateSparse, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
 import { applyWarmStart, releaseFreeColumns } from './warm.js';
@@ -33,7 +33,31 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
     const a = auctionPrices(inst, opts.warm?.colPrices !== undefined ? { colPrices: opts.warm.colPrices } : {});
     return solveSparseFull(inst, { ...opts, warm: { rowToCol: a.rowToCol, colPrices: a.colPrices } }, now, t0);
   }
+  if (opts.warm !== undefined && opts.warmWhen !== 'always' && !warmPays(inst, opts.warm)) {
+    const { warm: _ignored, ...cold } = opts;
+    return solveSparseFull(inst, cold, now, t0);
+  }
   return solveSparseFull(inst, opts, now, t0);
+}
+
+/**
+ * Below this many pairs a warm hint is ignored: a cold solve of such a pool takes a
+ * few microseconds, and the warm start's own fixed work (its passes over the kept
+ * rows, the reverse searches' arrays and pairs by column) costs as much as it saves
+ * (measured on the engine's `commit: "due"` solves of small markets: at 32–256 pairs
+ * warm and cold were even, below that cold was up to 2× faster).
+ */
+const WARM_MIN_PAIRS = 32;
+/** A hint that offers a previous pair to fewer rows than this share is ignored too: too little survives to pay. */
+const WARM_MIN_HINTED = 0.25;
+
+/** Whether a warm start is worth its fixed cost on this instance (the solver may ignore a hint). */
+function warmPays(inst: SparseInstance, warm: WarmStart): boolean {
+  if (warm.rowToCol === undefined) return false;
+  if (inst.rowPtr[inst.nRows]! < WARM_MIN_PAIRS) return false;
+  let hinted = 0;
+  for (let r = 0; r < inst.nRows; r++) if (warm.rowToCol[r]! >= 0) hinted++;
+  return hinted >= WARM_MIN_HINTED * inst.nRows;
 }
 
 /** The sparse solve of an instance known to be well formed (dense.ts converts its own). */

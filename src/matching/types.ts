@@ -47,6 +47,12 @@ export interface WarmStart {
 
 export interface SolveOptions {
   readonly warm?: WarmStart;
+  /**
+   * When a warm hint is used: `'pays'` where it is worth its fixed cost (see
+   * {@link WarmStart}), `'always'` whenever it is given (tests of the warm start
+   * itself on tiny instances). @default 'pays'
+   */
+  readonly warmWhen?: 'pays' | 'always';
   /** Clock for `stats.ms`; injected so the core does no I/O. @default performance.now */
   readonly now?: () => number;
   /**

@@ -46,7 +46,7 @@ describe('solveSparse()/solveDense() with a garbage warm start', () => {
         expect(sameCost(rd.cost, want), `${label} ${strategy}: ${rd.cost} vs ${want}`).toBe(true);
       }
       const s = denseToSparse(d, rand);
-      const rs = solveSparse(s, { warm });
+      const rs = solveSparse(s, { warm, warmWhen: 'always' });
       expect(checkCertificate(s, rs).problems, label).toEqual([]);
       expect(sameCost(rs.cost, want), `${label}: ${rs.cost} vs ${want}`).toBe(true);
     }
@@ -62,7 +62,7 @@ describe('solveSparse()/solveDense() with a garbage warm start', () => {
       cost: Float64Array.of(1, 2),
       unmatchedCost: Float64Array.of(5),
     };
-    const res = solveSparse(inst, { warm: { colPrices: Float64Array.of(-100, -100), rowToCol: Int32Array.of(1) } });
+    const res = solveSparse(inst, { warmWhen: 'always', warm: { colPrices: Float64Array.of(-100, -100), rowToCol: Int32Array.of(1) } });
     expect(res.cost).toBe(1);
     expect([...res.rowToCol]).toEqual([0]);
     expect(res.colDuals[1]).toBe(0);
@@ -77,7 +77,7 @@ function runSequence(seed: number, commit: 'all' | 'due', replace: number, steps
   for (let t = 0; t < steps; t++) {
     const label = `seed ${seed} ${commit} step ${t}`;
     const cold = solveSparse(seq.inst);
-    const warm = solveSparse(seq.inst, seq.warm !== undefined ? { warm: seq.warm } : {});
+    const warm = solveSparse(seq.inst, seq.warm !== undefined ? { warm: seq.warm, warmWhen: 'always' } : {});
     expect(checkCertificate(seq.inst, cold).problems, label).toEqual([]);
     expect(checkCertificate(seq.inst, warm).problems, label).toEqual([]);
     expect(sameCost(cold.cost, warm.cost), `${label}: ${cold.cost} vs ${warm.cost}`).toBe(true);
@@ -125,7 +125,7 @@ describe('warm start on window sequences', () => {
       expect(hot.stats.warmPairsKept, label).toBe(matched);
       expect(hot.stats.augmentations, label).toBe(0);
       const s = denseToSparse(next);
-      const hotSparse = solveSparse(s, { warm });
+      const hotSparse = solveSparse(s, { warm, warmWhen: 'always' });
       expect(hotSparse.stats.augmentations, label).toBe(0);
       expect(sameCost(hotSparse.cost, cold.cost), label).toBe(true);
     }
@@ -171,7 +171,7 @@ describe('solveSparse() warm-started from its own optimum', () => {
       };
       const cold = solveSparse(inst);
       expect(checkCertificate(inst, cold).ok, `seed ${seed}`).toBe(true);
-      const warm = solveSparse(inst, { warm: { colPrices: cold.colDuals, rowPrices: cold.rowDuals, rowToCol: cold.rowToCol } });
+      const warm = solveSparse(inst, { warmWhen: 'always', warm: { colPrices: cold.colDuals, rowPrices: cold.rowDuals, rowToCol: cold.rowToCol } });
       expect(checkCertificate(inst, warm).ok, `seed ${seed}`).toBe(true);
       expect(sameCost(warm.cost, cold.cost), `seed ${seed}`).toBe(true);
       const matched = cold.rowToCol.reduce((n, c) => n + (c >= 0 ? 1 : 0), 0);
@@ -200,7 +200,7 @@ describe('solveSparse() warm-started from its own optimum on a hindsight instanc
       const r = solveSparse(inst, opts);
       if (inst.nRows > 500 && checked < 3) {
         checked++;
-        const again = solveSparse(inst, { warm: { colPrices: r.colDuals, rowPrices: r.rowDuals, rowToCol: r.rowToCol } });
+        const again = solveSparse(inst, { warmWhen: 'always', warm: { colPrices: r.colDuals, rowPrices: r.rowDuals, rowToCol: r.rowToCol } });
         expect(checkCertificate(inst, again).ok).toBe(true);
         expect(sameCost(again.cost, r.cost)).toBe(true);
         const matched = r.rowToCol.reduce((n, c) => n + (c >= 0 ? 1 : 0), 0);
@@ -229,7 +229,7 @@ describe('warm start: free columns left below price 0', () => {
       cost: Float64Array.of(1, 2),
       unmatchedCost: Float64Array.of(10),
     };
-    const res = solveSparse(inst, { warm: { colPrices: Float64Array.of(-1, 0), rowToCol: Int32Array.of(1) } });
+    const res = solveSparse(inst, { warmWhen: 'always', warm: { colPrices: Float64Array.of(-1, 0), rowToCol: Int32Array.of(1) } });
     expect(res.cost).toBe(1);
     expect([...res.rowToCol]).toEqual([0]);
     expect(res.stats.warm).toBe(true);
@@ -267,7 +267,7 @@ describe('warm start: free columns left below price 0', () => {
       const want = bruteForce(next);
       const label = `seed ${77_000 + seed}`;
       const s = denseToSparse(next, rand);
-      const hot = solveSparse(s, { warm });
+      const hot = solveSparse(s, { warm, warmWhen: 'always' });
       expect(checkCertificate(s, hot).problems, label).toEqual([]);
       expect(sameCost(hot.cost, want), `${label}: ${hot.cost} vs ${want}`).toBe(true);
       const hotDense = solveDense(next, { warm });
@@ -277,5 +277,41 @@ describe('warm start: free columns left below price 0', () => {
     }
     // the path under test ran
     expect(reverse).toBeGreaterThan(20);
+  });
+});
+
+describe('solveSparse(): when a warm hint is used', () => {
+  it('ignores it below 32 pairs or when it offers a pair to under a quarter of the rows, and the optimum is the same either way', () => {
+    const build = (n: number, perRow: number, seed: number): SparseInstance => {
+      const rand = mulberry32(seed);
+      const rowPtr = new Int32Array(n + 1);
+      const cols: number[] = [];
+      const costs: number[] = [];
+      for (let r = 0; r < n; r++) {
+        const picked = new Set<number>();
+        while (picked.size < perRow) picked.add(randInt(rand, 0, n - 1));
+        for (const c of [...picked].sort((a, b) => a - b)) {
+          cols.push(c);
+          costs.push(rand() * 10);
+        }
+        rowPtr[r + 1] = cols.length;
+      }
+      return { nRows: n, nCols: n, rowPtr, colIdx: Int32Array.from(cols), cost: Float64Array.from(costs), unmatchedCost: new Float64Array(n).fill(12) };
+    };
+    const hintOf = (inst: SparseInstance, share: number): { rowToCol: Int32Array; colPrices: Float64Array } => {
+      const cold = solveSparse(inst);
+      const rowToCol = cold.rowToCol.map((c, r) => (r < share * inst.nRows ? c : -1));
+      return { rowToCol, colPrices: cold.colDuals };
+    };
+    const tiny = build(5, 5, 1); // 25 pairs
+    const big = build(60, 6, 2); // 360 pairs
+    for (const [inst, share, used] of [[tiny, 1, false], [big, 1, true], [big, 0.2, false], [big, 0.5, true]] as const) {
+      const warm = hintOf(inst, share);
+      const r = solveSparse(inst, { warm });
+      expect(r.stats.warm, `${inst.rowPtr[inst.nRows]} pairs, share ${share}`).toBe(used);
+      expect(solveSparse(inst, { warm, warmWhen: 'always' }).stats.warm).toBe(true);
+      expect(checkCertificate(inst, r).ok).toBe(true);
+      expect(sameCost(r.cost, solveSparse(inst).cost)).toBe(true);
+    }
   });
 });
