@@ -1,119 +1,109 @@
 /**
  * The first candidate pairs of a segment, picked while the graph is built (a
- * {@link RowVisitor}: each row is seen once, in cache, instead of in passes of their
+ * {@link RowVisitor}: each row is seen once, in cache, instead of in a pass of its
  * own over every pair). Pure.
  *
- * In the graph a candidate is marked by the sign of its float32 cost (costs are ≥ 0,
- * and a candidate's float32 cost is not read again): a byte per pair saved, and one
- * array fewer for the pricing passes to stream through.
+ * In the graph a candidate is marked by the top bit of its word (graph.ts): no array
+ * of its own, and one bit the pricing passes read with the cost code anyway.
  */
 
-import type { RowVisitor } from './graph.js';
+import { CODE_TOP, type RowVisitor } from './graph.js';
 
-// The least float32 above 0: a candidate of cost 0 is marked by its negative.
-const F32_TINY = 2 ** -149;
+const MARK = 0x80000000;
 
-/** Marks pair `e` a candidate: its float32 cost (≥ 0) turns negative. */
-export function markCandidate(cost32: Float32Array, e: number): void {
-  const c = cost32[e]!;
-  if (c < 0) return;
-  cost32[e] = c > 0 ? -c : -F32_TINY;
+/** Marks pair (word) `e` a candidate. */
+export function markCandidate(words: Uint32Array, e: number): void {
+  words[e] = (words[e]! | MARK) >>> 0;
 }
 
-/** Undoes {@link markCandidate}: the pair's float32 cost is ≥ 0 again. */
-export function unmarkCandidate(cost32: Float32Array, e: number): void {
-  const c = cost32[e]!;
-  if (c >= 0) return;
-  cost32[e] = c === -F32_TINY ? 0 : -c;
+/** Undoes {@link markCandidate}. */
+export function unmarkCandidate(words: Uint32Array, e: number): void {
+  words[e] = (words[e]! & ~MARK) >>> 0;
 }
 
 /**
  * Picks, row by row as the graph is built, the k cheapest pairs of every row and of
- * every column (cost below `limit`): a supply that is nobody's favourite still gets
- * its best demands, so the first prices are not blind to it. Also notes each row's
- * column range.
+ * every column (cost below P): a supply that is nobody's favourite still gets its
+ * best demands, so the first prices are not blind to it. Costs are compared by their
+ * codes (ties, a thousandth of a minute apart at most, fall either way: any choice
+ * of candidates gives the same optimum). Also notes each row's column range.
  */
 export class FirstCandidates implements RowVisitor {
   /** Per row: the lowest and highest column among its pairs (lo > hi when none). */
   readonly colLo: Int32Array;
   readonly colHi: Int32Array;
-  private readonly colCost: Float64Array;
+  private readonly colCode: Int32Array;
   private readonly colEdge: Int32Array;
-  /** Per column, its k-th cheapest so far (colCost's last slot) in a small array of its own: most pairs stop at this test. */
-  private readonly colBar: Float32Array;
-  private readonly bestCost: Float64Array;
+  /** Per column, its k-th cheapest code so far (the heap's top), where most pairs stop. */
+  private readonly colBar: Int32Array;
+  private readonly bestCode: Int32Array;
   private readonly bestEdge: Int32Array;
 
-  /**
-   * @param k candidates per row and per column
-   * @param limit pairs at or above it are never candidates (P, widened for float32 rounding)
-   */
+  /** @param k candidates per row and per column */
   constructor(
     nRows: number,
     private readonly nCols: number,
     private readonly k: number,
-    private readonly limit: number,
   ) {
     this.colLo = new Int32Array(nRows);
     this.colHi = new Int32Array(nRows);
-    this.colCost = new Float64Array(nCols * k).fill(Infinity);
+    // Per column a max-heap of k codes (CODE_TOP, "≥ P", while not full).
+    this.colCode = new Int32Array(nCols * k).fill(CODE_TOP);
     this.colEdge = new Int32Array(nCols * k).fill(-1);
-    this.colBar = new Float32Array(nCols).fill(Infinity);
-    this.bestCost = new Float64Array(k);
+    this.colBar = new Int32Array(nCols).fill(CODE_TOP);
+    this.bestCode = new Int32Array(k);
     this.bestEdge = new Int32Array(k);
   }
 
-  row(r: number, _demand: number, start: number, end: number, colIdx: Int32Array, cost32: Float32Array): void {
-    const { k, limit, colCost, colEdge, colBar, bestCost, bestEdge } = this;
+  row(r: number, _demand: number, cols: Int32Array, codes: Uint16Array, from: number, len: number, start: number, words: Uint32Array): void {
+    const { k, colCode, colEdge, colBar, bestCode, bestEdge } = this;
     let lo = this.nCols;
     let hi = -1;
     let n = 0;
-    for (let e = start; e < end; e++) {
-      const j = colIdx[e]!;
+    for (let i = 0; i < len; i++) {
+      const j = cols[from + i]!;
       if (j < lo) lo = j;
       if (j > hi) hi = j;
-      const c = cost32[e]!;
-      if (!(c < limit)) continue;
+      const c = codes[from + i]!;
+      if (c === CODE_TOP) continue;
+      const e = start + i;
       // The row's k cheapest, by insertion into a small sorted buffer.
-      if (n < k || c < bestCost[k - 1]!) {
+      if (n < k || c < bestCode[k - 1]!) {
         let p = n < k ? n++ : k - 1;
-        while (p > 0 && bestCost[p - 1]! > c) {
-          bestCost[p] = bestCost[p - 1]!;
+        while (p > 0 && bestCode[p - 1]! > c) {
+          bestCode[p] = bestCode[p - 1]!;
           bestEdge[p] = bestEdge[p - 1]!;
           p--;
         }
-        bestCost[p] = c;
+        bestCode[p] = c;
         bestEdge[p] = e;
       }
-      // The column's k cheapest so far: a max-heap of k slots (+Infinity while not
-      // full), whose top — the k-th cheapest — also sits in colBar, where most pairs
-      // stop (costs are float32 already, so the copy is exact).
+      // The column's k cheapest so far: its heap's top leaves, the pair sifts down.
       if (c < colBar[j]!) {
         const base = j * k;
         let p = 0;
         for (;;) {
           let ch = 2 * p + 1;
           if (ch >= k) break;
-          if (ch + 1 < k && colCost[base + ch + 1]! > colCost[base + ch]!) ch++;
-          if (!(colCost[base + ch]! > c)) break;
-          colCost[base + p] = colCost[base + ch]!;
+          if (ch + 1 < k && colCode[base + ch + 1]! > colCode[base + ch]!) ch++;
+          if (!(colCode[base + ch]! > c)) break;
+          colCode[base + p] = colCode[base + ch]!;
           colEdge[base + p] = colEdge[base + ch]!;
           p = ch;
         }
-        colCost[base + p] = c;
+        colCode[base + p] = c;
         colEdge[base + p] = e;
-        colBar[j] = colCost[base]!;
+        colBar[j] = colCode[base]!;
       }
     }
     this.colLo[r] = lo;
     this.colHi[r] = hi;
-    // Marked now that the row's costs have been read (the column lists keep edges only).
-    for (let q = 0; q < n; q++) markCandidate(cost32, bestEdge[q]!);
+    for (let q = 0; q < n; q++) markCandidate(words, bestEdge[q]!);
   }
 
   /** Once the graph is built: marks the columns' picks as candidates too. */
-  markColumns(cost32: Float32Array): void {
+  markColumns(words: Uint32Array): void {
     const colEdge = this.colEdge;
-    for (let q = 0; q < colEdge.length; q++) if (colEdge[q]! >= 0) markCandidate(cost32, colEdge[q]!);
+    for (let q = 0; q < colEdge.length; q++) if (colEdge[q]! >= 0) markCandidate(words, colEdge[q]!);
   }
 }

@@ -4,18 +4,20 @@
  */
 
 import { maxCardinalityMatching } from '../matching/cardinality.js';
-import type { CompactGraph } from './graph.js';
+import { columnsInPlace, type CompactGraph } from './graph.js';
 
 /**
- * Size of a maximum-cardinality matching of `g`. Hopcroft–Karp seeds itself greedily
- * with each row's first free pair: with the optimum's pair moved first in each row,
- * that seed is the optimum's matching, and only the few rows it leaves short need
- * augmenting. Reorders pairs within rows of `g` (the graph is done with otherwise).
+ * Size of a maximum-cardinality matching of `g`. The graph's words become plain
+ * columns in place first (graph.ts), so the ceiling needs no memory of its own per
+ * pair; `g` is spent afterwards. Hopcroft–Karp seeds itself greedily with each row's
+ * first free pair: with the optimum's pair moved first in each row, that seed is the
+ * optimum's matching, and only the few rows it leaves short need augmenting.
  *
  * @param rowToCol the optimum's column per graph row, -1 when unmatched
  */
 export function matchCeiling(g: CompactGraph, rowToCol: Int32Array): number {
-  const { nRows, rowPtr, colIdx, cost32 } = g;
+  const { nRows, nCols, rowPtr } = g;
+  const colIdx = columnsInPlace(g);
   for (let r = 0; r < nRows; r++) {
     const c = rowToCol[r]!;
     if (c < 0) continue;
@@ -25,11 +27,8 @@ export function matchCeiling(g: CompactGraph, rowToCol: Int32Array): number {
       if (colIdx[e] !== c) continue;
       colIdx[e] = colIdx[first]!;
       colIdx[first] = c;
-      const t = cost32[e]!;
-      cost32[e] = cost32[first]!;
-      cost32[first] = t;
       break;
     }
   }
-  return maxCardinalityMatching(g).size;
+  return maxCardinalityMatching({ nRows, nCols, rowPtr, colIdx }).size;
 }

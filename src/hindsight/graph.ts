@@ -267,12 +267,20 @@ export function pairCostOf(m: PackedMarket, config: PairflowConfig): PairCost {
 }
 
 /**
- * The allowed pairs of one market in CSR form, stored for size: 4 bytes of column and
- * 4 of cost (float32) per pair. Rows are graph rows, one per demand, numbered in the
- * order the time sweep completed them (roughly by `end`), so no row's pairs ever
- * need moving. The float32 cost is within 2^-24 + 1e-12 (relative) of the exact
- * cost (see {@link buildCompactGraph}); whatever must be exact (the restricted solves, the certificate, a pricing decision
- * near zero) recomputes it with {@link pairCostOf}.
+ * The allowed pairs of one market in CSR form, stored for size: one 32-bit word per
+ * pair (see {@link pairWord}). Rows are graph rows, one per demand, numbered in the
+ * order the time sweep completed them (roughly by `end`), so no row's pairs ever need
+ * moving. A word holds the pair's column less its row's lowest column (16 bits), a
+ * code of its cost (15 bits: a cost step of P/32767, so the code bounds the cost
+ * within about a thousandth of a minute at P = 30, and the top code says "≥ P"), and
+ * the candidate mark. Whatever must be exact (the restricted solves, the
+ * certificate, a pricing decision within a step of zero) recomputes the cost with
+ * {@link pairCostOf}. A row whose columns span more than 65 535 keeps its columns
+ * apart (`wide`); a week of a busy city has none.
+ *
+ * Why so small: the graph is most of the hindsight's memory (a busy district's day
+ * holds a hundred million pairs), two markets are solved at once, and a pricing pass
+ * streams through all of it; half the bytes of a column and a float32 cost.
  */
 export interface CompactGraph {
   readonly nRows: number;
@@ -281,12 +289,69 @@ export interface CompactGraph {
   readonly rowDemand: Int32Array;
   /** Graph row of each demand. */
   readonly demandRow: Int32Array;
-  /** Length nRows + 1: graph row r's pairs are `colIdx[rowPtr[r] .. rowPtr[r + 1])`, in sweep order. */
+  /** Length nRows + 1: graph row r's pairs are `words[rowPtr[r] .. rowPtr[r + 1])`, in sweep order. */
   readonly rowPtr: Int32Array;
-  /** Supply of each pair. */
-  readonly colIdx: Int32Array;
-  /** Cost of each pair rounded to float32. */
-  readonly cost32: Float32Array;
+  /** The lowest column of each row's pairs (what the words' column bits add to). */
+  readonly rowBase: Int32Array;
+  /** One word per pair (see {@link pairWord}). */
+  readonly words: Uint32Array;
+  /** The columns of each wide row (span over 65 535), by row; its words' column bits are 0. */
+  readonly wide: ReadonlyMap<number, Int32Array>;
+  /** Cost of one code step: code q means a cost in [q·step, (q + 1)·step); {@link CODE_TOP} means ≥ P. */
+  readonly step: number;
+}
+
+/** The code of a cost of P or more (a pair that can never price out or be worth matching). */
+export const CODE_TOP = 0x7fff;
+/** Largest column span a row's 16 column bits can hold. */
+const SPAN = 0xffff;
+
+/** A pair's word: column bits (column − row base), then the cost code, the candidate mark on top. */
+export function pairWord(delta: number, code: number): number {
+  return ((code << 16) | delta) >>> 0;
+}
+
+/** The cost code of a word (15 bits; the mark dropped). */
+export const codeOf = (w: number): number => (w >>> 16) & CODE_TOP;
+/** Whether a word's pair is marked a candidate. */
+export const isMarked = (w: number): boolean => w >>> 31 === 1;
+
+/** The cost code of cost c, P being the unmatched cost and `step` = P / 32767. */
+export function costCode(c: number, P: number, step: number): number {
+  // Below P a code never reaches the top one, whatever the rounding of c / step.
+  return c < P ? Math.min(CODE_TOP - 1, Math.floor(c / step)) : CODE_TOP;
+}
+
+/** The code step of a segment whose unmatched cost is P. */
+export function codeStep(P: number): number {
+  return P > 0 ? P / CODE_TOP : 1;
+}
+
+/** The column of pair e of row r (any row, wide or not). */
+export function columnOf(g: CompactGraph, r: number, e: number): number {
+  const wide = g.wide.get(r);
+  return wide === undefined ? g.rowBase[r]! + (g.words[e]! & SPAN) : wide[e - g.rowPtr[r]!]!;
+}
+
+/**
+ * Turns the words into plain columns, in place: the graph's pairs as an Int32Array of
+ * columns over the same memory (for the match ceiling, which needs nothing else).
+ * The graph's words are gone afterwards.
+ */
+export function columnsInPlace(g: CompactGraph): Int32Array {
+  const cols = new Int32Array(g.words.buffer, g.words.byteOffset, g.words.length);
+  for (let r = 0; r < g.nRows; r++) {
+    const wide = g.wide.get(r);
+    const start = g.rowPtr[r]!;
+    const end = g.rowPtr[r + 1]!;
+    if (wide !== undefined) {
+      cols.set(wide, start);
+      continue;
+    }
+    const base = g.rowBase[r]!;
+    for (let e = start; e < end; e++) cols[e] = base + (g.words[e]! & SPAN);
+  }
+  return cols;
 }
 
 // Pairs the first buffers are sized for. Pages of a typed array that are never
@@ -300,19 +365,15 @@ const RESERVE_PAIRS = 1 << 27;
  * before the next may share a store.
  */
 export class GraphStore {
-  colIdx = new Int32Array(0);
-  cost32 = new Float32Array(0);
+  words = new Uint32Array(0);
 
   /** Room for at least `n` pairs, keeping the first `keep`. */
   ensure(n: number, keep: number): void {
-    if (n <= this.colIdx.length) return;
-    const cap = Math.max(n, Math.min(RESERVE_PAIRS, 2 * n), 2 * this.colIdx.length);
-    const col = new Int32Array(cap);
-    col.set(this.colIdx.subarray(0, keep));
-    const cost = new Float32Array(cap);
-    cost.set(this.cost32.subarray(0, keep));
-    this.colIdx = col;
-    this.cost32 = cost;
+    if (n <= this.words.length) return;
+    const cap = Math.max(n, Math.min(RESERVE_PAIRS, 2 * n), 2 * this.words.length);
+    const words = new Uint32Array(cap);
+    words.set(this.words.subarray(0, keep));
+    this.words = words;
   }
 }
 
@@ -326,7 +387,7 @@ export class GraphStore {
  */
 class RowArena {
   cols = new Int32Array(1 << 16);
-  costs = new Float32Array(1 << 16);
+  codes = new Uint16Array(1 << 16);
   end = 0;
   /** Per demand: [start, count, capacity]; start −1 when the row holds no slice. */
   readonly slot: Int32Array;
@@ -346,7 +407,7 @@ class RowArena {
     const from = slot[3 * d]!;
     if (n > 0) {
       this.cols.copyWithin(start, from, from + n);
-      this.costs.copyWithin(start, from, from + n);
+      this.codes.copyWithin(start, from, from + n);
     }
     slot[3 * d] = start;
     slot[3 * d + 2] = cap;
@@ -366,7 +427,7 @@ class RowArena {
     for (let q = 0; q < nOpen; q++) live += slot[3 * open[q]! + 2]!;
     const size = Math.max(1 << 16, 4 * live);
     const cols = size > this.cols.length ? new Int32Array(size) : this.cols;
-    const costs = size > this.costs.length ? new Float32Array(size) : this.costs;
+    const codes = size > this.codes.length ? new Uint16Array(size) : this.codes;
     // In pool order, so an in-place copy never overwrites a slice not yet moved.
     const rows = Array.from(open.subarray(0, nOpen)).filter((d) => slot[3 * d]! >= 0);
     rows.sort((x, y) => slot[3 * x]! - slot[3 * y]!);
@@ -378,26 +439,27 @@ class RowArena {
       const cap = d === growing ? n : slot[3 * d + 2]!;
       if (cols !== this.cols || from !== at) {
         cols.set(this.cols.subarray(from, from + n), at);
-        costs.set(this.costs.subarray(from, from + n), at);
+        codes.set(this.codes.subarray(from, from + n), at);
       }
       slot[3 * d] = at;
       if (d === growing) slot[3 * d + 2] = n;
       at += cap;
     }
     this.cols = cols;
-    this.costs = costs;
+    this.codes = codes;
     this.end = at;
   }
 }
 
 /**
- * Sees each graph row once, right after its pairs are written (the row's pairs are
- * `store.colIdx` / `store.cost32` over `[start, end)`): what must look at every pair
- * (the first candidates, the components) does it here, while the row is in cache,
- * instead of in passes of its own over the whole graph.
+ * Sees each graph row once, as its pairs are written: their columns and cost codes
+ * are `cols` / `codes` over `[from, from + n)`, and pair i of them is word
+ * `start + i` of `words` (where a candidate is marked). What must look at every pair
+ * (the first candidates) does it here, while the row is in cache, instead of in a
+ * pass of its own over the whole graph.
  */
 export interface RowVisitor {
-  row(r: number, demand: number, start: number, end: number, colIdx: Int32Array, cost32: Float32Array): void;
+  row(r: number, demand: number, cols: Int32Array, codes: Uint16Array, from: number, n: number, start: number, words: Uint32Array): void;
 }
 
 /**
@@ -502,6 +564,10 @@ export function buildCompactGraph(
   const rowDemand = new Int32Array(nDemand);
   const demandRow = new Int32Array(nDemand);
   const rowPtr = new Int32Array(nDemand + 1);
+  const rowBase = new Int32Array(nDemand);
+  const wide = new Map<number, Int32Array>();
+  const P = config.abandonPenalty;
+  const step = codeStep(P);
   let nRows = 0;
   let nnz = 0;
   store.ensure(reserve > 0 ? reserve : Math.max(1024, Math.min(RESERVE_PAIRS, nDemand * nSupply)), 0);
@@ -517,17 +583,35 @@ export function buildCompactGraph(
     const from = slot[3 * d]!;
     const len = slot[3 * d + 1]!;
     const start = nnz;
+    const r = nRows;
     if (len > 0) {
       store.ensure(nnz + len, nnz);
-      store.colIdx.set(arena.cols.subarray(from, from + len), nnz);
-      store.cost32.set(arena.costs.subarray(from, from + len), nnz);
+      const cols = arena.cols;
+      const codes = arena.codes;
+      const words = store.words;
+      let lo = cols[from]!;
+      let hi = lo;
+      for (let i = from + 1; i < from + len; i++) {
+        const c = cols[i]!;
+        if (c < lo) lo = c;
+        if (c > hi) hi = c;
+      }
+      rowBase[r] = lo;
+      if (hi - lo <= SPAN) {
+        for (let i = 0; i < len; i++) words[start + i] = ((codes[from + i]! << 16) | (cols[from + i]! - lo)) >>> 0;
+      } else {
+        wide.set(r, cols.slice(from, from + len));
+        for (let i = 0; i < len; i++) words[start + i] = (codes[from + i]! << 16) >>> 0;
+      }
+      visitor?.row(r, d, cols, codes, from, len, start, words);
+    } else {
+      visitor?.row(r, d, arena.cols, arena.codes, 0, 0, start, store.words);
     }
     arena.release(d);
     nnz += len;
-    rowDemand[nRows] = d;
-    demandRow[d] = nRows;
+    rowDemand[r] = d;
+    demandRow[d] = r;
     rowPtr[++nRows] = nnz;
-    visitor?.row(nRows - 1, d, start, nnz, store.colIdx, store.cost32);
   };
   const popRow = (): void => {
     const top = heap[0]!;
@@ -656,7 +740,7 @@ export function buildCompactGraph(
         if (slot[sl + 1] === slot[sl + 2]) arena.grow(dd, heap, heapSize);
         const to = slot[sl]! + slot[sl + 1]!++;
         arena.cols[to] = ss;
-        arena.costs[to] = c;
+        arena.codes[to] = costCode(c, P, step);
       }
       bucket.length = keep;
     }
@@ -672,8 +756,10 @@ export function buildCompactGraph(
     rowDemand,
     demandRow,
     rowPtr,
-    colIdx: store.colIdx.subarray(0, nnz),
-    cost32: store.cost32.subarray(0, nnz),
+    rowBase,
+    words: store.words.subarray(0, nnz),
+    wide,
+    step,
   };
 }
 
@@ -706,8 +792,9 @@ export function expandGraph(g: CompactGraph, exact: PairCost): AllowedGraph {
     const r = g.demandRow[d]!;
     let at = rowPtr[d]!;
     for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
-      colIdx[at] = g.colIdx[e]!;
-      cost[at] = exact(d, g.colIdx[e]!);
+      const c = columnOf(g, r, e);
+      colIdx[at] = c;
+      cost[at] = exact(d, c);
       at++;
     }
   }

@@ -13,17 +13,17 @@
 
 import { pairflowError } from '../errors.js';
 import { markCandidate } from './candidates.js';
-import type { CompactGraph, PairCost } from './graph.js';
+import { CODE_TOP, type CompactGraph, type PairCost } from './graph.js';
 
 // A non-candidate pair prices out below this (relative to its cost): well under the
 // certificate's 1e-9 yet above the rounding of duals built from sums of costs.
 const PRICE_TOL = 1e-11;
 /**
- * A stored float32 cost is within 2^-24 + 1e-12 of the exact one (relative, see
- * buildCompactGraph); this covers that and the rounding of the reduced cost
- * computed from it.
+ * Relative head-room over a code's cost interval: the interval's ends are computed
+ * in floating point from the code, and a code from a cost within 2^-24 + 1e-12 of
+ * the exact one (the graph's fast distance, rounded).
  */
-export const F32_SLACK = 2 ** -22;
+const BOUND_SLACK = 2 ** -22;
 
 /** The pairs one pass adds, rows ascending (each row's in the order found). */
 export interface PricedOut {
@@ -31,7 +31,7 @@ export interface PricedOut {
   readonly violators: number;
   readonly n: number;
   readonly rows: Int32Array;
-  readonly edges: Int32Array;
+  readonly cols: Int32Array;
   readonly costs: Float64Array;
 }
 
@@ -42,9 +42,10 @@ export class Pricer {
   private readonly movedBefore: Int32Array;
   private readonly addRed: Float64Array;
   private readonly addEdge: Int32Array;
+  private readonly addCol: Int32Array;
   private readonly addCost: Float64Array;
   private newRow = new Int32Array(1024);
-  private newEdge = new Int32Array(1024);
+  private newCol = new Int32Array(1024);
   private newCost = new Float64Array(1024);
   private passes = 0;
   /** Row pricings over all passes (a clean row whose prices stood still is skipped). */
@@ -72,6 +73,7 @@ export class Pricer {
     this.movedBefore = new Int32Array(g.nCols + 1);
     this.addRed = new Float64Array(addPerRow);
     this.addEdge = new Int32Array(addPerRow);
+    this.addCol = new Int32Array(addPerRow);
     this.addCost = new Float64Array(addPerRow);
   }
 
@@ -80,8 +82,8 @@ export class Pricer {
    * marked candidates in the graph. The arrays returned are reused by the next pass.
    */
   pass(rowDuals: Float64Array, colDuals: Float64Array): PricedOut {
-    const { g, exact, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCost } = this;
-    const { nRows, nCols, rowPtr, colIdx, cost32, rowDemand } = g;
+    const { g, exact, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCol, addCost } = this;
+    const { nRows, nCols, rowPtr, rowBase, words, wide, step, rowDemand } = g;
     const first = this.passes++ === 0;
     // Columns whose price moved since the previous pass (every one, the first time).
     for (let c = 0; c < nCols; c++) {
@@ -101,23 +103,31 @@ export class Pricer {
       rowsPriced++;
       const au = Math.abs(u);
       const d = rowDemand[r]!;
+      const base = rowBase[r]!;
+      const wideCols = wide.size === 0 ? undefined : wide.get(r);
+      const start = rowPtr[r]!;
+      const end = rowPtr[r + 1]!;
       let nb = 0;
       let rowViolators = 0;
-      const end = rowPtr[r + 1]!;
-      for (let e = rowPtr[r]!; e < end; e++) {
-        const c32 = cost32[e]!;
-        if (c32 < 0) continue;
-        const v = colDuals[colIdx[e]!]!;
-        // Far from zero the float32 cost decides either way; near zero the exact cost
-        // does. The reduced cost kept for ranking may be the float32 one: any choice
-        // among true violators is sound.
-        let red = c32 - u - v;
-        const slack = F32_SLACK * (c32 + au + Math.abs(v));
+      for (let e = start; e < end; e++) {
+        const w = words[e]!;
+        // Candidates (top bit) and pairs of P or more (top code) never price out.
+        if (w >>> 31 === 1) continue;
+        const code = w >>> 16;
+        if (code === CODE_TOP) continue;
+        const col = wideCols === undefined ? base + (w & 0xffff) : wideCols[e - start]!;
+        const v = colDuals[col]!;
+        // The code says the cost lies in [lo, lo + step): far from zero the interval
+        // decides, near zero the exact cost does. The reduced cost kept for ranking
+        // may be the interval's lower end: any choice among true violators is sound.
+        const lo = code * step;
+        let red = lo - u - v;
+        const slack = BOUND_SLACK * (lo + step + au + Math.abs(v));
         if (red >= slack) continue;
         let c = NaN;
-        if (red >= -slack - 2 * PRICE_TOL * (1 + c32)) {
+        if (red + step >= -slack - 2 * PRICE_TOL * (1 + lo + step)) {
           rechecks++;
-          c = exact(d, colIdx[e]!);
+          c = exact(d, col);
           red = c - u - v;
           if (red >= -PRICE_TOL * (1 + Math.abs(c))) continue;
         }
@@ -130,11 +140,13 @@ export class Pricer {
         while (p > 0 && addRed[p - 1]! > red) {
           addRed[p] = addRed[p - 1]!;
           addEdge[p] = addEdge[p - 1]!;
+          addCol[p] = addCol[p - 1]!;
           addCost[p] = addCost[p - 1]!;
           p--;
         }
         addRed[p] = red;
         addEdge[p] = e;
+        addCol[p] = col;
         addCost[p] = c;
       }
       // Clean when every violator found is added now.
@@ -142,32 +154,32 @@ export class Pricer {
       if (nb === 0) continue;
       if (nNew + nb > this.newRow.length) this.grow(nNew + nb);
       for (let q = 0; q < nb; q++) {
-        const e = addEdge[q]!;
-        const c = Number.isNaN(addCost[q]!) ? exact(d, colIdx[e]!) : addCost[q]!;
+        const col = addCol[q]!;
+        const c = Number.isNaN(addCost[q]!) ? exact(d, col) : addCost[q]!;
         // A violator has c < u + v ≤ P; anything else is a bug in the prices.
         if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
-        markCandidate(cost32, e);
+        markCandidate(words, addEdge[q]!);
         this.newRow[nNew] = r;
-        this.newEdge[nNew] = e;
+        this.newCol[nNew] = col;
         this.newCost[nNew] = c;
         nNew++;
       }
     }
     this.rechecks += rechecks;
     this.rowsPriced += rowsPriced;
-    return { violators, n: nNew, rows: this.newRow, edges: this.newEdge, costs: this.newCost };
+    return { violators, n: nNew, rows: this.newRow, cols: this.newCol, costs: this.newCost };
   }
 
   private grow(need: number): void {
     const size = Math.max(2 * this.newRow.length, need);
     const rows = new Int32Array(size);
     rows.set(this.newRow);
-    const edges = new Int32Array(size);
-    edges.set(this.newEdge);
+    const cols = new Int32Array(size);
+    cols.set(this.newCol);
     const costs = new Float64Array(size);
     costs.set(this.newCost);
     this.newRow = rows;
-    this.newEdge = edges;
+    this.newCol = cols;
     this.newCost = costs;
   }
 }

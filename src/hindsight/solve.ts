@@ -28,8 +28,8 @@ import type { SolveOptions, SolveResult, SparseInstance } from '../matching/type
 import type { PairflowConfig } from '../model.js';
 import { FirstCandidates, unmarkCandidate } from './candidates.js';
 import { matchCeiling } from './ceiling.js';
-import { buildCompactGraph, expandGraph, GraphStore, pairCostOf, type AllowedGraph, type PackedMarket } from './graph.js';
-import { F32_SLACK, Pricer } from './pricing.js';
+import { buildCompactGraph, columnOf, expandGraph, GraphStore, pairCostOf, type AllowedGraph, type PackedMarket } from './graph.js';
+import { Pricer } from './pricing.js';
 import { mergeProofs, subMarket, timeSegments, type SegmentProof } from './segments.js';
 
 /** A sparse assignment solver with the contract of src/matching/types.ts. */
@@ -239,25 +239,24 @@ function solveSegment(
     phases[key] += t - tPhase;
     tPhase = t;
   };
-  // Every pair whose exact cost is below P has a float32 cost below this.
-  const pCut = P + Math.abs(P) * F32_SLACK;
-  const first = new FirstCandidates(m.nDemand, m.nSupply, k, pCut);
+  const first = new FirstCandidates(m.nDemand, m.nSupply, k);
   const g = buildCompactGraph(m, config, store, 0, first);
   const exact = pairCostOf(m, config);
   lap('graphMs');
-  const { nRows, nCols, rowPtr, colIdx, cost32, rowDemand } = g;
-  first.markColumns(cost32);
+  const { nRows, nCols, rowPtr, words, rowDemand } = g;
+  first.markColumns(words);
   // The restricted assignment over graph rows, every row free to stay unmatched at P;
-  // its pairs are the marked ones, at their exact costs (a pair whose float32 cost
-  // could not tell and is not below P after all is unmarked).
+  // its pairs are the marked ones, at their exact costs (a pair whose code could not
+  // tell and is not below P after all is unmarked).
   const restricted = new GrowingAssignment(nRows, nCols, new Float64Array(nRows).fill(P), now);
   for (let r = 0; r < nRows; r++) {
     const d = rowDemand[r]!;
     for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-      if (!(cost32[e]! < 0)) continue;
-      const c = exact(d, colIdx[e]!);
-      if (c < P) restricted.add(r, colIdx[e]!, c);
-      else unmarkCandidate(cost32, e);
+      if (words[e]! >>> 31 === 0) continue;
+      const col = columnOf(g, r, e);
+      const c = exact(d, col);
+      if (c < P) restricted.add(r, col, c);
+      else unmarkCandidate(words, e);
     }
   }
   const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P);
@@ -275,7 +274,7 @@ function solveSegment(
     lap(pricingRounds === 0 ? 'firstSolveMs' : 'resolveMs');
     pricingRounds++;
     const found = pricer.pass(restricted.u, restricted.v);
-    for (let q = 0; q < found.n; q++) restricted.add(found.rows[q]!, colIdx[found.edges[q]!]!, found.costs[q]!);
+    for (let q = 0; q < found.n; q++) restricted.add(found.rows[q]!, found.cols[q]!, found.costs[q]!);
     lap('pricingMs');
     if (found.violators === 0) {
       // No allowed pair prices out: the prices prove the optimum once they certify
@@ -327,7 +326,7 @@ function solveSegment(
 
   return {
     matched,
-    pairsPriced: colIdx.length,
+    pairsPriced: words.length,
     pairsSolved: inst.colIdx.length,
     pricingRounds,
     ceiling,

@@ -45,10 +45,11 @@ class Lines {
     if (at === this.start[l]! + this.cap[l]!) {
       const len = at - this.start[l]!;
       const cap = Math.max(4, 2 * len);
-      if (this.used + cap > this.index.length) this.grow(this.used + cap);
+      if (this.used + cap > this.index.length) this.compact(cap);
+      const from = this.start[l]!;
       const to = this.used;
-      this.index.copyWithin(to, this.start[l]!, at);
-      this.cost.copyWithin(to, this.start[l]!, at);
+      this.index.copyWithin(to, from, from + len);
+      this.cost.copyWithin(to, from, from + len);
       this.start[l] = to;
       this.cap[l] = cap;
       at = to + len;
@@ -59,15 +60,29 @@ class Lines {
     this.end[l] = at + 1;
   }
 
-  /** The pool grows (moved slices leave holes; a long run of rounds is a few dozen of them). */
-  private grow(need: number): void {
-    const size = Math.max(need, 2 * this.index.length);
+  /**
+   * A new pool, twice what the lines hold (plus room for `extra`), the lines copied
+   * into it back to back: the holes moved slices left behind are dropped.
+   */
+  private compact(extra: number): void {
+    let live = extra;
+    for (let l = 0; l < this.start.length; l++) live += this.cap[l]!;
+    const size = Math.max(1024, 2 * live);
     const index = new Int32Array(size);
-    index.set(this.index.subarray(0, this.used));
     const cost = new Float64Array(size);
-    cost.set(this.cost.subarray(0, this.used));
+    let at = 0;
+    for (let l = 0; l < this.start.length; l++) {
+      const from = this.start[l]!;
+      const n = this.end[l]! - from;
+      index.set(this.index.subarray(from, from + n), at);
+      cost.set(this.cost.subarray(from, from + n), at);
+      this.start[l] = at;
+      this.end[l] = at + n;
+      at += this.cap[l]!;
+    }
     this.index = index;
     this.cost = cost;
+    this.used = at;
   }
 
   /** Pairs held in all lines. */

@@ -4,6 +4,10 @@ import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
 import {
   buildAllowedGraph,
   buildCompactGraph,
+  CODE_TOP,
+  codeOf,
+  columnOf,
+  columnsInPlace,
   GraphStore,
   packMarket,
   pairCostOf,
@@ -164,11 +168,11 @@ describe('buildAllowedGraph()', () => {
   });
 });
 
-/** A compact graph's pairs keyed by (demand, supply), with their float32 costs. */
+/** A compact graph's pairs keyed by (demand, supply), with their cost codes. */
 function compactPairs(g: CompactGraph): Map<string, number> {
   const out = new Map<string, number>();
   for (let r = 0; r < g.nRows; r++) {
-    for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) out.set(`${g.rowDemand[r]},${g.colIdx[e]}`, g.cost32[e]!);
+    for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) out.set(`${g.rowDemand[r]},${columnOf(g, r, e)}`, codeOf(g.words[e]!));
   }
   return out;
 }
@@ -177,7 +181,7 @@ describe('buildCompactGraph()', () => {
   const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', maxTravelMin: 12, waitWeight: 1.3 };
   const plane = (rand: () => number): Partial<HindsightUnit> => ({ x: rand() * 8, y: rand() * 8 });
 
-  it('holds the all-pairs set, each cost within a float32 rounding of the exact one, and a row per demand', () => {
+  it('holds the all-pairs set, each code bounding the exact cost to a step, and a row per demand', () => {
     for (let seed = 1; seed <= 10; seed++) {
       const units = randomUnits(seed, plane, 90);
       const m = packMarket(units, config);
@@ -185,8 +189,19 @@ describe('buildCompactGraph()', () => {
       const want = allPairs(units, config);
       const got = compactPairs(g);
       expect([...got.keys()].sort(), `seed ${seed}`).toEqual([...want.keys()].sort());
-      // The float32 rounding of a fast distance (buildCompactGraph): within 2^-24 + 1e-12 relative.
-      for (const [k, c] of want) expect(Math.abs(got.get(k)! - c), `seed ${seed} pair ${k}`).toBeLessThanOrEqual(c * (2 ** -24 + 1e-12));
+      // A code q says the cost lies in [q·step, (q + 1)·step), up to float rounding of
+      // a fast distance (2^-24 + 1e-12 relative); the top code says ≥ P.
+      const P = config.abandonPenalty;
+      const tol = (c: number) => c * (2 ** -22);
+      for (const [k, c] of want) {
+        const q = got.get(k)!;
+        if (q === CODE_TOP) {
+          expect(c, `seed ${seed} pair ${k}`).toBeGreaterThanOrEqual(P - tol(P));
+        } else {
+          expect(c, `seed ${seed} pair ${k}`).toBeGreaterThanOrEqual(q * g.step - tol(c));
+          expect(c, `seed ${seed} pair ${k}`).toBeLessThan((q + 1) * g.step + tol(c));
+        }
+      }
       // rowDemand and demandRow are inverse permutations of the demand.
       expect(g.nRows).toBe(m.nDemand);
       expect([...g.rowDemand].sort((a, b) => a - b)).toEqual(Array.from({ length: m.nDemand }, (_, i) => i));
@@ -221,5 +236,29 @@ describe('buildCompactGraph()', () => {
       expect(compactPairs(shared), `seed ${seed}`).toEqual(compactPairs(fresh));
       expect(Array.from(shared.rowPtr)).toEqual(Array.from(fresh.rowPtr));
     }
+  });
+
+  it('keeps the columns of a row that spans more than 65 535 of them apart, and gives them back in place', () => {
+    // 70 000 supplies at one place, present throughout; a demand meets them all, so
+    // its row spans columns 0..69 999. A second demand meets only the last ten.
+    const units: HindsightUnit[] = [
+      ...Array.from({ length: 70_000 }, (_, i) => ({ side: 'supply', t: 0, end: i < 69_990 ? 500 : 2000, x: 1, y: 1 }) as HindsightUnit),
+      { side: 'demand', t: 100, end: 400, x: 1, y: 1.5 },
+      { side: 'demand', t: 1000, end: 1500, x: 1.2, y: 1 },
+    ];
+    const m = packMarket(units, config);
+    const g = buildCompactGraph(m, config);
+    expect(g.wide.size).toBe(1);
+    const r = g.demandRow[0]!;
+    expect(g.rowPtr[r + 1]! - g.rowPtr[r]!).toBe(70_000);
+    expect(columnOf(g, r, g.rowPtr[r]! + 69_999)).toBe(69_999);
+    const narrow = g.demandRow[1]!;
+    const cols = Array.from({ length: 10 }, (_, i) => columnOf(g, narrow, g.rowPtr[narrow]! + i)).sort((a, b) => a - b);
+    expect(cols).toEqual(Array.from({ length: 10 }, (_, i) => 69_990 + i));
+    const want = Array.from({ length: g.rowPtr[g.nRows]! }, (_, e) => {
+      const row = e < g.rowPtr[1]! ? 0 : 1;
+      return columnOf(g, row, e);
+    });
+    expect(Array.from(columnsInPlace(g))).toEqual(want);
   });
 });
