@@ -92,6 +92,9 @@ export class Pricer {
       movedBefore[c + 1] = movedBefore[c]! + moved;
       pricedV[c] = v;
     }
+    // The largest |v|, for a slack per row that holds for every pair of it.
+    let maxAbsV = 0;
+    for (let c = 0; c < nCols; c++) maxAbsV = Math.max(maxAbsV, Math.abs(colDuals[c]!));
     let violators = 0;
     let nNew = 0;
     let rechecks = 0;
@@ -101,29 +104,31 @@ export class Pricer {
       if (rowClean[r] === 1 && u === pricedU[r] && (colHi[r]! < colLo[r]! || movedBefore[colHi[r]! + 1] === movedBefore[colLo[r]!])) continue;
       pricedU[r] = u;
       rowsPriced++;
-      const au = Math.abs(u);
       const d = rowDemand[r]!;
       const base = rowBase[r]!;
       const wideCols = wide.size === 0 ? undefined : wide.get(r);
       const start = rowPtr[r]!;
       const end = rowPtr[r + 1]!;
+      // The code says the pair's cost lies in [lo, lo + step), lo = code · step: it
+      // cannot price out when lo − v reaches u plus a slack for the rounding of lo
+      // and of the reduced cost (a bound for every pair of the row: lo ≤ P).
+      const slack = BOUND_SLACK * (P + step + Math.abs(u) + maxAbsV);
+      const bar = u + slack;
       let nb = 0;
       let rowViolators = 0;
       for (let e = start; e < end; e++) {
         const w = words[e]!;
-        // Candidates (top bit) and pairs of P or more (top code) never price out.
-        if (w >>> 31 === 1) continue;
+        // Candidates (the top bit makes the code ≥ 0x8000) and pairs of P or more
+        // (the top code) never price out.
         const code = w >>> 16;
-        if (code === CODE_TOP) continue;
+        if (code >= CODE_TOP) continue;
         const col = wideCols === undefined ? base + (w & 0xffff) : wideCols[e - start]!;
         const v = colDuals[col]!;
-        // The code says the cost lies in [lo, lo + step): far from zero the interval
-        // decides, near zero the exact cost does. The reduced cost kept for ranking
-        // may be the interval's lower end: any choice among true violators is sound.
         const lo = code * step;
+        if (lo - v >= bar) continue;
+        // Near zero the exact cost decides; the reduced cost kept for ranking may be
+        // the interval's lower end: any choice among true violators is sound.
         let red = lo - u - v;
-        const slack = BOUND_SLACK * (lo + step + au + Math.abs(v));
-        if (red >= slack) continue;
         let c = NaN;
         if (red + step >= -slack - 2 * PRICE_TOL * (1 + lo + step)) {
           rechecks++;
