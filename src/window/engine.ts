@@ -232,6 +232,17 @@ class SidePool {
     return slot;
   }
 
+  /** Takes a stored slot layout (restore): slots below `high` not in use must read -1. */
+  setLayout(high: number, free: readonly number[]): void {
+    if (high > this.slotOcc.length) {
+      const grown = new Int32Array(Math.max(high, this.slotOcc.length * 2)).fill(-1);
+      grown.set(this.slotOcc);
+      this.slotOcc = grown;
+    }
+    this.high = high;
+    this.free = [...free];
+  }
+
   /** Puts `occ` at a given slot (restore). */
   place(occ: number, slot: number, a: number, b: number): void {
     if (slot >= this.slotOcc.length) {
@@ -603,16 +614,14 @@ export class WindowEngine {
       ids.push(o.index);
     }
     const occs = this.ledger.occurrences;
-    m.demand.high = snap.pools.demand.high;
-    m.supply.high = snap.pools.supply.high;
+    m.demand.setLayout(snap.pools.demand.high, snap.pools.demand.free);
+    m.supply.setLayout(snap.pools.supply.high, snap.pools.supply.free);
     // Supply first, so that each demand's candidate list is built by its own query.
     for (const side of ['supply', 'demand'] as const) {
       snap.units.forEach((u, k) => {
         if (u.state === 'pool' && u.side === side) this.enterPool(m, occs[ids[k]!]!, m.lastClosed + this.W, u.slot!);
       });
     }
-    m.demand.free = [...snap.pools.demand.free];
-    m.supply.free = [...snap.pools.supply.free];
     snap.units.forEach((u, k) => {
       const id = ids[k]!;
       if (u.state === 'pending') {

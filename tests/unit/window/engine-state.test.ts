@@ -49,15 +49,18 @@ const MARKETS = ['north', 'south', 'east'];
  * A seeded log of several markets on a 3×3 grid of points 1 km apart: couriers come
  * back after jobs (the same id again later), units cancel, arrivals repeat.
  */
-function tiedLog(seed: number, n: number): { config: PairflowConfig; events: SourcedEvent[] } {
+function tiedLog(seed: number, n: number, busy = false): { config: PairflowConfig; events: SourcedEvent[] } {
   const rand = mulberry32(seed);
+  // Busy: one market, long patience and a short reach, so pools run to a hundred units
+  // and more, with slots freed and reused all along.
+  const markets = busy ? ['north'] : MARKETS;
   const evs: PairflowEvent[] = [];
   let t = 1_000_000;
   for (let i = 0; i < n; i++) {
     t += randInt(rand, 0, 700);
-    const market = MARKETS[randInt(rand, 0, MARKETS.length - 1)]!;
+    const market = markets[randInt(rand, 0, markets.length - 1)]!;
     const side = rand() < 0.5 ? 'demand' : 'supply';
-    const id = `${side[0]}${randInt(rand, 0, n / 6)}`;
+    const id = `${side[0]}${randInt(rand, 0, busy ? n : n / 6)}`;
     const r = rand();
     if (r < 0.1) {
       evs.push({ type: 'withdraw', side, id, market, t });
@@ -73,7 +76,8 @@ function tiedLog(seed: number, n: number): { config: PairflowConfig; events: Sou
   const config: PairflowConfig = {
     ...DEFAULT_CONFIG, metric: 'euclidean', speedKmh: 60, maxTravelMin: 2, windowMs: [1000, 2000, 5000][randInt(rand, 0, 2)]!,
     waitWeight: [0, 1][randInt(rand, 0, 1)]!, abandonPenalty: 10, reserve: rand() < 0.5 ? null : 3,
-    demandPatienceMin: 0.3, supplyPatienceMin: 0.5, commit: rand() < 0.5 ? 'all' : 'due', allowedLatenessMs: 0,
+    demandPatienceMin: busy ? 3 : 0.3, supplyPatienceMin: busy ? 5 : 0.5, commit: rand() < 0.5 ? 'all' : 'due', allowedLatenessMs: 0,
+    ...(busy ? { maxTravelMin: 0.5, abandonPenalty: 1 } : {}),
   };
   return { config, events: evs.map((event, i) => ({ event, pos: { file: 'tied.jsonl', line: i + 1 }, seq: i })) };
 }
@@ -96,11 +100,14 @@ function uninterrupted(config: PairflowConfig, events: readonly SourcedEvent[], 
 describe('WindowEngine state: restore', () => {
   it('restoring from snapshots at several points gives the same records as one uninterrupted run, ties included (seeded)', () => {
     let restoredDone = 0;
+    let largestPool = 0;
     for (let seed = 1; seed <= 40; seed++) {
-      const { config, events } = tiedLog(seed, 300);
+      const busy = seed % 4 === 0;
+      const n = busy ? 800 : 300;
+      const { config, events } = tiedLog(seed, n, busy);
       const ref = uninterrupted(config, events);
       const rand = mulberry32(seed * 7919);
-      const cuts = [...new Set([randInt(rand, 1, 299), randInt(rand, 1, 299), randInt(rand, 1, 299)])].sort((a, b) => a - b);
+      const cuts = [...new Set([randInt(rand, 1, n - 1), randInt(rand, 1, n - 1), randInt(rand, 1, n - 1)])].sort((a, b) => a - b);
       const tape = new Tape();
       let engine = new WindowEngine(config, tape, { verify: true, now: () => 0 });
       let from = 0;
@@ -110,6 +117,7 @@ describe('WindowEngine state: restore', () => {
         if (cut === events.length) break;
         // Stop here: keep only what a snapshot keeps, through JSON, as on the pool topic.
         const states = engine.marketNames().map((m) => [m, JSON.parse(JSON.stringify(engine.snapshot(m)))] as const);
+        for (const [, s] of states) largestPool = Math.max(largestPool, (s as { pools: { demand: { high: number } } }).pools.demand.high);
         engine = new WindowEngine(config, tape, { verify: true, now: () => 0 });
         for (const [m, s] of states) {
           engine.restore(m, s);
@@ -119,8 +127,10 @@ describe('WindowEngine state: restore', () => {
       engine.finish();
       expect(tape.all(), `seed ${seed} cuts ${cuts.join(',')} ${config.commit}`).toEqual(ref.all());
     }
-    // The scenarios did carry reported units across restarts (for duplicates and re-arrivals).
+    // The scenarios did carry reported units across restarts (for duplicates and
+    // re-arrivals), and pools larger than a slot array's first allocation.
     expect(restoredDone).toBeGreaterThan(0);
+    expect(largestPool).toBeGreaterThan(40);
   });
 });
 
