@@ -20,7 +20,7 @@ import type { Producer } from 'kafkajs';
 import { loadLog } from '../../src/consume/index.js';
 import { toJsonLine } from '../../src/consume/schema.js';
 import { generateEvents } from '../../src/gen/gen.js';
-import { createAvroSerde, createEventSerde, createKafka, marketPartitioner } from '../../src/kafka/index.js';
+import { createEventSerde, createKafka, marketPartitioner } from '../../src/kafka/index.js';
 import { eventValue, type BusFormat } from '../../src/live/records.js';
 import { readOutputs, summarizeOutputs, type LiveOutputs } from '../../src/live/summarize.js';
 import { DEFAULT_CONFIG, type PairflowConfig, type PairflowEvent } from '../../src/model.js';
