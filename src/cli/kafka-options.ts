@@ -30,3 +30,15 @@ export function kafkaClient(brokers: string, clientId: string, logger: Logger): 
   const debug = logger.levelVal <= 20;
   return createKafka({ brokers, clientId, ...(debug ? { logger: logger.child({}) } : {}) });
 }
+
+/**
+ * After a Kafka command has finished, a kafkajs client whose broker went away and came
+ * back can keep a retry timer or socket alive; the process then would not end. This
+ * ends it once the command is done if nothing else does within `graceMs`.
+ */
+export function exitWhenDone(logger: Logger, graceMs = 2000): void {
+  setTimeout(() => {
+    logger.debug({ graceMs }, 'handles left open after the command finished; exiting');
+    process.exit(process.exitCode ?? 0);
+  }, graceMs).unref();
+}

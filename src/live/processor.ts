@@ -252,6 +252,7 @@ export class LiveProcessor {
   private failed!: (e: unknown) => void;
   private readonly done: Promise<void>;
   private idleSince: number | null = null;
+  private finishing = false;
   private firstCommitDone = false;
 
   constructor(opts: LiveOptions) {
@@ -667,24 +668,37 @@ export class LiveProcessor {
       });
     }));
     const limit = this.o.exitWhenIdleMs;
-    if (limit === undefined || !this.isReady()) return;
+    if (limit === undefined || this.finishing || !this.isReady()) return;
     const lastInput = Math.max(...[...this.parts.values()].map((s) => s.lastInputAt), -Infinity);
     if (this.idleSince === null) this.idleSince = now;
     const quiet = now - Math.max(this.idleSince, lastInput === -Infinity ? this.idleSince : lastInput);
     if (quiet >= limit) await this.finishIdle();
   }
 
-  /** `--exit-when-idle`: close every window as if the log had ended, commit, stop. */
+  /**
+   * `--exit-when-idle`: close every window as if the log had ended, commit, stop. If a
+   * commit fails (the broker is away), the partition goes back to its committed state
+   * and the processor carries on as before; the idle clock starts over.
+   */
   private async finishIdle(): Promise<void> {
-    if (this.stopping) return;
-    this.stopping = true;
-    this.log.info({ idleMs: this.o.exitWhenIdleMs }, 'live: input idle; closing every window and exiting');
-    await Promise.all([...this.parts.values()].map((st) => st.run(async () => {
-      if (st.status !== 'ready') return;
+    if (this.stopping || this.finishing) return;
+    this.finishing = true;
+    this.log.info({ idleMs: this.o.exitWhenIdleMs }, 'live: input idle; closing every window');
+    const results = await Promise.all([...this.parts.values()].map((st) => st.run(async () => {
+      if (st.status !== 'ready') return false;
       st.pipeline!.finish();
       this.noteClosed(st);
       await this.commit(st, 'finish');
+      return (st.status as PartitionStatus) === 'ready';
     })));
-    this.finished();
+    this.finishing = false;
+    if (results.every(Boolean) && this.isReady()) {
+      this.stopping = true;
+      this.log.info('live: every window closed and committed; exiting');
+      this.finished();
+      return;
+    }
+    this.idleSince = null;
+    this.log.warn('live: the final commit did not go through; carrying on from the committed state');
   }
 }

@@ -139,6 +139,35 @@ export async function drive(source: EventSource, pipeline: Pipeline, sink: Outpu
 }
 
 /**
+ * Feeds a finite source whose items come from several partitions (a Kafka topic read
+ * to its end) through one pipeline per partition — the per-partition watermark of
+ * SPEC §3, as live mode keeps it — then finishes them all. Items without a partition
+ * (a file) go to partition 0.
+ */
+export async function drivePartitioned(
+  source: EventSource,
+  makePipeline: (partition: number) => Pipeline,
+  sink: OutputSink | null,
+): Promise<Map<number, Pipeline>> {
+  const pipelines = new Map<number, Pipeline>();
+  let i = 0;
+  try {
+    for await (const item of source.items()) {
+      const part = (item.kind === 'event' ? item.ev.pos.partition : item.reject.pos.partition) ?? 0;
+      let p = pipelines.get(part);
+      if (!p) pipelines.set(part, (p = makePipeline(part)));
+      p.offer(item);
+      if (sink && ++i % PRESSURE_CHECK_EVERY === 0 && sink.pressure) await sink.drain();
+    }
+  } finally {
+    await source.close();
+  }
+  for (const p of pipelines.values()) p.finish();
+  if (sink && sink.pressure) await sink.drain();
+  return pipelines;
+}
+
+/**
  * A source over a loaded log: its rejects first (they were found while reading), then
  * its events in event-time order, stable by file order.
  */

@@ -8,7 +8,7 @@
 import { expect, it } from 'vitest';
 import { toJsonLine } from '../../src/consume/schema.js';
 import { DEFAULT_CONFIG, type PairflowConfig, type PairflowEvent, type Reject, type SourcedEvent } from '../../src/model.js';
-import { drive, fileSource, Pipeline, type RecordSink } from '../../src/pipeline/drive.js';
+import { drivePartitioned, fileSource, Pipeline, type RecordSink } from '../../src/pipeline/drive.js';
 import type { AssignmentRecord, EpochRecord, EventSource, ExpiryRecord } from '../../src/ports.js';
 import { mulberry32, randInt } from '../helpers/random.js';
 
@@ -78,9 +78,10 @@ async function collectItems(source: EventSource): Promise<{ events: SourcedEvent
   return { events, rejects };
 }
 
+/** The source through one pipeline per partition (a file is one partition), as live mode runs it. */
 async function tapeOf(source: EventSource, config: PairflowConfig): Promise<Map<string, string[]>> {
   const tape = new Tape();
-  await drive(source, new Pipeline(config, tape, { now: () => 0 }), null);
+  await drivePartitioned(source, () => new Pipeline(config, tape, { now: () => 0 }), null);
   return tape.byMarket;
 }
 

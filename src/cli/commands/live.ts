@@ -10,7 +10,7 @@ import { readEnv } from '../../env.js';
 import { pairflowError } from '../../errors.js';
 import { LiveProcessor, type FaultPoint } from '../../live/processor.js';
 import { resolveConfig } from '../config-file.js';
-import { brokersFrom, kafkaClient, stderrLogger } from '../kafka-options.js';
+import { brokersFrom, exitWhenDone, kafkaClient, stderrLogger } from '../kafka-options.js';
 import { parseDuration, parseNumber } from '../parse.js';
 import { parseFormat } from './publish.js';
 
@@ -97,6 +97,7 @@ export function registerLive(program: Command): void {
       } finally {
         process.off('SIGTERM', onSignal);
         process.off('SIGINT', onSignal);
+        exitWhenDone(logger);
       }
     });
 }

@@ -7,7 +7,7 @@ import { pairflowError } from '../../errors.js';
 import { publishLog } from '../../live/publish.js';
 import type { BusFormat } from '../../live/records.js';
 import { resolveConfig } from '../config-file.js';
-import { brokersFrom, kafkaClient, stderrLogger } from '../kafka-options.js';
+import { brokersFrom, exitWhenDone, kafkaClient, stderrLogger } from '../kafka-options.js';
 import { rejectReporter } from './replay.js';
 import { progressLine } from './sweep.js';
 
@@ -63,6 +63,7 @@ export function registerPublish(program: Command): void {
       });
       progress.done();
       rejects.finish();
+      exitWhenDone(logger);
       if (o.json) process.stdout.write(`${JSON.stringify(result)}\n`);
       else {
         process.stdout.write(

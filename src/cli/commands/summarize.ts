@@ -6,7 +6,7 @@ import type { Command } from 'commander';
 import { readOutputs, summarizeOutputs } from '../../live/summarize.js';
 import { formatWindow, textTable } from '../../replay/summary.js';
 import { resolveConfig } from '../config-file.js';
-import { brokersFrom, kafkaClient, stderrLogger } from '../kafka-options.js';
+import { brokersFrom, exitWhenDone, kafkaClient, stderrLogger } from '../kafka-options.js';
 
 interface SummarizeCliOptions {
   brokers?: string;
@@ -32,6 +32,7 @@ export function registerSummarize(program: Command): void {
       const logger = stderrLogger(o.logLevel, 'pairflow-summarize');
       const kafka = kafkaClient(brokersFrom(o.brokers), 'pairflow-summarize', logger);
       const summary = summarizeOutputs(o.out, await readOutputs(kafka, o.out, logger));
+      exitWhenDone(logger);
       if (o.json) {
         process.stdout.write(`${JSON.stringify({ windowMs: config.windowMs, ...summary })}\n`);
         return;
