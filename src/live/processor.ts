@@ -121,6 +121,8 @@ export interface LiveOptions {
   /** Consumer session timeout: how soon the group notices a process that died (ms). @default 30000 */
   sessionTimeoutMs?: number;
   observer?: LiveObserver;
+  /** Write a `live: stats` log line this often (ms); 0 = never. @default 60000 */
+  statsEveryMs?: number;
   /** Fault injection for tests: called at each {@link FaultPoint}. */
   fault?: (point: FaultPoint) => void;
 }
@@ -130,30 +132,40 @@ type PartitionStatus = 'restoring' | 'ready' | 'fenced' | 'released';
 /** The records of one partition waiting for the next transaction, and the counts for the observer. */
 class PartitionOutput implements RecordSink {
   messages: Message[][] = [[], [], [], []];
+  /** Wall time at which the first record waiting for the next transaction was made (an epoch closed). */
+  firstAt: number | null = null;
   counts: OutputCounts = { assignments: 0, expiredDemand: 0, expiredSupply: 0, windows: 0, late: 0, rejects: 0 };
 
   constructor(
     private readonly partition: number,
     private readonly encoder: OutputEncoder,
     private readonly input: string,
+    private readonly now: () => number,
   ) {}
+
+  private first(): void {
+    if (this.firstAt === null) this.firstAt = this.now();
+  }
 
   get size(): number {
     return this.messages[0]!.length + this.messages[1]!.length + this.messages[2]!.length + this.messages[3]!.length;
   }
 
   assignment(a: AssignmentRecord): void {
+    this.first();
     this.messages[0]!.push({ key: a.market, value: this.encoder.assignment(a), partition: this.partition });
     this.counts.assignments++;
   }
 
   expiry(e: ExpiryRecord): void {
+    this.first();
     this.messages[1]!.push({ key: e.market, value: this.encoder.expired(e), partition: this.partition });
     if (e.side === 'demand') this.counts.expiredDemand++;
     else this.counts.expiredSupply++;
   }
 
   epoch(s: EpochRecord): void {
+    this.first();
     this.messages[2]!.push({ key: s.market, value: this.encoder.window(s), partition: this.partition });
     this.counts.windows++;
     this.counts.late += s.late;
@@ -173,8 +185,9 @@ class PartitionOutput implements RecordSink {
     this.counts.rejects++;
   }
 
-  take(): { messages: Message[][]; counts: OutputCounts } {
-    const out = { messages: this.messages, counts: this.counts };
+  take(): { messages: Message[][]; counts: OutputCounts; firstAt: number | null } {
+    const out = { messages: this.messages, counts: this.counts, firstAt: this.firstAt };
+    this.firstAt = null;
     this.messages = [[], [], [], []];
     this.counts = { assignments: 0, expiredDemand: 0, expiredSupply: 0, windows: 0, late: 0, rejects: 0 };
     return out;
@@ -192,10 +205,6 @@ class PartitionState {
   /** Input records taken since the last commit. */
   uncommitted = 0;
   lastCommitAt: number;
-  /** Wall time at which the watermark first closed an epoch not yet committed. */
-  closedAt: number | null = null;
-  /** The engine's closed epoch when last looked at. */
-  closedEpoch = -Infinity;
   /** Resolves when the restore is over (either way). */
   ready: Promise<void>;
   /** Serialises everything done to this partition (batches, ticks, commits, release). */
@@ -205,8 +214,9 @@ class PartitionState {
   lastInputAt: number;
   readonly token = randomUUID();
 
-  constructor(readonly partition: number, encoder: OutputEncoder, input: string, now: number) {
-    this.output = new PartitionOutput(partition, encoder, input);
+  constructor(readonly partition: number, encoder: OutputEncoder, input: string, clock: Clock) {
+    const now = clock.now();
+    this.output = new PartitionOutput(partition, encoder, input, () => clock.now());
     this.lastCommitAt = now;
     this.lastInputAt = now;
     this.ready = Promise.resolve();
@@ -253,6 +263,13 @@ export class LiveProcessor {
   private readonly done: Promise<void>;
   private idleSince: number | null = null;
   private finishing = false;
+  private statsTimer: ReturnType<typeof setInterval> | null = null;
+  /** Running counts for the stats log lines and the final one. */
+  private readonly stats = {
+    records: 0, rejects: 0, transactions: 0, aborted: 0, restores: 0, outputs: 0,
+    firstRecordAt: null as number | null, lastCommitWithInputAt: null as number | null,
+    closeToCommit: [] as number[], lag: new Map<number, number>(),
+  };
   private firstCommitDone = false;
 
   constructor(opts: LiveOptions) {
@@ -321,6 +338,8 @@ export class LiveProcessor {
       eachBatch: (payload) => this.onBatch(payload),
     });
     this.ticker = setInterval(() => { void this.onTick(); }, this.o.tickMs ?? 200);
+    const every = this.o.statsEveryMs ?? 60_000;
+    if (every > 0) this.statsTimer = setInterval(() => this.logStats('live: stats'), every);
     try {
       await this.done;
     } finally {
@@ -343,9 +362,33 @@ export class LiveProcessor {
     return this.done;
   }
 
+  /**
+   * One log line of figures: records and transactions so far, the epoch-close-to-commit
+   * latency since the last line, memory, lag and pool sizes.
+   */
+  private logStats(msg: string): void {
+    const s = this.stats;
+    const lat = s.closeToCommit.sort((a, b) => a - b);
+    const q = (p: number): number | null => (lat.length === 0 ? null : Math.round(lat[Math.min(lat.length - 1, Math.floor(p * lat.length))]! * 10) / 10);
+    const mem = process.memoryUsage();
+    let units = 0;
+    for (const st of this.parts.values()) for (const ps of st.pipeline?.engine.poolSizes() ?? []) units += ps.demand + ps.supply + ps.pending;
+    this.log.info({
+      records: s.records, rejects: s.rejects, transactions: s.transactions, aborted: s.aborted, restores: s.restores, outputs: s.outputs,
+      closeToCommitMs: { n: lat.length, p50: q(0.5), p99: q(0.99), max: lat.length ? Math.round(lat[lat.length - 1]! * 10) / 10 : null },
+      rssMb: Math.round(mem.rss / 2 ** 20), heapMb: Math.round(mem.heapUsed / 2 ** 20),
+      lag: [...s.lag.values()].reduce((a, b) => a + b, 0), poolUnits: units,
+      busyMs: s.firstRecordAt !== null && s.lastCommitWithInputAt !== null ? Math.round(s.lastCommitWithInputAt - s.firstRecordAt) : null,
+    }, msg);
+    s.closeToCommit = [];
+  }
+
   private async shutdown(): Promise<void> {
     if (this.ticker) clearInterval(this.ticker);
     this.ticker = null;
+    if (this.statsTimer) clearInterval(this.statsTimer);
+    this.statsTimer = null;
+    this.logStats('live: totals');
     this.stopping = true;
     await this.consumer?.disconnect().catch(() => {});
     for (const st of this.parts.values()) await this.release(st, 'shutdown');
@@ -380,7 +423,7 @@ export class LiveProcessor {
   /** Takes partition p: fences the previous owner, restores its markets. */
   private claim(p: number): PartitionState {
     if (this.paused.delete(p)) this.consumer?.resume([{ topic: this.o.input, partitions: [p] }]);
-    const st = new PartitionState(p, this.encoder, this.o.input, this.clock.now());
+    const st = new PartitionState(p, this.encoder, this.o.input, this.clock);
     this.parts.set(p, st);
     st.ready = st.run(() => this.restore(st)).catch((err: unknown) => {
       this.log.error({ partition: p, err }, 'live: restore failed');
@@ -450,11 +493,11 @@ export class LiveProcessor {
           st.nextOffset = pos.nextOffset;
         }
         pipeline.engine.takeTouched();
-        st.closedEpoch = Math.floor(pipeline.advancedTo / this.o.config.windowMs) * this.o.config.windowMs;
         st.pipeline = pipeline;
         st.status = 'ready';
         st.lastCommitAt = this.clock.now();
         const ms = this.clock.now() - t0;
+        this.stats.restores++;
         this.o.observer?.restored?.(p, { ms, markets: latest.size, units, poolRecords });
         this.log.info({ partition: p, ms: Math.round(ms), markets: latest.size, units, poolRecords, nextOffset: st.nextOffset }, 'live: partition restored');
         return;
@@ -527,8 +570,9 @@ export class LiveProcessor {
         state.lastInputAt = this.clock.now();
         this.idleSince = null;
       }
-      this.noteClosed(state);
-      this.o.observer?.lag?.(p, Number(batch.offsetLag()));
+      const lag = Number(batch.offsetLag());
+      this.stats.lag.set(p, lag);
+      this.o.observer?.lag?.(p, lag);
       await this.maybeCommit(state, 'batch');
       if (last >= 0) resolveOffset(String(last));
     });
@@ -538,7 +582,10 @@ export class LiveProcessor {
   /** One consumed record into the pipeline (or the rejects). */
   private take(st: PartitionState, pipeline: Pipeline, origin: RecordOrigin, m: KafkaMessage): void {
     const d = this.decoder.decode(origin, m.key, m.value);
+    this.stats.records++;
+    this.stats.firstRecordAt ??= this.clock.now();
     if (!d.ok) {
+      this.stats.rejects++;
       pipeline.watermark.observe(null);
       st.output.rejectRecord(origin, d.code, d.reason, m.key, m.value);
       this.o.observer?.recordIn?.(st.partition, 'reject', d.code);
@@ -546,16 +593,6 @@ export class LiveProcessor {
     }
     this.o.observer?.recordIn?.(st.partition, d.ev.event.type);
     pipeline.offerEvent(d.ev);
-  }
-
-  /** Notes when the watermark first closed an epoch since the last commit (for latency). */
-  private noteClosed(st: PartitionState): void {
-    const wm = st.pipeline!.advancedTo;
-    const closed = Math.floor(wm / this.o.config.windowMs) * this.o.config.windowMs;
-    if (closed > st.closedEpoch) {
-      st.closedEpoch = closed;
-      if (st.closedAt === null) st.closedAt = this.clock.now();
-    }
   }
 
   private async maybeCommit(st: PartitionState, why: string): Promise<void> {
@@ -572,7 +609,7 @@ export class LiveProcessor {
     const pipeline = st.pipeline!;
     const producer = st.producer!;
     const t0 = this.clock.now();
-    const { messages, counts } = st.output.take();
+    const { messages, counts, firstAt } = st.output.take();
     const touched = pipeline.engine.takeTouched();
     const pool: Message[] = touched.map((market) => ({
       key: market, value: JSON.stringify(pipeline.engine.snapshot(market)), partition: p,
@@ -606,6 +643,7 @@ export class LiveProcessor {
       await tx.commit();
     } catch (err) {
       if (tx) await tx.abort().catch(() => {});
+      this.stats.aborted++;
       this.o.observer?.aborted?.(p, err);
       await this.recover(st, err);
       return;
@@ -614,11 +652,14 @@ export class LiveProcessor {
     this.o.fault?.('after-commit');
     const done = this.clock.now();
     const records = topicMessages.reduce((n, t) => n + t.messages.length, 0);
+    this.stats.transactions++;
+    this.stats.outputs += records;
+    if (st.uncommitted > 0) this.stats.lastCommitWithInputAt = done;
+    if (firstAt !== null) this.stats.closeToCommit.push(done - firstAt);
     this.o.observer?.outputs?.(p, counts);
-    this.o.observer?.committed?.(p, { commitMs: done - t0, closeToCommitMs: st.closedAt === null ? null : done - st.closedAt, records });
+    this.o.observer?.committed?.(p, { commitMs: done - t0, closeToCommitMs: firstAt === null ? null : done - firstAt, records });
     this.o.observer?.pools?.(p, pipeline.engine.poolSizes());
     this.log.debug({ partition: p, why, records, markets: touched.length, nextOffset: st.nextOffset, ms: Math.round(done - t0) }, 'live: batch committed');
-    st.closedAt = null;
     st.uncommitted = 0;
     st.lastCommitAt = done;
   }
@@ -663,7 +704,6 @@ export class LiveProcessor {
       return st.run(async () => {
         if (st.status !== 'ready' || this.stopping) return;
         st.pipeline!.tick();
-        this.noteClosed(st);
         await this.maybeCommit(st, 'idle');
       });
     }));
@@ -687,7 +727,6 @@ export class LiveProcessor {
     const results = await Promise.all([...this.parts.values()].map((st) => st.run(async () => {
       if (st.status !== 'ready') return false;
       st.pipeline!.finish();
-      this.noteClosed(st);
       await this.commit(st, 'finish');
       return (st.status as PartitionStatus) === 'ready';
     })));

@@ -216,6 +216,8 @@ const ST_GONE = 4;
 /** One side's pool of a market: slots (reused) hold occurrence indices; the grid indexes the slots. */
 class SidePool {
   slotOcc: Int32Array = new Int32Array(16).fill(-1);
+  /** The serial of the occurrence in each slot (0 when free): tells a live candidate entry from a stale one. */
+  slotSerial: Float64Array = new Float64Array(16);
   /** Slots in use are below `high`; freed ones are reused last-freed first. */
   high = 0;
   size = 0;
@@ -226,37 +228,41 @@ class SidePool {
     this.grid = new SpatialGrid(gridOpts);
   }
 
-  add(occ: number, a: number, b: number): number {
+  add(occ: number, serial: number, a: number, b: number): number {
     const slot = this.free.length > 0 ? this.free.pop()! : this.high++;
-    this.place(occ, slot, a, b);
+    this.place(occ, serial, slot, a, b);
     return slot;
   }
 
   /** Takes a stored slot layout (restore): slots below `high` not in use must read -1. */
   setLayout(high: number, free: readonly number[]): void {
-    if (high > this.slotOcc.length) {
-      const grown = new Int32Array(Math.max(high, this.slotOcc.length * 2)).fill(-1);
-      grown.set(this.slotOcc);
-      this.slotOcc = grown;
-    }
+    if (high > this.slotOcc.length) this.grow(high);
     this.high = high;
     this.free = [...free];
   }
 
-  /** Puts `occ` at a given slot (restore). */
-  place(occ: number, slot: number, a: number, b: number): void {
-    if (slot >= this.slotOcc.length) {
-      const grown = new Int32Array(Math.max(slot + 1, this.slotOcc.length * 2)).fill(-1);
-      grown.set(this.slotOcc);
-      this.slotOcc = grown;
-    }
+  private grow(n: number): void {
+    const size = Math.max(n, this.slotOcc.length * 2);
+    const occ = new Int32Array(size).fill(-1);
+    occ.set(this.slotOcc);
+    this.slotOcc = occ;
+    const ser = new Float64Array(size);
+    ser.set(this.slotSerial);
+    this.slotSerial = ser;
+  }
+
+  /** Puts `occ` (with its serial) at a given slot. */
+  place(occ: number, serial: number, slot: number, a: number, b: number): void {
+    if (slot >= this.slotOcc.length) this.grow(slot + 1);
     this.slotOcc[slot] = occ;
+    this.slotSerial[slot] = serial;
     this.grid.insert(slot, a, b);
     this.size++;
   }
 
   remove(slot: number): void {
     this.slotOcc[slot] = -1;
+    this.slotSerial[slot] = 0;
     this.grid.remove(slot);
     this.free.push(slot);
     this.size--;
@@ -387,8 +393,11 @@ export class WindowEngine {
   private maxKey: Float64Array = new Float64Array(1024).fill(-Infinity);
   private nextSerial = 1;
   /**
-   * Demand only: allowed supply seen so far, flat [supplyOcc, travelMin, serial, ...];
-   * stale entries (left the pool, or the index reused) are dropped at use.
+   * Supply only: allowed demand seen so far, flat [demand pool slot, travelMin, serial, ...]
+   * (an entry is live while that slot holds that serial);
+   * stale entries (left the pool, or the index reused) are dropped at use. Kept on the
+   * supply side so a solve can lay out each row's pairs in column order by counting,
+   * without sorting.
    */
   private cand: Array<number[] | undefined> = [];
 
@@ -404,6 +413,9 @@ export class WindowEngine {
   private rowPrices: Float64Array = new Float64Array(64);
   private colPrices: Float64Array = new Float64Array(64);
   private warmPairs: Int32Array = new Int32Array(64);
+  private rowOfSlot: Int32Array = new Int32Array(64);
+  private rowWait: Float64Array = new Float64Array(64);
+  private cursor: Int32Array = new Int32Array(64);
   private nRows = 0;
   private nCols = 0;
   private readonly qIds: number[] = [];
@@ -616,7 +628,7 @@ export class WindowEngine {
     const occs = this.ledger.occurrences;
     m.demand.setLayout(snap.pools.demand.high, snap.pools.demand.free);
     m.supply.setLayout(snap.pools.supply.high, snap.pools.supply.free);
-    // Supply first, so that each demand's candidate list is built by its own query.
+    // Supply first: each supply's candidate list starts empty and every demand adds itself by its own query.
     for (const side of ['supply', 'demand'] as const) {
       snap.units.forEach((u, k) => {
         if (u.state === 'pool' && u.side === side) this.enterPool(m, occs[ids[k]!]!, m.lastClosed + this.W, u.slot!);
@@ -828,29 +840,30 @@ export class WindowEngine {
     const occs = this.ledger.occurrences;
     const serial = this.serial;
     if (o.side === 'demand') {
-      if (slot >= 0) m.demand.place(id, slot, a, b);
-      else slot = m.demand.add(id, a, b);
+      const did = serial[id]!;
+      if (slot >= 0) m.demand.place(id, did, slot, a, b);
+      else slot = m.demand.add(id, did, a, b);
       this.slotOf[id] = slot;
-      const list: number[] = [];
       const n = m.supply.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
       for (let k = 0; k < n; k++) {
         const s = m.supply.slotOcc[this.qIds[k]!]!;
         const tr = travelMin(this.qDist[k]!, speed);
-        if (tr <= maxTravel && capabilitiesAllow(o.needs, occs[s]!.has)) list.push(s, tr, serial[s]!);
+        if (tr <= maxTravel && capabilitiesAllow(o.needs, occs[s]!.has)) this.cand[s]!.push(slot, tr, did);
       }
-      this.cand[id] = list;
       if (this.demandLastChanceMatters) this.pushLastChance(m, o, from);
     } else {
-      if (slot >= 0) m.supply.place(id, slot, a, b);
-      else slot = m.supply.add(id, a, b);
+      if (slot >= 0) m.supply.place(id, serial[id]!, slot, a, b);
+      else slot = m.supply.add(id, serial[id]!, a, b);
       this.slotOf[id] = slot;
-      const sid = serial[id]!;
+      const list: number[] = [];
       const n = m.demand.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
       for (let k = 0; k < n; k++) {
-        const d = m.demand.slotOcc[this.qIds[k]!]!;
+        const dSlot = this.qIds[k]!;
+        const d = m.demand.slotOcc[dSlot]!;
         const tr = travelMin(this.qDist[k]!, speed);
-        if (tr <= maxTravel && capabilitiesAllow(occs[d]!.needs, o.has)) this.cand[d]!.push(id, tr, sid);
+        if (tr <= maxTravel && capabilitiesAllow(occs[d]!.needs, o.has)) list.push(dSlot, tr, serial[d]!);
       }
+      this.cand[id] = list;
       if (this.due) this.pushLastChance(m, o, from);
     }
     this.push(m, m.expiry, Math.max(this.epochAfter(o.end), from), id);
@@ -952,85 +965,92 @@ export class WindowEngine {
 
   /**
    * The window's instance: rows are the demand pool in slot order, columns the supply
-   * pool in slot order, each row's allowed pairs in column order; costs c(s,d,τ),
-   * deferral P or R; the carried prices and tentative pairs as the warm start.
+   * pool in slot order, each row's allowed pairs in column order (laid out by counting,
+   * from the supply side's lists); costs c(s,d,τ), deferral P or R; the carried prices
+   * and tentative pairs as the warm start.
    */
   private pack(m: MarketState, tau: number): SparseInstance {
     const occs = this.ledger.occurrences;
-    const W = this.W;
-    const sup = m.supply;
-    this.colOfSlot = growI32(this.colOfSlot, sup.high);
-    this.colOcc = growI32(this.colOcc, sup.size);
-    this.colPrices = growF64(this.colPrices, sup.size);
-    let nCols = 0;
-    for (let slot = 0; slot < sup.high; slot++) {
-      const s = sup.slotOcc[slot]!;
-      if (s < 0) continue;
-      this.colOfSlot[slot] = nCols;
-      this.colOcc[nCols] = s;
-      this.colPrices[nCols] = this.price[s]!;
-      nCols++;
-    }
     const dem = m.demand;
-    let bound = 0;
-    for (let slot = 0; slot < dem.high; slot++) {
-      const d = dem.slotOcc[slot]!;
-      if (d >= 0) bound += Math.floor(this.cand[d]!.length / 3);
-    }
+    const sup = m.supply;
+    const st = this.state, slotOf = this.slotOf, partner = this.partner;
+    const waitPerMs = this.config.waitWeight / 60_000;
+    const lastChanceBefore = tau + this.W;
+    // Rows: the demand pool in slot order.
+    this.rowOfSlot = growI32(this.rowOfSlot, dem.high);
     this.rowPtr = growI32(this.rowPtr, dem.size + 1);
     this.rowOcc = growI32(this.rowOcc, dem.size);
     this.delta = growF64(this.delta, dem.size);
     this.rowPrices = growF64(this.rowPrices, dem.size);
-    this.warmPairs = growI32(this.warmPairs, dem.size);
-    this.colIdx = growI32(this.colIdx, bound);
-    this.cost = growF64(this.cost, bound);
-    this.travel = growF64(this.travel, bound);
-    const { rowPtr, colIdx, cost, travel, delta, rowOcc, rowPrices, warmPairs, colOfSlot } = this;
-    const st = this.state, slotOf = this.slotOf, partner = this.partner, serial = this.serial;
-    const waitPerMs = this.config.waitWeight / 60_000;
-    const lastChanceBefore = tau + W;
+    this.rowWait = growF64(this.rowWait, dem.size);
+    const { rowOfSlot, rowOcc, delta, rowPrices, rowWait } = this;
     let nRows = 0;
-    let nnz = 0;
     for (let slot = 0; slot < dem.high; slot++) {
       const d = dem.slotOcc[slot]!;
       if (d < 0) continue;
       const od = occs[d]!;
+      rowOfSlot[slot] = nRows;
       rowOcc[nRows] = d;
-      const rowStart = nnz;
-      rowPtr[nRows] = nnz;
-      const wait = waitPerMs * (tau - od.t);
-      const list = this.cand[d]!;
-      let w = 0;
-      for (let k = 0; k < list.length; k += 3) {
-        const s = list[k]!;
-        if (st[s] !== ST_POOL || serial[s] !== list[k + 2]) continue;
-        const tr = list[k + 1]!;
-        list[w] = s;
-        list[w + 1] = tr;
-        list[w + 2] = list[k + 2]!;
-        w += 3;
-        // Insertion by column: a row's pairs in column order, however the list grew.
-        const col = colOfSlot[slotOf[s]!]!;
-        let e = nnz;
-        while (e > rowStart && colIdx[e - 1]! > col) {
-          colIdx[e] = colIdx[e - 1]!;
-          cost[e] = cost[e - 1]!;
-          travel[e] = travel[e - 1]!;
-          e--;
-        }
-        colIdx[e] = col;
-        cost[e] = tr + wait;
-        travel[e] = tr;
-        nnz++;
-      }
-      if (w !== list.length) list.length = w;
+      rowWait[nRows] = waitPerMs * (tau - od.t);
       delta[nRows] = od.until < lastChanceBefore ? this.P : this.R;
       rowPrices[nRows] = this.price[d]!;
-      const p = partner[d]!;
-      warmPairs[nRows] = p >= 0 && st[p] === ST_POOL ? colOfSlot[slotOf[p]!]! : -1;
       nRows++;
     }
-    rowPtr[nRows] = nnz;
+    // Columns: the supply pool in slot order; count each row's live pairs, dropping stale ones.
+    this.colOfSlot = growI32(this.colOfSlot, sup.high);
+    this.colOcc = growI32(this.colOcc, sup.size);
+    this.colPrices = growF64(this.colPrices, sup.size);
+    this.rowPtr.fill(0, 0, nRows + 1);
+    const { colOfSlot, colOcc, colPrices, rowPtr } = this;
+    let nCols = 0;
+    let nnz = 0;
+    for (let slot = 0; slot < sup.high; slot++) {
+      const s = sup.slotOcc[slot]!;
+      if (s < 0) continue;
+      colOfSlot[slot] = nCols;
+      colOcc[nCols] = s;
+      colPrices[nCols] = this.price[s]!;
+      nCols++;
+      const list = this.cand[s]!;
+      const slotSerial = dem.slotSerial;
+      let w = 0;
+      for (let k = 0; k < list.length; k += 3) {
+        const dSlot = list[k]!;
+        if (slotSerial[dSlot] !== list[k + 2]) continue;
+        list[w] = dSlot;
+        list[w + 1] = list[k + 1]!;
+        list[w + 2] = list[k + 2]!;
+        w += 3;
+        rowPtr[rowOfSlot[dSlot]! + 1]!++;
+      }
+      if (w !== list.length) list.length = w;
+      nnz += w / 3;
+    }
+    for (let r = 0; r < nRows; r++) rowPtr[r + 1]! += rowPtr[r]!;
+    // Place the pairs column by column: each row receives its columns in increasing order.
+    this.colIdx = growI32(this.colIdx, nnz);
+    this.cost = growF64(this.cost, nnz);
+    this.travel = growF64(this.travel, nnz);
+    this.cursor = growI32(this.cursor, nRows);
+    const { colIdx, cost, travel, cursor } = this;
+    for (let r = 0; r < nRows; r++) cursor[r] = rowPtr[r]!;
+    for (let j = 0; j < nCols; j++) {
+      const list = this.cand[colOcc[j]!]!;
+      for (let k = 0; k < list.length; k += 3) {
+        const r = rowOfSlot[list[k]!]!;
+        const e = cursor[r]!++;
+        const tr = list[k + 1]!;
+        colIdx[e] = j;
+        travel[e] = tr;
+        cost[e] = tr + rowWait[r]!;
+      }
+    }
+    this.warmPairs = growI32(this.warmPairs, nRows);
+    const warmPairs = this.warmPairs;
+    for (let r = 0; r < nRows; r++) {
+      const p = partner[rowOcc[r]!]!;
+      warmPairs[r] = p >= 0 && st[p] === ST_POOL ? colOfSlot[slotOf[p]!]! : -1;
+    }
     this.nRows = nRows;
     this.nCols = nCols;
     return {

@@ -25,6 +25,7 @@ interface LiveCliOptions {
   exitWhenIdle?: string;
   maxRecordBytes?: string;
   sessionTimeout?: string;
+  statsEvery?: string;
   warm: boolean;
   logLevel: string;
 }
@@ -55,6 +56,7 @@ export function registerLive(program: Command): void {
     .option('--exit-when-idle <ms>', 'once no input has arrived for this long, close every window, commit and exit 0')
     .option('--max-record-bytes <n>', 'larger input values are rejected as oversized (default 65536)')
     .option('--session-timeout <ms>', 'how soon the group notices a process that died and moves its partitions (default 30s)')
+    .option('--stats-every <ms>', 'log a line of figures (records, transactions, close-to-commit latency, memory, lag) this often; 0 = never (default 1m)')
     .option('--no-warm', 'solve every epoch cold (no dual prices carried over)')
     .option('--log-level <level>', 'pino level for the JSON log lines on stderr', readEnv().logLevel === 'warn' ? 'info' : readEnv().logLevel)
     .action(async (o: LiveCliOptions) => {
@@ -68,6 +70,7 @@ export function registerLive(program: Command): void {
         }
       }
       const sessionTimeoutMs = o.sessionTimeout !== undefined ? parseDuration(o.sessionTimeout, '--session-timeout') : undefined;
+      const statsEveryMs = o.statsEvery === undefined ? undefined : o.statsEvery === '0' ? 0 : parseDuration(o.statsEvery, '--stats-every');
       const format = parseFormat(o.format);
       const config = await resolveConfig({ configFile: o.config, windowMs });
       const logger = stderrLogger(o.logLevel, 'pairflow-live');
@@ -78,6 +81,7 @@ export function registerLive(program: Command): void {
         ...(exitWhenIdleMs !== undefined ? { exitWhenIdleMs } : {}),
         ...(maxRecordBytes !== undefined ? { maxRecordBytes } : {}),
         ...(sessionTimeoutMs !== undefined ? { sessionTimeoutMs } : {}),
+        ...(statsEveryMs !== undefined ? { statsEveryMs } : {}),
         ...(fault ? { fault } : {}),
       });
       let signals = 0;
