@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { bootstrapWindows, bucketOf, bucketPlan, bucketSums, seededRandom } from '../../../src/sweep/bootstrap.js';
+import { bootstrapPolicies, bucketOf, bucketPlan, bucketSums, seededRandom } from '../../../src/sweep/bootstrap.js';
 import { mulberry32 } from '../../helpers/random.js';
 
 const DAY = 86_400_000;
@@ -44,7 +44,7 @@ describe('seededRandom()', () => {
   });
 });
 
-describe('bootstrapWindows()', () => {
+describe('bootstrapPolicies()', () => {
   const makeBuckets = (seed: number, nWindows: number, k: number): Float64Array[] => {
     const rand = mulberry32(seed);
     return Array.from({ length: nWindows }, (_, w) => Float64Array.from({ length: k }, () => 100 + 10 * w * rand() + 50 * rand()));
@@ -54,44 +54,44 @@ describe('bootstrapWindows()', () => {
     for (const seed of [1, 2, 3, 17, 99]) {
       const windows = makeBuckets(seed, 4, 7);
       const hindsight = Float64Array.from({ length: 7 }, (_, i) => 80 + i);
-      const r1 = bootstrapWindows(windows, hindsight, { resamples: 500, seed });
-      const r2 = bootstrapWindows(windows, hindsight, { resamples: 500, seed });
+      const r1 = bootstrapPolicies(windows, hindsight, { resamples: 500, seed });
+      const r2 = bootstrapPolicies(windows, hindsight, { resamples: 500, seed });
       expect(r2, `seed ${seed}`).toEqual(r1);
       const h = hindsight.reduce((s, x) => s + x, 0);
       windows.forEach((b, w) => {
         const total = b.reduce((s, x) => s + x, 0);
-        const iv = r1.windows[w]!;
+        const iv = r1.policies[w]!;
         expect(iv.cost[0], `seed ${seed} window ${w}`).toBeLessThanOrEqual(total);
         expect(iv.cost[1], `seed ${seed} window ${w}`).toBeGreaterThanOrEqual(total);
         expect(iv.regret![0]).toBeLessThanOrEqual(total - h);
         expect(iv.regret![1]).toBeGreaterThanOrEqual(total - h);
       });
-      const shares = r1.windows.reduce((s, w) => s + w.bestShare, 0);
+      const shares = r1.policies.reduce((s, w) => s + w.bestShare, 0);
       expect(shares).toBeCloseTo(1, 12);
-      expect(bootstrapWindows(windows, hindsight, { resamples: 500, seed: seed + 1000 })).not.toEqual(r1);
+      expect(bootstrapPolicies(windows, hindsight, { resamples: 500, seed: seed + 1000 })).not.toEqual(r1);
     }
   });
 
   it('a window cheaper on every day is best in every resample', () => {
     const base = Float64Array.of(10, 50, 20, 90, 40);
     const cheaper = base.map((x) => x - 1);
-    const r = bootstrapWindows([base, cheaper, base.map((x) => x + 5)], null, { resamples: 300, seed: 5 });
-    expect(r.windows.map((w) => w.bestShare)).toEqual([0, 1, 0]);
-    expect(r.windows[0]!.regret).toBeNull();
+    const r = bootstrapPolicies([base, cheaper, base.map((x) => x + 5)], null, { resamples: 300, seed: 5 });
+    expect(r.policies.map((w) => w.bestShare)).toEqual([0, 1, 0]);
+    expect(r.policies[0]!.regret).toBeNull();
   });
 
   it('ties go to the earlier window, and identical days give a zero-width interval', () => {
     const flat = Float64Array.of(5, 5, 5);
-    const r = bootstrapWindows([flat, flat.slice()], null, { resamples: 100, seed: 3 });
-    expect(r.windows[0]!.bestShare).toBe(1);
-    expect(r.windows[0]!.cost).toEqual([15, 15]);
+    const r = bootstrapPolicies([flat, flat.slice()], null, { resamples: 100, seed: 3 });
+    expect(r.policies[0]!.bestShare).toBe(1);
+    expect(r.policies[0]!.cost).toEqual([15, 15]);
   });
 
   it('the interval width shrinks as the days agree more (percentile bootstrap, Efron & Tibshirani 1993 §13)', () => {
     const rand = mulberry32(11);
     const noisy = Float64Array.from({ length: 10 }, () => 100 + 80 * (rand() - 0.5));
     const calm = noisy.map((x) => 100 + (x - 100) / 10);
-    const [a, b] = bootstrapWindows([noisy, calm], null, { resamples: 1000, seed: 11 }).windows;
+    const [a, b] = bootstrapPolicies([noisy, calm], null, { resamples: 1000, seed: 11 }).policies;
     expect(a!.cost[1] - a!.cost[0]).toBeGreaterThan(5 * (b!.cost[1] - b!.cost[0]));
   });
 });

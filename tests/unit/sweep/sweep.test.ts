@@ -23,7 +23,7 @@ const config: PairflowConfig = { ...DEFAULT_CONFIG };
 const windows = [2000, 10_000, 60_000];
 
 function withoutTimings(r: SweepResult): unknown {
-  return { ...r, timings: null, windows: r.windows.map((w) => ({ ...w, timings: null })) };
+  return { ...r, timings: null, policies: r.policies.map((w) => ({ ...w, timings: null })) };
 }
 
 describe('runSweep()', () => {
@@ -31,19 +31,19 @@ describe('runSweep()', () => {
 
   it('gives each window the figures of a separate runReplay, sharing one hindsight optimum', async () => {
     const r = await runSweep([week], config, { windows, threads: 1, bootstrap: 200, seed: 4 });
-    expect(r.windows.map((w) => w.windowMs)).toEqual(windows);
+    expect(r.policies.map((w) => w.policy.windowMs)).toEqual(windows);
     // Computed here, so where its time went is reported.
     expect(Object.keys(r.timings.hindsightPhases!).sort()).toEqual(['ceilingMs', 'firstSolveMs', 'graphMs', 'pricingMs', 'resolveMs', 'setupMs']);
-    for (const w of r.windows) {
-      const single = await runReplay([week], { ...config, windowMs: w.windowMs }, { threads: 0 });
-      expect(w.online, `W ${w.windowMs}`).toEqual(single.online);
-      expect(w.regret, `W ${w.windowMs}`).toBe(single.regret);
-      expect(w.ratio, `W ${w.windowMs}`).toBe(single.ratio);
+    for (const w of r.policies) {
+      const single = await runReplay([week], { ...config, windowMs: w.policy.windowMs }, { threads: 0 });
+      expect(w.online, `W ${w.policy.windowMs}`).toEqual(single.online);
+      expect(w.regret, `W ${w.policy.windowMs}`).toBe(single.regret);
+      expect(w.ratio, `W ${w.policy.windowMs}`).toBe(single.ratio);
       expect(r.hindsight).toEqual(single.hindsight);
       expect(r.demandUnits).toBe(single.demandUnits);
     }
-    const best = r.windows.reduce((b, w) => (w.online.cost < b.online.cost ? w : b));
-    expect(r.best.windowMs).toBe(best.windowMs);
+    const best = r.policies.reduce((b, w) => (w.online.cost < b.online.cost ? w : b));
+    expect(r.best.windowMs).toBe(best.policy.windowMs);
   });
 
   it('bootstraps over days for a multi-day log: intervals contain the point estimates, the same seed gives the same result', async () => {
@@ -51,15 +51,15 @@ describe('runSweep()', () => {
     const b = await runSweep([week], config, { windows, threads: 1, bootstrap: 300, seed: 9 });
     expect(withoutTimings(b)).toEqual(withoutTimings(a));
     expect(a.bootstrap).toMatchObject({ resamples: 300, seed: 9, unit: 'day', buckets: 3 });
-    for (const w of a.windows) {
-      expect(w.interval!.cost[0], `W ${w.windowMs}`).toBeLessThanOrEqual(w.online.cost);
-      expect(w.interval!.cost[1], `W ${w.windowMs}`).toBeGreaterThanOrEqual(w.online.cost);
+    for (const w of a.policies) {
+      expect(w.interval!.cost[0], `W ${w.policy.windowMs}`).toBeLessThanOrEqual(w.online.cost);
+      expect(w.interval!.cost[1], `W ${w.policy.windowMs}`).toBeGreaterThanOrEqual(w.online.cost);
       expect(w.interval!.regret[0]).toBeLessThanOrEqual(w.regret + 1e-6);
       expect(w.interval!.regret[1]).toBeGreaterThanOrEqual(w.regret - 1e-6);
     }
-    expect(a.windows.reduce((s, w) => s + w.bestShare!, 0)).toBeCloseTo(1, 12);
+    expect(a.policies.reduce((s, w) => s + w.bestShare!, 0)).toBeCloseTo(1, 12);
     const c = await runSweep([week], config, { windows, threads: 1, bootstrap: 300, seed: 10 });
-    expect(c.windows.map((w) => w.interval)).not.toEqual(a.windows.map((w) => w.interval));
+    expect(c.policies.map((w) => w.interval)).not.toEqual(a.policies.map((w) => w.interval));
   });
 
   it('resamples hours for a log shorter than two days', async () => {
@@ -74,7 +74,7 @@ describe('runSweep()', () => {
     const h = await solveHindsight(loaded.events, config, { threads: 0 });
     const r = await sweepLoaded(loaded, config, { windows: [5000], threads: 1, bootstrap: 0, hindsight: h });
     expect(r.bootstrap).toBeNull();
-    expect(r.windows[0]!.interval).toBeNull();
+    expect(r.policies[0]!.interval).toBeNull();
     expect(r.timings.hindsightMs).toBeNull();
     expect(r.timings.hindsightPhases).toBeNull();
     expect(r.hindsight.cost).toBe(h.cost);
@@ -99,7 +99,7 @@ describe('runSweep()', () => {
     expect(manifest.config).toEqual(config);
     const csv = readFileSync(join(out, 'sweep.csv'), 'utf8').split('\r\n').filter((l) => l !== '');
     expect(csv).toHaveLength(3);
-    expect(csv[1]!.split(',')[0]).toBe('5000');
+    expect(csv[1]!.split(',').slice(0, 4)).toEqual(['5s / R=P / all', '5000', '', 'all']);
   });
 
   it('rejects an empty window list', async () => {
