@@ -32,6 +32,7 @@ export const ERROR_CODES = {
   PAIRFLOW_ERR_KAFKA_BROKER_SETUP: { kind: 'runtime', template: '{detail}', retriable: true },
   PAIRFLOW_ERR_KAFKA_AVRO: { kind: 'input', template: '{where}: {detail}' },
   PAIRFLOW_ERR_OUTPUT_WRITE: { kind: 'runtime', template: '{file}: cannot write output: {detail}', retriable: true },
+  PAIRFLOW_ERR_REPORT_INPUT: { kind: 'input', template: '{dir}: {detail}' },
   PAIRFLOW_ERR_STATE_INVALID: { kind: 'input', template: 'pool state of market {market}: {detail}' },
   PAIRFLOW_ERR_INTERNAL_BUG: { kind: 'runtime', template: '{detail}' },
 } as const satisfies Record<string, CodeSpec>;

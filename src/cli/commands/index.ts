@@ -1,6 +1,7 @@
 import type { Command } from 'commander';
 import { registerGen } from './gen.js';
 import { registerReplay } from './replay.js';
+import { registerReport } from './report.js';
 import { registerSolve } from './solve.js';
 import { registerSweep } from './sweep.js';
 
@@ -10,6 +11,7 @@ export type RegisterCommand = (program: Command) => void;
 export const COMMANDS: RegisterCommand[] = [
   registerGen,
   registerReplay,
+  registerReport,
   registerSolve,
   registerSweep,
 ];
