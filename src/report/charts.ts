@@ -201,7 +201,8 @@ export function mapChart(id: string, layer: MapLayer, opts: { title: string; cap
   const x = { field: 'x0', type: 'quantitative', title: 'km east', scale: { domain: [0, layer.width], nice: false, zero: true } };
   const y = { field: 'y0', type: 'quantitative', title: 'km north', scale: { domain: [0, layer.height], nice: false, zero: true } };
   const cellLayer = {
-    mark: { type: 'rect' },
+    // Hundreds of cells: no per-cell description (the caption and legend say what they are).
+    mark: { type: 'rect', aria: false },
     encoding: {
       x, x2: { field: 'x1' }, y, y2: { field: 'y1' },
       color: {
