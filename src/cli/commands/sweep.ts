@@ -13,6 +13,7 @@ import type { CommitMode } from '../../model.js';
 import { formatWindow, textTable } from '../../replay/summary.js';
 import { runSweep, sweepCsv, type SweepResult } from '../../sweep/sweep.js';
 import { resolveConfig } from '../config-file.js';
+import { sweepNextSteps } from '../next-steps.js';
 import { parseDuration, parseNumber } from '../parse.js';
 import { parseThreads, rejectReporter } from './replay.js';
 
@@ -90,20 +91,6 @@ export function parseCommits(text: string): CommitMode[] {
     if (p !== 'all' && p !== 'due') throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--commits', detail: `'${p}' is not a commit mode (expected all or due)` });
     return p;
   });
-}
-
-/** What to run after a sweep, for someone new to pairflow. */
-export function sweepNextSteps(r: SweepResult, logs: readonly string[], outDir: string | undefined): string[] {
-  const log = logs.length === 1 ? logs[0]! : 'LOG...';
-  const p = r.recommendation.policy;
-  const extra = p.reserve !== null || p.commit !== 'all'
-    ? ` --config FILE   (FILE with ${[p.reserve !== null ? `"reserve": ${p.reserve}` : '', p.commit !== 'all' ? `"commit": "${p.commit}"` : ''].filter(Boolean).join(', ')})`
-    : '';
-  const lines = ['', 'next:'];
-  if (outDir !== undefined) lines.push(`  pairflow report ${outDir} --out ${outDir}/report.html   # charts, maps and this recommendation in one HTML file`);
-  else lines.push(`  pairflow sweep ${log} ... --out DIR, then pairflow report DIR --out report.html   # the same as an HTML report`);
-  lines.push(`  pairflow replay ${log} --window ${formatWindow(p.windowMs)} --out run-best${extra}   # the recommended policy in full`);
-  return lines;
 }
 
 /** The human table `pairflow sweep` prints without `--json`. */
@@ -212,6 +199,6 @@ export function registerSweep(program: Command): void {
         w.write(sweepCsv(result));
         await w.close();
       }
-      process.stdout.write(o.json ? `${JSON.stringify(result)}\n` : formatSweep(result) + sweepNextSteps(result, logs, o.out).join('\n') + '\n');
+      process.stdout.write(o.json ? `${JSON.stringify(result)}\n` : formatSweep(result) + sweepNextSteps(result, logs, o.out));
     });
 }
