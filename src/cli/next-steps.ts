@@ -12,9 +12,9 @@ const logArg = (logs: readonly string[]): string => (logs.length === 1 ? logs[0]
 export function replayNextSteps(s: ReplaySummary, logs: readonly string[], outDir: string | undefined): string {
   const log = logArg(logs);
   const lines = ['', 'next:'];
-  if (s.hindsight === null) lines.push(`  pairflow replay ${log} --out run1   # with the hindsight optimum, to see the regret`);
-  if (outDir !== undefined) lines.push(`  pairflow report ${outDir} --out ${outDir}/report.html   # one page to hand on: regret by cause and hour, maps, the match ceiling`);
-  else lines.push(`  pairflow replay ${log} --out run1 && pairflow report run1 --out report.html   # the same as one page to hand on`);
+  const noHindsight = s.hindsight === null ? ' (without --no-hindsight, to see the regret)' : '';
+  if (outDir !== undefined && s.hindsight !== null) lines.push(`  pairflow report ${outDir} --out ${outDir}/report.html   # one page to hand on: regret by cause and hour, maps, the match ceiling`);
+  else lines.push(`  pairflow replay ${log} --out run1 && pairflow report run1 --out report.html   # as one page to hand on${noHindsight}`);
   const w = formatWindow(s.windowMs);
   lines.push(`  pairflow sweep ${log} --windows 2s,${w === '2s' ? '5s' : w},30s,1m --reserves P,10 --out sweep1   # which policy costs least, and how sure`);
   return lines.join('\n') + '\n';

@@ -82,3 +82,17 @@ describe('progressLine()', () => {
     expect(t.text()).toBe('pairflow sweep: reading x.jsonl\n');
   });
 });
+
+describe('pairflow replay: next steps', () => {
+  it('the human summary ends with the report and a sweep to run next; --json prints none', () => {
+    const out = join(dir, 'run');
+    const r = run(['replay', log, '--out', out, '--threads', '1']);
+    expect(r.status, r.stderr).toBe(0);
+    const tail = r.stdout.trimEnd().split('\n').slice(-3);
+    expect(tail[0]).toBe('next:');
+    expect(tail[1]).toContain(`pairflow report ${out} --out ${out}/report.html`);
+    expect(tail[2]).toMatch(/^ {2}pairflow sweep .* --windows .* --reserves P,10 --out sweep1/);
+    const j = run(['replay', log, '--json', '--no-hindsight']);
+    expect(() => JSON.parse(j.stdout) as unknown).not.toThrow();
+  });
+});
