@@ -24,6 +24,7 @@ import type { AssignmentRecord, EpochRecord, ExpiryRecord, PriceRecord } from '.
 import type { RecordSink } from '../pipeline/drive.js';
 import type { HindsightResult } from '../hindsight/hindsight.js';
 import { EARTH_RADIUS_KM } from '../window/geo.js';
+import { FloatList } from './stats.js';
 import { quantileLinear } from './summary.js';
 
 /** Side of a map cell, km. @default 0.5 */
@@ -149,21 +150,8 @@ function binAdd(bins: number[], v: number): void {
   bins[i]! += 1;
 }
 
-class Floats {
-  data = new Float64Array(256);
-  length = 0;
-  push(v: number): void {
-    if (this.length === this.data.length) {
-      const next = new Float64Array(this.data.length * 2);
-      next.set(this.data);
-      this.data = next;
-    }
-    this.data[this.length++] = v;
-  }
-}
-
-function waitStats(waits: Floats, travelSum: number): { meanWaitMin: number | null; p95WaitMin: number | null; meanTravelMin: number | null } {
-  const v = waits.data.slice(0, waits.length);
+function waitStats(waits: FloatList, travelSum: number): { meanWaitMin: number | null; p95WaitMin: number | null; meanTravelMin: number | null } {
+  const v = waits.view().slice();
   let sum = 0;
   for (let i = 0; i < v.length; i++) sum += v[i]!;
   return {
@@ -180,7 +168,7 @@ interface MarketTally {
   hours: Map<number, Float64Array>;
   /** Row per cell × hour of day: CELL_COLUMNS from 'demand' on. */
   cells: Map<number, Float64Array>;
-  waits: Floats;
+  waits: FloatList;
   travelSum: number;
 }
 
@@ -213,7 +201,7 @@ export class RunTally implements RecordSink {
   private market(name: string): MarketTally {
     let m = this.markets.get(name);
     if (!m) {
-      m = { index: this.markets.size, name, hours: new Map(), cells: new Map(), waits: new Floats(), travelSum: 0 };
+      m = { index: this.markets.size, name, hours: new Map(), cells: new Map(), waits: new FloatList(), travelSum: 0 };
       this.markets.set(name, m);
     }
     return m;
@@ -364,7 +352,7 @@ export function withHindsight(online: OnlineDigest, h: HindsightResult | null): 
   const travelBins: number[] = [];
   let at = 0;
   for (const m of h.markets) {
-    const waits = new Floats();
+    const waits = new FloatList();
     let travelSum = 0;
     for (let i = at; i < at + m.demandUnits; i++) {
       const t = h.demandT[i]!;

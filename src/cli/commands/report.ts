@@ -4,21 +4,13 @@
  * directories. stdout gets the paths written; stages go to stderr.
  */
 import type { Command } from 'commander';
-import { pairflowError } from '../../errors.js';
 import { buildReport } from '../../report/report.js';
-import { parseNumber } from '../parse.js';
-import { progressLine } from './sweep.js';
+import { progressLine, wholeNumber } from './sweep.js';
 
 interface ReportCliOptions {
   out?: string;
   bootstrap: string;
   seed: string;
-}
-
-function wholeNumber(text: string, option: string, min: number): number {
-  const n = parseNumber(text, option);
-  if (!Number.isInteger(n) || n < min) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option, detail: `'${text}' is not a whole number >= ${min}` });
-  return n;
 }
 
 export function registerReport(program: Command): void {

@@ -10,7 +10,7 @@ import { TextFileWriter } from '../../emit/index.js';
 import { probeWritableFile } from '../../emit/probe.js';
 import { pairflowError } from '../../errors.js';
 import type { CommitMode } from '../../model.js';
-import { formatWindow, textTable } from '../../replay/summary.js';
+import { textTable } from '../../replay/summary.js';
 import { runSweep, sweepCsv, type SweepResult } from '../../sweep/sweep.js';
 import { resolveConfig } from '../config-file.js';
 import { sweepNextSteps } from '../next-steps.js';
@@ -141,7 +141,8 @@ interface SweepCliOptions {
   warm: boolean;
 }
 
-function wholeNumber(text: string, option: string, min: number): number {
+/** Parses a whole-number option ≥ `min`. */
+export function wholeNumber(text: string, option: string, min: number): number {
   const n = parseNumber(text, option);
   if (!Number.isInteger(n) || n < min) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option, detail: `'${text}' is not a whole number >= ${min}` });
   return n;
