@@ -12,6 +12,12 @@ export interface PairflowEnv {
   readonly ci: boolean;
   /** Where the local broker's Maven artifacts and data live. @default ~/.cache/pairflow */
   readonly cacheDir: string | undefined;
+  /**
+   * Test-only fault injection for `pairflow live`: `POINT[:N]` kills the process
+   * (SIGKILL) the N-th time (default 1st) it reaches POINT (see src/live/processor.ts
+   * `FaultPoint`). @default undefined
+   */
+  readonly fault: string | undefined;
 }
 
 export function readEnv(env: NodeJS.ProcessEnv = process.env): PairflowEnv {
@@ -20,5 +26,6 @@ export function readEnv(env: NodeJS.ProcessEnv = process.env): PairflowEnv {
     logLevel: env.PAIRFLOW_LOG_LEVEL || 'warn',
     ci: env.CI === 'true' || env.CI === '1',
     cacheDir: env.PAIRFLOW_CACHE_DIR || undefined,
+    fault: env.PAIRFLOW_FAULT || undefined,
   };
 }
