@@ -19,6 +19,7 @@
  * km north = lat · 111.195, φ0 the latitude of the log's first located event to 0.1°).
  * Hours are UTC. Pure: no I/O.
  */
+import { RUN_FILES } from '../emit/run-dir.js';
 import type { Metric, PairflowConfig, SourcedEvent } from '../model.js';
 import type { AssignmentRecord, EpochRecord, ExpiryRecord, PriceRecord } from '../ports.js';
 import type { RecordSink } from '../pipeline/drive.js';
@@ -32,7 +33,7 @@ export const CELL_KM = 0.5;
 /** Width of a histogram bin, minutes. */
 export const HISTOGRAM_BIN_MIN = 0.1;
 /** The digest's file in a run directory. */
-export const DIGEST_FILE = 'digest.json';
+export const DIGEST_FILE = RUN_FILES.digest;
 /** Version of the digest format; a report refuses other versions. */
 export const DIGEST_VERSION = 1;
 

@@ -228,7 +228,7 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
           strict: opts.strict ?? false,
           hindsight: opts.hindsight !== false,
         },
-        outputs: [...Object.values(RUN_FILES), ...(opts.digest ?? true ? [DIGEST_FILE] : [])],
+        outputs: Object.values(RUN_FILES).filter((f) => f !== DIGEST_FILE || digest !== null),
       }));
     }
     return summary;
