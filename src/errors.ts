@@ -35,6 +35,7 @@ export const ERROR_CODES = {
   PAIRFLOW_ERR_KAFKA_TIMEOUT: { kind: 'runtime', template: 'gave up {what} after {ms} ms', retriable: true },
   PAIRFLOW_ERR_KAFKA_CONSUMER: { kind: 'runtime', template: 'the Kafka consumer stopped: {detail}', retriable: true },
   PAIRFLOW_ERR_OUTPUT_WRITE: { kind: 'runtime', template: '{file}: cannot write output: {detail}', retriable: true },
+  PAIRFLOW_ERR_REPORT_INPUT: { kind: 'input', template: '{dir}: {detail}' },
   PAIRFLOW_ERR_STATE_INVALID: { kind: 'input', template: 'pool state of market {market}: {detail}' },
   PAIRFLOW_ERR_INTERNAL_BUG: { kind: 'runtime', template: '{detail}' },
 } as const satisfies Record<string, CodeSpec>;

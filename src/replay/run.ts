@@ -6,9 +6,10 @@
  * Deterministic: the same inputs and config give the same records and summary
  * (wall-clock measurements aside, which live under `timings`).
  */
-import { basename } from 'node:path';
+import { basename, join } from 'node:path';
 import { loadLog } from '../consume/index.js';
 import { buildManifest, openRejectsFile, openRunDir, RUN_FILES, type RunDirSink } from '../emit/index.js';
+import { writeWholeFile } from '../emit/whole-file.js';
 import type { PairflowConfig, Reject, SourcedEvent } from '../model.js';
 import { drive, fileSource, Pipeline, teeRecords } from '../pipeline/drive.js';
 import type { EventSource, OutputSink } from '../ports.js';
@@ -16,6 +17,7 @@ import type { BucketPlan } from './buckets.js';
 import { ReplayStats, type OnlineRun } from './stats.js';
 import { solveHindsight, type HindsightResult } from '../hindsight/hindsight.js';
 import { regretAndRatio, type HindsightStats, type MarketSummary, type ReplaySummary } from './summary.js';
+import { DIGEST_FILE, gridForEvents, RunTally, withHindsight, type RunDigest } from './digest.js';
 
 export type { ReplaySummary } from './summary.js';
 export type { OnlineRun } from './stats.js';
@@ -42,6 +44,8 @@ export interface ReplayEventsOptions {
   verify?: boolean;
   /** Also sum per-demand costs into these time buckets (for the sweep's bootstrap). */
   plan?: BucketPlan;
+  /** Also gather the report's digest: this tally sees every record and every event. @default none */
+  tally?: RunTally;
   onProgress?: (p: ReplayProgress) => void;
 }
 
@@ -71,13 +75,29 @@ export async function replaySource(
   const start = now();
   const stats = new ReplayStats(opts.plan);
   const out = opts.sink;
-  const pipeline = new Pipeline(config, out ? teeRecords([stats, out]) : stats, {
+  const tally = opts.tally;
+  const sinks = [stats, ...(tally ? [tally] : []), ...(out ? [out] : [])];
+  const pipeline = new Pipeline(config, sinks.length > 1 ? teeRecords(sinks) : stats, {
     warm: opts.warm ?? true, now, verify: opts.verify ?? false,
   });
-  await drive(source, pipeline, out ?? null, {
+  await drive(tally ? tapSource(source, (ev) => tally.observe(ev)) : source, pipeline, out ?? null, {
     ...(opts.onProgress ? { onProgress: (done: number, total: number) => opts.onProgress!({ phase: 'online', done, total }) } : {}),
   });
   return stats.result(config.windowMs, pipeline.engine.totals(), now() - start);
+}
+
+/** The same source, with every event shown to `see` as it is delivered. */
+function tapSource(source: EventSource, see: (ev: SourcedEvent) => void): EventSource {
+  return {
+    ...(source.expected !== undefined ? { expected: source.expected } : {}),
+    async *items() {
+      for await (const item of source.items()) {
+        if (item.kind === 'event') see(item.ev);
+        yield item;
+      }
+    },
+    close: () => source.close(),
+  };
 }
 
 /** Options of {@link runReplay}. */
@@ -103,6 +123,8 @@ export interface ReplayOptions {
   /** Called for each reject as it is found (e.g. to print the first few). */
   onReject?: (r: Reject) => void;
   onProgress?: (p: ReplayProgress) => void;
+  /** Gather the report's digest (digest.json in the run directory). @default true with outDir */
+  digest?: boolean;
 }
 
 /** A loaded log, as returned by `loadLog` (src/consume). */
@@ -187,11 +209,15 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
     else if (opts.rejectsFile !== undefined) sink = openRejectsFile(opts.rejectsFile);
     const loaded = await loadLog([...paths], { metric: config.metric, strict: opts.strict ?? false, onReject: opts.onReject });
     const loadMs = now() - start;
-    const summary = await replayLoaded(loaded, config, { ...opts, now, ...(sink ? { sink } : {}), loadMs, start });
+    const { summary, digest } = await replayLoadedFull(loaded, config, {
+      ...opts, now, ...(sink ? { sink } : {}), loadMs, start, digest: opts.digest ?? runDir !== null,
+    });
     const closing = sink;
     sink = null;
     await closing?.close();
     if (runDir) {
+      // Compact: its tables are long and only the report reads them.
+      if (digest) await writeWholeFile(join(runDir.dir, DIGEST_FILE), JSON.stringify(digest));
       await runDir.writeJson(RUN_FILES.summary, summary);
       await runDir.writeJson(RUN_FILES.manifest, buildManifest({
         command: opts.command ?? ['runReplay', ...paths],
@@ -202,7 +228,7 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
           strict: opts.strict ?? false,
           hindsight: opts.hindsight !== false,
         },
-        outputs: Object.values(RUN_FILES),
+        outputs: Object.values(RUN_FILES).filter((f) => f !== DIGEST_FILE || digest !== null),
       }));
     }
     return summary;
@@ -218,6 +244,15 @@ export async function replayLoaded(
   config: PairflowConfig,
   opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number } = {},
 ): Promise<ReplaySummary> {
+  return (await replayLoadedFull(loaded, config, opts)).summary;
+}
+
+/** {@link replayLoaded}, with the run's digest when `opts.digest` is set. */
+export async function replayLoadedFull(
+  loaded: LoadedLog,
+  config: PairflowConfig,
+  opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number } = {},
+): Promise<{ summary: ReplaySummary; digest: RunDigest | null }> {
   const now = opts.now ?? defaultNow;
   const start = opts.start ?? now();
   const warm = opts.warm ?? true;
@@ -229,20 +264,23 @@ export async function replayLoaded(
   else {
     hindsightPromise = solveHindsight(loaded.events, config, {
       ...(opts.threads !== undefined ? { threads: opts.threads } : {}),
+      ...(opts.digest ? { cover: true } : {}),
       onProgress: (done: number, total: number) => opts.onProgress?.({ phase: 'hindsight', done, total }),
     });
   }
   // Without a handler now, a hindsight failure during the online replay would be "unhandled".
   hindsightPromise.catch(() => {});
+  const tally = opts.digest ? new RunTally(config, gridForEvents(loaded.events, config.metric)) : null;
   const run = await replaySource(fileSource(loaded), config, {
     ...(opts.sink ? { sink: opts.sink } : {}),
+    ...(tally ? { tally } : {}),
     warm,
     now,
     verify: opts.verify ?? false,
     ...(opts.onProgress ? { onProgress: opts.onProgress } : {}),
   });
   const hindsight = await hindsightPromise;
-  return buildSummary({
+  const summary = buildSummary({
     config,
     run,
     hindsight,
@@ -256,4 +294,5 @@ export async function replayLoaded(
       totalMs: now() - start,
     },
   });
+  return { summary, digest: tally ? withHindsight(tally.online(), hindsight) : null };
 }

@@ -3,6 +3,7 @@ import { registerGen } from './gen.js';
 import { registerLive } from './live.js';
 import { registerPublish } from './publish.js';
 import { registerReplay } from './replay.js';
+import { registerReport } from './report.js';
 import { registerSolve } from './solve.js';
 import { registerSummarize } from './summarize.js';
 import { registerSweep } from './sweep.js';
@@ -15,6 +16,7 @@ export const COMMANDS: RegisterCommand[] = [
   registerLive,
   registerPublish,
   registerReplay,
+  registerReport,
   registerSolve,
   registerSummarize,
   registerSweep,

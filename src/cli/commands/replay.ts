@@ -10,6 +10,7 @@ import type { Reject } from '../../model.js';
 import { runReplay } from '../../replay/run.js';
 import { formatReplaySummary } from '../../replay/summary.js';
 import { resolveConfig } from '../config-file.js';
+import { replayNextSteps } from '../next-steps.js';
 import { parseDuration, parseNumber } from '../parse.js';
 import { progressLine } from './sweep.js';
 
@@ -107,6 +108,6 @@ Rejected lines are counted in "rejects", the first ${REJECTS_SHOWN} printed on s
         const why = summary.rejects > 0 ? `every one of its ${summary.rejects} lines or records was rejected` : 'it holds no events';
         process.stderr.write(`pairflow: warning: ${logs.join(', ')}: ${why}, so every figure is 0\n`);
       }
-      process.stdout.write(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary));
+      process.stdout.write(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary) + replayNextSteps(summary, logs, o.out));
     });
 }
