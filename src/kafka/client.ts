@@ -204,6 +204,16 @@ export function kafkaError(err: unknown, context: KafkaErrorContext): PairflowEr
       detail: text(auth),
     }, err);
   }
+  // A listener without SASL, or without this mechanism, answers the handshake with a protocol error.
+  const saslState = links.find((e) => e.type === 'ILLEGAL_SASL_STATE' || e.type === 'UNSUPPORTED_SASL_MECHANISM');
+  if (saslState && sasl) {
+    return pairflowError('PAIRFLOW_ERR_KAFKA_AUTH', {
+      brokers,
+      mechanism: sasl.mechanism.toUpperCase(),
+      username: sasl.username,
+      detail: `${text(saslState)} (is this port a SASL listener that enables ${sasl.mechanism.toUpperCase()}?)`,
+    }, err);
+  }
   if (context.security?.tls) {
     const tlsFailure = links.find((e) => (typeof e.code === 'string' && TLS_CODES.test(e.code)) || TLS_TEXT.test(text(e)));
     if (tlsFailure) {
@@ -211,7 +221,9 @@ export function kafkaError(err: unknown, context: KafkaErrorContext): PairflowEr
       return pairflowError('PAIRFLOW_ERR_KAFKA_TLS', { brokers, detail: `${text(tlsFailure)}${code}` }, err);
     }
   }
-  const detail = links.map(text).filter((m) => m !== '').join(': ') || String(err);
+  let detail = [...new Set(links.map(text).filter((m) => m !== ''))].join(': ') || String(err);
+  // A TLS or SASL listener closes a plaintext client's connection without a word.
+  if (!context.security?.tls && !sasl && /Closed connection/i.test(detail)) detail += ' (if this port is a TLS or SASL listener, give --tls/--tls-ca and the --sasl-* settings)';
   return pairflowError('PAIRFLOW_ERR_KAFKA_CONNECT', { brokers, detail }, err);
 }
 

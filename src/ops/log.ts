@@ -4,8 +4,12 @@
  * layers that keep secrets out of every line (docs/operations.md "Logs"):
  *
  * 1. field redaction — any field named like a secret (`password`, `passphrase`, `key`
- *    under `ssl`/`tls`, `authorization`, …) at the top or up to three levels down is
- *    replaced by `[redacted]` before the line is built (pino's `redact`);
+ *    under `ssl`/`tls`, `authorization`, …) in the logged object, at any depth up to
+ *    {@link REDACT_DEPTH}, is replaced by `[redacted]` before the line is built. Done by
+ *    hand in pino's `formatters.log` rather than with pino's `redact` paths: those
+ *    wildcard paths copy every object they pass, and a copied Buffer throws
+ *    ("%TypedArray%.prototype.buffer called on incompatible receiver") — which broke
+ *    kafkajs' SASL login at debug level, where it logs request buffers;
  * 2. value scrubbing — the secret values themselves (the SASL password, the TLS key
  *    password) are replaced wherever they appear in the finished line: in a message, in
  *    an error's text, in a field no path foresaw (pino's `streamWrite` hook).
@@ -25,10 +29,36 @@ export const REDACTED = '[redacted]';
  */
 export const MIN_SCRUB_LENGTH = 4;
 
-// Field names that hold secrets wherever they appear. Paths are pino (fast-redact)
-// paths: a name alone, then under one, two and three levels of wildcard.
-const SECRET_FIELDS = ['password', 'passphrase', 'keyPassword', 'secret', 'token', 'authorization', 'sasl.password', 'ssl.key', 'tls.key', 'ssl.passphrase'];
-const SECRET_PATHS = SECRET_FIELDS.flatMap((f) => [f, `*.${f}`, `*.*.${f}`, `*.*.*.${f}`]);
+/** Field names (compared without case) whose values are secrets wherever they appear. */
+const SECRET_NAMES = new Set(['password', 'passphrase', 'keypassword', 'secret', 'token', 'authorization', 'saslpassword']);
+/** Parents under which `key` is a private key. */
+const KEY_PARENTS = new Set(['ssl', 'tls', 'security']);
+/** How deep field redaction looks into a logged object. */
+export const REDACT_DEPTH = 6;
+
+function isPlain(v: unknown): v is Record<string, unknown> {
+  if (v === null || typeof v !== 'object') return false;
+  const proto = Object.getPrototypeOf(v) as unknown;
+  return proto === Object.prototype || proto === null;
+}
+
+/**
+ * A copy of `value` with every secret-named field replaced by {@link REDACTED}. Only plain
+ * objects and arrays are copied; anything else (Buffers, Errors, dates, class instances)
+ * is passed as it is — pino's serializers and the value scrubber deal with those.
+ */
+export function redactFields(value: unknown, parent = '', depth = 0): unknown {
+  if (depth > REDACT_DEPTH) return value;
+  if (Array.isArray(value)) return value.map((v) => redactFields(v, parent, depth + 1));
+  if (!isPlain(value)) return value;
+  const out: Record<string, unknown> = {};
+  for (const [k, v] of Object.entries(value)) {
+    const name = k.toLowerCase();
+    const secret = SECRET_NAMES.has(name) || (name === 'key' && KEY_PARENTS.has(parent));
+    out[k] = secret && v !== undefined && v !== null ? REDACTED : redactFields(v, name, depth + 1);
+  }
+  return out;
+}
 
 /** Options of {@link createLogger}. */
 export interface CreateLoggerOptions {
@@ -77,8 +107,11 @@ export function createLogger(options: CreateLoggerOptions = {}): Logger {
       level: options.level ?? 'info',
       base: { name: 'pairflow', ...options.base },
       timestamp: pino.stdTimeFunctions.isoTime,
-      formatters: { level: (label) => ({ level: label }) },
-      redact: { paths: SECRET_PATHS, censor: REDACTED },
+      formatters: {
+        level: (label) => ({ level: label }),
+        log: (object) => redactFields(object) as Record<string, unknown>,
+        bindings: (bindings) => redactFields(bindings) as Record<string, unknown>,
+      },
       hooks: { streamWrite: scrub },
     },
     options.destination ?? pino.destination({ fd: 2, sync: true }),

@@ -79,6 +79,17 @@ describe('createLogger()', () => {
     expect(line).not.toContain('tok-123456');
     expect(line).not.toContain('BEGIN PRIVATE KEY');
   });
+
+  it('logs Buffers and typed arrays at any depth (kafkajs does at debug level) without throwing', () => {
+    const out = memory();
+    const logger = createLogger({ level: 'debug', destination: out.stream, secrets: [PASSWORD] });
+    expect(() => {
+      logger.debug({ a: Buffer.from('xyz') }, 'one');
+      logger.debug({ a: { b: Buffer.from('xyz'), c: new Uint8Array(2) } }, 'two');
+      logger.debug({ broker: 'h:1', payload: [{ request: Buffer.from('r') }] }, 'three');
+    }).not.toThrow();
+    expect(out.lines()).toHaveLength(3);
+  });
 });
 
 describe('secretScrubber()', () => {
