@@ -130,6 +130,12 @@ export interface ReadinessTracker {
   consuming(partition: number): void;
   /** The group took these partitions away. */
   revoked(partitions: readonly number[]): void;
+  /**
+   * The whole assignment after a rebalance (kafkajs' GROUP_JOIN gives it whole): kept
+   * partitions keep their state, new ones start in `restoring`, the rest are dropped.
+   * Also marks the group as joined.
+   */
+  assignment(partitions: readonly number[]): void;
   /** Shutdown began (or the consumer crashed): not ready from now on. */
   stopping(): void;
   /**
@@ -163,6 +169,12 @@ export function createReadiness(): ReadinessTracker {
     },
     revoked(list) {
       for (const p of list) partitions.delete(p);
+    },
+    assignment(list) {
+      joined = true;
+      const keep = new Set(list);
+      for (const p of [...partitions.keys()]) if (!keep.has(p)) partitions.delete(p);
+      for (const p of list) if (!partitions.has(p)) partitions.set(p, 'restoring');
     },
     stopping() {
       stopping = true;

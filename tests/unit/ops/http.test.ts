@@ -82,6 +82,18 @@ describe('startOpsServer()', () => {
     expect(r.body.ready).toBe(false);
   });
 
+  it('assignment() replaces the whole assignment: kept partitions keep their state, new ones restore', () => {
+    const t = createReadiness();
+    t.assignment([0, 1]);
+    t.consuming(0);
+    t.consuming(1);
+    expect(t.check().ready).toBe(true);
+    t.assignment([1, 2]);
+    expect(t.check()).toEqual({ ready: false, detail: { reason: '1 partition(s) restoring', partitions: { 1: 'consuming', 2: 'restoring' } } });
+    t.consuming(2);
+    expect(t.check().ready).toBe(true);
+  });
+
   it('a member with no partitions is ready once it joined (it stands by)', () => {
     const t = createReadiness();
     expect(t.check().ready).toBe(false);

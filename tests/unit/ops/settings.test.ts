@@ -221,6 +221,22 @@ describe('addSettingsOptions()', () => {
     }
   });
 
+  it('--tls and --no-tls parse to true and false; neither leaves the other sources to decide', async () => {
+    const parse = async (args: string[]) => {
+      let opts: SettingsFlags | undefined;
+      const program = new Command('pairflow').exitOverride();
+      addSettingsOptions(program.command('publish'), 'connection').action((o: SettingsFlags) => { opts = o; });
+      await program.parseAsync(['publish', ...args], { from: 'user' });
+      return opts!;
+    };
+    expect((await parse(['--tls'])).tls).toBe(true);
+    expect((await parse(['--no-tls'])).tls).toBe(false);
+    const fromEnv = await resolveSettings({ flags: { ...(await parse([])), brokers: 'b:1' }, env: env({ PAIRFLOW_TLS: 'true' }) }, 'connection');
+    expect(fromEnv.sources['tls.enabled']).toBe('environment PAIRFLOW_TLS');
+    const off = await resolveSettings({ flags: { ...(await parse(['--no-tls'])), brokers: 'b:1' }, env: env({ PAIRFLOW_TLS: 'true' }) }, 'connection');
+    expect(off.tls).toBeNull();
+  });
+
   it('connection commands get the connection flags only', () => {
     const cmd = addSettingsOptions(new Command('publish'), 'connection');
     const longs = cmd.options.map((o) => o.long);
