@@ -704,6 +704,67 @@ export async function stopBroker(options = {}) {
   return { stopped, instance };
 }
 
+/**
+ * Stops an instance's broker process (SIGTERM, SIGKILL after `graceMs`) but keeps its
+ * data, ports and state, so {@link resumeBroker} starts it again on the same data: a
+ * broker outage for tests of clients that must ride it out.
+ * @param {{ instance?: string, env?: NodeJS.ProcessEnv, graceMs?: number }} [options]
+ * @returns {Promise<{ halted: boolean, instance: string }>}
+ */
+export async function haltBroker(options = {}) {
+  const settings = brokerSettings(options.env);
+  const instance = options.instance ?? DEFAULT_INSTANCE;
+  const paths = instancePaths(settings, instance);
+  const state = readState(paths);
+  if (!state) throw new BrokerSetupError(`instance ${instance} has no state: start it first`);
+  if (state.watchdog && processMatches(state.watchdog, `kill -0 ${state.pid} `)) {
+    try { process.kill(state.watchdog, 'SIGTERM'); } catch { /* already gone */ }
+  }
+  const halted = await stopProcess(state.pid, paths.dir, options.graceMs ?? 30_000);
+  writeFileSync(paths.stateFile, JSON.stringify({ ...state, pid: 0, watchdog: 0, haltedAt: new Date().toISOString() }, null, 2));
+  return { halted, instance };
+}
+
+/**
+ * Starts a halted instance again from its data, on the ports it had, and waits until it
+ * answers. `ownerPid` as for {@link startBroker}.
+ * @param {{ instance?: string, env?: NodeJS.ProcessEnv, ownerPid?: number }} [options]
+ * @returns {Promise<{ brokers: string, pid: number, startMs: number }>}
+ */
+export async function resumeBroker(options = {}) {
+  const settings = brokerSettings(options.env);
+  const instance = options.instance ?? DEFAULT_INSTANCE;
+  const paths = instancePaths(settings, instance);
+  const state = readState(paths);
+  if (!state) throw new BrokerSetupError(`instance ${instance} has no state: start it first`);
+  if (state.pid && processMatches(state.pid, paths.dir)) return { brokers: `127.0.0.1:${state.brokerPort}`, pid: state.pid, startMs: 0 };
+  const fetched = fetchArtifacts(settings);
+  const t0 = Date.now();
+  const out = openSync(paths.logFile, 'a');
+  const child = spawn(settings.java, javaArgs(settings, paths, fetched.libDir, 'kafka.Kafka', [paths.props]), { detached: true, stdio: ['ignore', out, out] });
+  closeSync(out);
+  let exited = null;
+  child.once('exit', (code, signal) => { exited = { code, signal }; });
+  child.unref();
+  let watchdog = 0;
+  if (options.ownerPid) {
+    const w = spawn('sh', ['-c',
+      `while kill -0 ${options.ownerPid} 2>/dev/null && kill -0 ${child.pid} 2>/dev/null; do sleep 1; done; kill ${child.pid} 2>/dev/null; exit 0`],
+    { detached: true, stdio: 'ignore' });
+    w.unref();
+    watchdog = w.pid ?? 0;
+  }
+  writeFileSync(paths.stateFile, JSON.stringify({ ...state, pid: child.pid, watchdog, haltedAt: undefined }, null, 2));
+  const brokers = `127.0.0.1:${state.brokerPort}`;
+  const deadline = t0 + settings.startTimeoutMs;
+  while (!(await brokerAnswers([brokers], 2000))) {
+    if (exited) throw new BrokerSetupError(`the Kafka broker exited while resuming (code ${exited.code}); ${logReport(paths.logFile)}`);
+    if (Date.now() > deadline) throw new BrokerSetupError(`the resumed Kafka broker did not answer within ${settings.startTimeoutMs} ms; ${logReport(paths.logFile)}`);
+    await sleep(300);
+  }
+  return { brokers, pid: child.pid, startMs: Date.now() - t0 };
+}
+
 /** Instance names found in the cache, running or not. */
 export function listInstances(options = {}) {
   const settings = brokerSettings(options.env);

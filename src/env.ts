@@ -13,6 +13,12 @@ export interface PairflowEnv {
   /** Where the local broker's Maven artifacts and data live. @default ~/.cache/pairflow */
   readonly cacheDir: string | undefined;
   /**
+   * Test-only fault injection for `pairflow live`: `POINT[:N]` kills the process
+   * (SIGKILL) the N-th time (default 1st) it reaches POINT (see src/live/processor.ts
+   * `FaultPoint`). @default undefined
+   */
+  readonly fault: string | undefined;
+  /**
    * The Kafka-process settings given in the environment, as raw text (undefined when
    * unset or empty). src/ops/settings.ts validates them and ranks them between the flags
    * and the settings file; docs/operations.md "Settings" lists them.
@@ -62,6 +68,7 @@ export function readEnv(env: NodeJS.ProcessEnv = process.env): PairflowEnv {
     logLevel: env.PAIRFLOW_LOG_LEVEL || 'warn',
     ci: env.CI === 'true' || env.CI === '1',
     cacheDir: env.PAIRFLOW_CACHE_DIR || undefined,
+    fault: env.PAIRFLOW_FAULT || undefined,
     settings: readSettingsEnv(env),
   };
 }

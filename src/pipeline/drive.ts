@@ -36,6 +36,8 @@ export class Pipeline {
   private readonly sink: RecordSink;
   /** Items offered so far (events and rejects). */
   offered = 0;
+  /** The watermark the engine was last advanced to (-Infinity before any). */
+  advancedTo = -Infinity;
 
   constructor(config: PairflowConfig, sink: RecordSink, opts: PipelineOptions = {}) {
     this.sink = sink;
@@ -66,7 +68,7 @@ export class Pipeline {
   /** {@link offer} for an event. */
   offerEvent(ev: SourcedEvent): void {
     this.watermark.observe(ev.event.t);
-    this.engine.advanceTo(this.watermark.value());
+    this.advance(this.watermark.value());
     const refused = this.engine.ingest(ev);
     if (refused !== null) this.sink.reject({ pos: ev.pos, reason: refused, raw: JSON.stringify(ev.event).slice(0, 2048) });
   }
@@ -77,8 +79,22 @@ export class Pipeline {
    */
   tick(): number {
     const wm = this.watermark.value();
-    this.engine.advanceTo(wm);
+    this.advance(wm);
     return wm;
+  }
+
+  /** Advances the engine (never backwards). */
+  advance(wm: number): void {
+    if (wm > this.advancedTo) {
+      this.advancedTo = wm;
+      this.engine.advanceTo(wm);
+    }
+  }
+
+  /** Resumes a restored engine's watermark (live mode, after the markets are restored). */
+  resume(s: { maxT: number | null; watermark: number | null }): void {
+    this.watermark.resume(s);
+    if (s.watermark !== null) this.advance(s.watermark);
   }
 
   /** The input has ended: closes epochs until every pool is empty. */

@@ -1,7 +1,10 @@
 import type { Command } from 'commander';
 import { registerGen } from './gen.js';
+import { registerLive } from './live.js';
+import { registerPublish } from './publish.js';
 import { registerReplay } from './replay.js';
 import { registerSolve } from './solve.js';
+import { registerSummarize } from './summarize.js';
 import { registerSweep } from './sweep.js';
 
 /** A subcommand registers itself on the program. Add one line per command below. */
@@ -9,7 +12,10 @@ export type RegisterCommand = (program: Command) => void;
 
 export const COMMANDS: RegisterCommand[] = [
   registerGen,
+  registerLive,
+  registerPublish,
   registerReplay,
   registerSolve,
+  registerSummarize,
   registerSweep,
 ];
