@@ -12,6 +12,7 @@
  */
 import client from 'prom-client';
 import type { Registry } from 'prom-client';
+import type { RejectCode } from '../live/records.js';
 
 const { Counter, Gauge, Histogram, collectDefaultMetrics } = client;
 const RegistryClass = client.Registry;
@@ -25,31 +26,22 @@ export type TransactionOutcome = 'committed' | 'aborted';
 
 /**
  * The event fields of SPEC §1 a validation reason can name (src/consume/validate.ts
- * starts such a reason with `field '<name>'`); each becomes one `invalid_<name>` value.
+ * starts such a reason with `field '<name>'`): the values of the `field` label.
  */
 export const EVENT_FIELDS = ['type', 'id', 'market', 't', 'lat', 'lon', 'x', 'y', 'until', 'has', 'needs', 'side'] as const;
 
-/** Every value the `reason` label of `pairflow_rejects_total` can take. */
-export const REJECT_LABELS: readonly string[] = Object.freeze([
-  ...EVENT_FIELDS.map((f) => `invalid_${f}`),
-  'not_an_object',
-  'undecodable',
-]);
-
 /**
- * The bounded `reason` label of a reject, from the reason text that goes to the rejects
- * topic: `invalid_<field>` for a validation failure naming a field of SPEC §1,
- * `not_an_object` for a value that decoded to something other than an object, and
- * `undecodable` for everything else (bytes that are neither JSON nor an Avro event of
- * the known schema). Free text never becomes a label value: it would make a new time
- * series per distinct message.
- * @example rejectLabel("field 'lat': got 95, expected a latitude in [-90, 90]") // 'invalid_lat'
+ * The bounded `field` label of an `invalid-event` reject, from the reason text that goes
+ * to the rejects topic: the SPEC §1 field the validator names, `object` for a value that
+ * is not an object, `other` for anything else. Free text never becomes a label value: it
+ * would make a new time series per distinct message.
+ * @example rejectField("field 'lat': got 95, expected a latitude in [-90, 90]") // 'lat'
  */
-export function rejectLabel(reason: string): string {
+export function rejectField(reason: string): string {
   const m = /^field '([^']+)'/.exec(reason);
-  if (m && (EVENT_FIELDS as readonly string[]).includes(m[1]!)) return `invalid_${m[1]}`;
-  if (reason.startsWith('expected a JSON object')) return 'not_an_object';
-  return 'undecodable';
+  if (m && (EVENT_FIELDS as readonly string[]).includes(m[1]!)) return m[1]!;
+  if (reason.startsWith('expected a JSON object')) return 'object';
+  return 'other';
 }
 
 /**
@@ -81,8 +73,12 @@ export interface LiveMetrics {
   readonly registry: Registry;
   /** One input event of this type was read and validated (`pairflow_events_total`). */
   eventIn(type: EventType, count?: number): void;
-  /** One input record was rejected; `reason` is the reject's reason text (`pairflow_rejects_total`, label from {@link rejectLabel}). */
-  reject(reason: string): void;
+  /**
+   * One input record was rejected (`pairflow_rejects_total`): `code` is the live
+   * processor's reject code; for `invalid-event`, `reason` (the reject's text) gives the
+   * `field` label through {@link rejectField}.
+   */
+  reject(code: RejectCode, reason?: string): void;
   /** One event arrived before an epoch its partition had already closed (`pairflow_late_events_total`). */
   lateEvent(partition: number, count?: number): void;
   /** One epoch of a market was closed and solved (`pairflow_windows_closed_total` and `pairflow_epoch_solve_duration_seconds`). */
@@ -143,8 +139,8 @@ export function createMetrics(options: MetricsOptions = {}): LiveMetrics {
   });
   const rejects = new Counter({
     name: 'pairflow_rejects_total',
-    help: 'Input records rejected (written to PREFIX.rejects), by reason class.',
-    labelNames: ['reason'] as const,
+    help: 'Input records rejected (written to PREFIX.rejects), by reject code and, for invalid events, the field at fault.',
+    labelNames: ['reason', 'field'] as const,
     registers,
   });
   const late = new Counter({
@@ -220,8 +216,9 @@ export function createMetrics(options: MetricsOptions = {}): LiveMetrics {
     eventIn(type, count = 1) {
       events.inc({ type }, count);
     },
-    reject(reason) {
-      rejects.inc({ reason: rejectLabel(reason) });
+    reject(code, reason) {
+      if (code === 'invalid-event') rejects.inc({ reason: code, field: rejectField(reason ?? '') });
+      else rejects.inc({ reason: code });
     },
     lateEvent(partition, count = 1) {
       late.inc({ partition: String(partition) }, count);

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { validateEvent } from '../../../src/consume/validate.js';
-import { createMetrics, EVENT_FIELDS, REJECT_LABELS, rejectLabel } from '../../../src/ops/metrics.js';
+import { createMetrics, EVENT_FIELDS, rejectField } from '../../../src/ops/metrics.js';
 import { parseExposition, parseWithPythonClient, pythonPrometheusClient, sampleValue } from './exposition.js';
 
 /** Every pairflow_ family and its type, as docs/operations.md "Metrics" lists them. */
@@ -27,8 +27,8 @@ function exercised() {
   m.eventIn('supply', 3);
   m.eventIn('demand');
   m.eventIn('withdraw', 2);
-  m.reject("field 'lat': got 95, expected a number in [-90, 90]");
-  m.reject('not valid JSON: Unexpected token');
+  m.reject('invalid-event', "field 'lat': got 95, expected a number in [-90, 90]");
+  m.reject('bad-json', 'not valid JSON: Unexpected token');
   m.lateEvent(2);
   m.lateEvent(2, 4);
   m.windowClosed('north', 2);
@@ -81,8 +81,8 @@ describe('createMetrics()', () => {
     expect(sampleValue(f, 'pairflow_events_total', { type: 'supply' })).toBe(3);
     expect(sampleValue(f, 'pairflow_events_total', { type: 'demand' })).toBe(1);
     expect(sampleValue(f, 'pairflow_events_total', { type: 'withdraw' })).toBe(2);
-    expect(sampleValue(f, 'pairflow_rejects_total', { reason: 'invalid_lat' })).toBe(1);
-    expect(sampleValue(f, 'pairflow_rejects_total', { reason: 'undecodable' })).toBe(1);
+    expect(sampleValue(f, 'pairflow_rejects_total', { reason: 'invalid-event', field: 'lat' })).toBe(1);
+    expect(sampleValue(f, 'pairflow_rejects_total', { reason: 'bad-json' })).toBe(1);
     expect(sampleValue(f, 'pairflow_late_events_total', { partition: '2' })).toBe(5);
     expect(sampleValue(f, 'pairflow_windows_closed_total', { market: 'north' })).toBe(2);
     expect(sampleValue(f, 'pairflow_windows_closed_total', { market: 'south' })).toBe(1);
@@ -155,9 +155,9 @@ describe('createMetrics()', () => {
   });
 });
 
-describe('rejectLabel()', () => {
+describe('rejectField()', () => {
   it('names the field of every validation failure of src/consume, and nothing unbounded', () => {
-    // One bad event per field: the validator's own reason must map to invalid_<field>.
+    // One bad event per field: the validator's own reason must map to that field.
     const good = { type: 'supply', id: 's1', market: 'm', t: 1000, lat: 1, lon: 1 };
     const bad: Record<string, [Record<string, unknown>, 'haversine' | 'euclidean']> = {
       type: [{ ...good, type: 'other' }, 'haversine'],
@@ -177,16 +177,13 @@ describe('rejectLabel()', () => {
     for (const [field, [event, metric]] of Object.entries(bad)) {
       const r = validateEvent(event, metric);
       expect(r.ok, field).toBe(false);
-      expect(rejectLabel((r as { reason: string }).reason), field).toBe(`invalid_${field}`);
+      expect(rejectField((r as { reason: string }).reason), field).toBe(field);
     }
     const notObject = validateEvent([1, 2], 'haversine') as { reason: string };
-    expect(rejectLabel(notObject.reason)).toBe('not_an_object');
+    expect(rejectField(notObject.reason)).toBe('object');
   });
 
-  it('maps any other text to "undecodable", inside the documented label set', () => {
-    for (const reason of ['not valid JSON: x', "field 'color': got 1", '', 'PAIRFLOW_ERR_KAFKA_AVRO: unknown fingerprint']) {
-      expect(rejectLabel(reason)).toBe('undecodable');
-    }
-    expect(new Set(REJECT_LABELS).size).toBe(EVENT_FIELDS.length + 2);
+  it('maps any other text to "other"', () => {
+    for (const reason of ['not valid JSON: x', "field 'color': got 1", '']) expect(rejectField(reason)).toBe('other');
   });
 });
