@@ -37,6 +37,11 @@ export const ERROR_CODES = {
   PAIRFLOW_ERR_OUTPUT_WRITE: { kind: 'runtime', template: '{file}: cannot write output: {detail}', retriable: true },
   PAIRFLOW_ERR_REPORT_INPUT: { kind: 'input', template: '{dir}: {detail}' },
   PAIRFLOW_ERR_STATE_INVALID: { kind: 'input', template: 'pool state of market {market}: {detail}' },
+  PAIRFLOW_ERR_SETTINGS_INVALID: { kind: 'input', template: '{source}: {detail}' },
+  PAIRFLOW_ERR_KAFKA_AUTH: { kind: 'runtime', template: 'Kafka at {brokers} refused the SASL {mechanism} login of user "{username}": {detail}' },
+  PAIRFLOW_ERR_KAFKA_TLS: { kind: 'runtime', template: 'TLS connection to Kafka at {brokers} failed: {detail}' },
+  PAIRFLOW_ERR_METRICS_LISTEN: { kind: 'runtime', template: 'cannot serve metrics on {host}:{port}: {detail}', retriable: true },
+  PAIRFLOW_ERR_SHUTDOWN_TIMEOUT: { kind: 'runtime', template: 'shutdown did not finish within {graceMs} ms: {detail}' },
   PAIRFLOW_ERR_INTERNAL_BUG: { kind: 'runtime', template: '{detail}' },
 } as const satisfies Record<string, CodeSpec>;
 
