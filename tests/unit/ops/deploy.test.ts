@@ -32,7 +32,9 @@ function available(cmd: string, args: string[]): boolean {
   return ok;
 }
 const hasHadolint = available(process.env.PAIRFLOW_HADOLINT ?? 'hadolint', ['--version']);
-const hasGo = available(process.env.PAIRFLOW_GO ?? 'go', ['version']);
+// compose-go is a Go module: it needs Go and the Go module proxy, which the CI machine
+// does not promise. Opt in with PAIRFLOW_COMPOSE_CHECK=1 (or run scripts/deploy-check.mjs).
+const hasGo = process.env.PAIRFLOW_COMPOSE_CHECK === '1' && available(process.env.PAIRFLOW_GO ?? 'go', ['version']);
 
 describe('Dockerfile', () => {
   const froms = dockerfile.getFROMs();
