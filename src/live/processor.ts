@@ -63,8 +63,12 @@ export type FaultPoint = 'before-first-commit' | 'after-send' | 'after-commit' |
 export interface LiveObserver {
   /** A consumed record: an event of this type, or a reject with its code. */
   recordIn?(partition: number, kind: 'supply' | 'demand' | 'withdraw' | 'reject', code?: RejectCode): void;
-  /** Records the engine emitted for a partition since the last call. */
+  /** Records the engine emitted for a partition, counted, once they are committed. */
   outputs?(partition: number, counts: OutputCounts): void;
+  /** One record as the engine emits it (before it is committed): per-market figures hang on these. */
+  assignment?(partition: number, a: AssignmentRecord): void;
+  expired?(partition: number, e: ExpiryRecord): void;
+  window?(partition: number, s: EpochRecord): void;
   /** A transaction committed: how long it took, and how long since the watermark closed its first epoch. */
   committed?(partition: number, info: { commitMs: number; closeToCommitMs: number | null; records: number }): void;
   /** A transaction failed and was aborted (the partition is restored afresh). */
@@ -73,6 +77,8 @@ export interface LiveObserver {
   restored?(partition: number, info: { ms: number; markets: number; units: number; poolRecords: number }): void;
   /** A partition was given up (revoked, fenced, or shut down). */
   released?(partition: number, why: string): void;
+  /** The group assigned these partitions to this process (after every rebalance). */
+  assigned?(partitions: readonly number[]): void;
   /** Consumer lag of a partition after a batch (records behind the end of the partition). */
   lag?(partition: number, lag: number): void;
   /** Pool sizes of a partition's markets after a batch. */
@@ -141,6 +147,7 @@ class PartitionOutput implements RecordSink {
     private readonly encoder: OutputEncoder,
     private readonly input: string,
     private readonly now: () => number,
+    private readonly observer: LiveObserver | undefined,
   ) {}
 
   private first(): void {
@@ -155,6 +162,7 @@ class PartitionOutput implements RecordSink {
     this.first();
     this.messages[0]!.push({ key: a.market, value: this.encoder.assignment(a), partition: this.partition });
     this.counts.assignments++;
+    this.observer?.assignment?.(this.partition, a);
   }
 
   expiry(e: ExpiryRecord): void {
@@ -162,6 +170,7 @@ class PartitionOutput implements RecordSink {
     this.messages[1]!.push({ key: e.market, value: this.encoder.expired(e), partition: this.partition });
     if (e.side === 'demand') this.counts.expiredDemand++;
     else this.counts.expiredSupply++;
+    this.observer?.expired?.(this.partition, e);
   }
 
   epoch(s: EpochRecord): void {
@@ -169,6 +178,7 @@ class PartitionOutput implements RecordSink {
     this.messages[2]!.push({ key: s.market, value: this.encoder.window(s), partition: this.partition });
     this.counts.windows++;
     this.counts.late += s.late;
+    this.observer?.window?.(this.partition, s);
   }
 
   /** An event the engine refused (too late for the history it holds). */
@@ -214,9 +224,9 @@ class PartitionState {
   lastInputAt: number;
   readonly token = randomUUID();
 
-  constructor(readonly partition: number, encoder: OutputEncoder, input: string, clock: Clock) {
+  constructor(readonly partition: number, encoder: OutputEncoder, input: string, clock: Clock, observer: LiveObserver | undefined) {
     const now = clock.now();
-    this.output = new PartitionOutput(partition, encoder, input, () => clock.now());
+    this.output = new PartitionOutput(partition, encoder, input, () => clock.now(), observer);
     this.lastCommitAt = now;
     this.lastInputAt = now;
     this.ready = Promise.resolve();
@@ -400,6 +410,7 @@ export class LiveProcessor {
   private onJoin(assigned: number[]): void {
     const next = new Set(assigned);
     this.joined = true;
+    this.o.observer?.assigned?.(assigned);
     this.assigned = [...assigned].sort((a, b) => a - b);
     this.log.info({ partitions: this.assigned }, 'live: partitions assigned');
     for (const st of [...this.parts.values()]) {
@@ -423,7 +434,7 @@ export class LiveProcessor {
   /** Takes partition p: fences the previous owner, restores its markets. */
   private claim(p: number): PartitionState {
     if (this.paused.delete(p)) this.consumer?.resume([{ topic: this.o.input, partitions: [p] }]);
-    const st = new PartitionState(p, this.encoder, this.o.input, this.clock);
+    const st = new PartitionState(p, this.encoder, this.o.input, this.clock, this.o.observer);
     this.parts.set(p, st);
     st.ready = st.run(() => this.restore(st)).catch((err: unknown) => {
       this.log.error({ partition: p, err }, 'live: restore failed');
