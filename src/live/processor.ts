@@ -271,6 +271,9 @@ export class LiveProcessor {
   private finished!: () => void;
   private failed!: (e: unknown) => void;
   private readonly done: Promise<void>;
+  /** Resolves when run() has shut everything down. */
+  private readonly stopped: Promise<void>;
+  private down!: () => void;
   private idleSince: number | null = null;
   private finishing = false;
   private statsTimer: ReturnType<typeof setInterval> | null = null;
@@ -291,6 +294,7 @@ export class LiveProcessor {
     this.log = opts.logger;
     this.done = new Promise<void>((res, rej) => { this.finished = res; this.failed = rej; });
     this.done.catch(() => {});
+    this.stopped = new Promise<void>((res) => { this.down = res; });
   }
 
   /** The transactional id of an input partition: stable per group, topic and partition. */
@@ -313,47 +317,48 @@ export class LiveProcessor {
    * with `exitWhenIdleMs`, until the input has been idle that long.
    */
   async run(): Promise<void> {
-    const { kafka, input, group } = this.o;
-    const partitionCount = await ensureOutputTopics(kafka, input, this.topics, this.log);
-    this.log.info({ input, prefix: this.o.prefix, group, partitions: partitionCount, format: this.encoder.format }, 'live: starting');
-    const consumer = kafka.consumer({
-      groupId: group,
-      readUncommitted: false,
-      allowAutoTopicCreation: false,
-      sessionTimeout: this.o.sessionTimeoutMs ?? 30_000,
-      heartbeatInterval: Math.max(500, Math.floor((this.o.sessionTimeoutMs ?? 30_000) / 10)),
-      maxWaitTimeInMs: 200,
-      retry: { retries: 10, initialRetryTime: 300, maxRetryTime: 10_000 },
-    });
-    this.consumer = consumer;
-    consumer.on(consumer.events.GROUP_JOIN, (e) => this.onJoin(e.payload.memberAssignment[input] ?? []));
-    consumer.on(consumer.events.REBALANCING, () => {
-      this.o.fault?.('during-rebalance');
-      this.log.info({ group }, 'live: group rebalancing');
-    });
-    consumer.on(consumer.events.CRASH, (e) => {
-      if (e.payload.restart) {
-        this.log.warn({ err: e.payload.error }, 'live: consumer restarting after an error');
-        return;
-      }
-      this.log.error({ err: e.payload.error }, 'live: consumer stopped after an error');
-      this.failed(pairflowError('PAIRFLOW_ERR_KAFKA_CONSUMER', { detail: (e.payload.error as Error).message }, e.payload.error));
-    });
-    await consumer.connect();
-    await consumer.subscribe({ topic: input, fromBeginning: true });
-    await consumer.run({
-      autoCommit: false,
-      eachBatchAutoResolve: false,
-      partitionsConsumedConcurrently: Math.max(1, partitionCount),
-      eachBatch: (payload) => this.onBatch(payload),
-    });
-    this.ticker = setInterval(() => { void this.onTick(); }, this.o.tickMs ?? 200);
-    const every = this.o.statsEveryMs ?? 60_000;
-    if (every > 0) this.statsTimer = setInterval(() => this.logStats('live: stats'), every);
     try {
+      const { kafka, input, group } = this.o;
+      const partitionCount = await ensureOutputTopics(kafka, input, this.topics, this.log);
+      this.log.info({ input, prefix: this.o.prefix, group, partitions: partitionCount, format: this.encoder.format }, 'live: starting');
+      const consumer = kafka.consumer({
+        groupId: group,
+        readUncommitted: false,
+        allowAutoTopicCreation: false,
+        sessionTimeout: this.o.sessionTimeoutMs ?? 30_000,
+        heartbeatInterval: Math.max(500, Math.floor((this.o.sessionTimeoutMs ?? 30_000) / 10)),
+        maxWaitTimeInMs: 200,
+        retry: { retries: 10, initialRetryTime: 300, maxRetryTime: 10_000 },
+      });
+      this.consumer = consumer;
+      consumer.on(consumer.events.GROUP_JOIN, (e) => this.onJoin(e.payload.memberAssignment[input] ?? []));
+      consumer.on(consumer.events.REBALANCING, () => {
+        this.o.fault?.('during-rebalance');
+        this.log.info({ group }, 'live: group rebalancing');
+      });
+      consumer.on(consumer.events.CRASH, (e) => {
+        if (e.payload.restart) {
+          this.log.warn({ err: e.payload.error }, 'live: consumer restarting after an error');
+          return;
+        }
+        this.log.error({ err: e.payload.error }, 'live: consumer stopped after an error');
+        this.failed(pairflowError('PAIRFLOW_ERR_KAFKA_CONSUMER', { detail: (e.payload.error as Error).message }, e.payload.error));
+      });
+      await consumer.connect();
+      await consumer.subscribe({ topic: input, fromBeginning: true });
+      await consumer.run({
+        autoCommit: false,
+        eachBatchAutoResolve: false,
+        partitionsConsumedConcurrently: Math.max(1, partitionCount),
+        eachBatch: (payload) => this.onBatch(payload),
+      });
+      this.ticker = setInterval(() => { void this.onTick(); }, this.o.tickMs ?? 200);
+      const every = this.o.statsEveryMs ?? 60_000;
+      if (every > 0) this.statsTimer = setInterval(() => this.logStats('live: stats'), every);
       await this.done;
     } finally {
       await this.shutdown();
+      this.down();
     }
   }
 
@@ -362,14 +367,15 @@ export class LiveProcessor {
    * committed (without closing windows early), leaves the group.
    */
   async stop(): Promise<void> {
-    if (this.stopping) return this.done;
+    if (this.stopping) return this.stopped;
     this.stopping = true;
     this.log.info('live: stopping');
     await Promise.all([...this.parts.values()].map((st) => st.run(async () => {
       if (st.status === 'ready' && (st.uncommitted > 0 || st.output.size > 0)) await this.commit(st, 'stop').catch(() => {});
     })));
     this.finished();
-    return this.done;
+    // Resolves once the group is left and every producer is closed (see run()).
+    return this.stopped;
   }
 
   /**

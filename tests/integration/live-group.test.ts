@@ -214,7 +214,8 @@ describe.skipIf(!BROKERS)(`pairflow live in a group and through trouble (broker 
     const input = uniqueName('in');
     await createTopic(kafka, input, 2);
     await publish(producer, input, events);
-    const proc = startCli(['live', '--brokers', BROKERS, '--in', input, '--out', uniqueName('out'), '--group', uniqueName('g'),
+    const group = uniqueName('g');
+    const proc = startCli(['live', '--brokers', BROKERS, '--in', input, '--out', uniqueName('out'), '--group', group,
       '--config', config, '--metrics-port', '0', '--metrics-host', '127.0.0.1', '--exit-when-idle', '60s', '--log-level', 'info']);
     running.push(proc);
     await proc.waitForLog('live: serving /metrics');
@@ -239,6 +240,12 @@ describe.skipIf(!BROKERS)(`pairflow live in a group and through trouble (broker 
     expect(text).toContain('pairflow_transactions_total{');
     proc.child.kill('SIGTERM');
     expect(await proc.exited, proc.stderr().slice(-2000)).toEqual({ code: 0, signal: null });
+    // A clean stop leaves the group (the next owner need not wait out a session timeout).
+    const admin = kafka.admin();
+    await admin.connect();
+    const { groups } = await admin.describeGroups([group]);
+    await admin.disconnect();
+    expect(groups[0]!.members).toEqual([]);
   });
 
   describe('kafkaTopicSource()', () => {
