@@ -112,7 +112,7 @@ async function throughput(brokers: string, dir: string, size: { days: number; sc
 
 async function paced(brokers: string, dir: string, quick: boolean, minutes: number, log: (s: string) => void): Promise<PacedResult> {
   const speedup = 60;
-  const seconds = quick ? 20 : minutes * 60;
+  const seconds = quick ? 10 : minutes * 60;
   const fromHour = 10;
   const days = Math.max(1, Math.ceil((fromHour * 3600 + seconds * speedup) / 86_400));
   const file = join(dir, `paced-${days}.jsonl`);
@@ -127,7 +127,7 @@ async function paced(brokers: string, dir: string, quick: boolean, minutes: numb
   let minute = 0;
   let proc: ChildProcess | null = null;
   const liveRun = runLive(
-    ['live', '--brokers', brokers, '--in', topic, '--out', `bench-live-paced-out-${uid()}`, '--group', `bench-${uid()}`, '--stats-every', quick ? '5s' : '1m'],
+    ['live', '--brokers', brokers, '--in', topic, '--out', `bench-live-paced-out-${uid()}`, '--group', `bench-${uid()}`, '--stats-every', quick ? '3s' : '1m'],
     {
       onLine: (l) => {
         if (l.msg !== 'live: stats') return;
@@ -144,11 +144,18 @@ async function paced(brokers: string, dir: string, quick: boolean, minutes: numb
     },
   );
   await new Promise((r) => setTimeout(r, 3000));
-  const pub = spawnSync(process.execPath, [join(ROOT, 'bench', 'lib', 'paced-publish.mjs'), brokers, topic, file, String(speedup), String(seconds), String(fromHour)], { encoding: 'utf8', maxBuffer: 1 << 26 });
-  if (pub.status !== 0) throw new Error(`paced publisher failed: ${pub.stderr}`);
+  // Asynchronously: the processor's log lines must keep being read while it runs.
+  const pub = await new Promise<{ code: number | null; stdout: string; stderr: string }>((resolve) => {
+    const child = spawn(process.execPath, [join(ROOT, 'bench', 'lib', 'paced-publish.mjs'), brokers, topic, file, String(speedup), String(seconds), String(fromHour)], { stdio: ['ignore', 'pipe', 'pipe'] });
+    let out = '', err = '';
+    child.stdout.on('data', (b: Buffer) => { out += b.toString(); });
+    child.stderr.on('data', (b: Buffer) => { err += b.toString(); });
+    child.on('exit', (code) => resolve({ code, stdout: out, stderr: err }));
+  });
+  if (pub.code !== 0) throw new Error(`paced publisher failed: ${pub.stderr}`);
   const published = (JSON.parse(pub.stdout) as { published: number }).published;
   // One more stats line after the publisher stops, then a clean stop.
-  await new Promise((r) => setTimeout(r, quick ? 6000 : 65_000));
+  await new Promise((r) => setTimeout(r, quick ? 3500 : 65_000));
   (proc as ChildProcess | null)?.kill('SIGTERM');
   await liveRun;
   const at = (m: number): number | undefined => minutesOut.find((x) => x.minute === m)?.rssMb;
