@@ -242,6 +242,9 @@ class PartitionState {
 
 const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
 
+/** Messages per produce request inside a transaction (see commit()). */
+const SEND_SLICE = 1000;
+
 /** Errors that say another process now owns the transactional id. */
 function isFenced(err: unknown): boolean {
   const e = err as { type?: string; name?: string; cause?: { type?: string } } | null;
@@ -328,6 +331,9 @@ export class LiveProcessor {
         sessionTimeout: this.o.sessionTimeoutMs ?? 30_000,
         heartbeatInterval: Math.max(500, Math.floor((this.o.sessionTimeoutMs ?? 30_000) / 10)),
         maxWaitTimeInMs: 200,
+        // Larger fetches: fewer, larger batches per transaction while draining a backlog.
+        maxBytesPerPartition: 4 << 20,
+        maxBytes: 32 << 20,
         retry: { retries: 10, initialRetryTime: 300, maxRetryTime: 10_000 },
       });
       this.consumer = consumer;
@@ -536,6 +542,7 @@ export class LiveProcessor {
     await st.producer?.disconnect().catch(() => {});
     st.producer = null;
     st.pipeline = null;
+    this.stats.lag.delete(st.partition);
     this.o.observer?.released?.(st.partition, why);
     this.log.info({ partition: st.partition, why }, 'live: partition released');
   }
@@ -648,7 +655,13 @@ export class LiveProcessor {
     let tx: Awaited<ReturnType<Producer['transaction']>> | null = null;
     try {
       tx = await producer.transaction();
-      if (topicMessages.length > 0) await tx.sendBatch({ topicMessages });
+      // kafkajs groups a request's messages per partition by copying the list for each
+      // message (quadratic in the messages of one partition): send in slices.
+      for (const t of topicMessages) {
+        for (let i = 0; i < t.messages.length; i += SEND_SLICE) {
+          await tx.sendBatch({ topicMessages: [{ topic: t.topic, messages: t.messages.slice(i, i + SEND_SLICE) }] });
+        }
+      }
       await tx.sendBatch({ topicMessages: [{ topic: this.topics.pool, messages: pool }], compression: CompressionTypes.GZIP });
       this.o.fault?.('after-send');
       if (st.nextOffset !== null) {
@@ -726,6 +739,12 @@ export class LiveProcessor {
     }));
     const limit = this.o.exitWhenIdleMs;
     if (limit === undefined || this.finishing || !this.isReady()) return;
+    // Records waiting on a partition (its lag after the last batch) are not idleness,
+    // however long the batches take.
+    if ([...this.stats.lag.values()].some((l) => l > 0)) {
+      this.idleSince = null;
+      return;
+    }
     const lastInput = Math.max(...[...this.parts.values()].map((s) => s.lastInputAt), -Infinity);
     if (this.idleSince === null) this.idleSince = now;
     const quiet = now - Math.max(this.idleSince, lastInput === -Infinity ? this.idleSince : lastInput);
