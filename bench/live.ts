@@ -7,8 +7,8 @@
  *     then `live` drains it; events per second from its first record to the commit of
  *     its last (from the processor's own `live: totals` log line), and per second of
  *     the whole process (start-up and group join included);
- *   - paced run: the log published in "real time" (bench/lib/paced-publish.mjs, event
- *     time compressed 60×) for N minutes; every minute, from the processor's
+ *   - paced run: a city at scale 20 published in real time (bench/lib/paced-publish.mjs)
+ *     for N minutes; every minute, from the processor's
  *     `live: stats` line: resident memory, consumer lag, and the epoch-close-to-commit
  *     latency (p50, p99) — the time from the watermark passing an epoch to that
  *     epoch's transaction being committed;
@@ -17,7 +17,8 @@
  *
  * Writes its section of docs/benchmarks.md. `--quick` runs tiny sizes for a short
  * while (the smoke test), `--no-write` prints only, `--minutes N` sets the paced run
- * (default 30), `--only throughput,paced,restore` picks parts.
+ * (default 30), `--speedup X` its event time per wall time (default 1: real time),
+ * `--only throughput,paced,restore` picks parts.
  */
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { mkdirSync, writeFileSync } from 'node:fs';
@@ -40,6 +41,8 @@ export interface LiveBenchOptions {
   quick?: boolean;
   write?: boolean;
   minutes?: number;
+  /** Event time per wall-clock time of the paced run. @default 1 (real time; quick: 60) */
+  speedup?: number;
   only?: ReadonlyArray<'throughput' | 'paced' | 'restore'>;
   brokers?: string;
   outDir?: string;
@@ -86,7 +89,7 @@ const uid = (): string => `${Date.now().toString(36)}${Math.floor(Math.random() 
 
 export interface ThroughputResult { days: number; scale: number; events: number; publishMs: number; busyMs: number; wallMs: number; perSecBusy: number; perSecWall: number; transactions: number; partitions: number }
 export interface PacedMinute { minute: number; rssMb: number; heapMb: number; lag: number; p50: number | null; p99: number | null; n: number; records: number; poolUnits: number; load: number }
-export interface PacedResult { minutes: PacedMinute[]; speedup: number; published: number; memoryChange: number | null }
+export interface PacedResult { minutes: PacedMinute[]; speedup: number; scale: number; published: number; memoryChange: number | null }
 export interface RestoreResult { units: number; markets: number; partitions: number; restoreMs: number[]; readyMs: number; poolRecords: number }
 
 async function throughput(brokers: string, dir: string, size: { days: number; scale: number }, log: (s: string) => void): Promise<ThroughputResult> {
@@ -110,13 +113,13 @@ async function throughput(brokers: string, dir: string, size: { days: number; sc
   return res;
 }
 
-async function paced(brokers: string, dir: string, quick: boolean, minutes: number, log: (s: string) => void): Promise<PacedResult> {
-  const speedup = 60;
+async function paced(brokers: string, dir: string, quick: boolean, minutes: number, speedup: number, log: (s: string) => void): Promise<PacedResult> {
   const seconds = quick ? 10 : minutes * 60;
   const fromHour = 10;
   const days = Math.max(1, Math.ceil((fromHour * 3600 + seconds * speedup) / 86_400));
-  const file = join(dir, `paced-${days}.jsonl`);
-  pairflowSync(['gen', '--scale', quick ? '0.5' : '4', '--days', String(days), '--seed', '6', '--out', file]);
+  const scale = quick ? 0.5 : 20;
+  const file = join(dir, `paced-${days}d-${scale}.jsonl`);
+  pairflowSync(['gen', '--scale', String(scale), '--days', String(days), '--seed', '6', '--out', file]);
   const topic = `bench-live-paced-${uid()}`;
   const kafka = createKafka({ brokers, clientId: 'pairflow-bench' });
   const admin = kafka.admin();
@@ -160,7 +163,7 @@ async function paced(brokers: string, dir: string, quick: boolean, minutes: numb
   await liveRun;
   const at = (m: number): number | undefined => minutesOut.find((x) => x.minute === m)?.rssMb;
   const a = at(10), b = at(30);
-  return { minutes: minutesOut, speedup, published, memoryChange: a !== undefined && b !== undefined ? (b - a) / a : null };
+  return { minutes: minutesOut, speedup, scale, published, memoryChange: a !== undefined && b !== undefined ? (b - a) / a : null };
 }
 
 async function restore(brokers: string, dir: string, quick: boolean, log: (s: string) => void): Promise<RestoreResult> {
@@ -220,7 +223,7 @@ function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: Throughp
   }
   if (p) {
     out.push('### Paced run', '');
-    out.push(`The log published as time passes, event time running ${p.speedup}× the wall clock (one hour of the city per minute, from 10:00 of its first day; ${p.published.toLocaleString('en-US')} events). Each row is the processor's own figures for one minute: resident memory, records behind the end of the input (lag, summed over partitions), and the epoch-close-to-commit latency: from the watermark passing an epoch to the commit of the transaction holding that epoch's records.`);
+    out.push(`The log (a city at scale ${p.scale}) published as time passes, ${p.speedup === 1 ? 'in real time' : `event time running ${p.speedup}× the wall clock`}, from 10:00 of its first day (${p.published.toLocaleString('en-US')} events). Each row is the processor's own figures for one minute: resident memory, records behind the end of the input (lag, summed over partitions), and the epoch-close-to-commit latency: from the watermark passing an epoch to the commit of the transaction holding that epoch's records.`);
     out.push('');
     out.push('| minute | RSS MB | heap MB | lag | close→commit p50 ms | p99 ms | epochs | pool units | load |');
     out.push('|---|---|---|---|---|---|---|---|---|');
@@ -294,7 +297,7 @@ export async function runLiveBench(opts: LiveBenchOptions = {}): Promise<{ throu
       for (const size of sizes) t.push(await throughput(brokers, dir, size, log));
     }
     const r = only.has('restore') ? await restore(brokers, dir, quick, log) : null;
-    const p = only.has('paced') ? await paced(brokers, dir, quick, opts.minutes ?? 30, log) : null;
+    const p = only.has('paced') ? await paced(brokers, dir, quick, opts.minutes ?? 30, opts.speedup ?? (quick ? 60 : 1), log) : null;
     const md = markdown(m, quick, t, p, r);
     if ((opts.write ?? true) && p && !quick) writeFileSync(CHART, `${await pacedChart(p)}\n`);
     if (opts.write ?? true) writeSection(DOC, 'live', md.replace(/^<!-- bench:live:start -->\n/, '').replace(/\n<!-- bench:live:end -->$/, ''));
@@ -316,6 +319,7 @@ if (isMain) {
     quick: argv.includes('--quick'),
     write: !argv.includes('--no-write'),
     ...(arg('--minutes') ? { minutes: Number(arg('--minutes')) } : {}),
+    ...(arg('--speedup') ? { speedup: Number(arg('--speedup')) } : {}),
     ...(only ? { only } : {}),
   }).then((r) => process.stdout.write(`${r.markdown}\n`), (err: unknown) => {
     process.stderr.write(`bench:live failed: ${(err as Error).stack ?? String(err)}\n`);

@@ -34,7 +34,6 @@ import { readToEnd } from './read.js';
 import { InputDecoder, OutputEncoder, type BusFormat, type RecordOrigin, type RejectCode } from './records.js';
 import { ensureOutputTopics, liveTopics, type LiveTopics } from './topics.js';
 
-const { CompressionTypes } = kafkajs;
 type KafkaClient = InstanceType<typeof kafkajs.Kafka>;
 
 /** The key of a partition's position record on the pool topic: 0xFF never starts UTF-8, so no market can take it. */
@@ -116,12 +115,14 @@ export interface LiveOptions {
   warm?: boolean;
   /** Largest input value taken. @default 65536 */
   maxRecordBytes?: number;
-  /** How often idle partitions are checked (ms). @default 200 */
+  /** How often partitions are looked at without a batch: idle watermarks, lingering output (ms). @default 25 */
   tickMs?: number;
   /** Commit at the latest after this many uncommitted input records, even without closed epochs. @default 20000 */
   commitEveryRecords?: number;
   /** ... or after this long (ms). @default 1000 */
   commitEveryMs?: number;
+  /** How long the records of a closed window may wait for the next windows' to share a transaction (ms). @default 50 */
+  commitLingerMs?: number;
   /** Transaction timeout the broker enforces on an abandoned transaction (ms). @default 30000 */
   transactionTimeoutMs?: number;
   /** Consumer session timeout: how soon the group notices a process that died (ms). @default 30000 */
@@ -245,6 +246,13 @@ const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms
 /** Messages per produce request inside a transaction (see commit()). */
 const SEND_SLICE = 1000;
 
+/** Errors no restart can cure: refused credentials or permissions. */
+function isFatal(err: unknown): boolean {
+  const e = err as { name?: string; type?: string; originalError?: { name?: string; type?: string }; cause?: { name?: string; type?: string } } | null;
+  const text = [e?.name, e?.type, e?.originalError?.name, e?.originalError?.type, e?.cause?.name, e?.cause?.type].join(' ');
+  return /SASLAuthentication|AUTHORIZATION_FAILED/.test(text);
+}
+
 /** Errors that say another process now owns the transactional id. */
 function isFenced(err: unknown): boolean {
   const e = err as { type?: string; name?: string; cause?: { type?: string } } | null;
@@ -287,6 +295,7 @@ export class LiveProcessor {
     closeToCommit: [] as number[], lag: new Map<number, number>(),
   };
   private firstCommitDone = false;
+  private consumerRestarts = 0;
 
   constructor(opts: LiveOptions) {
     this.o = opts;
@@ -324,41 +333,8 @@ export class LiveProcessor {
       const { kafka, input, group } = this.o;
       const partitionCount = await ensureOutputTopics(kafka, input, this.topics, this.log);
       this.log.info({ input, prefix: this.o.prefix, group, partitions: partitionCount, format: this.encoder.format }, 'live: starting');
-      const consumer = kafka.consumer({
-        groupId: group,
-        readUncommitted: false,
-        allowAutoTopicCreation: false,
-        sessionTimeout: this.o.sessionTimeoutMs ?? 30_000,
-        heartbeatInterval: Math.max(500, Math.floor((this.o.sessionTimeoutMs ?? 30_000) / 10)),
-        maxWaitTimeInMs: 200,
-        // Larger fetches: fewer, larger batches per transaction while draining a backlog.
-        maxBytesPerPartition: 4 << 20,
-        maxBytes: 32 << 20,
-        retry: { retries: 10, initialRetryTime: 300, maxRetryTime: 10_000 },
-      });
-      this.consumer = consumer;
-      consumer.on(consumer.events.GROUP_JOIN, (e) => this.onJoin(e.payload.memberAssignment[input] ?? []));
-      consumer.on(consumer.events.REBALANCING, () => {
-        this.o.fault?.('during-rebalance');
-        this.log.info({ group }, 'live: group rebalancing');
-      });
-      consumer.on(consumer.events.CRASH, (e) => {
-        if (e.payload.restart) {
-          this.log.warn({ err: e.payload.error }, 'live: consumer restarting after an error');
-          return;
-        }
-        this.log.error({ err: e.payload.error }, 'live: consumer stopped after an error');
-        this.failed(pairflowError('PAIRFLOW_ERR_KAFKA_CONSUMER', { detail: (e.payload.error as Error).message }, e.payload.error));
-      });
-      await consumer.connect();
-      await consumer.subscribe({ topic: input, fromBeginning: true });
-      await consumer.run({
-        autoCommit: false,
-        eachBatchAutoResolve: false,
-        partitionsConsumedConcurrently: Math.max(1, partitionCount),
-        eachBatch: (payload) => this.onBatch(payload),
-      });
-      this.ticker = setInterval(() => { void this.onTick(); }, this.o.tickMs ?? 200);
+      await this.startConsumer(partitionCount);
+      this.ticker = setInterval(() => { void this.onTick(); }, this.o.tickMs ?? 25);
       const every = this.o.statsEveryMs ?? 60_000;
       if (every > 0) this.statsTimer = setInterval(() => this.logStats('live: stats'), every);
       await this.done;
@@ -366,6 +342,76 @@ export class LiveProcessor {
       await this.shutdown();
       this.down();
     }
+  }
+
+  /**
+   * Creates, connects and runs the group consumer. kafkajs restarts a consumer by
+   * itself only after errors it classes as retriable; others (a group coordinator not
+   * found while the broker restarts, say) stop it: then a new one is started here,
+   * unless the error says the credentials or permissions were refused.
+   */
+  private async startConsumer(partitionCount: number): Promise<void> {
+    const { kafka, input, group } = this.o;
+    const consumer = kafka.consumer({
+      groupId: group,
+      readUncommitted: false,
+      allowAutoTopicCreation: false,
+      sessionTimeout: this.o.sessionTimeoutMs ?? 30_000,
+      heartbeatInterval: Math.max(500, Math.floor((this.o.sessionTimeoutMs ?? 30_000) / 10)),
+      maxWaitTimeInMs: 200,
+      // Larger fetches: fewer, larger batches per transaction while draining a backlog.
+      maxBytesPerPartition: 4 << 20,
+      maxBytes: 32 << 20,
+      retry: {
+        retries: 10, initialRetryTime: 300, maxRetryTime: 10_000,
+        // A broker away for longer than the retries last (a restart, a failover) must
+        // not end the processor: kafkajs starts the consumer again. Refused
+        // credentials or permissions stay fatal.
+        restartOnFailure: async (err: Error) => {
+          const e = err as Error & { type?: string; originalError?: { type?: string; name?: string } };
+          const text = `${e.name} ${e.type ?? ''} ${e.originalError?.name ?? ''} ${e.originalError?.type ?? ''}`;
+          const fatal = /SASLAuthentication|AUTHORIZATION_FAILED/.test(text);
+          if (!fatal && !this.stopping) this.log.warn({ err }, 'live: consumer failed; starting it again');
+          return !fatal && !this.stopping;
+        },
+      },
+    });
+    this.consumer = consumer;
+    consumer.on(consumer.events.GROUP_JOIN, (e) => this.onJoin(e.payload.memberAssignment[input] ?? []));
+    consumer.on(consumer.events.REBALANCING, () => {
+      // Not ready (nor idle) until the group has given out its partitions again.
+      this.joined = false;
+      this.o.fault?.('during-rebalance');
+      this.log.info({ group }, 'live: group rebalancing');
+    });
+    consumer.on(consumer.events.CRASH, (e) => {
+      this.joined = false;
+      if (e.payload.restart || this.stopping) return;
+      const err = e.payload.error as Error & { type?: string };
+      if (isFatal(err)) {
+        this.log.error({ err }, 'live: consumer stopped after an error');
+        this.failed(pairflowError('PAIRFLOW_ERR_KAFKA_CONSUMER', { detail: err.message }, err));
+        return;
+      }
+      this.log.warn({ err }, 'live: consumer stopped after an error; starting a new one');
+      this.consumerRestarts++;
+      const wait = Math.min(10_000, 500 * 2 ** Math.min(this.consumerRestarts, 5));
+      setTimeout(() => {
+        if (this.stopping) return;
+        this.startConsumer(partitionCount).catch((err2: unknown) => {
+          this.log.error({ err: err2 }, 'live: could not start a new consumer');
+          this.failed(pairflowError('PAIRFLOW_ERR_KAFKA_CONSUMER', { detail: (err2 as Error).message }, err2));
+        });
+      }, wait);
+    });
+    await consumer.connect();
+    await consumer.subscribe({ topic: input, fromBeginning: true });
+    await consumer.run({
+      autoCommit: false,
+      eachBatchAutoResolve: false,
+      partitionsConsumedConcurrently: Math.max(1, partitionCount),
+      eachBatch: (payload) => this.onBatch(payload),
+    });
   }
 
   /**
@@ -621,7 +667,14 @@ export class LiveProcessor {
 
   private async maybeCommit(st: PartitionState, why: string): Promise<void> {
     const now = this.clock.now();
-    const due = st.output.size > 0
+    const firstAt = st.output.firstAt;
+    // Closed windows wait up to the linger for the windows closing right after them, so
+    // one transaction (and one pool snapshot per market) carries several: a transaction
+    // per window would spend the processor and the broker on snapshots and markers.
+    const lingered = firstAt !== null && now - firstAt >= (this.o.commitLingerMs ?? 50);
+    const due = lingered
+      || st.output.size >= 5000
+      || (firstAt === null && st.output.size > 0)
       || st.uncommitted >= (this.o.commitEveryRecords ?? 20_000)
       || (st.uncommitted > 0 && now - st.lastCommitAt >= (this.o.commitEveryMs ?? 1000));
     if (due) await this.commit(st, why);
@@ -662,7 +715,8 @@ export class LiveProcessor {
           await tx.sendBatch({ topicMessages: [{ topic: t.topic, messages: t.messages.slice(i, i + SEND_SLICE) }] });
         }
       }
-      await tx.sendBatch({ topicMessages: [{ topic: this.topics.pool, messages: pool }], compression: CompressionTypes.GZIP });
+      // Uncompressed: a transaction per window in real time makes gzip's CPU the larger cost.
+      await tx.sendBatch({ topicMessages: [{ topic: this.topics.pool, messages: pool }] });
       this.o.fault?.('after-send');
       if (st.nextOffset !== null) {
         await tx.sendOffsets({
@@ -738,7 +792,13 @@ export class LiveProcessor {
       });
     }));
     const limit = this.o.exitWhenIdleMs;
-    if (limit === undefined || this.finishing || !this.isReady()) return;
+    if (limit === undefined || this.finishing) return;
+    if (!this.isReady()) {
+      // Idleness counts only while every assigned partition is restored and consuming:
+      // a restore (a rebalance, a broker that went away) starts the count over.
+      this.idleSince = null;
+      return;
+    }
     // Records waiting on a partition (its lag after the last batch) are not idleness,
     // however long the batches take.
     if ([...this.stats.lag.values()].some((l) => l > 0)) {
