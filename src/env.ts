@@ -12,6 +12,8 @@ export interface PairflowEnv {
   readonly ci: boolean;
   /** Where the local broker's Maven artifacts and data live. @default ~/.cache/pairflow */
   readonly cacheDir: string | undefined;
+  /** `PAIRFLOW_DEBUG`: print the whole stack of an internal error, not just its first line. @default false */
+  readonly debug: boolean;
 }
 
 export function readEnv(env: NodeJS.ProcessEnv = process.env): PairflowEnv {
@@ -20,5 +22,6 @@ export function readEnv(env: NodeJS.ProcessEnv = process.env): PairflowEnv {
     logLevel: env.PAIRFLOW_LOG_LEVEL || 'warn',
     ci: env.CI === 'true' || env.CI === '1',
     cacheDir: env.PAIRFLOW_CACHE_DIR || undefined,
+    debug: Boolean(env.PAIRFLOW_DEBUG),
   };
 }

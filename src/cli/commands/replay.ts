@@ -11,6 +11,7 @@ import { runReplay } from '../../replay/run.js';
 import { formatReplaySummary } from '../../replay/summary.js';
 import { resolveConfig } from '../config-file.js';
 import { parseDuration, parseNumber } from '../parse.js';
+import { writeOut } from '../stdout.js';
 import { progressLine } from './sweep.js';
 
 /** Rejects printed on stderr before the rest are only counted. */
@@ -107,6 +108,6 @@ Rejected lines are counted in "rejects", the first ${REJECTS_SHOWN} printed on s
         const why = summary.rejects > 0 ? `every one of its ${summary.rejects} lines or records was rejected` : 'it holds no events';
         process.stderr.write(`pairflow: warning: ${logs.join(', ')}: ${why}, so every figure is 0\n`);
       }
-      process.stdout.write(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary));
+      await writeOut(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary));
     });
 }

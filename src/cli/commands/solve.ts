@@ -11,6 +11,7 @@ import { maxCardinalityMatching, minVertexCover, type BipartiteGraph } from '../
 import { checkCertificate, maximizeDense, maximizeSparse, solveDense, solveSparse } from '../../matching/index.js';
 import type { DenseInstance, SolveResult, SparseInstance } from '../../matching/types.js';
 import { parseNumber } from '../parse.js';
+import { writeOut } from '../stdout.js';
 import { readSolveInput, type SolveInput } from '../solve-input.js';
 
 /** Options of `pairflow solve`. */
@@ -189,13 +190,13 @@ export function registerSolve(program: Command): void {
     .option('--unmatched-cost <x>', 'cost of leaving a row unmatched (default: every row must be matched)')
     .option('--maximize', 'treat the numbers as weights and maximise (duals of the maximisation LP)', false)
     .option('--json', 'print {"cost","pairs","rowDuals","colDuals","solveMs"} on one line', false)
-    .action((file: string, raw: { unmatchedCost?: string; maximize: boolean; json: boolean }) => {
+    .action(async (file: string, raw: { unmatchedCost?: string; maximize: boolean; json: boolean }) => {
       const opts: SolveCommandOptions = {
         maximize: raw.maximize,
         ...(raw.unmatchedCost === undefined ? {} : { unmatchedCost: parseNumber(raw.unmatchedCost, '--unmatched-cost') }),
       };
       const input = readSolveInput(file);
       const report = solveInstance(input, opts);
-      process.stdout.write(raw.json ? formatJson(report) : formatHuman(input, opts, report));
+      await writeOut(raw.json ? formatJson(report) : formatHuman(input, opts, report));
     });
 }
