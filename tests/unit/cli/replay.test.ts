@@ -1,5 +1,5 @@
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -95,6 +95,14 @@ describe('pairflow replay', () => {
     writeFileSync(file, 'x');
     const r = run(['replay', good, '--out', join(file, 'run'), '--no-hindsight']);
     expect(r.status).toBe(1);
+    expect(r.stderr).toContain('PAIRFLOW_ERR_OUTPUT_WRITE');
+  });
+
+  it.skipIf(!existsSync('/dev/full'))('exit 1 naming the file when the rejects file cannot take its last write', () => {
+    const r = run(['replay', withBad, '--rejects', '/dev/full', '--no-hindsight', '--json']);
+    expect(r.status).toBe(1);
+    expect(r.stdout).toBe('');
+    expect(r.stderr).toContain('/dev/full');
     expect(r.stderr).toContain('PAIRFLOW_ERR_OUTPUT_WRITE');
   });
 

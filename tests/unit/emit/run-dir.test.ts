@@ -1,4 +1,4 @@
-import { mkdtempSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -72,6 +72,15 @@ describe('TextFileWriter', () => {
     const lines = readFileSync(path, 'utf8').trimEnd().split('\n');
     expect(lines).toHaveLength(n);
     expect(lines.every((l, i) => (JSON.parse(l) as { i: number }).i === i)).toBe(true);
+  });
+
+  it.skipIf(!existsSync('/dev/full'))('close() rejects naming the file when the last buffered write fails (a full device)', async () => {
+    // The failed write reports its error after end()'s callback: waiting for that alone lost it.
+    for (const lines of [1, 5000]) {
+      const w = new TextFileWriter('/dev/full', { chunkChars: 1 << 20 });
+      for (let i = 0; i < lines; i++) w.write(`{"i":${i}}\n`);
+      await expect(w.close()).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_OUTPUT_WRITE', params: { file: '/dev/full', detail: 'ENOSPC' } });
+    }
   });
 
   it('close() rejects with PAIRFLOW_ERR_OUTPUT_WRITE when the file cannot be opened', async () => {
