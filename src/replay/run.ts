@@ -204,11 +204,15 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
         },
         outputs: Object.values(RUN_FILES),
       }));
+      await runDir.commit();
+      runDir = null;
     }
     return summary;
   } finally {
-    // On failure, still close what was opened; the first error is the one reported.
-    if (sink) await sink.close().catch(() => {});
+    // On failure, still close what was opened and take back an unfinished run
+    // directory; the first error is the one reported.
+    if (runDir) await runDir.abort();
+    else if (sink) await sink.close().catch(() => {});
   }
 }
 

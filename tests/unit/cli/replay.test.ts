@@ -1,5 +1,5 @@
 import { spawnSync } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -104,6 +104,25 @@ describe('pairflow replay', () => {
     expect(r.stdout).toBe('');
     expect(r.stderr).toContain('/dev/full');
     expect(r.stderr).toContain('PAIRFLOW_ERR_OUTPUT_WRITE');
+  });
+
+  it('a failed run leaves --out DIR as it was: an earlier complete run stays whole, nothing half-written beside it', () => {
+    const base = mkdtempSync(join(dir, 'strict-'));
+    const out = join(base, 'run');
+    expect(run(['replay', good, '--out', out, '--no-hindsight']).status).toBe(0);
+    const before = Object.fromEntries(readdirSync(out).map((f) => [f, readFileSync(join(out, f), 'utf8')]));
+    const r = run(['replay', withBad, '--strict', '--out', out, '--no-hindsight']);
+    expect(r.status).toBe(2);
+    expect(r.stderr).toContain('PAIRFLOW_ERR_INPUT_REJECT');
+    expect(readdirSync(base)).toEqual(['run']);
+    expect(Object.fromEntries(readdirSync(out).map((f) => [f, readFileSync(join(out, f), 'utf8')]))).toEqual(before);
+  });
+
+  it('--out under /proc is refused at once (exit 1) instead of spinning in mkdir', () => {
+    const r = spawnSync(process.execPath, [bin, 'replay', good, '--out', '/proc/pairflow/run', '--no-hindsight'], { encoding: 'utf8', timeout: 60_000 });
+    expect(r.status).toBe(1);
+    expect(r.stderr).toContain('PAIRFLOW_ERR_OUTPUT_WRITE');
+    expect(r.stderr).toContain('/proc');
   });
 
   it('--out writes the run directory and --no-warm solves every epoch cold', () => {
