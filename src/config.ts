@@ -1,9 +1,62 @@
 import { DEFAULT_CONFIG, type PairflowConfig } from './model.js';
 
+/** The longest window, lateness or idle time accepted: 365 days, in ms. */
+export const MAX_DURATION_MS = 365 * 86_400_000;
+
+/** The range of one numeric config field. */
+export interface ConfigRange {
+  readonly min: number;
+  readonly max: number;
+  /** The lower bound itself is not allowed (e.g. a speed of 0). @default false */
+  readonly openMin?: boolean;
+  /** Whole numbers only (milliseconds). @default false */
+  readonly integer?: boolean;
+}
+
+/**
+ * The range of every numeric config field (`reserve` when it is not null). The bounds
+ * keep every cost the model computes finite and well inside double precision (SPEC
+ * §5): with them a pair cost is at most about 3·10¹⁷ and a run's total stays far
+ * from overflow, so the dual certificate can be checked to its relative tolerance.
+ * Beyond them a value is a typo, not a policy: a speed of 10,000 km/h is faster
+ * than any aircraft, a window or lateness of a year longer than any log.
+ */
+export const CONFIG_RANGES = {
+  speedKmh: { min: 0, max: 10_000, openMin: true },
+  maxTravelMin: { min: 0, max: 1e6 },
+  waitWeight: { min: 0, max: 1e6 },
+  abandonPenalty: { min: 0, max: 1e9 },
+  reserve: { min: 0, max: 1e9 },
+  demandPatienceMin: { min: 0, max: 1e7 },
+  supplyPatienceMin: { min: 0, max: 1e7 },
+  windowMs: { min: 0, max: MAX_DURATION_MS, openMin: true, integer: true },
+  allowedLatenessMs: { min: 0, max: MAX_DURATION_MS, integer: true },
+  idleMs: { min: 0, max: MAX_DURATION_MS, openMin: true, integer: true },
+} as const satisfies Partial<Record<keyof PairflowConfig, ConfigRange>>;
+
+/** A bound as people read it: 1e9 rather than 1000000000, 31536000000 (365 days). */
+export function formatBound(v: number): string {
+  if (v === MAX_DURATION_MS) return `${v} (365 days)`;
+  const exp = Math.log10(v);
+  return v >= 1e5 && Number.isInteger(exp) ? `1e${exp}` : String(v);
+}
+
+/** How a range reads in a message: `a number > 0 and <= 10000`, `whole ms in [0, 31536000000 (365 days)]`. */
+export function describeRange(r: ConfigRange): string {
+  const what = r.integer ? 'a whole number of ms' : 'a number';
+  return r.openMin ? `${what} > ${formatBound(r.min)} and <= ${formatBound(r.max)}` : `${what} in [${formatBound(r.min)}, ${formatBound(r.max)}]`;
+}
+
+function inRange(v: number, r: ConfigRange): boolean {
+  if (r.integer && !Number.isInteger(v)) return false;
+  return (r.openMin ? v > r.min : v >= r.min) && v <= r.max;
+}
+
 /**
  * Validates a parsed config object (SPEC §2: every field optional, defaults applied).
  * Returns the full config or a list of problems, each naming the field, the value and
- * what was expected. Pure; the CLI reads the file and wraps problems in an error.
+ * what was expected; numeric fields must lie in {@link CONFIG_RANGES}. Pure; the CLI
+ * reads the file and wraps problems in an error.
  */
 export function validateConfig(raw: unknown): { config: PairflowConfig } | { problems: string[] } {
   const problems: string[] = [];
@@ -16,27 +69,16 @@ export function validateConfig(raw: unknown): { config: PairflowConfig } | { pro
   for (const key of Object.keys(obj)) {
     if (!known.has(key)) problems.push(`unknown field '${key}' (known: ${[...known].join(', ')})`);
   }
-  const num = (key: keyof PairflowConfig, check: (v: number) => boolean, expected: string): void => {
-    if (!(key in obj)) return;
+  for (const [key, range] of Object.entries(CONFIG_RANGES) as [keyof typeof CONFIG_RANGES, ConfigRange][]) {
+    if (!(key in obj)) continue;
     const v = obj[key];
-    if (typeof v !== 'number' || !Number.isFinite(v) || !check(v)) {
-      problems.push(`field '${key}': got ${JSON.stringify(v)}, expected ${expected}`);
+    if (key === 'reserve' && v === null) {
+      out[key] = null;
+      continue;
+    }
+    if (typeof v !== 'number' || !Number.isFinite(v) || !inRange(v, range)) {
+      problems.push(`field '${key}': got ${JSON.stringify(v)}, expected ${key === 'reserve' ? 'null or ' : ''}${describeRange(range)}`);
     } else out[key] = v;
-  };
-  num('speedKmh', (v) => v > 0, 'a number > 0');
-  num('maxTravelMin', (v) => v >= 0, 'a number >= 0');
-  num('waitWeight', (v) => v >= 0, 'a number >= 0');
-  num('abandonPenalty', () => true, 'a finite number');
-  num('demandPatienceMin', (v) => v >= 0, 'a number >= 0');
-  num('supplyPatienceMin', (v) => v >= 0, 'a number >= 0');
-  num('windowMs', (v) => Number.isInteger(v) && v > 0, 'a whole number of ms > 0');
-  num('allowedLatenessMs', (v) => Number.isInteger(v) && v >= 0, 'a whole number of ms >= 0');
-  num('idleMs', (v) => Number.isInteger(v) && v > 0, 'a whole number of ms > 0');
-  if ('reserve' in obj) {
-    const v = obj.reserve;
-    if (v !== null && (typeof v !== 'number' || !Number.isFinite(v))) {
-      problems.push(`field 'reserve': got ${JSON.stringify(v)}, expected null or a finite number`);
-    } else out.reserve = v;
   }
   if ('metric' in obj) {
     const v = obj.metric;
@@ -50,4 +92,20 @@ export function validateConfig(raw: unknown): { config: PairflowConfig } | { pro
     else out.commit = v;
   }
   return problems.length > 0 ? { problems } : { config: Object.freeze(out) as unknown as PairflowConfig };
+}
+
+/**
+ * Settings that are valid but probably not meant, as sentences for a warning on
+ * stderr. Today one: a window longer than both patiences, where a unit that arrives
+ * just after a decision and takes its side's default `until` is gone before the
+ * next one — it can never be matched.
+ * @example configWarnings({ ...DEFAULT_CONFIG, windowMs: 3_600_000 })
+ */
+export function configWarnings(config: PairflowConfig): string[] {
+  const longest = Math.max(config.demandPatienceMin, config.supplyPatienceMin) * 60_000;
+  if (config.windowMs <= longest) return [];
+  return [
+    `the window (${config.windowMs} ms) is longer than every patience (demand ${config.demandPatienceMin} min, supply ${config.supplyPatienceMin} min): ` +
+      'a unit without an explicit until that arrives just after a decision is gone before the next one and can never be matched',
+  ];
 }

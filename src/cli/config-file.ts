@@ -19,6 +19,8 @@ export async function readConfigFile(file: string): Promise<PairflowConfig> {
     if (code === 'ENOENT' || code === 'ENOTDIR') throw pairflowError('PAIRFLOW_ERR_INPUT_NOT_FOUND', { file }, err);
     throw pairflowError('PAIRFLOW_ERR_CONFIG_INVALID', { file, field: '', detail: `cannot read the file (${code ?? String(err)})` }, err);
   }
+  // A byte-order mark is accepted here as in every other input pairflow reads.
+  if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
   let raw: unknown;
   try {
     raw = JSON.parse(text);

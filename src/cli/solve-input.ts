@@ -24,6 +24,7 @@
 import { readFileSync } from 'node:fs';
 import { pairflowError } from '../errors.js';
 import type { DenseInstance, SparseInstance } from '../matching/types.js';
+import { MAX_COST, MAX_COST_TEXT } from '../matching/validate.js';
 
 /** A parsed instance, in the form its file gave. */
 export type SolveInput =
@@ -63,10 +64,11 @@ export function parseCostMatrixCsv(text: string, file: string): DenseInstance {
       if (NOT_ALLOWED.test(cell)) {
         cost[r * nCols + c] = Infinity;
       } else if (NUMBER.test(cell)) {
-        cost[r * nCols + c] = Number(cell);
-        if (!Number.isFinite(cost[r * nCols + c]!)) {
-          throw formatError(file, r + 1, `column ${c + 1}: '${cell}' overflows a double (expected a finite cost)`);
+        const v = Number(cell);
+        if (!(Math.abs(v) <= MAX_COST)) {
+          throw formatError(file, r + 1, `column ${c + 1}: '${cell}' is beyond ${MAX_COST_TEXT}, the largest cost pairflow solves exactly (SPEC §5)`);
         }
+        cost[r * nCols + c] = v;
       } else {
         const hint = r === 0 ? '; the matrix has no header row' : '';
         throw formatError(file, r + 1, `column ${c + 1}: '${cell}' is not a number (expected a cost, empty or inf${hint})`);
@@ -190,6 +192,7 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
     if (!isIndex(r, rows)) throw pairError(i, `row ${JSON.stringify(r)} is not an integer in 0..${rows - 1}`);
     if (!isIndex(c, cols)) throw pairError(i, `col ${JSON.stringify(c)} is not an integer in 0..${cols - 1}`);
     if (typeof w !== 'number' || !Number.isFinite(w)) throw pairError(i, `cost ${JSON.stringify(w)} is not a finite number`);
+    if (Math.abs(w) > MAX_COST) throw pairError(i, `cost ${w} is beyond ${MAX_COST_TEXT}, the largest cost pairflow solves exactly (SPEC §5)`);
     pairRow[i] = r;
     rowPtr[r + 1]!++;
   }
@@ -220,7 +223,7 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
   let delta: Float64Array | null = null;
   if (unmatchedCost !== undefined && unmatchedCost !== null) {
     if (typeof unmatchedCost === 'number') {
-      if (!Number.isFinite(unmatchedCost)) throw formatError(file, keyLine('unmatchedCost'), '"unmatchedCost" must be finite');
+      if (!(Math.abs(unmatchedCost) <= MAX_COST)) throw formatError(file, keyLine('unmatchedCost'), `"unmatchedCost" must be a number within ${MAX_COST_TEXT}`);
       delta = new Float64Array(rows).fill(unmatchedCost);
     } else if (Array.isArray(unmatchedCost)) {
       if (unmatchedCost.length !== rows) {
@@ -229,8 +232,8 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
       delta = new Float64Array(rows);
       for (let r = 0; r < rows; r++) {
         const v: unknown = unmatchedCost[r];
-        if (typeof v !== 'number' || !Number.isFinite(v)) {
-          throw formatError(file, keyLine('unmatchedCost'), `"unmatchedCost"[${r}] = ${JSON.stringify(v)} is not a finite number`);
+        if (typeof v !== 'number' || !(Math.abs(v) <= MAX_COST)) {
+          throw formatError(file, keyLine('unmatchedCost'), `"unmatchedCost"[${r}] = ${JSON.stringify(v)} is not a number within ${MAX_COST_TEXT}`);
         }
         delta[r] = v;
       }

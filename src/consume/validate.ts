@@ -5,6 +5,7 @@
  * {@link validateEvent}; the same rules therefore hold for every source, and a reason
  * always names the field, the value (shortened) and what was expected.
  */
+import { formatBound } from '../config.js';
 import type { ArrivalEvent, Metric, PairflowEvent, Side, WithdrawEvent } from '../model.js';
 
 /** The outcome of validating one decoded line or record. */
@@ -12,6 +13,14 @@ export type ValidationResult = { ok: true; event: PairflowEvent } | { ok: false;
 
 /** The largest |ms| a JavaScript Date can hold (ECMA-262 §21.4.1.1: ±8.64e15 ms). */
 const MAX_TIME_MS = 8.64e15;
+
+/**
+ * The largest |x| or |y| (km) under the euclidean metric: 25 times round the Earth,
+ * with room to spare for any map, while distances and travel costs stay finite and
+ * exact to well under a metre (SPEC §5: a coordinate of 1e308 made every distance
+ * Infinity and silently priced no pair).
+ */
+export const MAX_EUCLIDEAN_KM = 1e6;
 
 /** Longest rendering of an offending value inside a reason. */
 const VALUE_CHARS = 40;
@@ -118,10 +127,10 @@ function readKey(obj: Record<string, unknown>, field: string): string | { ok: fa
   return v;
 }
 
-function readCoord(obj: Record<string, unknown>, field: string, limit: number | null): number | { ok: false; reason: string } {
+function readCoord(obj: Record<string, unknown>, field: string, limit: number): number | { ok: false; reason: string } {
   const v = obj[field];
   if (typeof v !== 'number' || !Number.isFinite(v)) return fail(field, v, 'a finite number');
-  if (limit !== null && (v < -limit || v > limit)) return fail(field, v, `a number in [-${limit}, ${limit}]`);
+  if (v < -limit || v > limit) return fail(field, v, `a number in [-${formatBound(limit)}, ${formatBound(limit)}]`);
   return v;
 }
 
@@ -146,7 +155,7 @@ function isFailure(v: unknown): v is { ok: false; reason: string } {
  * - `t` is whole ms since the epoch or an RFC 3339 date-time with a zone;
  * - withdraw: `side` is `"supply"` or `"demand"`; nothing else is required;
  * - arrival: the metric's coordinates are finite numbers (`lat` in ±90 and `lon` in
- *   ±180 for haversine, `x`/`y` for euclidean); `until`, when present and not null,
+ *   ±180 for haversine, `x`/`y` in ±1e6 km for euclidean); `until`, when present and not null,
  *   is a time not before `t`; `has` (supply) / `needs` (demand), when present and not
  *   null, are arrays of strings.
  *
@@ -195,9 +204,9 @@ export function validateEvent(obj: unknown, metric: Metric): ValidationResult {
     ev.lat = lat;
     ev.lon = lon;
   } else {
-    const x = readCoord(o, 'x', null);
+    const x = readCoord(o, 'x', MAX_EUCLIDEAN_KM);
     if (isFailure(x)) return x;
-    const y = readCoord(o, 'y', null);
+    const y = readCoord(o, 'y', MAX_EUCLIDEAN_KM);
     if (isFailure(y)) return y;
     ev.x = x;
     ev.y = y;

@@ -3,6 +3,7 @@
  * are always present; everything measured in wall time sits under `timings`, so two
  * runs of the same log compare equal once `timings` is removed.
  */
+import { pairflowError } from '../errors.js';
 
 /** The online policy's outcome (SPEC §6 `online`). */
 export interface OnlineStats {
@@ -96,10 +97,25 @@ export function quantileLinear(values: Float64Array, p: number): number | null {
   return values[lo]! + (h - lo) * (values[hi]! - values[lo]!);
 }
 
-/** regret and ratio of SPEC §4 from the two costs. */
+/**
+ * regret and ratio of SPEC §4 from the two costs. The hindsight optimum is a lower
+ * bound on every online policy's cost, so a negative regret is never a result: within
+ * rounding (a relative 1e-9, as the certificates of SPEC §5) it is reported as 0 and
+ * the ratio as 1; beyond that it is a bug, raised as `PAIRFLOW_ERR_INTERNAL_BUG`
+ * rather than printed.
+ */
 export function regretAndRatio(online: number, hindsight: number | null): { regret: number | null; ratio: number | null } {
   if (hindsight === null) return { regret: null, ratio: null };
   const regret = online - hindsight;
+  if (regret < 0) {
+    const tolerance = 1e-9 * Math.max(1, Math.abs(online), Math.abs(hindsight));
+    if (!(regret >= -tolerance)) {
+      throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', {
+        detail: `the hindsight optimum (${hindsight}) exceeds the online cost (${online}), but it is a lower bound on every policy (SPEC §4)`,
+      });
+    }
+    return { regret: 0, ratio: 1 };
+  }
   let ratio: number | null;
   if (hindsight !== 0) ratio = online / hindsight;
   else ratio = online === 0 ? 1 : null;

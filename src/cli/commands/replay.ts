@@ -5,6 +5,7 @@
  * JSON object with --json); rejects, progress and notes go to stderr.
  */
 import type { Command } from 'commander';
+import { configWarnings } from '../../config.js';
 import { pairflowError } from '../../errors.js';
 import type { Reject } from '../../model.js';
 import { runReplay } from '../../replay/run.js';
@@ -88,6 +89,7 @@ Rejected lines are counted in "rejects", the first ${REJECTS_SHOWN} printed on s
       const windowMs = o.window !== undefined ? parseDuration(o.window, '--window') : undefined;
       const threads = o.threads !== undefined ? parseThreads(o.threads) : undefined;
       const config = await resolveConfig({ configFile: o.config, windowMs });
+      for (const warning of configWarnings(config)) process.stderr.write(`pairflow: warning: ${warning}\n`);
       const rejects = rejectReporter(o.out !== undefined ? `see ${o.out}/rejects.jsonl` : o.rejects !== undefined ? `see ${o.rejects}` : 'use --out DIR or --rejects FILE to keep them');
       const progress = progressLine('replay');
       const summary = await runReplay(logs, config, {

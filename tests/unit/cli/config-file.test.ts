@@ -25,6 +25,11 @@ describe('readConfigFile()', () => {
     await expect(readConfigFile(q)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_CONFIG_INVALID', params: { file: q, field: 'windowMS' } });
   });
 
+  it('accepts a byte-order mark, as every other input does', async () => {
+    const c = await readConfigFile(file('bom.json', '\uFEFF{"windowMs": 10000}'));
+    expect(c.windowMs).toBe(10_000);
+  });
+
   it('bad JSON is PAIRFLOW_ERR_CONFIG_INVALID and a missing file PAIRFLOW_ERR_INPUT_NOT_FOUND', async () => {
     const p = file('syntax.json', '{"windowMs": ');
     await expect(readConfigFile(p)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_CONFIG_INVALID', params: { file: p } });

@@ -62,6 +62,24 @@ describe('pairflow replay', () => {
     expect(badConfig.stderr).toContain('maxTravelMin');
   });
 
+  it('hostile numbers are input errors (exit 2), not a silently wrong result; a window longer than every patience warns', () => {
+    for (const [name, text] of [['fast.json', '{"speedKmh": 1e200}'], ['negative-p.json', '{"abandonPenalty": -30}'], ['long-w.json', '{"windowMs": 1e300}']] as const) {
+      const cfg = join(dir, name);
+      writeFileSync(cfg, text);
+      const r = run(['replay', good, '--config', cfg, '--json', '--no-hindsight']);
+      expect(r.status, name).toBe(2);
+      expect(r.stderr, name).toContain('PAIRFLOW_ERR_CONFIG_INVALID');
+    }
+    for (const w of ['-5s', '9007199254740993']) {
+      const r = run(['replay', good, '--window', w, '--json']);
+      expect(r.status, w).toBe(2);
+      expect(r.stderr, w).toContain('PAIRFLOW_ERR_CLI_OPTION');
+    }
+    const long = run(['replay', good, '--window', '1h', '--json', '--no-hindsight']);
+    expect(long.status, long.stderr).toBe(0);
+    expect(long.stderr).toMatch(/^pairflow: warning: .*patience/m);
+  });
+
   it('--strict stops at the first reject with exit 2 and its file:line; without it the reject is counted', () => {
     const strict = run(['replay', withBad, '--strict', '--json']);
     expect(strict.status).toBe(2);

@@ -238,6 +238,11 @@ describe('pairflow solve (built CLI)', () => {
       ['infeasible.csv', '1,inf\n2,\n', []],
       ['bad-pair.json', '{"rows": 1, "cols": 1, "pairs": [[0, 3, 1]]}', []],
       ['bad-option.csv', '1\n', ['--unmatched-cost', 'lots']],
+      // Finite, but beyond what sums can hold (SPEC §5): input errors stating the bound, not internal bugs.
+      ['near-limit.csv', '1e308,1e308,1\n1e308,1,1e308\n', []],
+      ['huge-delta.csv', '1,2\n', ['--unmatched-cost', '-1e308']],
+      ['huge-pair.json', '{"rows": 1, "cols": 1, "pairs": [[0, 0, 1e200]]}', []],
+      ['huge-unmatched.json', '{"rows": 1, "cols": 1, "pairs": [[0, 0, 1]], "unmatchedCost": -1e300}', []],
     ];
     const codes: Record<string, string> = {
       'ragged.csv': 'PAIRFLOW_ERR_INPUT_FORMAT',
@@ -247,6 +252,10 @@ describe('pairflow solve (built CLI)', () => {
       'infeasible.csv': 'PAIRFLOW_ERR_SOLVER_INFEASIBLE',
       'bad-pair.json': 'PAIRFLOW_ERR_INPUT_FORMAT',
       'bad-option.csv': 'PAIRFLOW_ERR_CLI_OPTION',
+      'near-limit.csv': 'PAIRFLOW_ERR_INPUT_FORMAT',
+      'huge-delta.csv': 'PAIRFLOW_ERR_CLI_OPTION',
+      'huge-pair.json': 'PAIRFLOW_ERR_INPUT_FORMAT',
+      'huge-unmatched.json': 'PAIRFLOW_ERR_INPUT_FORMAT',
     };
     for (const [name, text, extra] of cases) {
       const r = run([file(name, text), ...extra, '--json']);
