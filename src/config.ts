@@ -34,6 +34,15 @@ export const CONFIG_RANGES = {
   idleMs: { min: 0, max: MAX_DURATION_MS, openMin: true, integer: true },
 } as const satisfies Partial<Record<keyof PairflowConfig, ConfigRange>>;
 
+/**
+ * The farthest two points can be apart, per metric (km): half the circumference of
+ * the haversine sphere (π · 6371.0088), and the diagonal of the euclidean square of
+ * ±1e6 km that coordinates are held to. A farthest allowed trip
+ * (`maxTravelMin · speedKmh / 60`) beyond it allows nothing more and is refused:
+ * such reaches made the hindsight's spatial search price no pair at all.
+ */
+export const MAX_REACH_KM = { haversine: Math.PI * 6371.0088, euclidean: 2 * Math.SQRT2 * 1e6 } as const;
+
 /** A bound as people read it: 1e9 rather than 1000000000, 31536000000 (365 days). */
 export function formatBound(v: number): string {
   if (v === MAX_DURATION_MS) return `${v} (365 days)`;
@@ -90,6 +99,18 @@ export function validateConfig(raw: unknown): { config: PairflowConfig } | { pro
     const v = obj.commit;
     if (v !== 'all' && v !== 'due') problems.push(`field 'commit': got ${JSON.stringify(v)}, expected "all" or "due"`);
     else out.commit = v;
+  }
+  if (problems.length === 0) {
+    const metric = out.metric as PairflowConfig['metric'];
+    const reach = ((out.maxTravelMin as number) * (out.speedKmh as number)) / 60;
+    const limit = MAX_REACH_KM[metric];
+    if (reach > limit) {
+      const field = 'maxTravelMin' in obj || !('speedKmh' in obj) ? 'maxTravelMin' : 'speedKmh';
+      problems.push(
+        `field '${field}': the farthest allowed trip, maxTravelMin × speedKmh / 60 = ${Math.round(reach)} km, exceeds ${Math.round(limit)} km, ` +
+          `the farthest two points can be apart under ${metric} (so it allows no more pairs); expected maxTravelMin <= ${Math.floor((limit * 60) / (out.speedKmh as number))} at ${out.speedKmh as number} km/h`,
+      );
+    }
   }
   return problems.length > 0 ? { problems } : { config: Object.freeze(out) as unknown as PairflowConfig };
 }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { CONFIG_RANGES, configWarnings, MAX_DURATION_MS, validateConfig } from '../../src/config.js';
+import { CONFIG_RANGES, configWarnings, MAX_DURATION_MS, MAX_REACH_KM, validateConfig } from '../../src/config.js';
 import { MAX_COST } from '../../src/matching/validate.js';
 import { DEFAULT_CONFIG, reserveOf, untilOf } from '../../src/model.js';
 import { mulberry32 } from '../helpers/random.js';
@@ -46,7 +46,8 @@ describe('validateConfig()', () => {
 
   it('accepts each range bound itself (except an open lower bound) and nothing beyond it', () => {
     for (const [field, range] of Object.entries(CONFIG_RANGES)) {
-      const ok = (v: number): boolean => 'config' in validateConfig({ [field]: v });
+      // euclidean: its farthest trip allows the largest maxTravelMin at the default speed
+      const ok = (v: number): boolean => 'config' in validateConfig({ metric: 'euclidean', [field]: v });
       expect(ok(range.max), `${field} = max`).toBe(true);
       expect(ok(range.max * (1 + 1e-9) + 1), `${field} > max`).toBe(false);
       expect(ok(range.min), `${field} = min`).toBe(!('openMin' in range && range.openMin));
@@ -64,6 +65,7 @@ describe('validateConfig()', () => {
       for (const field of Object.keys(CONFIG_RANGES)) {
         if (rand() < 0.25) raw[field] = rand() < 0.5 ? hostile[Math.floor(rand() * hostile.length)]! : (rand() - 0.2) * 10 ** Math.floor(rand() * 12);
       }
+      if (rand() < 0.5) (raw as Record<string, unknown>).metric = 'euclidean';
       const r = validateConfig(raw);
       if (!('config' in r)) continue;
       accepted++;
@@ -78,6 +80,18 @@ describe('validateConfig()', () => {
       expect(Number.isSafeInteger(Math.ceil(MAX_TIME_MS / c.windowMs) * c.windowMs), `seed ${seed}`).toBe(true);
     }
     expect(accepted).toBeGreaterThan(100);
+  });
+
+  it('refuses a farthest trip (maxTravelMin × speedKmh / 60) beyond the farthest two points can be apart', () => {
+    // Half the circumference of the haversine sphere: π · 6371.0088 km ≈ 20,015 km (from memory: ~20,000 km pole to pole).
+    expect(MAX_REACH_KM.haversine).toBeCloseTo(20_015.1, 0);
+    const at = (maxTravelMin: number, metric = 'haversine'): boolean => 'config' in validateConfig({ maxTravelMin, metric });
+    expect(at(48_036)).toBe(true); // 48,036 min at 25 km/h = 20,015 km
+    expect(at(48_037)).toBe(false);
+    expect(at(100_000)).toBe(false); // the reach at which the hindsight priced no pair
+    expect(at(100_000, 'euclidean')).toBe(true);
+    const r = validateConfig({ speedKmh: 10_000, maxTravelMin: 200 });
+    expect('problems' in r && r.problems[0]).toContain("'maxTravelMin'");
   });
 });
 
