@@ -5,12 +5,13 @@
  */
 import { createHash } from 'node:crypto';
 import { createReadStream } from 'node:fs';
-import { stat } from 'node:fs/promises';
+import { access, constants, stat } from 'node:fs/promises';
 import { finished } from 'node:stream/promises';
 import { createGunzip } from 'node:zlib';
 import { pairflowError } from '../errors.js';
 import type { Metric, Reject, SourcedEvent, SourcePosition } from '../model.js';
 import { readAvroContainer } from './avro.js';
+import { findDuplicateKey, keyMarks, printable } from './json-text.js';
 import { splitLines, type LinePiece } from './lines.js';
 import { shortValue, validateEvent } from './validate.js';
 
@@ -66,17 +67,36 @@ export function logFormatOf(path: string): LogFormat {
   });
 }
 
+/**
+ * A missing path is `PAIRFLOW_ERR_INPUT_NOT_FOUND`; one that exists but is not a
+ * readable regular file (a directory, a socket, no permission) is
+ * `PAIRFLOW_ERR_INPUT_UNREADABLE` saying which.
+ */
 async function assertReadableFile(path: string): Promise<void> {
+  let st;
   try {
-    const st = await stat(path);
-    if (!st.isFile()) throw new Error('not a regular file');
+    st = await stat(path);
+    await access(path, constants.R_OK);
   } catch (err) {
-    throw pairflowError('PAIRFLOW_ERR_INPUT_NOT_FOUND', { file: path }, err);
+    const code = (err as NodeJS.ErrnoException).code;
+    if (code === 'ENOENT' || code === 'ENOTDIR') throw pairflowError('PAIRFLOW_ERR_INPUT_NOT_FOUND', { file: path }, err);
+    throw pairflowError('PAIRFLOW_ERR_INPUT_UNREADABLE', { file: path, detail: code === 'EACCES' || code === 'EPERM' ? 'cannot be read (permission denied)' : `cannot be read (${code ?? String(err)})` }, err);
+  }
+  if (!st.isFile()) {
+    throw pairflowError('PAIRFLOW_ERR_INPUT_UNREADABLE', { file: path, detail: st.isDirectory() ? 'is a directory, not a log file' : 'is not a regular file' });
   }
 }
 
 function cut(text: string): string {
   return text.length > RAW_CHARS ? text.slice(0, RAW_CHARS) : text;
+}
+
+/** Longest piece of input text quoted inside a reason. */
+const REASON_CHARS = 200;
+
+/** Input text quoted in a reason: control characters escaped, cut to {@link REASON_CHARS}. */
+function reasonText(text: string): string {
+  return printable(text.length > REASON_CHARS ? `${text.slice(0, REASON_CHARS - 1)}…` : text);
 }
 
 // A JSON rendering of a decoded Avro record that keeps NaN and Infinity visible.
@@ -230,7 +250,14 @@ function lineItem(path: string, piece: LinePiece & { kind: 'line' | 'long' }, me
   try {
     value = JSON.parse(text);
   } catch (err) {
-    return { kind: 'reject', reject: { pos, reason: `bad JSON: ${(err as Error).message}`, raw: cut(text) } };
+    return { kind: 'reject', reject: { pos, reason: `bad JSON: ${reasonText((err as Error).message)}`, raw: cut(text) } };
+  }
+  // JSON.parse keeps the last of repeated keys; a line with more key marks than keys is checked exactly.
+  if (value !== null && typeof value === 'object' && !Array.isArray(value) && keyMarks(text) > Object.keys(value).length) {
+    const repeated = findDuplicateKey(text);
+    if (repeated !== null) {
+      return { kind: 'reject', reject: { pos, reason: `bad JSON: key '${reasonText(repeated.key)}' appears twice in one object`, raw: cut(text) } };
+    }
   }
   const res = validateEvent(value, metric);
   if (res.ok) return { kind: 'event', ev: { event: res.event, pos, seq } };

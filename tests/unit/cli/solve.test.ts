@@ -4,7 +4,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { solveInstance } from '../../../src/cli/commands/solve.js';
-import { parseCostMatrixCsv, parseSolveInput, parseSparseJson, type SolveInput } from '../../../src/cli/solve-input.js';
+import { MAX_SOLVE_DIM, parseCostMatrixCsv, parseSolveInput, parseSparseJson, type SolveInput } from '../../../src/cli/solve-input.js';
 import { PairflowError } from '../../../src/errors.js';
 import { checkCertificate } from '../../../src/matching/index.js';
 import type { SolveResult } from '../../../src/matching/types.js';
@@ -346,7 +346,42 @@ describe('parseSparseJson()', () => {
     ];
     for (const text of bad) expect(caught(() => parseSparseJson(text, 'i.json')).code, text).toBe('PAIRFLOW_ERR_INPUT_FORMAT');
     expect(caught(() => parseSparseJson('  \n', 'i.json')).code).toBe('PAIRFLOW_ERR_INPUT_EMPTY');
+    // A repeated key is not silently the last one: the error names its line.
+    expect(caught(() => parseSparseJson('{"rows": 1, "cols": 1,\n"pairs": [[0, 0, 1]],\n"rows": 2}', 'i.json'))).toMatchObject({
+      code: 'PAIRFLOW_ERR_INPUT_FORMAT', params: { line: 3 },
+    });
     expect(caught(() => parseSparseJson('{"rows": 0, "cols": 2, "pairs": []}', 'i.json')).code).toBe('PAIRFLOW_ERR_INPUT_EMPTY');
+  });
+});
+
+describe('solve input limits and odd files (issue #10 items 12, 17)', () => {
+  it('refuses declared sizes beyond the limit before allocating anything', () => {
+    for (const text of ['{"rows": 1e10, "cols": 1, "pairs": []}', '{"rows": 100000000, "cols": 2, "pairs": [], "unmatchedCost": 1}', '{"rows": 1, "cols": 1e8, "pairs": []}']) {
+      expect(caught(() => parseSparseJson(text, 'i.json')).code, text).toBe('PAIRFLOW_ERR_INPUT_LIMIT');
+    }
+    expect(parseSparseJson(`{"rows": 2, "cols": ${MAX_SOLVE_DIM}, "pairs": [[0, 0, 1], [1, 9999999, 2]]}`, 'i.json').nCols).toBe(MAX_SOLVE_DIM);
+  });
+
+  it('reads a JSON array as JSON (an error), not as a one-row CSV', () => {
+    expect(caught(() => parseSolveInput('[1,2]', 'm.csv')).code).toBe('PAIRFLOW_ERR_INPUT_FORMAT');
+    expect(caught(() => parseSolveInput('\uFEFF [[1, 2]]\n', 'm.json')).code).toBe('PAIRFLOW_ERR_INPUT_FORMAT');
+  });
+
+  it('reads CR-only line ends and never puts raw control characters into a message', () => {
+    const cr = parseCostMatrixCsv('1,2\r3,4\r', 'mac.csv');
+    expect([cr.nRows, cr.nCols, ...cr.cost]).toEqual([2, 2, 1, 2, 3, 4]);
+    for (const text of ['1,\u0000\n', '1,a\u001bb\n', '1,2\n3,\u0007']) {
+      const err = caught(() => parseCostMatrixCsv(text, 'ctl.csv'));
+      expect(err.code).toBe('PAIRFLOW_ERR_INPUT_FORMAT');
+      expect(err.message).not.toMatch(/[\u0000-\u001f]/);
+    }
+    expect(caught(() => parseSparseJson('{"rows": 1,\u0000}', 'ctl.json')).message).not.toMatch(/[\u0000-\u001f]/);
+  });
+
+  it('a directory is "not a file" (exit 2, PAIRFLOW_ERR_INPUT_UNREADABLE), not "no such file"', () => {
+    const r = run([dir, '--json']);
+    expect(r.status).toBe(2);
+    expect(r.stderr).toContain('[PAIRFLOW_ERR_INPUT_UNREADABLE]');
   });
 });
 

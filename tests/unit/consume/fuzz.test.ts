@@ -44,7 +44,7 @@ function badLine(rand: Rand, i: number): { text: string; kind: string } {
   const obj = validObject(rand, i);
   const isArrival = obj.type !== 'withdraw';
   const json = JSON.stringify(obj);
-  const kinds = ['truncated', 'nan', 'wrongType', 'range', 'untilBefore', 'unknownType', 'huge', 'bytes', 'missing', 'empty', 'fraction', 'badTime', 'notObject', 'badSide'] as const;
+  const kinds = ['truncated', 'nan', 'wrongType', 'range', 'untilBefore', 'unknownType', 'huge', 'bytes', 'missing', 'empty', 'fraction', 'badTime', 'notObject', 'badSide', 'dupKey', 'control'] as const;
   const kind = pickOf(rand, kinds);
   switch (kind) {
     case 'truncated': // any proper prefix of an object text is not JSON
@@ -101,6 +101,17 @@ function badLine(rand: Rand, i: number): { text: string; kind: string } {
       return { kind, text: pickOf(rand, ['[1,2,3]', '42', '"supply"', 'null', 'true', `[${json}]`]) };
     case 'badSide':
       return { kind, text: JSON.stringify({ ...obj, type: 'withdraw', side: pickOf(rand, [null, 'both', 3, 'Supply']) }) };
+    case 'dupKey': {
+      // Issue #10: a repeated key silently took the last value; both values here are valid.
+      const field = pickOf(rand, ['t', 'id', 'market', 'type']);
+      const again = field === 't' ? String(T0) : JSON.stringify(field === 'type' ? obj.type : 'other');
+      return { kind, text: `${json.slice(0, -1)},"${field}":${again}}` };
+    }
+    case 'control': {
+      // Raw control bytes inside a string are not JSON; the reason must not carry them.
+      const at = json.indexOf(':"') + 2; // inside the first string value
+      return { kind, text: json.slice(0, at) + pickOf(rand, ['\u0000', '\u001b[2J', '\r', '\u0007']) + json.slice(at) };
+    }
   }
 }
 
@@ -154,6 +165,8 @@ describe('log readers under fuzzing', () => {
       expect(rejectLines, `seed ${seed}`).toEqual([...p.bad.keys()].sort((a, b) => a - b));
       expect(got.every((it) => (it.kind === 'event' ? it.ev.pos.file : it.reject.pos.file) === path), `seed ${seed}`).toBe(true);
       expect(got.every((it) => it.kind === 'event' || it.reject.reason.length > 0), `seed ${seed}`).toBe(true);
+      // eslint-disable-next-line no-control-regex
+      expect(got.filter((it) => it.kind === 'reject' && /[\u0000-\u001f]/.test(it.reject.reason)), `seed ${seed}: raw control characters in a reason`).toEqual([]);
     });
   }
 

@@ -151,10 +151,10 @@ describe('readLogFile()', () => {
     expect(reader.input).toEqual({ file: path, bytes: bytes.length, sha256: createHash('sha256').update(bytes).digest('hex'), lines: 7 });
   });
 
-  it('throws PAIRFLOW_ERR_INPUT_NOT_FOUND for a missing file or a directory, and PAIRFLOW_ERR_INPUT_UNSUPPORTED for an unknown extension', async () => {
+  it('throws PAIRFLOW_ERR_INPUT_NOT_FOUND for a missing file, PAIRFLOW_ERR_INPUT_UNREADABLE for a directory, and PAIRFLOW_ERR_INPUT_UNSUPPORTED for an unknown extension', async () => {
     await expect(items(join(dir, 'nope.jsonl'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_NOT_FOUND' });
     mkdirSync(join(dir, 'd.jsonl'), { recursive: true });
-    await expect(items(join(dir, 'd.jsonl'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_NOT_FOUND' });
+    await expect(items(join(dir, 'd.jsonl'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_UNREADABLE' });
     await expect(items(write('x.csv', 'a,b\n'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_UNSUPPORTED' });
   });
 });
