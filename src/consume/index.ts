@@ -6,11 +6,10 @@
 import { createHash } from 'node:crypto';
 import { createReadStream } from 'node:fs';
 import { access, constants, stat } from 'node:fs/promises';
-import { finished } from 'node:stream/promises';
-import { createGunzip } from 'node:zlib';
 import { pairflowError } from '../errors.js';
 import type { Metric, Reject, SourcedEvent, SourcePosition } from '../model.js';
 import { readAvroContainer } from './avro.js';
+import { GzipDamage, gunzipChunks } from './gzip.js';
 import { findDuplicateKey, keyMarks, printable } from './json-text.js';
 import { splitLines, type LinePiece } from './lines.js';
 import { shortValue, validateEvent } from './validate.js';
@@ -164,24 +163,25 @@ async function* iterate(path: string, opts: ReadLogOptions, done: (input: LogInp
   const hash = createHash('sha256');
   let bytes = 0;
   const source = createReadStream(path, { highWaterMark: 1 << 16 });
-  source.on('data', (chunk) => {
-    hash.update(chunk as Buffer);
-    bytes += (chunk as Buffer).length;
-  });
-  // Resolves once every byte of the file has been hashed, whatever the decoder did.
-  const sourceDone = finished(source).catch(() => undefined);
-  let body: AsyncIterable<Buffer> = source;
-  if (format === 'jsonl.gz') {
-    const gunzip = createGunzip();
-    source.on('error', (err) => gunzip.destroy(err));
-    gunzip.on('error', () => {
-      // Keep hashing the rest of the file so the manifest's checksum stays whole.
-      source.unpipe(gunzip);
-      source.resume();
-    });
-    source.pipe(gunzip);
-    body = gunzip;
-  }
+  const raw = source[Symbol.asyncIterator]() as AsyncIterator<Buffer>;
+  // Every chunk is hashed on its way to the reader. A reader may stop early (damage);
+  // its return() is then a no-op and the rest of the file is hashed below, so the
+  // manifest's checksum stays whole.
+  const hashed: AsyncIterator<Buffer> = {
+    async next() {
+      const r = await raw.next();
+      if (!r.done) {
+        hash.update(r.value);
+        bytes += r.value.length;
+      }
+      return r;
+    },
+    async return() {
+      return { done: true, value: undefined };
+    },
+  };
+  const chunks: AsyncIterable<Buffer> = { [Symbol.asyncIterator]: () => hashed };
+  const body: AsyncIterable<Buffer> = format === 'jsonl.gz' ? gunzipChunks(chunks) : chunks;
   let lines = 0;
   try {
     if (format === 'avro') {
@@ -212,9 +212,12 @@ async function* iterate(path: string, opts: ReadLogOptions, done: (input: LogInp
         const batch: LogItem[] = [];
         for (const piece of pieces) {
           if (piece.kind === 'error') {
-            const what = format === 'jsonl.gz' ? 'gzip stream truncated or damaged' : 'read failed';
-            const message = piece.error instanceof Error ? piece.error.message : String(piece.error);
-            batch.push({ kind: 'reject', reject: { pos: { file: path, line: piece.line }, reason: `${what} (${message}); nothing after this point was read`, raw: '' } });
+            const err = piece.error;
+            const message = err instanceof Error ? err.message : String(err);
+            const reason = err instanceof GzipDamage
+              ? err.dataIntact ? `gzip: ${message}` : `gzip stream truncated or damaged: ${message}; nothing after this point was read`
+              : `read failed (${message}); nothing after this point was read`;
+            batch.push({ kind: 'reject', reject: { pos: { file: path, line: piece.line }, reason: printable(reason), raw: '' } });
             continue;
           }
           lines = piece.line;
@@ -226,7 +229,11 @@ async function* iterate(path: string, opts: ReadLogOptions, done: (input: LogInp
         if (batch.length > 0) yield batch;
       }
     }
-    await sourceDone;
+    try {
+      for (let r = await hashed.next(); !r.done; r = await hashed.next());
+    } catch {
+      // A read error was reported where it happened; the checksum covers what could be read.
+    }
     done({ file: path, bytes, sha256: hash.digest('hex'), lines });
   } finally {
     source.destroy();
