@@ -285,4 +285,28 @@ describe('log readers under fuzzing', () => {
     // Sanity: the file really was changed where we think.
     expect(readFileSync(path).equals(intact)).toBe(false);
   });
+
+  it('counts exactly the records of every block whose sync marker is damaged, in runs of any length (seeded)', async () => {
+    const seed = 16016;
+    const rand = mulberry32(seed);
+    const records: EventRecord[] = Array.from({ length: 1200 }, (_, i) => ({ type: 'supply', id: `s${i}`, market: 'm', t: T0 + i, until: null, lat: 46.5, lon: -31.2, x: null, y: null, has: null, needs: null, side: null }));
+    const intact = await writeAvro(join(dir, 'markers.avro'), records, { blockSize: 1024, codec: pickOf(rand, ['null', 'deflate']) });
+    const layout = blockLayout(intact);
+    for (let round = 0; round < 12; round++) {
+      const file = Buffer.from(intact);
+      const damaged = new Set<number>();
+      for (let k = 0; k < layout.length; k++) if (rand() < 0.25) damaged.add(k);
+      for (const k of damaged) file[layout[k]!.dataEnd + randInt(rand, 0, 15)]! ^= randInt(rand, 1, 255);
+      const path = join(dir, `markers-${round}.avro`);
+      writeFileSync(path, file);
+      const got = await collect(path);
+      const lost = got.flatMap((it) => (it.kind === 'reject' ? [[it.reject.pos.block, Number(/; (\d+) records lost/.exec(it.reject.reason)?.[1])]] : []));
+      expect(lost, `seed ${seed} round ${round}`).toEqual([...damaged].map((k) => [k, layout[k]!.count]));
+      const kept = layout.reduce((a, b, k) => a + (damaged.has(k) ? 0 : b.count), 0);
+      expect(got.filter((it) => it.kind === 'event').length, `seed ${seed} round ${round}`).toBe(kept);
+      // Record numbers stay true after the damage: the last record is record 1200.
+      const lastEvent = got.filter((it) => it.kind === 'event').at(-1);
+      if (lastEvent?.kind === 'event' && !damaged.has(layout.length - 1)) expect(lastEvent.ev.pos.line, `seed ${seed} round ${round}`).toBe(1200);
+    }
+  });
 });
