@@ -35,3 +35,15 @@ export function parseNumber(text: string, option: string): number {
   }
   return value;
 }
+
+/**
+ * Parses `--max-rejects`: a whole number of rejects (`0`, `100`), or a share of the
+ * lines and records read (`1%`, `0.5%`).
+ * @example parseRejectLimit('1%', '--max-rejects') // { share: 0.01 }
+ */
+export function parseRejectLimit(text: string, option: string): { count: number } | { share: number } {
+  const m = /^\s*(\d+(?:\.\d+)?)\s*(%?)\s*$/.exec(text);
+  if (m && m[2] === '%' && Number(m[1]) <= 100) return { share: Number(m[1]) / 100 };
+  if (m && m[2] === '' && /^\d+$/.test(m[1]!) && Number.isSafeInteger(Number(m[1]))) return { count: Number(m[1]) };
+  throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option, detail: `'${text}' is not a count or a share (expected e.g. 100 or 1%)` });
+}

@@ -9,7 +9,10 @@ import { formatBound } from '../config.js';
 import type { ArrivalEvent, Metric, PairflowEvent, Side, WithdrawEvent } from '../model.js';
 
 /** The outcome of validating one decoded line or record. */
-export type ValidationResult = { ok: true; event: PairflowEvent } | { ok: false; reason: string };
+export type ValidationResult =
+  | { ok: true; event: PairflowEvent }
+  /** `hint: 'other-metric'`: an arrival without the metric's coordinates that has the other metric's. */
+  | { ok: false; reason: string; hint?: 'other-metric' };
 
 /** The largest |ms| a JavaScript Date can hold (ECMA-262 §21.4.1.1: ±8.64e15 ms). */
 const MAX_TIME_MS = 8.64e15;
@@ -196,18 +199,24 @@ export function validateEvent(obj: unknown, metric: Metric): ValidationResult {
   }
 
   const ev: { -readonly [K in keyof ArrivalEvent]: ArrivalEvent[K] } = { type, id, market, t, until };
+  // Coordinates of the other metric instead of this one's: say so, it is the likely cause.
+  const otherMetric = (res: { ok: false; reason: string }): ValidationResult => {
+    const [a, b, name] = metric === 'haversine' ? ['x', 'y', 'euclidean'] : ['lat', 'lon', 'haversine'];
+    if (typeof o[a] !== 'number' || typeof o[b] !== 'number') return res;
+    return { ok: false, reason: `${res.reason} (the event has ${a}/${b}: is the metric ${name}?)`, hint: 'other-metric' };
+  };
   if (metric === 'haversine') {
     const lat = readCoord(o, 'lat', 90);
-    if (isFailure(lat)) return lat;
+    if (isFailure(lat)) return o.lat === undefined ? otherMetric(lat) : lat;
     const lon = readCoord(o, 'lon', 180);
-    if (isFailure(lon)) return lon;
+    if (isFailure(lon)) return o.lon === undefined ? otherMetric(lon) : lon;
     ev.lat = lat;
     ev.lon = lon;
   } else {
     const x = readCoord(o, 'x', MAX_EUCLIDEAN_KM);
-    if (isFailure(x)) return x;
+    if (isFailure(x)) return o.x === undefined ? otherMetric(x) : x;
     const y = readCoord(o, 'y', MAX_EUCLIDEAN_KM);
-    if (isFailure(y)) return y;
+    if (isFailure(y)) return o.y === undefined ? otherMetric(y) : y;
     ev.x = x;
     ev.y = y;
   }

@@ -3,6 +3,7 @@
  * are always present; everything measured in wall time sits under `timings`, so two
  * runs of the same log compare equal once `timings` is removed.
  */
+import { describeInput } from '../consume/index.js';
 import { pairflowError } from '../errors.js';
 
 /** The online policy's outcome (SPEC §6 `online`). */
@@ -46,6 +47,77 @@ export interface MarketSummary {
   hindsight: { cost: number; matched: number; abandoned: number } | null;
 }
 
+/** How much of one input file was read (`files` in the summary). */
+export interface FileSummary {
+  /** The file's name (its directory left out, so runs compare equal wherever the log lies). */
+  file: string;
+  bytes: number;
+  /** Lines (JSON Lines, blank ones included) or records (Avro, lost ones included when counted). */
+  lines: number;
+  blankLines: number;
+  events: number;
+  /** Lines or records rejected one by one. */
+  rejectedLines: number;
+  /** Avro records inside damaged blocks. */
+  lostRecords: number;
+  /** Rejects that stand for damage, not for one line (a gzip stream's end, an Avro block or header). */
+  damage: number;
+  /** Read to the end without damage. */
+  complete: boolean;
+}
+
+/**
+ * The books of a run (docs/principles.md rule 4, "nothing is lost"): every input line
+ * or record and every event accounted for, from the summary alone. They close when
+ * {@link booksErrors} finds nothing:
+ * - `lines = blankLines + events + rejectedLines + lostRecords` (what was read)
+ * - `rejects = rejectedLines + damage` (what the rejects output holds)
+ * - `events = arrivals + withdraws`
+ * - `arrivals = demandOccurrences + supplyOccurrences + duplicates`
+ * - `withdraws = appliedWithdraws + ignoredWithdraws`
+ * - `demandOccurrences = matched + demandExpired`, `supplyOccurrences = matched + supplyExpired`
+ */
+export interface Books {
+  lines: number;
+  blankLines: number;
+  events: number;
+  rejectedLines: number;
+  lostRecords: number;
+  damage: number;
+  rejects: number;
+  /** Supply and demand events read, and withdraws. */
+  arrivals: number;
+  withdraws: number;
+  /** Arrivals repeating a side, id and t: ignored (SPEC §1). */
+  duplicates: number;
+  demandOccurrences: number;
+  supplyOccurrences: number;
+  /** Withdraws that ended an occurrence (withdraws − ignoredWithdraws), and those that found none. */
+  appliedWithdraws: number;
+  ignoredWithdraws: number;
+  /** Executed pairs: one demand and one supply occurrence each. */
+  matched: number;
+  /** Occurrences that left unmatched (expired.jsonl), per side. */
+  demandExpired: number;
+  supplyExpired: number;
+}
+
+/** The identities of {@link Books} that do not hold, as sentences; empty when the books close. */
+export function booksErrors(b: Books): string[] {
+  const out: string[] = [];
+  const check = (name: string, left: number, right: number): void => {
+    if (left !== right) out.push(`${name}: ${left} ≠ ${right}`);
+  };
+  check('lines = blankLines + events + rejectedLines + lostRecords', b.lines, b.blankLines + b.events + b.rejectedLines + b.lostRecords);
+  check('rejects = rejectedLines + damage', b.rejects, b.rejectedLines + b.damage);
+  check('events = arrivals + withdraws', b.events, b.arrivals + b.withdraws);
+  check('arrivals = demandOccurrences + supplyOccurrences + duplicates', b.arrivals, b.demandOccurrences + b.supplyOccurrences + b.duplicates);
+  check('withdraws = appliedWithdraws + ignoredWithdraws', b.withdraws, b.appliedWithdraws + b.ignoredWithdraws);
+  check('demandOccurrences = matched + demandExpired', b.demandOccurrences, b.matched + b.demandExpired);
+  check('supplyOccurrences = matched + supplyExpired', b.supplyOccurrences, b.matched + b.supplyExpired);
+  return out;
+}
+
 /** `pairflow replay --json` (SPEC §6 plus extras). */
 export interface ReplaySummary {
   windowMs: number;
@@ -70,6 +142,10 @@ export interface ReplaySummary {
   epochs: { solved: number; warm: number; cold: number };
   markets: MarketSummary[];
   inputs: string[];
+  /** Per input file, in the order given: how much of it was read. */
+  files: FileSummary[];
+  /** Every line and event accounted for; see {@link Books}. */
+  books: Books;
   timings: {
     loadMs: number;
     onlineMs: number;
@@ -149,9 +225,12 @@ export function formatWindow(ms: number): string {
 export function formatReplaySummary(s: ReplaySummary): string {
   const h = s.hindsight;
   const lines: string[] = [];
+  // "warm start" only where a solve had prices to start from: with commit "all" every
+  // carried-over unit is unmatched and priced 0, so each solve starts cold anyway.
+  const start = !s.warm ? 'cold start (--no-warm)' : s.epochs.warm > 0 ? 'warm start' : 'warm start on, no solve had prices to carry over';
   lines.push(
     `pairflow replay: ${s.inputs.length === 1 ? s.inputs[0] : `${s.inputs.length} files`}, window ${formatWindow(s.windowMs)}, ` +
-      `commit ${s.commit}, ${s.warm ? 'warm' : 'cold'} start`,
+      `commit ${s.commit}, ${start}`,
   );
   lines.push('');
   lines.push(textTable([
@@ -171,6 +250,7 @@ export function formatReplaySummary(s: ReplaySummary): string {
     ['ignored', `duplicates ${fmtInt(s.duplicates)}, withdraws finding no unit ${fmtInt(s.ignoredWithdraws)}`],
     ['rejects', `${fmtInt(s.rejects)}${s.rejects > 0 ? '  (rejected lines/records; --out DIR writes rejects.jsonl)' : ''}`],
   ];
+  for (const f of s.files) facts.push(['read', describeInput(f)]);
   if (h) facts.push(['match ceiling', `${fmtInt(h.ceiling)}  (most pairs any policy could match)`]);
   const keyWidth = Math.max(...facts.map((f) => f[0].length));
   for (const [k, v] of facts) lines.push(`${k.padEnd(keyWidth)}   ${v}`);

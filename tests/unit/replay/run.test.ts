@@ -173,8 +173,9 @@ describe('runReplay()', () => {
     const a = stable(await runReplay([whole], config, { threads: 0 }));
     const b = stable(await runReplay([even, odd], config, { threads: 0 }));
     const c = stable(await runReplay([odd, even], config, { threads: 0 }));
-    expect({ ...b, inputs: null }).toEqual({ ...a, inputs: null });
-    expect({ ...c, inputs: null }).toEqual({ ...a, inputs: null });
+    expect({ ...b, inputs: null, files: null }).toEqual({ ...a, inputs: null, files: null });
+    expect({ ...c, inputs: null, files: null }).toEqual({ ...a, inputs: null, files: null });
+    expect(b.files.map((f) => f.lines)).toEqual([Math.ceil(lines.length / 2), Math.floor(lines.length / 2)]);
     expect(b.inputs).toEqual(['even.jsonl', 'odd.jsonl']);
   });
 
@@ -201,8 +202,9 @@ describe('runReplay()', () => {
   it.skipIf(!haveDemo && process.env.CI !== 'true')('replaying the bundled demo day from .jsonl.gz and from .avro gives the same summary', async () => {
     const a = await runReplay([join(demo, 'demo-day.jsonl.gz')], { ...config, windowMs: 30_000 }, { hindsight: false });
     const b = await runReplay([join(demo, 'demo-day.avro')], { ...config, windowMs: 30_000 }, { hindsight: false });
-    const { inputs: ia, ...sa } = stable(a);
-    const { inputs: ib, ...sb } = stable(b);
+    const { inputs: ia, files: fa, ...sa } = stable(a);
+    const { inputs: ib, files: fb, ...sb } = stable(b);
+    expect(fb.map((f) => ({ ...f, file: '', bytes: 0 }))).toEqual(fa.map((f) => ({ ...f, file: '', bytes: 0 })));
     expect(ia).toEqual(['demo-day.jsonl.gz']);
     expect(ib).toEqual(['demo-day.avro']);
     expect(sb).toEqual(sa);
