@@ -50,10 +50,17 @@ export function formatBound(v: number): string {
   return v >= 1e5 && Number.isInteger(exp) ? `1e${exp}` : String(v);
 }
 
-/** How a range reads in a message: `a number > 0 and <= 10000`, `whole ms in [0, 31536000000 (365 days)]`. */
+/**
+ * A range in interval notation, as README's configuration table and messages give
+ * it: `(0, 10000]`, `[0, 1e9]`, `[0, 31536000000 (365 days)]`.
+ */
+export function intervalOf(r: ConfigRange): string {
+  return `${r.openMin ? '(' : '['}${formatBound(r.min)}, ${formatBound(r.max)}]`;
+}
+
+/** How a range reads in a message: `a number in (0, 10000]`, `a whole number of ms in [0, …]`. */
 export function describeRange(r: ConfigRange): string {
-  const what = r.integer ? 'a whole number of ms' : 'a number';
-  return r.openMin ? `${what} > ${formatBound(r.min)} and <= ${formatBound(r.max)}` : `${what} in [${formatBound(r.min)}, ${formatBound(r.max)}]`;
+  return `${r.integer ? 'a whole number of ms' : 'a number'} in ${intervalOf(r)}`;
 }
 
 function inRange(v: number, r: ConfigRange): boolean {

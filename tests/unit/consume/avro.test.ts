@@ -1,9 +1,9 @@
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import avro from 'avsc';
 import { afterAll, describe, expect, it } from 'vitest';
-import { readAvroContainer, type AvroPiece } from '../../../src/consume/avro.js';
+import { MAX_BLOCK_BYTES, MAX_INFLATED_BLOCK_BYTES, readAvroContainer, type AvroPiece } from '../../../src/consume/avro.js';
 import type { EventRecord } from '../../../src/consume/schema.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 import { blockLayout, writeAvro } from './avro-files.js';
@@ -207,5 +207,12 @@ describe('readAvroContainer()', () => {
       const fatal = got.findIndex((p) => p.kind === 'fatal');
       expect(fatal === -1 || fatal === got.length - 1, `seed ${seed}, round ${round}`).toBe(true);
     }
+  });
+});
+
+describe('docs/events.md on Avro limits', () => {
+  it('states the block limits the reader applies (issue #10: the deflate limit in the docs differed from the code)', () => {
+    const doc = readFileSync(new URL('../../../docs/events.md', import.meta.url), 'utf8').replace(/\s+/g, ' ');
+    expect(doc).toContain(`larger than ${MAX_BLOCK_BYTES / 2 ** 20} MiB, or one whose deflate data expands beyond ${MAX_INFLATED_BLOCK_BYTES / 2 ** 20} MiB`);
   });
 });
