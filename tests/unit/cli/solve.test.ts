@@ -387,6 +387,28 @@ describe('solve input limits and odd files (issue #10 items 12, 17)', () => {
   });
 });
 
+describe('solveInstance() across the whole allowed range of costs (SPEC §5, seeded)', () => {
+  it('solves and certifies matrices mixing magnitudes up to ±1e150 — never an internal error', () => {
+    const seed = 10150;
+    const rand = mulberry32(seed);
+    const magnitudes = [0, 5e-324, 1e-300, 1, 1e15, 1e100, 1e150];
+    for (let round = 0; round < 60; round++) {
+      const rows = randInt(rand, 1, 6);
+      const cols = randInt(rand, rows, 7);
+      const cells = Array.from({ length: rows }, () => Array.from({ length: cols }, () => {
+        if (rand() < 0.15) return 'inf';
+        return String((rand() < 0.3 ? -1 : 1) * magnitudes[randInt(rand, 0, magnitudes.length - 1)]! * (1 + rand()) / 2);
+      }).join(','));
+      // every row keeps one allowed cell on the diagonal so the instance stays feasible
+      const text = cells.map((line, r) => line.split(',').map((c, k) => (k === r && c === 'inf' ? '1' : c)).join(',')).join('\n');
+      const input = parseSolveInput(text, `r${round}.csv`);
+      for (const opts of [{}, { maximize: true }, { unmatchedCost: -1e150 }, { unmatchedCost: 1e150, maximize: true }]) {
+        expect(() => solveInstance(input, opts), `seed ${seed} round ${round} ${JSON.stringify(opts)}:\n${text}`).not.toThrow();
+      }
+    }
+  });
+});
+
 describe('solveInstance()', () => {
   it('matches scipy on seeded CSV and JSON instances, with and without unmatched costs', (ctx) => {
     if (scipyVersion() === null) ctx.skip();
