@@ -35,8 +35,17 @@ export const ERROR_CODES = {
   PAIRFLOW_ERR_KAFKA_CONNECT: { kind: 'runtime', template: 'cannot reach Kafka at {brokers}: {detail}', retriable: true },
   PAIRFLOW_ERR_KAFKA_BROKER_SETUP: { kind: 'runtime', template: '{detail}', retriable: true },
   PAIRFLOW_ERR_KAFKA_AVRO: { kind: 'input', template: '{where}: {detail}' },
+  PAIRFLOW_ERR_KAFKA_TOPIC: { kind: 'input', template: 'topic {topic}: {detail}' },
+  PAIRFLOW_ERR_KAFKA_TIMEOUT: { kind: 'runtime', template: 'gave up {what} after {ms} ms', retriable: true },
+  PAIRFLOW_ERR_KAFKA_CONSUMER: { kind: 'runtime', template: 'the Kafka consumer stopped: {detail}', retriable: true },
   PAIRFLOW_ERR_OUTPUT_WRITE: { kind: 'runtime', template: '{file}: cannot write output: {detail}', retriable: true },
+  PAIRFLOW_ERR_REPORT_INPUT: { kind: 'input', template: '{dir}: {detail}' },
   PAIRFLOW_ERR_STATE_INVALID: { kind: 'input', template: 'pool state of market {market}: {detail}' },
+  PAIRFLOW_ERR_SETTINGS_INVALID: { kind: 'input', template: '{source}: {detail}' },
+  PAIRFLOW_ERR_KAFKA_AUTH: { kind: 'runtime', template: 'Kafka at {brokers} refused the SASL {mechanism} login of user "{username}": {detail}' },
+  PAIRFLOW_ERR_KAFKA_TLS: { kind: 'runtime', template: 'TLS connection to Kafka at {brokers} failed: {detail}' },
+  PAIRFLOW_ERR_METRICS_LISTEN: { kind: 'runtime', template: 'cannot serve metrics on {host}:{port}: {detail}', retriable: true },
+  PAIRFLOW_ERR_SHUTDOWN_TIMEOUT: { kind: 'runtime', template: 'shutdown did not finish within {graceMs} ms: {detail}' },
   PAIRFLOW_ERR_INTERNAL_BUG: { kind: 'runtime', template: '{detail}' },
 } as const satisfies Record<string, CodeSpec>;
 

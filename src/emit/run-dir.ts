@@ -16,6 +16,8 @@ export const RUN_FILES = {
   epochs: 'epochs.jsonl',
   rejects: 'rejects.jsonl',
   summary: 'summary.json',
+  /** The tables `pairflow report` draws (src/replay/digest.ts). */
+  digest: 'digest.json',
   manifest: 'manifest.json',
 } as const;
 

@@ -18,7 +18,7 @@
  * unmatched demand never costs more. They stay in the graph for the match ceiling.
  */
 
-import { maxCardinalityMatching } from '../matching/cardinality.js';
+import { maxCardinalityMatching, minVertexCover } from '../matching/cardinality.js';
 import { checkCertificate } from '../matching/certificate.js';
 import { pairflowError } from '../errors.js';
 import type { SolveOptions, SolveResult, SparseInstance } from '../matching/types.js';
@@ -57,6 +57,21 @@ export interface HindsightMarketResult {
   ms: number;
   /** Where that time went, by the same clock (summed over time segments). */
   phases: HindsightPhases;
+  /** With the `cover` option: the units of a minimum vertex cover certifying `ceiling` (König). */
+  cover?: HindsightCover;
+}
+
+/**
+ * A minimum vertex cover of the allowed graph (König's theorem: as many units as the
+ * match ceiling, and every allowed pair has one of them), as (t, a, b) triples per
+ * unit: arrival time and place (lat/lon or x/y). The covered supply units are the
+ * ones the demand that no policy could serve was competing for.
+ */
+export interface HindsightCover {
+  /** (t, a, b) per covered demand occurrence. */
+  demand: Float64Array;
+  /** (t, a, b) per covered supply occurrence. */
+  supply: Float64Array;
 }
 
 /** Wall time per phase of a market's hindsight solve, in ms. */
@@ -81,6 +96,8 @@ export interface HindsightDemandCosts {
   demandT: Float64Array;
   /** Its hindsight cost: the matched pair's cost, or P when unmatched. */
   demandCost: Float64Array;
+  /** Minutes it waited for its supply in the hindsight optimum (`max(0, s.t − d.t)`); NaN when unmatched. */
+  demandWait: Float64Array;
 }
 
 /** A sparse assignment solver with the contract of src/matching/types.ts. */
@@ -101,6 +118,8 @@ export interface HindsightMarketOptions {
   addPerRow?: number;
   /** Clock for `ms`. @default performance.now */
   now?: () => number;
+  /** Also return the minimum vertex cover behind the match ceiling (one more pass over the pairs). @default false */
+  cover?: boolean;
 }
 
 /** What the solve proves, for tests and reports: the graph, the final prices and assignment. */
@@ -209,6 +228,8 @@ interface SegmentResult {
   pricingRounds: number;
   ceiling: number;
   demandCost: Float64Array;
+  demandWait: Float64Array;
+  cover: HindsightCover | null;
   phases: HindsightPhases;
   solves: number;
   warmRetries: number;
@@ -315,8 +336,10 @@ export function solvePackedMarket(
     phases: { graphMs: 0, setupMs: 0, firstSolveMs: 0, pricingMs: 0, resolveMs: 0, ceilingMs: 0 } as HindsightPhases,
     demandT: m.demandT.slice(),
     demandCost: new Float64Array(m.nDemand),
+    demandWait: new Float64Array(m.nDemand).fill(NaN),
     detail: null as HindsightMarketDetail | null,
-  };
+  } as HindsightMarketResult & HindsightDemandCosts & { detail: HindsightMarketDetail | null };
+  const coverParts: HindsightCover[] = [];
   const { count, demandSeg, supplySeg } = timeSegments(m);
   // Unit indices per segment, by counting sort (indices stay ascending).
   const group = (seg: Int32Array): { start: Int32Array; idx: Int32Array } => {
@@ -342,7 +365,11 @@ export function solvePackedMarket(
     if (dIdx.length === 0 && !wantDetail) continue;
     const sub = count === 1 ? m : subMarket(m, dIdx, sIdx);
     const r = solveSegment(sub, config, solve, opts, now, store, wantDetail);
-    for (let i = 0; i < dIdx.length; i++) out.demandCost[dIdx[i]!] = r.demandCost[i]!;
+    for (let i = 0; i < dIdx.length; i++) {
+      out.demandCost[dIdx[i]!] = r.demandCost[i]!;
+      out.demandWait[dIdx[i]!] = r.demandWait[i]!;
+    }
+    if (r.cover) coverParts.push(r.cover);
     out.matched += r.matched;
     out.pairsPriced += r.pairsPriced;
     out.pairsSolved += r.pairsSolved;
@@ -358,9 +385,23 @@ export function solvePackedMarket(
   // Summed in occurrence order, so the total does not depend on how segments fell.
   for (let i = 0; i < m.nDemand; i++) out.cost += out.demandCost[i]!;
   out.abandoned = m.nDemand - out.matched;
+  if (opts.cover) out.cover = joinCovers(coverParts);
   if (wantDetail) out.detail = mergeDetail(m, parts, solves, warmRetries, rechecks, rowsPriced);
   out.ms = now() - t0;
   return out;
+}
+
+function joinCovers(parts: readonly HindsightCover[]): HindsightCover {
+  const join = (side: 'demand' | 'supply'): Float64Array => {
+    const all = new Float64Array(parts.reduce((n, p) => n + p[side].length, 0));
+    let at = 0;
+    for (const p of parts) {
+      all.set(p[side], at);
+      at += p[side].length;
+    }
+    return all;
+  };
+  return { demand: join('demand'), supply: join('supply') };
 }
 
 function mergeDetail(
@@ -661,6 +702,7 @@ function solveSegment(
 
   const pairsSolved = cand.ptr[nRows]!;
   const demandCost = new Float64Array(nRows).fill(P);
+  const demandWait = new Float64Array(nRows).fill(NaN);
   let total = 0;
   let matched = 0;
   for (let r = 0; r < nRows; r++) {
@@ -673,6 +715,7 @@ function solveSegment(
           break;
         }
       }
+      demandWait[d] = Math.max(0, m.supplyT[c]! - m.demandT[d]!) / 60_000;
       matched++;
     }
   }
@@ -705,7 +748,26 @@ function solveSegment(
       break;
     }
   }
-  const ceiling = maxCardinalityMatching(g).size;
+  const maxMatching = maxCardinalityMatching(g);
+  const ceiling = maxMatching.size;
+  let cover: HindsightCover | null = null;
+  if (opts.cover) {
+    const vc = minVertexCover(g, maxMatching);
+    const triples = (idx: Int32Array, map: Int32Array | null, t: Float64Array, a: Float64Array, b: Float64Array): Float64Array => {
+      const out = new Float64Array(idx.length * 3);
+      for (let i = 0; i < idx.length; i++) {
+        const u = map ? map[idx[i]!]! : idx[i]!;
+        out[3 * i] = t[u]!;
+        out[3 * i + 1] = a[u]!;
+        out[3 * i + 2] = b[u]!;
+      }
+      return out;
+    };
+    cover = {
+      demand: triples(vc.rows, rowDemand, m.demandT, m.demandA, m.demandB),
+      supply: triples(vc.cols, null, m.supplyT, m.supplyA, m.supplyB),
+    };
+  }
   lap('ceilingMs');
 
   return {
@@ -716,6 +778,8 @@ function solveSegment(
     pricingRounds,
     ceiling,
     demandCost,
+    demandWait,
+    cover,
     phases,
     solves,
     warmRetries,

@@ -6,9 +6,10 @@
  * Deterministic: the same inputs and config give the same records and summary
  * (wall-clock measurements aside, which live under `timings`).
  */
-import { basename } from 'node:path';
+import { basename, join } from 'node:path';
 import { checkLoadedLog, loadLog, type LoadedLog as ConsumedLog, type LogInput, type RejectLimit } from '../consume/index.js';
 import { buildManifest, checkOutputPath, openRejectsFile, openRunDir, RUN_FILES, type RunDirSink } from '../emit/index.js';
+import { writeWholeFile } from '../emit/whole-file.js';
 import { pairflowError } from '../errors.js';
 import type { PairflowConfig, Reject, SourcedEvent } from '../model.js';
 import { drive, fileSource, Pipeline, teeRecords, type RecordSink } from '../pipeline/drive.js';
@@ -17,6 +18,7 @@ import type { BucketPlan } from './buckets.js';
 import { ReplayStats, type OnlineRun } from './stats.js';
 import { solveHindsight, type HindsightResult } from '../hindsight/hindsight.js';
 import { booksErrors, regretAndRatio, type Books, type FileSummary, type HindsightStats, type MarketSummary, type ReplaySummary } from './summary.js';
+import { DIGEST_FILE, gridForEvents, RunTally, withHindsight, type RunDigest } from './digest.js';
 
 export type { ReplaySummary } from './summary.js';
 export type { OnlineRun } from './stats.js';
@@ -43,6 +45,8 @@ export interface ReplayEventsOptions {
   verify?: boolean;
   /** Also sum per-demand costs into these time buckets (for the sweep's bootstrap). */
   plan?: BucketPlan;
+  /** Also gather the report's digest: this tally sees every record and every event. @default none */
+  tally?: RunTally;
   onProgress?: (p: ReplayProgress) => void;
 }
 
@@ -87,13 +91,29 @@ export async function replaySource(
     reject: () => {},
   };
   const out = opts.sink;
-  const pipeline = new Pipeline(config, teeRecords(out ? [stats, counter, out] : [stats, counter]), {
+  const tally = opts.tally;
+  const sinks = [stats, counter, ...(tally ? [tally] : []), ...(out ? [out] : [])];
+  const pipeline = new Pipeline(config, teeRecords(sinks), {
     warm: opts.warm ?? true, now, verify: opts.verify ?? false,
   });
-  await drive(source, pipeline, out ?? null, {
+  await drive(tally ? tapSource(source, (ev) => tally.observe(ev)) : source, pipeline, out ?? null, {
     ...(opts.onProgress ? { onProgress: (done: number, total: number) => opts.onProgress!({ phase: 'online', done, total }) } : {}),
   });
   return { ...stats.result(config.windowMs, pipeline.engine.totals(), now() - start), expired, pipelineRejects: stats.rejects };
+}
+
+/** The same source, with every event shown to `see` as it is delivered. */
+function tapSource(source: EventSource, see: (ev: SourcedEvent) => void): EventSource {
+  return {
+    ...(source.expected !== undefined ? { expected: source.expected } : {}),
+    async *items() {
+      for await (const item of source.items()) {
+        if (item.kind === 'event') see(item.ev);
+        yield item;
+      }
+    },
+    close: () => source.close(),
+  };
 }
 
 /** Options of {@link runReplay}. */
@@ -121,6 +141,8 @@ export interface ReplayOptions {
   /** Called for each reject as it is found (e.g. to print the first few). */
   onReject?: (r: Reject) => void;
   onProgress?: (p: ReplayProgress) => void;
+  /** Gather the report's digest (digest.json in the run directory). @default true with outDir */
+  digest?: boolean;
 }
 
 /** A loaded log, as returned by `loadLog` (src/consume). */
@@ -260,13 +282,17 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
     });
     checkLoadedLog(loaded, opts.maxRejects);
     const loadMs = now() - start;
-    const summary = await replayLoaded(loaded, config, { ...opts, now, ...(out ? { sink: out } : {}), loadMs, start });
+    const { summary, digest } = await replayLoadedFull(loaded, config, {
+      ...opts, now, ...(out ? { sink: out } : {}), loadMs, start, digest: opts.digest ?? runDir !== null,
+    });
     sink = null;
     // Close every output even when one fails, then report the first failure.
     const closed = await Promise.allSettled(sinks.map((x) => x.close()));
     const failed = closed.find((r): r is PromiseRejectedResult => r.status === 'rejected');
     if (failed) throw failed.reason;
     if (runDir) {
+      // Compact: its tables are long and only the report reads them.
+      if (digest) await writeWholeFile(join(runDir.workDir, DIGEST_FILE), JSON.stringify(digest));
       await runDir.writeJson(RUN_FILES.summary, summary);
       await runDir.writeJson(RUN_FILES.manifest, buildManifest({
         command: opts.command ?? ['runReplay', ...paths],
@@ -278,7 +304,7 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
           hindsight: opts.hindsight !== false,
           ...(opts.maxRejects ? { maxRejects: opts.maxRejects } : {}),
         },
-        outputs: Object.values(RUN_FILES),
+        outputs: Object.values(RUN_FILES).filter((f) => f !== DIGEST_FILE || digest !== null),
       }));
       await runDir.commit();
       runDir = null;
@@ -298,6 +324,15 @@ export async function replayLoaded(
   config: PairflowConfig,
   opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number } = {},
 ): Promise<ReplaySummary> {
+  return (await replayLoadedFull(loaded, config, opts)).summary;
+}
+
+/** {@link replayLoaded}, with the run's digest when `opts.digest` is set. */
+export async function replayLoadedFull(
+  loaded: LoadedLog,
+  config: PairflowConfig,
+  opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number } = {},
+): Promise<{ summary: ReplaySummary; digest: RunDigest | null }> {
   const now = opts.now ?? defaultNow;
   const start = opts.start ?? now();
   const warm = opts.warm ?? true;
@@ -309,13 +344,16 @@ export async function replayLoaded(
   else {
     hindsightPromise = solveHindsight(loaded.events, config, {
       ...(opts.threads !== undefined ? { threads: opts.threads } : {}),
+      ...(opts.digest ? { cover: true } : {}),
       onProgress: (done: number, total: number) => opts.onProgress?.({ phase: 'hindsight', done, total }),
     });
   }
   // Without a handler now, a hindsight failure during the online replay would be "unhandled".
   hindsightPromise.catch(() => {});
+  const tally = opts.digest ? new RunTally(config, gridForEvents(loaded.events, config.metric)) : null;
   const run = await replaySource(fileSource(loaded), config, {
     ...(opts.sink ? { sink: opts.sink } : {}),
+    ...(tally ? { tally } : {}),
     warm,
     now,
     verify: opts.verify ?? false,
@@ -340,5 +378,5 @@ export async function replayLoaded(
   // Rejects handed to the pipeline (kept by the loader) are in the books already.
   const broken = run.pipelineRejects > loaded.rejects.length ? ['the engine refused events'] : booksErrors(summary.books);
   if (broken.length > 0) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `the books of the run do not close: ${broken.join('; ')}` });
-  return summary;
+  return { summary, digest: tally ? withHindsight(tally.online(), hindsight) : null };
 }

@@ -11,6 +11,7 @@ import type { Reject } from '../../model.js';
 import { runReplay } from '../../replay/run.js';
 import { formatReplaySummary } from '../../replay/summary.js';
 import { resolveConfig } from '../config-file.js';
+import { replayNextSteps } from '../next-steps.js';
 import { parseDuration, parseNumber, parseRejectLimit } from '../parse.js';
 import { phasedProgress } from '../progress.js';
 import { writeOut } from '../stdout.js';
@@ -123,6 +124,6 @@ input error. Exit: 0 ok, 2 usage/input, 1 other.`)
         progress.done();
       }
       rejects.finish();
-      await writeOut(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary));
+      await writeOut(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary) + replayNextSteps(summary, logs, o.out));
     });
 }

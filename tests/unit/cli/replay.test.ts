@@ -218,20 +218,20 @@ describe('pairflow sweep', () => {
     expect(r.status, r.stderr).toBe(0);
     const lines = r.stdout.trimEnd().split('\n');
     expect(lines).toHaveLength(1);
-    const s = JSON.parse(lines[0]!) as { windows: { windowMs: number; online: { cost: number } }[]; best: { windowMs: number }; bootstrap: { resamples: number; seed: number } };
-    expect(s.windows.map((w) => w.windowMs)).toEqual([2000, 10_000, 60_000]);
+    const s = JSON.parse(lines[0]!) as { policies: { policy: { windowMs: number }; online: { cost: number } }[]; best: { windowMs: number }; bootstrap: { resamples: number; seed: number } };
+    expect(s.policies.map((w) => w.policy.windowMs)).toEqual([2000, 10_000, 60_000]);
     expect(s.bootstrap).toMatchObject({ resamples: 200, seed: 3 });
-    const min = Math.min(...s.windows.map((w) => w.online.cost));
-    expect(s.windows.find((w) => w.windowMs === s.best.windowMs)!.online.cost).toBe(min);
+    const min = Math.min(...s.policies.map((w) => w.online.cost));
+    expect(s.policies.find((w) => w.policy.windowMs === s.best.windowMs)!.online.cost).toBe(min);
     const rows = readFileSync(csv, 'utf8').split('\r\n').filter((l) => l !== '');
     expect(rows).toHaveLength(4);
-    expect(rows[0]!.startsWith('window_ms,online_cost,')).toBe(true);
+    expect(rows[0]!.startsWith('policy,window_ms,reserve,commit,online_cost,')).toBe(true);
   });
 
   it('prints a table by default and rejects a bad --windows list with exit 2', () => {
     const r = run(['sweep', good, '--windows', '5s,30s', '--threads', '1', '--bootstrap', '50']);
     expect(r.status, r.stderr).toBe(0);
-    expect(r.stdout).toContain('best window');
+    expect(r.stdout).toContain('recommendation:');
     const bad = run(['sweep', good, '--windows', '5s,often']);
     expect(bad.status).toBe(2);
     expect(bad.stderr).toContain('PAIRFLOW_ERR_CLI_OPTION');

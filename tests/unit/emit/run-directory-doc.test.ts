@@ -45,6 +45,7 @@ describe('docs/run-directory.md', () => {
 
     expect(readdirSync(out).sort()).toEqual(Object.values(RUN_FILES).sort());
     for (const name of Object.values(RUN_FILES)) expect(doc, name).toContain(`### \`${name}\``);
+    // digest.json is the report's, documented field by field in docs/report.md.
 
     const jsonl = (name: string): string[] => readFileSync(join(out, name), 'utf8').trimEnd().split('\n').flatMap((l) => paths(JSON.parse(l)));
     const set = (xs: string[]): string[] => [...new Set(xs)].sort();
