@@ -47,11 +47,8 @@ export interface MarketSummary {
   hindsight: { cost: number; matched: number; abandoned: number } | null;
 }
 
-/** How much of one input file was read (`files` in the summary). */
-export interface FileSummary {
-  /** The file's name (its directory left out, so runs compare equal wherever the log lies). */
-  file: string;
-  bytes: number;
+/** What reading counted: per file in `files`, summed over the files in `books`. */
+export interface ReadCounts {
   /** Lines (JSON Lines, blank ones included) or records (Avro, lost ones included when counted). */
   lines: number;
   blankLines: number;
@@ -62,6 +59,13 @@ export interface FileSummary {
   lostRecords: number;
   /** Rejects that stand for damage, not for one line (a gzip stream's end, an Avro block or header). */
   damage: number;
+}
+
+/** How much of one input file was read (`files` in the summary). */
+export interface FileSummary extends ReadCounts {
+  /** The file's name (its directory left out, so runs compare equal wherever the log lies). */
+  file: string;
+  bytes: number;
   /** Read to the end without damage. */
   complete: boolean;
 }
@@ -77,13 +81,7 @@ export interface FileSummary {
  * - `withdraws = appliedWithdraws + ignoredWithdraws`
  * - `demandOccurrences = matched + demandExpired`, `supplyOccurrences = matched + supplyExpired`
  */
-export interface Books {
-  lines: number;
-  blankLines: number;
-  events: number;
-  rejectedLines: number;
-  lostRecords: number;
-  damage: number;
+export interface Books extends ReadCounts {
   rejects: number;
   /** Supply and demand events read, and withdraws. */
   arrivals: number;
