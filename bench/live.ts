@@ -26,9 +26,12 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { startBroker, stopBroker } from '../scripts/kafka.mjs';
 import { createKafka } from '../src/kafka/index.js';
+import { PALETTE, THEME } from '../src/report/charts.js';
+import { renderSvg } from '../src/report/svg.js';
 import { machineInfo, writeSection } from './lib/report.js';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
+const CHART = join(ROOT, 'docs', 'bench-live-paced.svg');
 const BIN = join(ROOT, 'bin', 'pairflow.js');
 const DOC = join(ROOT, 'docs', 'benchmarks.md');
 
@@ -81,15 +84,15 @@ function pairflowSync(args: string[]): { stdout: string; ms: number } {
 
 const uid = (): string => `${Date.now().toString(36)}${Math.floor(Math.random() * 1e6).toString(36)}`;
 
-export interface ThroughputResult { events: number; publishMs: number; busyMs: number; wallMs: number; perSecBusy: number; perSecWall: number; transactions: number; partitions: number }
+export interface ThroughputResult { days: number; scale: number; events: number; publishMs: number; busyMs: number; wallMs: number; perSecBusy: number; perSecWall: number; transactions: number; partitions: number }
 export interface PacedMinute { minute: number; rssMb: number; heapMb: number; lag: number; p50: number | null; p99: number | null; n: number; records: number; poolUnits: number; load: number }
 export interface PacedResult { minutes: PacedMinute[]; speedup: number; published: number; memoryChange: number | null }
 export interface RestoreResult { units: number; markets: number; partitions: number; restoreMs: number[]; readyMs: number; poolRecords: number }
 
-async function throughput(brokers: string, dir: string, quick: boolean, log: (s: string) => void): Promise<ThroughputResult> {
-  const scale = quick ? 0.05 : 5;
-  const file = join(dir, `throughput-${scale}.jsonl`);
-  pairflowSync(['gen', '--scale', String(scale), '--seed', '5', '--out', file]);
+async function throughput(brokers: string, dir: string, size: { days: number; scale: number }, log: (s: string) => void): Promise<ThroughputResult> {
+  const { days, scale } = size;
+  const file = join(dir, `throughput-${days}d-${scale}.jsonl`);
+  pairflowSync(['gen', '--days', String(days), '--scale', String(scale), '--seed', '5', '--out', file]);
   const topic = `bench-live-in-${uid()}`;
   const pub = pairflowSync(['publish', file, '--brokers', brokers, '--topic', topic, '--partitions', '4', '--json']);
   const published = JSON.parse(pub.stdout) as { published: number };
@@ -99,7 +102,7 @@ async function throughput(brokers: string, dir: string, quick: boolean, log: (s:
   if (r.code !== 0 || !totals) throw new Error(`live exited ${r.code} without totals`);
   const busyMs = Number(totals.busyMs);
   const res: ThroughputResult = {
-    events: published.published, publishMs: pub.ms, busyMs, wallMs: r.wallMs - 2000,
+    days, scale, events: published.published, publishMs: pub.ms, busyMs, wallMs: r.wallMs - 2000,
     perSecBusy: published.published / (busyMs / 1000), perSecWall: published.published / ((r.wallMs - 2000) / 1000),
     transactions: Number(totals.transactions), partitions: 4,
   };
@@ -109,7 +112,7 @@ async function throughput(brokers: string, dir: string, quick: boolean, log: (s:
 
 async function paced(brokers: string, dir: string, quick: boolean, minutes: number, log: (s: string) => void): Promise<PacedResult> {
   const speedup = 60;
-  const seconds = quick ? 20 : minutes * 60;
+  const seconds = quick ? 10 : minutes * 60;
   const fromHour = 10;
   const days = Math.max(1, Math.ceil((fromHour * 3600 + seconds * speedup) / 86_400));
   const file = join(dir, `paced-${days}.jsonl`);
@@ -124,7 +127,7 @@ async function paced(brokers: string, dir: string, quick: boolean, minutes: numb
   let minute = 0;
   let proc: ChildProcess | null = null;
   const liveRun = runLive(
-    ['live', '--brokers', brokers, '--in', topic, '--out', `bench-live-paced-out-${uid()}`, '--group', `bench-${uid()}`, '--stats-every', quick ? '5s' : '1m'],
+    ['live', '--brokers', brokers, '--in', topic, '--out', `bench-live-paced-out-${uid()}`, '--group', `bench-${uid()}`, '--stats-every', quick ? '3s' : '1m'],
     {
       onLine: (l) => {
         if (l.msg !== 'live: stats') return;
@@ -141,11 +144,18 @@ async function paced(brokers: string, dir: string, quick: boolean, minutes: numb
     },
   );
   await new Promise((r) => setTimeout(r, 3000));
-  const pub = spawnSync(process.execPath, [join(ROOT, 'bench', 'lib', 'paced-publish.mjs'), brokers, topic, file, String(speedup), String(seconds), String(fromHour)], { encoding: 'utf8', maxBuffer: 1 << 26 });
-  if (pub.status !== 0) throw new Error(`paced publisher failed: ${pub.stderr}`);
+  // Asynchronously: the processor's log lines must keep being read while it runs.
+  const pub = await new Promise<{ code: number | null; stdout: string; stderr: string }>((resolve) => {
+    const child = spawn(process.execPath, [join(ROOT, 'bench', 'lib', 'paced-publish.mjs'), brokers, topic, file, String(speedup), String(seconds), String(fromHour)], { stdio: ['ignore', 'pipe', 'pipe'] });
+    let out = '', err = '';
+    child.stdout.on('data', (b: Buffer) => { out += b.toString(); });
+    child.stderr.on('data', (b: Buffer) => { err += b.toString(); });
+    child.on('exit', (code) => resolve({ code, stdout: out, stderr: err }));
+  });
+  if (pub.code !== 0) throw new Error(`paced publisher failed: ${pub.stderr}`);
   const published = (JSON.parse(pub.stdout) as { published: number }).published;
   // One more stats line after the publisher stops, then a clean stop.
-  await new Promise((r) => setTimeout(r, quick ? 6000 : 65_000));
+  await new Promise((r) => setTimeout(r, quick ? 3500 : 65_000));
   (proc as ChildProcess | null)?.kill('SIGTERM');
   await liveRun;
   const at = (m: number): number | undefined => minutesOut.find((x) => x.minute === m)?.rssMb;
@@ -195,17 +205,17 @@ async function restore(brokers: string, dir: string, quick: boolean, log: (s: st
   return res;
 }
 
-function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: ThroughputResult | null, p: PacedResult | null, r: RestoreResult | null): string {
+function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: ThroughputResult[] | null, p: PacedResult | null, r: RestoreResult | null): string {
   const out: string[] = ['## Live mode on Kafka (`npm run bench:live`)', ''];
   out.push(`Run ${new Date().toISOString().slice(0, 16).replace('T', ' ')} UTC${quick ? ', quick mode (smoke sizes)' : ''}, on ${m.cpu} (${m.cores} cores, ${m.memoryGb} GB), Node ${m.node}; the Kafka broker (local, KRaft, scripts/kafka.mjs) on the same machine; 1-minute load at start ${m.loadAtStart.toFixed(2)}, at end ${(loadavg()[0] ?? 0).toFixed(2)}. Targets from the live-mode issue: ≥ 20,000 events/s backlog, p99 close-to-commit ≤ 250 ms paced, restore of 10,000 units ≤ 10 s, memory at 30 minutes within 10 % of 10 minutes.`);
   out.push('');
   if (t) {
     out.push('### Backlog throughput', '');
-    out.push('A generated city log published first (4 partitions), then one `pairflow live` process drains it (commit "all", W = 5 s, JSON values). "busy" runs from the first record taken to the commit of the last one; "whole process" adds start-up, topic checks and the group join.');
+    out.push('A generated city log (`pairflow gen`) published first (4 partitions, `pairflow publish`), then one `pairflow live` process drains it (commit "all", W = 5 s, JSON values). "busy" runs from the first record taken to the commit of the last one; "whole process" adds start-up, topic checks and the group join. Scale multiplies the units per day of each market: at scale 5 the pools are five times as full, and the engine\'s own work per event (candidate pairs, solves) grows with them — `bench:replay` times the engine alone.');
     out.push('');
-    out.push('| events | publish | drain, busy | events/s busy | events/s whole process | transactions |');
-    out.push('|---|---|---|---|---|---|');
-    out.push(`| ${t.events.toLocaleString('en-US')} | ${(t.publishMs / 1000).toFixed(1)} s | ${(t.busyMs / 1000).toFixed(1)} s | ${Math.round(t.perSecBusy).toLocaleString('en-US')} | ${Math.round(t.perSecWall).toLocaleString('en-US')} | ${t.transactions} |`);
+    out.push('| log | events | publish | drain, busy | events/s busy | events/s whole process | transactions |');
+    out.push('|---|---|---|---|---|---|---|');
+    for (const x of t) out.push(`| ${x.days} day${x.days > 1 ? 's' : ''}, scale ${x.scale} | ${x.events.toLocaleString('en-US')} | ${(x.publishMs / 1000).toFixed(1)} s | ${(x.busyMs / 1000).toFixed(1)} s | ${Math.round(x.perSecBusy).toLocaleString('en-US')} | ${Math.round(x.perSecWall).toLocaleString('en-US')} | ${x.transactions} |`);
     out.push('');
   }
   if (p) {
@@ -217,6 +227,7 @@ function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: Throughp
     for (const x of p.minutes) out.push(`| ${x.minute} | ${x.rssMb} | ${x.heapMb} | ${x.lag} | ${x.p50 ?? '–'} | ${x.p99 ?? '–'} | ${x.n} | ${x.poolUnits} | ${x.load.toFixed(2)} |`);
     out.push('');
     if (p.memoryChange !== null) out.push(`Resident memory at minute 30 against minute 10: ${(p.memoryChange * 100).toFixed(1)} %.`, '');
+    if (!quick) out.push('![Resident memory, consumer lag and close-to-commit p99 per minute of the paced run](bench-live-paced.svg)', '');
   }
   if (r) {
     out.push('### Restore', '');
@@ -230,8 +241,38 @@ function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: Throughp
   return `<!-- bench:live:start -->\n${out.join('\n').trimEnd()}\n<!-- bench:live:end -->`;
 }
 
+/** The paced run per minute as one SVG (Vega-Lite, rendered in Node by the report's renderer). */
+export async function pacedChart(p: PacedResult): Promise<string> {
+  const rows = p.minutes.flatMap((x) => [
+    { minute: x.minute, measure: 'resident memory (MB)', value: x.rssMb },
+    { minute: x.minute, measure: 'lag (records)', value: x.lag },
+    { minute: x.minute, measure: 'close→commit p99 (ms)', value: x.p99 },
+  ]).filter((r) => r.value !== null);
+  return renderSvg({
+    id: 'live-paced',
+    title: 'Paced run, per minute',
+    caption: '',
+    spec: {
+      $schema: 'https://vega.github.io/schema/vega-lite/v6.json',
+      config: THEME,
+      data: { values: rows },
+      facet: { row: { field: 'measure', type: 'nominal', title: null, sort: ['resident memory (MB)', 'lag (records)', 'close→commit p99 (ms)'] } },
+      resolve: { scale: { y: 'independent' } },
+      spec: {
+        width: 560,
+        height: 110,
+        mark: { type: 'line', point: true, color: PALETTE.blue },
+        encoding: {
+          x: { field: 'minute', type: 'quantitative', title: 'minute of the run' },
+          y: { field: 'value', type: 'quantitative', title: null, scale: { zero: true } },
+        },
+      },
+    },
+  });
+}
+
 /** Runs the live benchmark; returns its figures and the markdown section. */
-export async function runLiveBench(opts: LiveBenchOptions = {}): Promise<{ throughput: ThroughputResult | null; paced: PacedResult | null; restore: RestoreResult | null; markdown: string }> {
+export async function runLiveBench(opts: LiveBenchOptions = {}): Promise<{ throughput: ThroughputResult[] | null; paced: PacedResult | null; restore: RestoreResult | null; markdown: string }> {
   const log = opts.log ?? ((s: string) => process.stderr.write(`${s}\n`));
   const quick = opts.quick ?? false;
   const only = new Set(opts.only ?? ['throughput', 'paced', 'restore']);
@@ -246,10 +287,16 @@ export async function runLiveBench(opts: LiveBenchOptions = {}): Promise<{ throu
     own = true;
   }
   try {
-    const t = only.has('throughput') ? await throughput(brokers, dir, quick, log) : null;
+    const sizes = quick ? [{ days: 1, scale: 0.05 }] : [{ days: 5, scale: 1 }, { days: 1, scale: 5 }];
+    let t: ThroughputResult[] | null = null;
+    if (only.has('throughput')) {
+      t = [];
+      for (const size of sizes) t.push(await throughput(brokers, dir, size, log));
+    }
     const r = only.has('restore') ? await restore(brokers, dir, quick, log) : null;
     const p = only.has('paced') ? await paced(brokers, dir, quick, opts.minutes ?? 30, log) : null;
     const md = markdown(m, quick, t, p, r);
+    if ((opts.write ?? true) && p && !quick) writeFileSync(CHART, `${await pacedChart(p)}\n`);
     if (opts.write ?? true) writeSection(DOC, 'live', md.replace(/^<!-- bench:live:start -->\n/, '').replace(/\n<!-- bench:live:end -->$/, ''));
     return { throughput: t, paced: p, restore: r, markdown: md };
   } finally {

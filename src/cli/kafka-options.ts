@@ -1,34 +1,26 @@
 /**
- * What the Kafka commands (`publish`, `live`, `summarize`) share: the broker list,
- * the logger on stderr, the Kafka client.
+ * What the Kafka commands (`publish`, `live`, `summarize`) share beyond the settings
+ * of src/ops/settings.ts: the connection from those settings, and a guard that ends
+ * the process once a command is done.
  */
-import pino, { type Logger } from 'pino';
-import { readEnv } from '../env.js';
-import { pairflowError } from '../errors.js';
-import { createKafka } from '../kafka/index.js';
-
-/** `--brokers`, else KAFKA_BROKERS, else a usage error. */
-export function brokersFrom(option: string | undefined): string {
-  const brokers = option ?? readEnv().kafkaBrokers;
-  if (brokers === undefined || brokers.trim() === '') {
-    throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--brokers', detail: 'required (HOST:PORT[,HOST:PORT…]), or set KAFKA_BROKERS' });
-  }
-  return brokers;
-}
-
-/** JSON lines on stderr (stdout stays for results). */
-export function stderrLogger(level: string, name: string): Logger {
-  return pino({ name, level, base: { pid: process.pid } }, pino.destination({ fd: 2, sync: true }));
-}
+import type { Logger } from 'pino';
+import { createKafka, verifyConnection } from '../kafka/client.js';
+import { createLogger, type LogLevel } from '../ops/log.js';
+import { kafkaOptions, resolveSettings, secretValues, type SettingsFlags } from '../ops/settings.js';
 
 /**
- * A kafkajs client. kafkajs logs every retriable broker answer (a coordinator still
- * loading, a leader moving) as an error line although it retries them itself; pairflow
- * reports what fails in its own words, so kafkajs' lines are kept for `debug` only.
+ * The logger and a checked Kafka client of a short command (`publish`, `summarize`):
+ * settings from flags, environment and settings file; a wrong password or certificate
+ * is one clear error here, before any work.
  */
-export function kafkaClient(brokers: string, clientId: string, logger: Logger): ReturnType<typeof createKafka> {
-  const debug = logger.levelVal <= 20;
-  return createKafka({ brokers, clientId, ...(debug ? { logger: logger.child({}) } : {}) });
+export async function connect(flags: SettingsFlags, level: string, name: string): Promise<{ logger: Logger; kafka: ReturnType<typeof createKafka> }> {
+  const settings = await resolveSettings({ flags }, 'connection');
+  const logger = createLogger({ level: level as LogLevel, secrets: secretValues(settings), base: { name } });
+  for (const w of settings.warnings) logger.warn(w);
+  // kafkajs logs every retried broker answer as an error; keep its lines for debug.
+  const kafka = createKafka(kafkaOptions(settings, logger.levelVal <= 20 ? logger : undefined));
+  await verifyConnection(kafka, { brokers: settings.brokers, security: settings.security });
+  return { logger, kafka };
 }
 
 /**

@@ -63,8 +63,12 @@ export type FaultPoint = 'before-first-commit' | 'after-send' | 'after-commit' |
 export interface LiveObserver {
   /** A consumed record: an event of this type, or a reject with its code. */
   recordIn?(partition: number, kind: 'supply' | 'demand' | 'withdraw' | 'reject', code?: RejectCode): void;
-  /** Records the engine emitted for a partition since the last call. */
+  /** Records the engine emitted for a partition, counted, once they are committed. */
   outputs?(partition: number, counts: OutputCounts): void;
+  /** One record as the engine emits it (before it is committed): per-market figures hang on these. */
+  assignment?(partition: number, a: AssignmentRecord): void;
+  expired?(partition: number, e: ExpiryRecord): void;
+  window?(partition: number, s: EpochRecord): void;
   /** A transaction committed: how long it took, and how long since the watermark closed its first epoch. */
   committed?(partition: number, info: { commitMs: number; closeToCommitMs: number | null; records: number }): void;
   /** A transaction failed and was aborted (the partition is restored afresh). */
@@ -73,6 +77,8 @@ export interface LiveObserver {
   restored?(partition: number, info: { ms: number; markets: number; units: number; poolRecords: number }): void;
   /** A partition was given up (revoked, fenced, or shut down). */
   released?(partition: number, why: string): void;
+  /** The group assigned these partitions to this process (after every rebalance). */
+  assigned?(partitions: readonly number[]): void;
   /** Consumer lag of a partition after a batch (records behind the end of the partition). */
   lag?(partition: number, lag: number): void;
   /** Pool sizes of a partition's markets after a batch. */
@@ -141,6 +147,7 @@ class PartitionOutput implements RecordSink {
     private readonly encoder: OutputEncoder,
     private readonly input: string,
     private readonly now: () => number,
+    private readonly observer: LiveObserver | undefined,
   ) {}
 
   private first(): void {
@@ -155,6 +162,7 @@ class PartitionOutput implements RecordSink {
     this.first();
     this.messages[0]!.push({ key: a.market, value: this.encoder.assignment(a), partition: this.partition });
     this.counts.assignments++;
+    this.observer?.assignment?.(this.partition, a);
   }
 
   expiry(e: ExpiryRecord): void {
@@ -162,6 +170,7 @@ class PartitionOutput implements RecordSink {
     this.messages[1]!.push({ key: e.market, value: this.encoder.expired(e), partition: this.partition });
     if (e.side === 'demand') this.counts.expiredDemand++;
     else this.counts.expiredSupply++;
+    this.observer?.expired?.(this.partition, e);
   }
 
   epoch(s: EpochRecord): void {
@@ -169,6 +178,7 @@ class PartitionOutput implements RecordSink {
     this.messages[2]!.push({ key: s.market, value: this.encoder.window(s), partition: this.partition });
     this.counts.windows++;
     this.counts.late += s.late;
+    this.observer?.window?.(this.partition, s);
   }
 
   /** An event the engine refused (too late for the history it holds). */
@@ -214,9 +224,9 @@ class PartitionState {
   lastInputAt: number;
   readonly token = randomUUID();
 
-  constructor(readonly partition: number, encoder: OutputEncoder, input: string, clock: Clock) {
+  constructor(readonly partition: number, encoder: OutputEncoder, input: string, clock: Clock, observer: LiveObserver | undefined) {
     const now = clock.now();
-    this.output = new PartitionOutput(partition, encoder, input, () => clock.now());
+    this.output = new PartitionOutput(partition, encoder, input, () => clock.now(), observer);
     this.lastCommitAt = now;
     this.lastInputAt = now;
     this.ready = Promise.resolve();
@@ -231,6 +241,9 @@ class PartitionState {
 }
 
 const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
+
+/** Messages per produce request inside a transaction (see commit()). */
+const SEND_SLICE = 1000;
 
 /** Errors that say another process now owns the transactional id. */
 function isFenced(err: unknown): boolean {
@@ -261,6 +274,9 @@ export class LiveProcessor {
   private finished!: () => void;
   private failed!: (e: unknown) => void;
   private readonly done: Promise<void>;
+  /** Resolves when run() has shut everything down. */
+  private readonly stopped: Promise<void>;
+  private down!: () => void;
   private idleSince: number | null = null;
   private finishing = false;
   private statsTimer: ReturnType<typeof setInterval> | null = null;
@@ -281,6 +297,7 @@ export class LiveProcessor {
     this.log = opts.logger;
     this.done = new Promise<void>((res, rej) => { this.finished = res; this.failed = rej; });
     this.done.catch(() => {});
+    this.stopped = new Promise<void>((res) => { this.down = res; });
   }
 
   /** The transactional id of an input partition: stable per group, topic and partition. */
@@ -303,47 +320,51 @@ export class LiveProcessor {
    * with `exitWhenIdleMs`, until the input has been idle that long.
    */
   async run(): Promise<void> {
-    const { kafka, input, group } = this.o;
-    const partitionCount = await ensureOutputTopics(kafka, input, this.topics, this.log);
-    this.log.info({ input, prefix: this.o.prefix, group, partitions: partitionCount, format: this.encoder.format }, 'live: starting');
-    const consumer = kafka.consumer({
-      groupId: group,
-      readUncommitted: false,
-      allowAutoTopicCreation: false,
-      sessionTimeout: this.o.sessionTimeoutMs ?? 30_000,
-      heartbeatInterval: Math.max(500, Math.floor((this.o.sessionTimeoutMs ?? 30_000) / 10)),
-      maxWaitTimeInMs: 200,
-      retry: { retries: 10, initialRetryTime: 300, maxRetryTime: 10_000 },
-    });
-    this.consumer = consumer;
-    consumer.on(consumer.events.GROUP_JOIN, (e) => this.onJoin(e.payload.memberAssignment[input] ?? []));
-    consumer.on(consumer.events.REBALANCING, () => {
-      this.o.fault?.('during-rebalance');
-      this.log.info({ group }, 'live: group rebalancing');
-    });
-    consumer.on(consumer.events.CRASH, (e) => {
-      if (e.payload.restart) {
-        this.log.warn({ err: e.payload.error }, 'live: consumer restarting after an error');
-        return;
-      }
-      this.log.error({ err: e.payload.error }, 'live: consumer stopped after an error');
-      this.failed(pairflowError('PAIRFLOW_ERR_KAFKA_CONSUMER', { detail: (e.payload.error as Error).message }, e.payload.error));
-    });
-    await consumer.connect();
-    await consumer.subscribe({ topic: input, fromBeginning: true });
-    await consumer.run({
-      autoCommit: false,
-      eachBatchAutoResolve: false,
-      partitionsConsumedConcurrently: Math.max(1, partitionCount),
-      eachBatch: (payload) => this.onBatch(payload),
-    });
-    this.ticker = setInterval(() => { void this.onTick(); }, this.o.tickMs ?? 200);
-    const every = this.o.statsEveryMs ?? 60_000;
-    if (every > 0) this.statsTimer = setInterval(() => this.logStats('live: stats'), every);
     try {
+      const { kafka, input, group } = this.o;
+      const partitionCount = await ensureOutputTopics(kafka, input, this.topics, this.log);
+      this.log.info({ input, prefix: this.o.prefix, group, partitions: partitionCount, format: this.encoder.format }, 'live: starting');
+      const consumer = kafka.consumer({
+        groupId: group,
+        readUncommitted: false,
+        allowAutoTopicCreation: false,
+        sessionTimeout: this.o.sessionTimeoutMs ?? 30_000,
+        heartbeatInterval: Math.max(500, Math.floor((this.o.sessionTimeoutMs ?? 30_000) / 10)),
+        maxWaitTimeInMs: 200,
+        // Larger fetches: fewer, larger batches per transaction while draining a backlog.
+        maxBytesPerPartition: 4 << 20,
+        maxBytes: 32 << 20,
+        retry: { retries: 10, initialRetryTime: 300, maxRetryTime: 10_000 },
+      });
+      this.consumer = consumer;
+      consumer.on(consumer.events.GROUP_JOIN, (e) => this.onJoin(e.payload.memberAssignment[input] ?? []));
+      consumer.on(consumer.events.REBALANCING, () => {
+        this.o.fault?.('during-rebalance');
+        this.log.info({ group }, 'live: group rebalancing');
+      });
+      consumer.on(consumer.events.CRASH, (e) => {
+        if (e.payload.restart) {
+          this.log.warn({ err: e.payload.error }, 'live: consumer restarting after an error');
+          return;
+        }
+        this.log.error({ err: e.payload.error }, 'live: consumer stopped after an error');
+        this.failed(pairflowError('PAIRFLOW_ERR_KAFKA_CONSUMER', { detail: (e.payload.error as Error).message }, e.payload.error));
+      });
+      await consumer.connect();
+      await consumer.subscribe({ topic: input, fromBeginning: true });
+      await consumer.run({
+        autoCommit: false,
+        eachBatchAutoResolve: false,
+        partitionsConsumedConcurrently: Math.max(1, partitionCount),
+        eachBatch: (payload) => this.onBatch(payload),
+      });
+      this.ticker = setInterval(() => { void this.onTick(); }, this.o.tickMs ?? 200);
+      const every = this.o.statsEveryMs ?? 60_000;
+      if (every > 0) this.statsTimer = setInterval(() => this.logStats('live: stats'), every);
       await this.done;
     } finally {
       await this.shutdown();
+      this.down();
     }
   }
 
@@ -352,14 +373,15 @@ export class LiveProcessor {
    * committed (without closing windows early), leaves the group.
    */
   async stop(): Promise<void> {
-    if (this.stopping) return this.done;
+    if (this.stopping) return this.stopped;
     this.stopping = true;
     this.log.info('live: stopping');
     await Promise.all([...this.parts.values()].map((st) => st.run(async () => {
       if (st.status === 'ready' && (st.uncommitted > 0 || st.output.size > 0)) await this.commit(st, 'stop').catch(() => {});
     })));
     this.finished();
-    return this.done;
+    // Resolves once the group is left and every producer is closed (see run()).
+    return this.stopped;
   }
 
   /**
@@ -400,6 +422,7 @@ export class LiveProcessor {
   private onJoin(assigned: number[]): void {
     const next = new Set(assigned);
     this.joined = true;
+    this.o.observer?.assigned?.(assigned);
     this.assigned = [...assigned].sort((a, b) => a - b);
     this.log.info({ partitions: this.assigned }, 'live: partitions assigned');
     for (const st of [...this.parts.values()]) {
@@ -423,7 +446,7 @@ export class LiveProcessor {
   /** Takes partition p: fences the previous owner, restores its markets. */
   private claim(p: number): PartitionState {
     if (this.paused.delete(p)) this.consumer?.resume([{ topic: this.o.input, partitions: [p] }]);
-    const st = new PartitionState(p, this.encoder, this.o.input, this.clock);
+    const st = new PartitionState(p, this.encoder, this.o.input, this.clock, this.o.observer);
     this.parts.set(p, st);
     st.ready = st.run(() => this.restore(st)).catch((err: unknown) => {
       this.log.error({ partition: p, err }, 'live: restore failed');
@@ -519,6 +542,7 @@ export class LiveProcessor {
     await st.producer?.disconnect().catch(() => {});
     st.producer = null;
     st.pipeline = null;
+    this.stats.lag.delete(st.partition);
     this.o.observer?.released?.(st.partition, why);
     this.log.info({ partition: st.partition, why }, 'live: partition released');
   }
@@ -631,7 +655,13 @@ export class LiveProcessor {
     let tx: Awaited<ReturnType<Producer['transaction']>> | null = null;
     try {
       tx = await producer.transaction();
-      if (topicMessages.length > 0) await tx.sendBatch({ topicMessages });
+      // kafkajs groups a request's messages per partition by copying the list for each
+      // message (quadratic in the messages of one partition): send in slices.
+      for (const t of topicMessages) {
+        for (let i = 0; i < t.messages.length; i += SEND_SLICE) {
+          await tx.sendBatch({ topicMessages: [{ topic: t.topic, messages: t.messages.slice(i, i + SEND_SLICE) }] });
+        }
+      }
       await tx.sendBatch({ topicMessages: [{ topic: this.topics.pool, messages: pool }], compression: CompressionTypes.GZIP });
       this.o.fault?.('after-send');
       if (st.nextOffset !== null) {
@@ -709,6 +739,12 @@ export class LiveProcessor {
     }));
     const limit = this.o.exitWhenIdleMs;
     if (limit === undefined || this.finishing || !this.isReady()) return;
+    // Records waiting on a partition (its lag after the last batch) are not idleness,
+    // however long the batches take.
+    if ([...this.stats.lag.values()].some((l) => l > 0)) {
+      this.idleSince = null;
+      return;
+    }
     const lastInput = Math.max(...[...this.parts.values()].map((s) => s.lastInputAt), -Infinity);
     if (this.idleSince === null) this.idleSince = now;
     const quiet = now - Math.max(this.idleSince, lastInput === -Infinity ? this.idleSince : lastInput);

@@ -9,6 +9,7 @@
 import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import parsePrometheus from 'parse-prometheus-text-format';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Producer } from 'kafkajs';
 import { haltBroker, resumeBroker, startBroker, stopBroker } from '../../scripts/kafka.mjs';
@@ -130,7 +131,7 @@ describe.skipIf(!BROKERS)(`pairflow live in a group and through trouble (broker 
 
     // Every process owned partitions at some point, and the leaving one committed before it left.
     expect(b.stderr()).toContain('live: partition restored');
-    expect(c.stderr()).toContain('"signal":"SIGTERM"');
+    expect(c.stderr()).toContain('"reason":"SIGTERM"');
     expectSameAs(await readOutputs(kafka, prefix), await replayOf(events, { ...DEFAULT_CONFIG, ...cfg }), 'three processes');
   });
 
@@ -205,6 +206,46 @@ describe.skipIf(!BROKERS)(`pairflow live in a group and through trouble (broker 
     }
     // The good events went through as if the poison were not there.
     expectSameAs(outputs, await replayOf(events, { ...DEFAULT_CONFIG, ...cfg }), 'with poison records');
+  });
+
+  it('an operator sees it work: /metrics counts what it did, /readyz turns ready once its partitions are restored', async () => {
+    const events = [...generateEvents({ days: 1, seed: 34, scale: 0.02 })];
+    const config = writeFile('metrics.json', JSON.stringify({ commit: 'all', idleMs: 120_000 }));
+    const input = uniqueName('in');
+    await createTopic(kafka, input, 2);
+    await publish(producer, input, events);
+    const group = uniqueName('g');
+    const proc = startCli(['live', '--brokers', BROKERS, '--in', input, '--out', uniqueName('out'), '--group', group,
+      '--config', config, '--metrics-port', '0', '--metrics-host', '127.0.0.1', '--exit-when-idle', '60s', '--log-level', 'info']);
+    running.push(proc);
+    await proc.waitForLog('live: serving /metrics');
+    const url = /"url":"([^"]+)"/.exec(proc.stderr())![1]!;
+    expect((await fetch(`${url}/healthz`)).status).toBe(200);
+    // Ready once every assigned partition is restored; metrics once the backlog is drained.
+    let ready = 0;
+    let text = '';
+    for (let i = 0; i < 100; i++) {
+      ready = (await fetch(`${url}/readyz`)).status;
+      text = await (await fetch(`${url}/metrics`)).text();
+      const families = parsePrometheus(text) as Array<{ name: string; metrics: Array<{ value?: string; labels?: Record<string, string> }> }>;
+      const sum = (name: string): number => (families.find((f) => f.name === name)?.metrics ?? []).reduce((n, m) => n + Number(m.value ?? 0), 0);
+      if (ready === 200 && sum('pairflow_events_total') === events.length && sum('pairflow_transactions_total') > 0) {
+        expect(sum('pairflow_assignments_total')).toBeGreaterThan(0);
+        expect(sum('pairflow_partitions_assigned')).toBe(2);
+        break;
+      }
+      await sleep(200);
+    }
+    expect(ready).toBe(200);
+    expect(text).toContain('pairflow_transactions_total{');
+    proc.child.kill('SIGTERM');
+    expect(await proc.exited, proc.stderr().slice(-2000)).toEqual({ code: 0, signal: null });
+    // A clean stop leaves the group (the next owner need not wait out a session timeout).
+    const admin = kafka.admin();
+    await admin.connect();
+    const { groups } = await admin.describeGroups([group]);
+    await admin.disconnect();
+    expect(groups[0]!.members).toEqual([]);
   });
 
   describe('kafkaTopicSource()', () => {

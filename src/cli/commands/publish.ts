@@ -7,12 +7,12 @@ import { pairflowError } from '../../errors.js';
 import { publishLog } from '../../live/publish.js';
 import type { BusFormat } from '../../live/records.js';
 import { resolveConfig } from '../config-file.js';
-import { brokersFrom, exitWhenDone, kafkaClient, stderrLogger } from '../kafka-options.js';
+import { addSettingsOptions, type SettingsFlags } from '../../ops/settings.js';
+import { connect, exitWhenDone } from '../kafka-options.js';
 import { rejectReporter } from './replay.js';
 import { progressLine } from './sweep.js';
 
-interface PublishCliOptions {
-  brokers?: string;
+interface PublishCliOptions extends SettingsFlags {
   topic: string;
   partitions?: string;
   format: string;
@@ -29,11 +29,12 @@ export function parseFormat(text: string): BusFormat {
 }
 
 export function registerPublish(program: Command): void {
-  program
+  const cmd = program
     .command('publish')
     .description('Write a log\'s events to a Kafka topic in event-time order, keyed by market.')
-    .argument('<log...>', 'event log files (.jsonl, .jsonl.gz, .avro)')
-    .option('--brokers <list>', 'HOST:PORT[,HOST:PORT…] (default: $KAFKA_BROKERS)')
+    .argument('<log...>', 'event log files (.jsonl, .jsonl.gz, .avro)');
+  addSettingsOptions(cmd, 'connection');
+  cmd
     .requiredOption('--topic <name>', 'topic to write (created if missing)')
     .option('--partitions <n>', 'partitions of the topic when it is created (default 4)')
     .option('--format <f>', 'record values: json or avro (single-object encoding of schemas/event.avsc)', 'json')
@@ -51,8 +52,7 @@ export function registerPublish(program: Command): void {
         }
       }
       const config = await resolveConfig({ configFile: o.config });
-      const logger = stderrLogger(o.logLevel, 'pairflow-publish');
-      const kafka = kafkaClient(brokersFrom(o.brokers), 'pairflow-publish', logger);
+      const { logger, kafka } = await connect(o, o.logLevel, 'pairflow-publish');
       const rejects = rejectReporter('they were not published');
       const progress = progressLine('publish');
       const result = await publishLog({

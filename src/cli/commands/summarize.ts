@@ -6,10 +6,10 @@ import type { Command } from 'commander';
 import { readOutputs, summarizeOutputs } from '../../live/summarize.js';
 import { formatWindow, textTable } from '../../replay/summary.js';
 import { resolveConfig } from '../config-file.js';
-import { brokersFrom, exitWhenDone, kafkaClient, stderrLogger } from '../kafka-options.js';
+import { addSettingsOptions, type SettingsFlags } from '../../ops/settings.js';
+import { connect, exitWhenDone } from '../kafka-options.js';
 
-interface SummarizeCliOptions {
-  brokers?: string;
+interface SummarizeCliOptions extends SettingsFlags {
   out: string;
   config?: string;
   json?: boolean;
@@ -19,18 +19,18 @@ interface SummarizeCliOptions {
 const n2 = (v: number | null): string => (v === null ? '–' : v.toLocaleString('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 }));
 
 export function registerSummarize(program: Command): void {
-  program
+  const cmd = program
     .command('summarize')
-    .description('Sum up the committed outputs of a live run (read_committed), as replay sums a run.')
-    .option('--brokers <list>', 'HOST:PORT[,HOST:PORT…] (default: $KAFKA_BROKERS)')
+    .description('Sum up the committed outputs of a live run (read_committed), as replay sums a run.');
+  addSettingsOptions(cmd, 'connection');
+  cmd
     .requiredOption('--out <prefix>', 'the output prefix the live run wrote under')
     .option('--config <file>', 'the configuration of the live run (names its window in the summary)')
     .option('--json', 'print one JSON object on stdout')
     .option('--log-level <level>', 'pino level for the log lines on stderr', 'warn')
     .action(async (o: SummarizeCliOptions) => {
       const config = await resolveConfig({ configFile: o.config });
-      const logger = stderrLogger(o.logLevel, 'pairflow-summarize');
-      const kafka = kafkaClient(brokersFrom(o.brokers), 'pairflow-summarize', logger);
+      const { logger, kafka } = await connect(o, o.logLevel, 'pairflow-summarize');
       const summary = summarizeOutputs(o.out, await readOutputs(kafka, o.out, logger));
       exitWhenDone(logger);
       if (o.json) {
