@@ -12,6 +12,8 @@ export interface PairflowEnv {
   readonly ci: boolean;
   /** Where the local broker's Maven artifacts and data live. @default ~/.cache/pairflow */
   readonly cacheDir: string | undefined;
+  /** `PAIRFLOW_DEBUG`: print the whole stack of an internal error, not just its first line. @default false */
+  readonly debug: boolean;
   /**
    * Test-only fault injection for `pairflow live`: `POINT[:N]` kills the process
    * (SIGKILL) the N-th time (default 1st) it reaches POINT (see src/live/processor.ts
@@ -68,6 +70,7 @@ export function readEnv(env: NodeJS.ProcessEnv = process.env): PairflowEnv {
     logLevel: env.PAIRFLOW_LOG_LEVEL || 'warn',
     ci: env.CI === 'true' || env.CI === '1',
     cacheDir: env.PAIRFLOW_CACHE_DIR || undefined,
+    debug: Boolean(env.PAIRFLOW_DEBUG),
     fault: env.PAIRFLOW_FAULT || undefined,
     settings: readSettingsEnv(env),
   };
