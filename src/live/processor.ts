@@ -121,7 +121,7 @@ export interface LiveOptions {
   commitEveryRecords?: number;
   /** ... or after this long (ms). @default 1000 */
   commitEveryMs?: number;
-  /** How long the records of a closed window may wait for the next windows' to share a transaction (ms). @default 50 */
+  /** How long the records of a closed window may wait for the next windows' to share a transaction (ms); worth it only when windows close faster than transactions commit (event time replayed faster than the clock). @default 0 */
   commitLingerMs?: number;
   /** Transaction timeout the broker enforces on an abandoned transaction (ms). @default 30000 */
   transactionTimeoutMs?: number;
@@ -671,7 +671,7 @@ export class LiveProcessor {
     // Closed windows wait up to the linger for the windows closing right after them, so
     // one transaction (and one pool snapshot per market) carries several: a transaction
     // per window would spend the processor and the broker on snapshots and markers.
-    const lingered = firstAt !== null && now - firstAt >= (this.o.commitLingerMs ?? 50);
+    const lingered = firstAt !== null && now - firstAt >= (this.o.commitLingerMs ?? 0);
     const due = lingered
       || st.output.size >= 5000
       || (firstAt === null && st.output.size > 0)
