@@ -12,6 +12,16 @@ export default defineConfig({
       },
       {
         test: {
+          // The report opened in Debian's chromium (tests/browser/chromium.ts).
+          name: 'browser',
+          include: ['tests/browser/**/*.test.ts'],
+          testTimeout: 180_000,
+          hookTimeout: 240_000,
+          fileParallelism: false,
+        },
+      },
+      {
+        test: {
           name: 'integration',
           include: ['tests/integration/**/*.test.ts'],
           globalSetup: ['tests/setup/kafka-global.ts'],

@@ -69,3 +69,8 @@ export declare function startBroker(
 export declare function stopBroker(options?: EnvOption & { instance?: string }): Promise<{ stopped: boolean; instance: string }>;
 export declare function listInstances(options?: EnvOption): string[];
 export declare function brokerStatus(options?: EnvOption): Array<BrokerState & { alive: boolean }>;
+
+/** Stops an instance's broker but keeps its data and ports (see kafka.mjs). */
+export declare function haltBroker(options?: EnvOption & { instance?: string; graceMs?: number }): Promise<{ halted: boolean; instance: string }>;
+/** Starts a halted instance again on the same data and ports. */
+export declare function resumeBroker(options?: EnvOption & { instance?: string; ownerPid?: number }): Promise<{ brokers: string; pid: number; startMs: number }>;

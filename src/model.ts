@@ -41,12 +41,16 @@ export type PairflowEvent = ArrivalEvent | WithdrawEvent;
 
 /** Where an event or a reject came from: file and 1-based line, or Avro block/record. */
 export interface SourcePosition {
+  /** The file; for a Kafka record, its topic. */
   readonly file: string;
-  /** 1-based line for JSON Lines; for Avro the 1-based record number in the file. */
+  /** 1-based line for JSON Lines; for Avro the 1-based record number in the file; for Kafka the record's offset. */
   readonly line: number;
   /** Avro only: 0-based block index and record index within the block. */
   readonly block?: number;
   readonly record?: number;
+  /** Kafka only: the record's partition and offset. */
+  readonly partition?: number;
+  readonly offset?: number;
 }
 
 /** An event with its place in the input; `seq` gives the stable file order. */

@@ -7,7 +7,7 @@
  * - one line per row (demand), one comma-separated cell per column (supply), no header;
  * - a cell is a decimal number (`3`, `-2.5`, `1e-3`), or empty / `inf` for a pair that
  *   is not allowed; spaces around cells and double quotes around a cell are ignored;
- * - CRLF or LF line ends, a UTF-8 byte-order mark and blank lines at the end are
+ * - CRLF, LF or CR line ends, a UTF-8 byte-order mark and blank lines at the end are
  *   tolerated; every other line must have as many cells as the first.
  *
  * JSON sparse instance, 0-based:
@@ -19,16 +19,30 @@
  * `pairs` lists the allowed pairs as `[row, col, cost]` (each pair at most once);
  * `unmatchedCost` is optional: one number for every row, or an array with one number
  * per row. Without it (and without `--unmatched-cost`) every row must be matched.
+ * Unknown and repeated keys are errors; `rows` and `cols` are at most
+ * {@link MAX_SOLVE_DIM}, and every cost lies within ±1e150 (SPEC §5).
  */
 
-import { readFileSync } from 'node:fs';
-import { pairflowError } from '../errors.js';
+import { readFileSync, statSync } from 'node:fs';
+import { findDuplicateKey, printable } from '../consume/json-text.js';
+import { pairflowError, PairflowError } from '../errors.js';
 import type { DenseInstance, SparseInstance } from '../matching/types.js';
+import { MAX_COST, MAX_COST_TEXT } from '../matching/validate.js';
 
 /** A parsed instance, in the form its file gave. */
 export type SolveInput =
   | { readonly kind: 'dense'; readonly file: string; readonly instance: DenseInstance }
   | { readonly kind: 'sparse'; readonly file: string; readonly instance: SparseInstance };
+
+/**
+ * The most rows or columns a `solve` instance may declare. The solver allocates per
+ * row and column, so `"rows": 1e8` in a 70-byte file would take gigabytes before a
+ * single pair is read; ten million is far beyond any instance solved one at a time.
+ */
+export const MAX_SOLVE_DIM = 10_000_000;
+
+/** The largest instance file read: about the longest string Node.js can hold (2²⁹ − 24 characters). */
+export const MAX_SOLVE_FILE_BYTES = 512 * 1024 * 1024;
 
 const NUMBER = /^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$/;
 const NOT_ALLOWED = /^(?:|\+?inf(?:inity)?)$/i;
@@ -44,7 +58,7 @@ function formatError(file: string, line: number, detail: string) {
  */
 export function parseCostMatrixCsv(text: string, file: string): DenseInstance {
   const body = text.charCodeAt(0) === 0xfeff ? text.slice(1) : text;
-  const lines = body.split(/\r?\n/);
+  const lines = body.split(/\r\n|\r|\n/);
   let nLines = lines.length;
   while (nLines > 0 && lines[nLines - 1]!.trim() === '') nLines--;
   if (nLines === 0) {
@@ -63,13 +77,15 @@ export function parseCostMatrixCsv(text: string, file: string): DenseInstance {
       if (NOT_ALLOWED.test(cell)) {
         cost[r * nCols + c] = Infinity;
       } else if (NUMBER.test(cell)) {
-        cost[r * nCols + c] = Number(cell);
-        if (!Number.isFinite(cost[r * nCols + c]!)) {
-          throw formatError(file, r + 1, `column ${c + 1}: '${cell}' overflows a double (expected a finite cost)`);
+        const v = Number(cell);
+        if (!(Math.abs(v) <= MAX_COST)) {
+          throw formatError(file, r + 1, `column ${c + 1}: '${printable(cell)}' is beyond ${MAX_COST_TEXT}, the largest cost pairflow solves exactly (SPEC §5)`);
         }
+        cost[r * nCols + c] = v;
       } else {
         const hint = r === 0 ? '; the matrix has no header row' : '';
-        throw formatError(file, r + 1, `column ${c + 1}: '${cell}' is not a number (expected a cost, empty or inf${hint})`);
+        const shown = cell.length > 40 ? `${cell.slice(0, 39)}…` : cell;
+        throw formatError(file, r + 1, `column ${c + 1}: '${printable(shown)}' is not a number (expected a cost, empty or inf${hint})`);
       }
     }
   }
@@ -149,11 +165,13 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
     const msg = err instanceof Error ? err.message : String(err);
     const pos = /position (\d+)/.exec(msg);
     const line = pos ? lineAt(text, Number(pos[1])) : lineAt(text, text.length);
-    throw formatError(file, line, `not valid JSON: ${msg}`);
+    throw formatError(file, line, `not valid JSON: ${printable(msg)}`);
   }
   if (typeof doc !== 'object' || doc === null || Array.isArray(doc)) {
-    throw formatError(file, 1, 'expected a JSON object {"rows", "cols", "pairs", "unmatchedCost"?}');
+    throw formatError(file, 1, `expected a JSON object {"rows", "cols", "pairs", "unmatchedCost"?}, got ${Array.isArray(doc) ? 'an array' : 'a JSON value that is not an object'} (a dense matrix is CSV)`);
   }
+  const repeated = findDuplicateKey(text);
+  if (repeated !== null) throw formatError(file, lineAt(text, repeated.offset), `key "${printable(repeated.key)}" appears twice in one object`);
   const obj = doc as Record<string, unknown>;
   const keyLine = (key: string) => {
     const at = text.indexOf(`"${key}"`);
@@ -165,6 +183,11 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
   }
   if (typeof cols !== 'number' || !Number.isInteger(cols) || cols < 0) {
     throw formatError(file, keyLine('cols'), `"cols" must be an integer ≥ 0, got ${JSON.stringify(cols)}`);
+  }
+  for (const [key, n] of [['rows', rows], ['cols', cols]] as const) {
+    if (n > MAX_SOLVE_DIM) {
+      throw pairflowError('PAIRFLOW_ERR_INPUT_LIMIT', { file, detail: `line ${keyLine(key)}: "${key}" is ${n}, more than the ${MAX_SOLVE_DIM.toLocaleString('en-US')} a solve instance may have` });
+    }
   }
   if (!Array.isArray(pairs)) {
     throw formatError(file, keyLine('pairs'), `"pairs" must be an array of [row, col, cost], got ${JSON.stringify(pairs) ?? 'nothing'}`);
@@ -190,6 +213,7 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
     if (!isIndex(r, rows)) throw pairError(i, `row ${JSON.stringify(r)} is not an integer in 0..${rows - 1}`);
     if (!isIndex(c, cols)) throw pairError(i, `col ${JSON.stringify(c)} is not an integer in 0..${cols - 1}`);
     if (typeof w !== 'number' || !Number.isFinite(w)) throw pairError(i, `cost ${JSON.stringify(w)} is not a finite number`);
+    if (Math.abs(w) > MAX_COST) throw pairError(i, `cost ${w} is beyond ${MAX_COST_TEXT}, the largest cost pairflow solves exactly (SPEC §5)`);
     pairRow[i] = r;
     rowPtr[r + 1]!++;
   }
@@ -220,7 +244,7 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
   let delta: Float64Array | null = null;
   if (unmatchedCost !== undefined && unmatchedCost !== null) {
     if (typeof unmatchedCost === 'number') {
-      if (!Number.isFinite(unmatchedCost)) throw formatError(file, keyLine('unmatchedCost'), '"unmatchedCost" must be finite');
+      if (!(Math.abs(unmatchedCost) <= MAX_COST)) throw formatError(file, keyLine('unmatchedCost'), `"unmatchedCost" must be a number within ${MAX_COST_TEXT}`);
       delta = new Float64Array(rows).fill(unmatchedCost);
     } else if (Array.isArray(unmatchedCost)) {
       if (unmatchedCost.length !== rows) {
@@ -229,8 +253,8 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
       delta = new Float64Array(rows);
       for (let r = 0; r < rows; r++) {
         const v: unknown = unmatchedCost[r];
-        if (typeof v !== 'number' || !Number.isFinite(v)) {
-          throw formatError(file, keyLine('unmatchedCost'), `"unmatchedCost"[${r}] = ${JSON.stringify(v)} is not a finite number`);
+        if (typeof v !== 'number' || !(Math.abs(v) <= MAX_COST)) {
+          throw formatError(file, keyLine('unmatchedCost'), `"unmatchedCost"[${r}] = ${JSON.stringify(v)} is not a number within ${MAX_COST_TEXT}`);
         }
         delta[r] = v;
       }
@@ -242,21 +266,42 @@ export function parseSparseJson(text: string, file: string): SparseInstance {
 }
 
 /**
- * Parses instance text: JSON when it starts with `{` (after spaces and a byte-order
- * mark), a dense CSV otherwise.
+ * Parses instance text: JSON when it starts with `{` or `[` (after spaces and a
+ * byte-order mark; an array is then an error, not a one-row CSV), a dense CSV otherwise.
  */
 export function parseSolveInput(text: string, file: string): SolveInput {
-  if (/^\uFEFF?\s*\{/.test(text)) return { kind: 'sparse', file, instance: parseSparseJson(text.replace(/^\uFEFF/, ''), file) };
+  if (/^\uFEFF?\s*[[{]/.test(text)) return { kind: 'sparse', file, instance: parseSparseJson(text.replace(/^\uFEFF/, ''), file) };
   return { kind: 'dense', file, instance: parseCostMatrixCsv(text, file) };
 }
 
-/** Reads and parses an instance file; a missing file is `PAIRFLOW_ERR_INPUT_NOT_FOUND`. */
+/**
+ * Reads and parses an instance file: a missing file is `PAIRFLOW_ERR_INPUT_NOT_FOUND`,
+ * a directory or unreadable file `PAIRFLOW_ERR_INPUT_UNREADABLE`, a file over
+ * {@link MAX_SOLVE_FILE_BYTES} `PAIRFLOW_ERR_INPUT_LIMIT`.
+ */
 export function readSolveInput(file: string): SolveInput {
   let text: string;
   try {
+    const st = statSync(file);
+    if (!st.isFile()) throw pairflowError('PAIRFLOW_ERR_INPUT_UNREADABLE', { file, detail: st.isDirectory() ? 'is a directory, not a file' : 'is not a regular file' });
+    if (st.size > MAX_SOLVE_FILE_BYTES) {
+      throw pairflowError('PAIRFLOW_ERR_INPUT_LIMIT', { file, detail: `${st.size} bytes, more than the ${MAX_SOLVE_FILE_BYTES} bytes (512 MiB) a solve instance file may have` });
+    }
     text = readFileSync(file, 'utf8');
   } catch (err) {
-    throw pairflowError('PAIRFLOW_ERR_INPUT_NOT_FOUND', { file }, err);
+    throw inputFileError(file, err);
   }
   return parseSolveInput(text, file);
+}
+
+/**
+ * The error for an input file that could not be opened: not found, or there but not
+ * readable (a directory, no permission). A {@link PairflowError} passes through.
+ */
+export function inputFileError(file: string, err: unknown): PairflowError {
+  if (err instanceof PairflowError) return err;
+  const code = (err as NodeJS.ErrnoException).code;
+  if (code === 'ENOENT' || code === 'ENOTDIR') return pairflowError('PAIRFLOW_ERR_INPUT_NOT_FOUND', { file }, err);
+  const detail = code === 'EISDIR' ? 'is a directory, not a file' : code === 'EACCES' || code === 'EPERM' ? 'cannot be read (permission denied)' : `cannot be read (${code ?? String(err)})`;
+  return pairflowError('PAIRFLOW_ERR_INPUT_UNREADABLE', { file, detail }, err);
 }

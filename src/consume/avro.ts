@@ -18,6 +18,12 @@ const SYNC_BYTES = 16;
 /** Largest block (compressed or not) the reader accepts; larger sizes mean damage. */
 export const MAX_BLOCK_BYTES = 64 << 20;
 
+/** Largest decompressed block accepted (deflate codec): four times the largest block. */
+export const MAX_INFLATED_BLOCK_BYTES = MAX_BLOCK_BYTES * 4;
+
+/** Blocks with damaged markers followed in a row before the loss is called unknown. */
+const MAX_CHAIN_BLOCKS = 16;
+
 // A long read without avsc's "potential precision loss" exception: an absurd time
 // (say 2^62 ms) is then a validation reject of one record, not a decode failure that
 // loses its whole block. Values beyond 2^53 lose precision, but all of them lie far
@@ -210,7 +216,7 @@ function decodeBlock(header: Header, data: Buffer, count: number): unknown[] | s
   let body = data;
   if (header.codec === 'deflate') {
     try {
-      body = inflateRawSync(data, { maxOutputLength: MAX_BLOCK_BYTES * 4 });
+      body = inflateRawSync(data, { maxOutputLength: MAX_INFLATED_BLOCK_BYTES });
     } catch (err) {
       return `deflate data damaged (${(err as Error).message})`;
     }
@@ -271,8 +277,39 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
     return true;
   }
 
+  /** Makes at least `rel` bytes from `pos` on available; false at the end of the file. */
+  async function ensure(rel: number): Promise<boolean> {
+    while (buf.length - pos < rel) if (!(await more(rel - (buf.length - pos)))) return false;
+    return true;
+  }
+
+  /**
+   * Follows block framing from `rel` (bytes after `pos`) over blocks whose sync marker
+   * is damaged too, up to the first block whose marker is intact (or the end of the
+   * file). Returns the record counts of the damaged blocks passed and where the intact
+   * block starts (relative to `pos`), or null when the framing stops making sense —
+   * then the damage was not only in markers and the loss cannot be counted.
+   */
+  async function followChain(rel: number): Promise<{ counts: number[]; next: number } | null> {
+    const counts: number[] = [];
+    for (let k = 0; k < MAX_CHAIN_BLOCKS; k++) {
+      await ensure(rel + 20);
+      if (buf.length - pos === rel && ended) return { counts, next: rel };
+      const c = readLong(buf, pos + rel);
+      const z = c && !Number.isNaN(c.value) ? readLong(buf, c.next) : null;
+      if (c === null || z === null || Number.isNaN(c.value) || Number.isNaN(z.value)) return null;
+      if (c.value < 0 || z.value < 0 || z.value > MAX_BLOCK_BYTES || (c.value > 0 && z.value === 0)) return null;
+      const end = z.next - pos + z.value;
+      if (!(await ensure(end + SYNC_BYTES))) return null;
+      if (buf.subarray(pos + end, pos + end + SYNC_BYTES).equals(header!.sync)) return { counts, next: rel };
+      counts.push(c.value);
+      rel = end + SYNC_BYTES;
+    }
+    return null;
+  }
+
+  let header: Header | null = null;
   try {
-    let header: Header | null = null;
     while (header === null) {
       // avsc writes nothing at all for zero records: an empty file is an empty log.
       if (ended && buf.length === 0) return;
@@ -304,6 +341,8 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
       else if (count.value > 0 && size.value === 0) reason = `block of ${count.value} records has no data`;
 
       let records: number | null = reason === null && count !== null ? count.value : null;
+      // Where the next block starts, when the damage does not hide it.
+      let nextAt = -1;
       if (reason === null && count !== null && size !== null) {
         const dataStart = size.next;
         const dataEnd = dataStart + size.value;
@@ -313,7 +352,23 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
           reason = `file ends inside the block (${buf.length - pos} of ${dataEnd + SYNC_BYTES - pos} bytes)`;
         } else if (!buf.subarray(dataEnd, dataEnd + SYNC_BYTES).equals(header.sync)) {
           reason = 'sync marker after the block does not match the header';
+          // The marker itself may be what is damaged: if the blocks framed from here on
+          // lead to an intact marker, every block lost on the way is counted exactly
+          // and reading resumes at the first intact one; otherwise the count is unknown.
+          const chain = await followChain(dataEnd + SYNC_BYTES - pos);
+          if (chain === null) records = null;
+          else {
+            yield [{ kind: 'corrupt', block, records, reason }];
+            block += 1;
+            for (const n of chain.counts) {
+              yield [{ kind: 'corrupt', block, records: n, reason: 'sync marker after the block does not match the header' }];
+              block += 1;
+            }
+            pos += chain.next;
+            continue;
+          }
         } else {
+          nextAt = dataEnd + SYNC_BYTES;
           const decoded = decodeBlock(header, buf.subarray(dataStart, dataEnd), count.value);
           if (typeof decoded === 'string') reason = decoded;
           else {
@@ -329,6 +384,11 @@ export async function* readAvroContainer(chunks: AsyncIterable<Buffer>): AsyncGe
       if (records !== null && records > MAX_BLOCK_BYTES) records = null;
       yield [{ kind: 'corrupt', block, records, reason: reason ?? 'damaged block' }];
       block += 1;
+      if (nextAt >= 0) {
+        // The block's own marker is intact: the next block starts right after it.
+        pos = nextAt;
+        continue;
+      }
       // Resync: the next block starts right after the next sync marker.
       let from = pos + 1;
       for (;;) {

@@ -5,13 +5,25 @@
  * {@link validateEvent}; the same rules therefore hold for every source, and a reason
  * always names the field, the value (shortened) and what was expected.
  */
+import { formatBound } from '../config.js';
 import type { ArrivalEvent, Metric, PairflowEvent, Side, WithdrawEvent } from '../model.js';
 
 /** The outcome of validating one decoded line or record. */
-export type ValidationResult = { ok: true; event: PairflowEvent } | { ok: false; reason: string };
+export type ValidationResult =
+  | { ok: true; event: PairflowEvent }
+  /** `hint: 'other-metric'`: an arrival without the metric's coordinates that has the other metric's. */
+  | { ok: false; reason: string; hint?: 'other-metric' };
 
 /** The largest |ms| a JavaScript Date can hold (ECMA-262 §21.4.1.1: ±8.64e15 ms). */
 const MAX_TIME_MS = 8.64e15;
+
+/**
+ * The largest |x| or |y| (km) under the euclidean metric: 25 times round the Earth,
+ * with room to spare for any map, while distances and travel costs stay finite and
+ * exact to well under a metre (SPEC §5: a coordinate of 1e308 made every distance
+ * Infinity and silently priced no pair).
+ */
+export const MAX_EUCLIDEAN_KM = 1e6;
 
 /** Longest rendering of an offending value inside a reason. */
 const VALUE_CHARS = 40;
@@ -118,10 +130,10 @@ function readKey(obj: Record<string, unknown>, field: string): string | { ok: fa
   return v;
 }
 
-function readCoord(obj: Record<string, unknown>, field: string, limit: number | null): number | { ok: false; reason: string } {
+function readCoord(obj: Record<string, unknown>, field: string, limit: number): number | { ok: false; reason: string } {
   const v = obj[field];
   if (typeof v !== 'number' || !Number.isFinite(v)) return fail(field, v, 'a finite number');
-  if (limit !== null && (v < -limit || v > limit)) return fail(field, v, `a number in [-${limit}, ${limit}]`);
+  if (v < -limit || v > limit) return fail(field, v, `a number in [-${formatBound(limit)}, ${formatBound(limit)}]`);
   return v;
 }
 
@@ -146,7 +158,7 @@ function isFailure(v: unknown): v is { ok: false; reason: string } {
  * - `t` is whole ms since the epoch or an RFC 3339 date-time with a zone;
  * - withdraw: `side` is `"supply"` or `"demand"`; nothing else is required;
  * - arrival: the metric's coordinates are finite numbers (`lat` in ±90 and `lon` in
- *   ±180 for haversine, `x`/`y` for euclidean); `until`, when present and not null,
+ *   ±180 for haversine, `x`/`y` in ±1e6 km for euclidean); `until`, when present and not null,
  *   is a time not before `t`; `has` (supply) / `needs` (demand), when present and not
  *   null, are arrays of strings.
  *
@@ -187,18 +199,24 @@ export function validateEvent(obj: unknown, metric: Metric): ValidationResult {
   }
 
   const ev: { -readonly [K in keyof ArrivalEvent]: ArrivalEvent[K] } = { type, id, market, t, until };
+  // Coordinates of the other metric instead of this one's: say so, it is the likely cause.
+  const otherMetric = (res: { ok: false; reason: string }): ValidationResult => {
+    const [a, b, name] = metric === 'haversine' ? ['x', 'y', 'euclidean'] : ['lat', 'lon', 'haversine'];
+    if (typeof o[a] !== 'number' || typeof o[b] !== 'number') return res;
+    return { ok: false, reason: `${res.reason} (the event has ${a}/${b}: is the metric ${name}?)`, hint: 'other-metric' };
+  };
   if (metric === 'haversine') {
     const lat = readCoord(o, 'lat', 90);
-    if (isFailure(lat)) return lat;
+    if (isFailure(lat)) return o.lat === undefined ? otherMetric(lat) : lat;
     const lon = readCoord(o, 'lon', 180);
-    if (isFailure(lon)) return lon;
+    if (isFailure(lon)) return o.lon === undefined ? otherMetric(lon) : lon;
     ev.lat = lat;
     ev.lon = lon;
   } else {
-    const x = readCoord(o, 'x', null);
-    if (isFailure(x)) return x;
-    const y = readCoord(o, 'y', null);
-    if (isFailure(y)) return y;
+    const x = readCoord(o, 'x', MAX_EUCLIDEAN_KM);
+    if (isFailure(x)) return o.x === undefined ? otherMetric(x) : x;
+    const y = readCoord(o, 'y', MAX_EUCLIDEAN_KM);
+    if (isFailure(y)) return o.y === undefined ? otherMetric(y) : y;
     ev.x = x;
     ev.y = y;
   }

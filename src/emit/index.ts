@@ -5,3 +5,4 @@ export {
   rejectLine, RUN_FILES, type RunDirSink,
 } from './run-dir.js';
 export { buildManifest, pairflowVersion, type ManifestInput, type RunManifest } from './manifest.js';
+export { checkOutputPath, stageDir, type StagedDir } from './staged-dir.js';

@@ -1,10 +1,11 @@
-import { mkdir, rename, writeFile } from 'node:fs/promises';
-import { join } from 'node:path';
-import { pairflowError } from '../errors.js';
+import { rename, writeFile } from 'node:fs/promises';
+import { basename, join } from 'node:path';
+import { pairflowError, PairflowError } from '../errors.js';
 import { formatReject } from '../consume/index.js';
 import type { Reject } from '../model.js';
 import type { AssignmentRecord, EpochRecord, ExpiryRecord, OutputSink } from '../ports.js';
 import { csvRow } from './csv.js';
+import { stageDir } from './staged-dir.js';
 import { TextFileWriter, type TextFileWriterOptions } from './writer.js';
 
 /** The files of a run directory (`--out DIR`), by role. */
@@ -15,6 +16,8 @@ export const RUN_FILES = {
   epochs: 'epochs.jsonl',
   rejects: 'rejects.jsonl',
   summary: 'summary.json',
+  /** The tables `pairflow report` draws (src/replay/digest.ts). */
+  digest: 'digest.json',
   manifest: 'manifest.json',
 } as const;
 
@@ -63,26 +66,32 @@ export function rejectLine(r: Reject): string {
 
 /**
  * The sink of a replay run: every record streamed to its file in the run directory.
- * Close it, then write `summary.json` and `manifest.json` with {@link RunDirSink.writeJson}.
+ * The directory is written aside and appears whole (see ./staged-dir.ts): close the
+ * sink, write `summary.json` and `manifest.json` with {@link RunDirSink.writeJson},
+ * then {@link RunDirSink.commit}; on failure {@link RunDirSink.abort}.
  */
 export interface RunDirSink extends OutputSink {
+  /** The run directory as asked for; it exists (complete) only after `commit()`. */
   readonly dir: string;
+  /** Where the files are written until `commit()`. */
+  readonly workDir: string;
   /** Writes `name` (e.g. summary.json) whole, as pretty JSON, via a temporary file. */
   writeJson(name: string, value: unknown): Promise<void>;
+  /** Moves the finished directory into place, replacing an earlier run directory there. */
+  commit(): Promise<void>;
+  /** Closes what is open and removes the unfinished directory; an earlier run at `dir` stays. Never throws. */
+  abort(): Promise<void>;
 }
 
 /**
- * Creates (or reuses) the run directory and opens its streamed files.
- * @example const sink = await openRunDir('runs/w5s'); … await sink.close();
+ * Opens the run directory `dir` (new, empty, or an earlier run directory to replace)
+ * and its streamed files.
+ * @example const sink = await openRunDir('runs/w5s'); … await sink.close(); await sink.commit();
  */
 export async function openRunDir(dir: string, opts: TextFileWriterOptions = {}): Promise<RunDirSink> {
-  try {
-    await mkdir(dir, { recursive: true });
-  } catch (err) {
-    const code = (err as NodeJS.ErrnoException).code ?? String(err);
-    throw pairflowError('PAIRFLOW_ERR_OUTPUT_WRITE', { file: dir, detail: `cannot create the run directory (${code})` }, err);
-  }
-  const open = (name: string): TextFileWriter => new TextFileWriter(join(dir, name), opts);
+  const staged = await stageDir(dir, Object.values(RUN_FILES));
+  const work = staged.workDir;
+  const open = (name: string): TextFileWriter => new TextFileWriter(join(work, name), opts);
   const assignments = open(RUN_FILES.assignments);
   const assignmentsCsv = open(RUN_FILES.assignmentsCsv);
   const expired = open(RUN_FILES.expired);
@@ -90,9 +99,17 @@ export async function openRunDir(dir: string, opts: TextFileWriterOptions = {}):
   const rejects = open(RUN_FILES.rejects);
   const all = [assignments, assignmentsCsv, expired, epochs, rejects];
   assignmentsCsv.write(csvRow(ASSIGNMENT_CSV_HEADER));
+  // Errors name the file where it will be, not the work directory that is gone by then.
+  const named = <T>(name: string, err: T): T => {
+    if (err instanceof PairflowError && err.code === 'PAIRFLOW_ERR_OUTPUT_WRITE') {
+      return pairflowError('PAIRFLOW_ERR_OUTPUT_WRITE', { ...err.params, file: join(dir, name) }, err.cause) as T;
+    }
+    return err;
+  };
 
   return {
     dir,
+    workDir: work,
     assignment(a) {
       assignments.write(assignmentLine(a));
       assignmentsCsv.write(assignmentCsvRow(a));
@@ -101,23 +118,36 @@ export async function openRunDir(dir: string, opts: TextFileWriterOptions = {}):
     epoch(s) { epochs.write(epochLine(s)); },
     reject(r) { rejects.write(rejectLine(r)); },
     get pressure() { return all.some((w) => w.pressure); },
-    async drain() { for (const w of all) await w.drain(); },
+    async drain() {
+      for (const w of all) {
+        try {
+          await w.drain();
+        } catch (err) {
+          throw named(basename(w.path), err);
+        }
+      }
+    },
     async close() {
       // Close every file even when one fails, then report the first failure.
       const results = await Promise.allSettled(all.map((w) => w.close()));
-      const failed = results.find((r): r is PromiseRejectedResult => r.status === 'rejected');
-      if (failed) throw failed.reason;
+      const i = results.findIndex((r) => r.status === 'rejected');
+      if (i >= 0) throw named(basename(all[i]!.path), (results[i] as PromiseRejectedResult).reason);
     },
     async writeJson(name, value) {
-      const path = join(dir, name);
+      const path = join(work, name);
       const tmp = `${path}.tmp`;
       try {
         await writeFile(tmp, JSON.stringify(value, null, 2) + '\n', 'utf8');
         await rename(tmp, path);
       } catch (err) {
         const code = (err as NodeJS.ErrnoException).code ?? String(err);
-        throw pairflowError('PAIRFLOW_ERR_OUTPUT_WRITE', { file: path, detail: code }, err);
+        throw pairflowError('PAIRFLOW_ERR_OUTPUT_WRITE', { file: join(dir, name), detail: code }, err);
       }
+    },
+    commit: () => staged.commit(),
+    async abort() {
+      await Promise.allSettled(all.map((w) => w.close()));
+      await staged.abort();
     },
   };
 }

@@ -25,9 +25,11 @@ export class TextFileWriter {
     this.path = path;
     this.chunkChars = opts.chunkChars ?? 65_536;
     this.stream = createWriteStream(path, { encoding: 'utf8' });
-    this.stream.on('error', (err: NodeJS.ErrnoException) => {
-      this.error ??= pairflowError('PAIRFLOW_ERR_OUTPUT_WRITE', { file: path, detail: err.code ?? err.message }, err);
-    });
+    this.stream.on('error', (err: NodeJS.ErrnoException) => this.fail(err));
+  }
+
+  private fail(err: NodeJS.ErrnoException): void {
+    this.error ??= pairflowError('PAIRFLOW_ERR_OUTPUT_WRITE', { file: this.path, detail: err.code ?? err.message }, err);
   }
 
   /** Appends text (normally one whole line). */
@@ -59,7 +61,12 @@ export class TextFileWriter {
     if (this.error) throw this.error;
   }
 
-  /** Writes what is gathered and closes the file; rejects with the first write error. */
+  /**
+   * Writes what is gathered and closes the file; rejects with the first write error.
+   * It waits for the stream's 'close', which comes after its 'error': the callback of
+   * `end()` runs before a failed last write reports its error (ENOSPC on a full disk),
+   * and waiting for that alone would lose the error and report the data as written.
+   */
   async close(): Promise<void> {
     if (this.closed) {
       if (this.error) throw this.error;
@@ -68,13 +75,13 @@ export class TextFileWriter {
     this.flush();
     this.closed = true;
     await new Promise<void>((resolve) => {
-      if (this.error) {
-        this.stream.destroy();
+      if (this.stream.closed) {
         resolve();
         return;
       }
-      this.stream.once('error', () => resolve());
-      this.stream.end(() => resolve());
+      this.stream.once('close', () => resolve());
+      if (this.error) this.stream.destroy();
+      else this.stream.end();
     });
     if (this.error) throw this.error;
   }
@@ -84,6 +91,6 @@ export class TextFileWriter {
     const chunk = this.parts.length === 1 ? this.parts[0]! : this.parts.join('');
     this.parts = [];
     this.size = 0;
-    if (this.error === null) this.stream.write(chunk);
+    if (this.error === null) this.stream.write(chunk, (err) => { if (err) this.fail(err); });
   }
 }

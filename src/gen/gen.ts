@@ -50,6 +50,8 @@ export const GEN_DEFAULTS: GenOptions = Object.freeze({
 });
 
 const DAY_MS = 86_400_000;
+/** Most days one run generates: ten years. */
+export const MAX_DAYS = 3660;
 const MIN_MS = 60_000;
 /** Mean Earth radius (IUGG), the same sphere as the haversine metric (SPEC §2). */
 const EARTH_KM = 6371.0088;
@@ -262,13 +264,18 @@ function supplyOf(rng: Rng, d: District, dayStart: number, n: number, opts: GenO
  */
 export function resolveGenOptions(partial: Partial<GenOptions>): GenOptions {
   const o: GenOptions = { ...GEN_DEFAULTS, ...partial };
-  if (!Number.isInteger(o.days) || o.days < 1) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--days', detail: `got ${o.days}, expected a whole number >= 1` });
+  if (!Number.isInteger(o.days) || o.days < 1 || o.days > MAX_DAYS) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--days', detail: `got ${o.days}, expected a whole number in 1..${MAX_DAYS}` });
   if (!Number.isInteger(o.markets) || o.markets < 1 || o.markets > 64) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--markets', detail: `got ${o.markets}, expected a whole number in 1..64` });
   // One day is held in memory (measured ~0.35 kB per event), so scale is capped at 20:
   // ~1.8M events a day, well under 1 GB.
   if (!Number.isFinite(o.scale) || o.scale <= 0 || o.scale > 20) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--scale', detail: `got ${o.scale}, expected a number in (0, 20]` });
-  if (!Number.isInteger(o.seed)) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--seed', detail: `got ${o.seed}, expected a whole number` });
+  // The seed is mixed as 32 bits: larger seeds would collide with smaller ones.
+  if (!Number.isInteger(o.seed) || o.seed < 0 || o.seed > 0xffffffff) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--seed', detail: `got ${o.seed}, expected a whole number in 0..4294967295` });
   if (!Number.isInteger(o.startMs)) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--start', detail: `got ${o.startMs}, expected whole ms` });
+  // Every event time (and its until) must be a time pairflow reads back (docs/events.md: within ±8.64e15 ms).
+  if (Math.abs(o.startMs) > 8.64e15 - (o.days + 1) * DAY_MS) {
+    throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option: '--start', detail: `${new Date(o.startMs).toISOString()} plus ${o.days} days leaves the range of dates` });
+  }
   return o;
 }
 

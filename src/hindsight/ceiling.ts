@@ -3,7 +3,7 @@
  * graph (no policy can match more pairs), seeded with the optimum's own pairs. Pure.
  */
 
-import { maxCardinalityMatching } from '../matching/cardinality.js';
+import { maxCardinalityMatching, minVertexCover, type VertexCover } from '../matching/cardinality.js';
 import { columnsInPlace, type CompactGraph } from './graph.js';
 
 /**
@@ -13,9 +13,12 @@ import { columnsInPlace, type CompactGraph } from './graph.js';
  * first free pair: with the optimum's pair moved first in each row, that seed is the
  * optimum's matching, and only the few rows it leaves short need augmenting.
  *
+ * With `wantCover`, also a minimum vertex cover of the graph (König: as many units as
+ * the ceiling), in graph rows and columns.
+ *
  * @param rowToCol the optimum's column per graph row, -1 when unmatched
  */
-export function matchCeiling(g: CompactGraph, rowToCol: Int32Array): number {
+export function matchCeiling(g: CompactGraph, rowToCol: Int32Array, wantCover = false): { size: number; cover: VertexCover | null } {
   const { nRows, nCols, rowPtr } = g;
   const colIdx = columnsInPlace(g);
   for (let r = 0; r < nRows; r++) {
@@ -30,5 +33,7 @@ export function matchCeiling(g: CompactGraph, rowToCol: Int32Array): number {
       break;
     }
   }
-  return maxCardinalityMatching({ nRows, nCols, rowPtr, colIdx }).size;
+  const plain = { nRows, nCols, rowPtr, colIdx };
+  const matching = maxCardinalityMatching(plain);
+  return { size: matching.size, cover: wantCover ? minVertexCover(plain, matching) : null };
 }

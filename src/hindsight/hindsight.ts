@@ -16,6 +16,7 @@ import { buildOccurrences, type Occurrence } from '../window/occurrences.js';
 import { packMarket, type PackedMarket } from './graph.js';
 import {
   solvePackedMarket,
+  type HindsightCover,
   type HindsightDemandCosts,
   type HindsightMarketDetail,
   type HindsightMarketOptions,
@@ -24,7 +25,7 @@ import {
 } from './solve.js';
 import type { WorkerReply, WorkerTask } from './worker.js';
 
-export type { HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail, HindsightPhases };
+export type { HindsightCover, HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail, HindsightPhases };
 export { DEFAULT_CANDIDATES_PER_DEMAND } from './solve.js';
 
 /** The hindsight optimum of a whole log: totals over markets, then each market. */
@@ -55,6 +56,8 @@ export interface HindsightResult {
    */
   demandT: Float64Array;
   demandCost: Float64Array;
+  /** Minutes each of those demands waited in the optimum (NaN when unmatched). */
+  demandWait: Float64Array;
 }
 
 /** Options of {@link solveHindsight}. */
@@ -133,6 +136,7 @@ export async function solveHindsight(
   const marketOpts: HindsightMarketOptions = {};
   if (opts.candidatesPerDemand !== undefined) marketOpts.candidatesPerDemand = opts.candidatesPerDemand;
   if (opts.addPerRow !== undefined) marketOpts.addPerRow = opts.addPerRow;
+  if (opts.cover) marketOpts.cover = true;
   if (threads > 1 && !hindsightWorkerAvailable()) {
     const warn = opts.onWarning ?? ((msg: string) => process.emitWarning(msg, 'PairflowWarning'));
     warn(`hindsight: ${fileURLToPath(WORKER_URL)} is missing (run \`npm run build\`); solving in this thread`);
@@ -159,6 +163,7 @@ export async function solveHindsight(
   for (const r of results) nDemand += r.demandT.length;
   const demandT = new Float64Array(nDemand);
   const demandCost = new Float64Array(nDemand);
+  const demandWait = new Float64Array(nDemand);
   const out: HindsightResult = {
     cost: 0,
     matched: 0,
@@ -174,12 +179,14 @@ export async function solveHindsight(
     markets: [],
     demandT,
     demandCost,
+    demandWait,
   };
   let at = 0;
   for (const r of results) {
-    const { demandT: dt, demandCost: dc, ...m } = r;
+    const { demandT: dt, demandCost: dc, demandWait: dw, ...m } = r;
     demandT.set(dt, at);
     demandCost.set(dc, at);
+    demandWait.set(dw, at);
     at += dt.length;
     out.cost += m.cost;
     out.matched += m.matched;

@@ -59,6 +59,21 @@ export interface HindsightMarketResult {
   ms: number;
   /** Where that time went, by the same clock (summed over time segments). */
   phases: HindsightPhases;
+  /** With the `cover` option: the units of a minimum vertex cover certifying `ceiling` (König). */
+  cover?: HindsightCover;
+}
+
+/**
+ * A minimum vertex cover of the allowed graph (König's theorem: as many units as the
+ * match ceiling, and every allowed pair has one of them), as (t, a, b) triples per
+ * unit: arrival time and place (lat/lon or x/y). The covered supply units are the
+ * ones the demand that no policy could serve was competing for.
+ */
+export interface HindsightCover {
+  /** (t, a, b) per covered demand occurrence. */
+  demand: Float64Array;
+  /** (t, a, b) per covered supply occurrence. */
+  supply: Float64Array;
 }
 
 /** Wall time per phase of a market's hindsight solve, in ms. */
@@ -83,6 +98,8 @@ export interface HindsightDemandCosts {
   demandT: Float64Array;
   /** Its hindsight cost: the matched pair's cost, or P when unmatched. */
   demandCost: Float64Array;
+  /** Minutes it waited for its supply in the hindsight optimum (`max(0, s.t − d.t)`); NaN when unmatched. */
+  demandWait: Float64Array;
 }
 
 /** Options of the hindsight solve of one market. */
@@ -100,6 +117,8 @@ export interface HindsightMarketOptions {
   addPerRow?: number;
   /** Clock for `ms`. @default performance.now */
   now?: () => number;
+  /** Also return the minimum vertex cover behind the match ceiling (one more pass over the pairs). @default false */
+  cover?: boolean;
 }
 
 /** What the solve proves, for tests and reports: the graph, the final prices and assignment. */
@@ -134,6 +153,8 @@ interface SegmentResult {
   pricingRounds: number;
   ceiling: number;
   demandCost: Float64Array;
+  demandWait: Float64Array;
+  cover: HindsightCover | null;
   phases: HindsightPhases;
   solves: number;
   retries: number;
@@ -183,8 +204,10 @@ export function solvePackedMarket(
     phases: zeroPhases(),
     demandT: m.demandT.slice(),
     demandCost: new Float64Array(m.nDemand),
+    demandWait: new Float64Array(m.nDemand).fill(NaN),
     detail: null as HindsightMarketDetail | null,
-  };
+  } as HindsightMarketResult & HindsightDemandCosts & { detail: HindsightMarketDetail | null };
+  const coverParts: HindsightCover[] = [];
   const seg = timeSegments(m);
   const parts: Array<{ dIdx: Int32Array; sIdx: Int32Array; proof: SegmentProof }> = [];
   let solves = 0;
@@ -198,7 +221,11 @@ export function solvePackedMarket(
     if (dIdx.length === 0 && !wantDetail) continue;
     const sub = seg.count === 1 ? m : subMarket(m, dIdx, sIdx);
     const r = solveSegment(sub, config, solve, opts, now, store, wantDetail);
-    for (let i = 0; i < dIdx.length; i++) out.demandCost[dIdx[i]!] = r.demandCost[i]!;
+    for (let i = 0; i < dIdx.length; i++) {
+      out.demandCost[dIdx[i]!] = r.demandCost[i]!;
+      out.demandWait[dIdx[i]!] = r.demandWait[i]!;
+    }
+    if (r.cover) coverParts.push(r.cover);
     out.matched += r.matched;
     out.pairsPriced += r.pairsPriced;
     out.pairsSolved += r.pairsSolved;
@@ -214,9 +241,23 @@ export function solvePackedMarket(
   // Summed in occurrence order, so the total does not depend on how segments fell.
   for (let i = 0; i < m.nDemand; i++) out.cost += out.demandCost[i]!;
   out.abandoned = m.nDemand - out.matched;
+  if (opts.cover) out.cover = joinCovers(coverParts);
   if (wantDetail) out.detail = { ...mergeProofs(m, parts), solves, retries, rechecks, rowsPriced };
   out.ms = now() - t0;
   return out;
+}
+
+function joinCovers(parts: readonly HindsightCover[]): HindsightCover {
+  const join = (side: 'demand' | 'supply'): Float64Array => {
+    const all = new Float64Array(parts.reduce((n, p) => n + p[side].length, 0));
+    let at = 0;
+    for (const p of parts) {
+      all.set(p[side], at);
+      at += p[side].length;
+    }
+    return all;
+  };
+  return { demand: join('demand'), supply: join('supply') };
 }
 
 /** The exact optimum of one time segment (or of a market that has just one). */
@@ -298,6 +339,7 @@ function solveSegment(
   const { rowDuals, colDuals, rowToCol } = final;
   const inst = restricted.instance();
   const demandCost = new Float64Array(nRows).fill(P);
+  const demandWait = new Float64Array(nRows).fill(NaN);
   let matched = 0;
   for (let r = 0; r < nRows; r++) {
     const c = rowToCol[r]!;
@@ -308,6 +350,7 @@ function solveSegment(
         break;
       }
     }
+    demandWait[rowDemand[r]!] = Math.max(0, m.supplyT[c]! - m.demandT[rowDemand[r]!]!) / 60_000;
     matched++;
   }
   let proof: SegmentProof | null = null;
@@ -321,7 +364,24 @@ function solveSegment(
     proof = { graph: expandGraph(g, exact), rowDuals: rd, colDuals, rowToCol: rc };
   }
   lap('setupMs');
-  const ceiling = matchCeiling(g, rowToCol);
+  const { size: ceiling, cover: vc } = matchCeiling(g, rowToCol, opts.cover === true);
+  let cover: HindsightCover | null = null;
+  if (vc) {
+    const triples = (idx: Int32Array, map: Int32Array | null, t: Float64Array, a: Float64Array, b: Float64Array): Float64Array => {
+      const out = new Float64Array(idx.length * 3);
+      for (let i = 0; i < idx.length; i++) {
+        const u = map ? map[idx[i]!]! : idx[i]!;
+        out[3 * i] = t[u]!;
+        out[3 * i + 1] = a[u]!;
+        out[3 * i + 2] = b[u]!;
+      }
+      return out;
+    };
+    cover = {
+      demand: triples(vc.rows, rowDemand, m.demandT, m.demandA, m.demandB),
+      supply: triples(vc.cols, null, m.supplyT, m.supplyA, m.supplyB),
+    };
+  }
   lap('ceilingMs');
 
   return {
@@ -331,6 +391,8 @@ function solveSegment(
     pricingRounds,
     ceiling,
     demandCost,
+    demandWait,
+    cover,
     phases,
     solves,
     retries,

@@ -39,7 +39,7 @@ if (port !== null) {
     try {
       const { detail: _detail, ...result } = solvePackedMarket(task.market, task.packed, task.config, solveSparse, task.opts, false, store);
       const reply: WorkerReply = { ok: true, index: task.index, result };
-      port.postMessage(reply, [result.demandT.buffer as ArrayBuffer, result.demandCost.buffer as ArrayBuffer]);
+      port.postMessage(reply, [result.demandT.buffer as ArrayBuffer, result.demandCost.buffer as ArrayBuffer, result.demandWait.buffer as ArrayBuffer]);
     } catch (err) {
       const reply: WorkerReply =
         err instanceof PairflowError

@@ -1,6 +1,18 @@
 import { pairflowError } from '../errors.js';
 import type { DenseInstance, SparseInstance, WarmStart } from './types.js';
 
+/**
+ * The largest |cost| (and |unmatched cost|) a solver input may hold. SPEC §5: inputs
+ * whose costs cannot be represented are input errors stating the bound. Below it,
+ * every sum the solver forms (reduced costs, path lengths over up to 2³² arcs, dual
+ * objectives) stays finite, so the certificate can be checked; near the double
+ * limit (1.8e308) the sum of two costs already overflows to Infinity.
+ */
+export const MAX_COST = 1e150;
+
+/** How the bound reads in messages. */
+export const MAX_COST_TEXT = '±1e150';
+
 function bad(detail: string): never {
   throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail });
 }
@@ -23,6 +35,7 @@ function checkUnmatched(unmatched: Float64Array | null | undefined, nRows: numbe
   for (let r = 0; r < nRows; r++) {
     const d = unmatched[r]!;
     if (Number.isNaN(d) || d === -Infinity) bad(`unmatchedCost[${r}]: got ${d}, expected a number or +Infinity`);
+    if (d !== Infinity && Math.abs(d) > MAX_COST) bad(`unmatchedCost[${r}]: got ${d}, expected a number within ${MAX_COST_TEXT} (or +Infinity)`);
   }
 }
 
@@ -52,7 +65,7 @@ export function validateSparse(inst: SparseInstance): void {
       if (seen[c] === stamp) bad(`row ${r}: column ${c} listed twice (colIdx[${e}]), expected each pair once`);
       seen[c] = stamp;
       const w = cost[e]!;
-      if (!Number.isFinite(w)) bad(`cost[${e}] (row ${r}, column ${c}): got ${w}, expected a finite number`);
+      if (!Number.isFinite(w) || Math.abs(w) > MAX_COST) bad(`cost[${e}] (row ${r}, column ${c}): got ${w}, expected a finite number within ${MAX_COST_TEXT}`);
     }
   }
   checkUnmatched(inst.unmatchedCost, nRows);
@@ -79,12 +92,13 @@ export function validateDenseShape(inst: DenseInstance): void {
   checkUnmatched(inst.unmatchedCost, nRows);
 }
 
-/** Throws PAIRFLOW_ERR_SOLVER_INPUT naming the first -Infinity cell, if there is one. */
+/** Throws PAIRFLOW_ERR_SOLVER_INPUT naming the first -Infinity cell or finite cell beyond {@link MAX_COST}, if there is one. */
 export function checkDenseCells(inst: DenseInstance): void {
   const { cost, nCols } = inst;
   for (let k = 0; k < cost.length; k++) {
-    if (cost[k] === -Infinity) {
-      bad(`cost[${k}] (row ${Math.floor(k / nCols)}, column ${k % nCols}): got -Infinity, expected a finite number, or +Infinity/NaN for a pair that is not allowed`);
+    const c = cost[k]!;
+    if (c === -Infinity || (Number.isFinite(c) && Math.abs(c) > MAX_COST)) {
+      bad(`cost[${k}] (row ${Math.floor(k / nCols)}, column ${k % nCols}): got ${c}, expected a finite number within ${MAX_COST_TEXT}, or +Infinity/NaN for a pair that is not allowed`);
     }
   }
 }

@@ -36,6 +36,8 @@ export class Pipeline {
   private readonly sink: RecordSink;
   /** Items offered so far (events and rejects). */
   offered = 0;
+  /** The watermark the engine was last advanced to (-Infinity before any). */
+  advancedTo = -Infinity;
 
   constructor(config: PairflowConfig, sink: RecordSink, opts: PipelineOptions = {}) {
     this.sink = sink;
@@ -66,7 +68,7 @@ export class Pipeline {
   /** {@link offer} for an event. */
   offerEvent(ev: SourcedEvent): void {
     this.watermark.observe(ev.event.t);
-    this.engine.advanceTo(this.watermark.value());
+    this.advance(this.watermark.value());
     const refused = this.engine.ingest(ev);
     if (refused !== null) this.sink.reject({ pos: ev.pos, reason: refused, raw: JSON.stringify(ev.event).slice(0, 2048) });
   }
@@ -77,8 +79,22 @@ export class Pipeline {
    */
   tick(): number {
     const wm = this.watermark.value();
-    this.engine.advanceTo(wm);
+    this.advance(wm);
     return wm;
+  }
+
+  /** Advances the engine (never backwards). */
+  advance(wm: number): void {
+    if (wm > this.advancedTo) {
+      this.advancedTo = wm;
+      this.engine.advanceTo(wm);
+    }
+  }
+
+  /** Resumes a restored engine's watermark (live mode, after the markets are restored). */
+  resume(s: { maxT: number | null; watermark: number | null }): void {
+    this.watermark.resume(s);
+    if (s.watermark !== null) this.advance(s.watermark);
   }
 
   /** The input has ended: closes epochs until every pool is empty. */
@@ -120,6 +136,35 @@ export async function drive(source: EventSource, pipeline: Pipeline, sink: Outpu
   if (sink && sink.pressure) await sink.drain();
   opts.onProgress?.(i, Math.max(i, total));
   return i;
+}
+
+/**
+ * Feeds a finite source whose items come from several partitions (a Kafka topic read
+ * to its end) through one pipeline per partition — the per-partition watermark of
+ * SPEC §3, as live mode keeps it — then finishes them all. Items without a partition
+ * (a file) go to partition 0.
+ */
+export async function drivePartitioned(
+  source: EventSource,
+  makePipeline: (partition: number) => Pipeline,
+  sink: OutputSink | null,
+): Promise<Map<number, Pipeline>> {
+  const pipelines = new Map<number, Pipeline>();
+  let i = 0;
+  try {
+    for await (const item of source.items()) {
+      const part = (item.kind === 'event' ? item.ev.pos.partition : item.reject.pos.partition) ?? 0;
+      let p = pipelines.get(part);
+      if (!p) pipelines.set(part, (p = makePipeline(part)));
+      p.offer(item);
+      if (sink && ++i % PRESSURE_CHECK_EVERY === 0 && sink.pressure) await sink.drain();
+    }
+  } finally {
+    await source.close();
+  }
+  for (const p of pipelines.values()) p.finish();
+  if (sink && sink.pressure) await sink.drain();
+  return pipelines;
 }
 
 /**

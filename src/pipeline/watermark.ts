@@ -77,16 +77,21 @@ export class Watermark {
   }
 
   /** State to carry across a restart (live mode stores it with the pool). */
-  state(): { maxT: number | null } {
-    return { maxT: this.maxT === -Infinity ? null : this.maxT };
+  state(): { maxT: number | null; watermark: number | null } {
+    return { maxT: this.maxT === -Infinity ? null : this.maxT, watermark: this.wm === -Infinity ? null : this.wm };
   }
 
-  /** Resumes from {@link state}: the watermark stands where the stored event time puts it. */
-  resume(s: { maxT: number | null }): void {
+  /**
+   * Resumes from {@link state} (or from a stored watermark the engine was advanced to):
+   * the watermark stands where it stood, and the idle rule counts from now.
+   */
+  resume(s: { maxT: number | null; watermark?: number | null }): void {
     if (s.maxT !== null && s.maxT > this.maxT) {
       this.maxT = s.maxT;
       const v = s.maxT - this.lateness;
       if (v > this.wm) this.wm = v;
     }
+    if (s.watermark !== undefined && s.watermark !== null && s.watermark > this.wm) this.wm = s.watermark;
+    if (this.clock) this.lastRecordWall = this.clock.now();
   }
 }

@@ -6,16 +6,19 @@
  * Deterministic: the same inputs and config give the same records and summary
  * (wall-clock measurements aside, which live under `timings`).
  */
-import { basename } from 'node:path';
-import { loadLog } from '../consume/index.js';
-import { buildManifest, openRejectsFile, openRunDir, RUN_FILES, type RunDirSink } from '../emit/index.js';
+import { basename, join } from 'node:path';
+import { checkLoadedLog, loadLog, type LoadedLog as ConsumedLog, type LogInput, type RejectLimit } from '../consume/index.js';
+import { buildManifest, checkOutputPath, openRejectsFile, openRunDir, RUN_FILES, type RunDirSink } from '../emit/index.js';
+import { writeWholeFile } from '../emit/whole-file.js';
+import { pairflowError } from '../errors.js';
 import type { PairflowConfig, Reject, SourcedEvent } from '../model.js';
-import { drive, fileSource, Pipeline, teeRecords } from '../pipeline/drive.js';
-import type { EventSource, OutputSink } from '../ports.js';
+import { drive, fileSource, Pipeline, teeRecords, type RecordSink } from '../pipeline/drive.js';
+import { teeSink, type EventSource, type OutputSink } from '../ports.js';
 import type { BucketPlan } from './buckets.js';
 import { ReplayStats, type OnlineRun } from './stats.js';
 import { solveHindsight, type HindsightResult } from '../hindsight/hindsight.js';
-import { regretAndRatio, type HindsightStats, type MarketSummary, type ReplaySummary } from './summary.js';
+import { booksErrors, regretAndRatio, type Books, type FileSummary, type HindsightStats, type MarketSummary, type ReplaySummary } from './summary.js';
+import { DIGEST_FILE, gridForEvents, RunTally, withHindsight, type RunDigest } from './digest.js';
 
 export type { ReplaySummary } from './summary.js';
 export type { OnlineRun } from './stats.js';
@@ -42,6 +45,8 @@ export interface ReplayEventsOptions {
   verify?: boolean;
   /** Also sum per-demand costs into these time buckets (for the sweep's bootstrap). */
   plan?: BucketPlan;
+  /** Also gather the report's digest: this tally sees every record and every event. @default none */
+  tally?: RunTally;
   onProgress?: (p: ReplayProgress) => void;
 }
 
@@ -58,6 +63,14 @@ export async function replayEvents(
   return replaySource(fileSource({ events, rejects: [] }), config, opts);
 }
 
+/** An online run with the counts the books need beyond the statistics. */
+export type CountedRun = OnlineRun & {
+  /** Occurrences that left unmatched, per side (the records of expired.jsonl). */
+  expired: { demand: number; supply: number };
+  /** Rejects that reached the pipeline (a loaded log's kept rejects, events the engine refused). */
+  pipelineRejects: number;
+};
+
 /**
  * The replay composition: a source through the pipeline into the caller's sink, with
  * the statistics of the summary gathered by a sink of their own beside it.
@@ -66,18 +79,41 @@ export async function replaySource(
   source: EventSource,
   config: PairflowConfig,
   opts: ReplayEventsOptions = {},
-): Promise<OnlineRun> {
+): Promise<CountedRun> {
   const now = opts.now ?? defaultNow;
   const start = now();
   const stats = new ReplayStats(opts.plan);
+  const expired = { demand: 0, supply: 0 };
+  const counter: RecordSink = {
+    assignment: () => {},
+    expiry: (e) => { expired[e.side]++; },
+    epoch: () => {},
+    reject: () => {},
+  };
   const out = opts.sink;
-  const pipeline = new Pipeline(config, out ? teeRecords([stats, out]) : stats, {
+  const tally = opts.tally;
+  const sinks = [stats, counter, ...(tally ? [tally] : []), ...(out ? [out] : [])];
+  const pipeline = new Pipeline(config, teeRecords(sinks), {
     warm: opts.warm ?? true, now, verify: opts.verify ?? false,
   });
-  await drive(source, pipeline, out ?? null, {
+  await drive(tally ? tapSource(source, (ev) => tally.observe(ev)) : source, pipeline, out ?? null, {
     ...(opts.onProgress ? { onProgress: (done: number, total: number) => opts.onProgress!({ phase: 'online', done, total }) } : {}),
   });
-  return stats.result(config.windowMs, pipeline.engine.totals(), now() - start);
+  return { ...stats.result(config.windowMs, pipeline.engine.totals(), now() - start), expired, pipelineRejects: stats.rejects };
+}
+
+/** The same source, with every event shown to `see` as it is delivered. */
+function tapSource(source: EventSource, see: (ev: SourcedEvent) => void): EventSource {
+  return {
+    ...(source.expected !== undefined ? { expected: source.expected } : {}),
+    async *items() {
+      for await (const item of source.items()) {
+        if (item.kind === 'event') see(item.ev);
+        yield item;
+      }
+    },
+    close: () => source.close(),
+  };
 }
 
 /** Options of {@link runReplay}. */
@@ -86,8 +122,10 @@ export interface ReplayOptions {
   strict?: boolean;
   /** Run directory for assignments, expirations, epochs, rejects, summary and manifest. @default none */
   outDir?: string;
-  /** Without a run directory, still write every reject as JSON Lines here. @default none */
+  /** Also write every reject as JSON Lines here (beside a run directory's rejects.jsonl, or alone). @default none */
   rejectsFile?: string;
+  /** Stop with `PAIRFLOW_ERR_INPUT_TOO_MANY_REJECTS` beyond this many rejects, or this share of the lines read. @default none */
+  maxRejects?: RejectLimit;
   /** Carry dual prices between epochs. @default true */
   warm?: boolean;
   /** Worker threads for the hindsight optimum. @default the hindsight's own default */
@@ -103,10 +141,12 @@ export interface ReplayOptions {
   /** Called for each reject as it is found (e.g. to print the first few). */
   onReject?: (r: Reject) => void;
   onProgress?: (p: ReplayProgress) => void;
+  /** Gather the report's digest (digest.json in the run directory). @default true with outDir */
+  digest?: boolean;
 }
 
 /** A loaded log, as returned by `loadLog` (src/consume). */
-export type LoadedLog = Awaited<ReturnType<typeof loadLog>>;
+export type LoadedLog = ConsumedLog;
 
 /** Hindsight figures for the summary. */
 export function hindsightStats(h: HindsightResult): HindsightStats {
@@ -121,13 +161,47 @@ export function hindsightStats(h: HindsightResult): HindsightStats {
   };
 }
 
+/** How much of each file was read, for the summary. */
+export function fileSummaries(inputs: readonly LogInput[]): FileSummary[] {
+  return inputs.map((i) => ({
+    file: basename(i.file), bytes: i.bytes, lines: i.lines, blankLines: i.blankLines, events: i.events,
+    rejectedLines: i.rejectedLines, lostRecords: i.lostRecords, damage: i.damage, complete: i.complete,
+  }));
+}
+
+/** The books of a run (see {@link Books}) from what was read and what the pipeline counted. */
+export function runBooks(inputs: readonly LogInput[], rejects: number, run: CountedRun): Books {
+  const sum = (k: 'lines' | 'blankLines' | 'events' | 'rejectedLines' | 'lostRecords' | 'damage' | 'arrivals' | 'withdraws'): number =>
+    inputs.reduce((a, i) => a + i[k], 0);
+  const withdraws = sum('withdraws');
+  return {
+    lines: sum('lines'),
+    blankLines: sum('blankLines'),
+    events: sum('events'),
+    rejectedLines: sum('rejectedLines'),
+    lostRecords: sum('lostRecords'),
+    damage: sum('damage'),
+    rejects,
+    arrivals: sum('arrivals'),
+    withdraws,
+    duplicates: run.totals.duplicates,
+    demandOccurrences: run.totals.demandUnits,
+    supplyOccurrences: run.totals.supplyUnits,
+    appliedWithdraws: withdraws - run.totals.ignoredWithdraws,
+    ignoredWithdraws: run.totals.ignoredWithdraws,
+    matched: run.totals.matched,
+    demandExpired: run.expired.demand,
+    supplyExpired: run.expired.supply,
+  };
+}
+
 /** Puts an online run and (optionally) the hindsight optimum into the SPEC §6 summary. */
 export function buildSummary(args: {
   config: PairflowConfig;
-  run: OnlineRun;
+  run: CountedRun;
   hindsight: HindsightResult | null;
   rejects: number;
-  inputs: string[];
+  inputs: readonly LogInput[];
   warm: boolean;
   timings: { loadMs: number; hindsightMs: number | null; totalMs: number };
 }): ReplaySummary {
@@ -161,7 +235,9 @@ export function buildSummary(args: {
     warm: args.warm,
     epochs: { ...run.epochs },
     markets,
-    inputs: args.inputs,
+    inputs: args.inputs.map((i) => basename(i.file)),
+    files: fileSummaries(args.inputs),
+    books: runBooks(args.inputs, args.rejects, run),
     timings: {
       loadMs: args.timings.loadMs,
       onlineMs: run.ms,
@@ -181,17 +257,42 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
   const now = opts.now ?? defaultNow;
   const start = now();
   let runDir: RunDirSink | null = null;
+  const sinks: OutputSink[] = [];
   let sink: OutputSink | null = null;
   try {
-    if (opts.outDir !== undefined) sink = runDir = await openRunDir(opts.outDir);
-    else if (opts.rejectsFile !== undefined) sink = openRejectsFile(opts.rejectsFile);
-    const loaded = await loadLog([...paths], { metric: config.metric, strict: opts.strict ?? false, onReject: opts.onReject });
+    if (opts.outDir !== undefined) sinks.push(runDir = await openRunDir(opts.outDir));
+    if (opts.rejectsFile !== undefined) {
+      await checkOutputPath(opts.rejectsFile);
+      sinks.push(openRejectsFile(opts.rejectsFile));
+    }
+    sink = sinks.length === 0 ? null : sinks.length === 1 ? sinks[0]! : teeSink(sinks);
+    const out = sink;
+    // Rejects go straight to the outputs as they are found, and are only counted here:
+    // a log of a million bad lines must not hold them all (issue #10).
+    const loaded = await loadLog([...paths], {
+      metric: config.metric,
+      strict: opts.strict ?? false,
+      keepRejects: false,
+      onReject: (r) => {
+        out?.reject(r);
+        opts.onReject?.(r);
+      },
+      ...(out ? { backpressure: out } : {}),
+      ...(opts.maxRejects ? { maxRejects: opts.maxRejects } : {}),
+    });
+    checkLoadedLog(loaded, opts.maxRejects);
     const loadMs = now() - start;
-    const summary = await replayLoaded(loaded, config, { ...opts, now, ...(sink ? { sink } : {}), loadMs, start });
-    const closing = sink;
+    const { summary, digest } = await replayLoadedFull(loaded, config, {
+      ...opts, now, ...(out ? { sink: out } : {}), loadMs, start, digest: opts.digest ?? runDir !== null,
+    });
     sink = null;
-    await closing?.close();
+    // Close every output even when one fails, then report the first failure.
+    const closed = await Promise.allSettled(sinks.map((x) => x.close()));
+    const failed = closed.find((r): r is PromiseRejectedResult => r.status === 'rejected');
+    if (failed) throw failed.reason;
     if (runDir) {
+      // Compact: its tables are long and only the report reads them.
+      if (digest) await writeWholeFile(join(runDir.workDir, DIGEST_FILE), JSON.stringify(digest));
       await runDir.writeJson(RUN_FILES.summary, summary);
       await runDir.writeJson(RUN_FILES.manifest, buildManifest({
         command: opts.command ?? ['runReplay', ...paths],
@@ -201,14 +302,19 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
           warm: opts.warm ?? true,
           strict: opts.strict ?? false,
           hindsight: opts.hindsight !== false,
+          ...(opts.maxRejects ? { maxRejects: opts.maxRejects } : {}),
         },
-        outputs: Object.values(RUN_FILES),
+        outputs: Object.values(RUN_FILES).filter((f) => f !== DIGEST_FILE || digest !== null),
       }));
+      await runDir.commit();
+      runDir = null;
     }
     return summary;
   } finally {
-    // On failure, still close what was opened; the first error is the one reported.
-    if (sink) await sink.close().catch(() => {});
+    // On failure, still close what was opened and take back an unfinished run
+    // directory; the first error is the one reported.
+    if (sink) await Promise.allSettled(sinks.map((x) => x.close()));
+    if (runDir) await runDir.abort();
   }
 }
 
@@ -218,6 +324,15 @@ export async function replayLoaded(
   config: PairflowConfig,
   opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number } = {},
 ): Promise<ReplaySummary> {
+  return (await replayLoadedFull(loaded, config, opts)).summary;
+}
+
+/** {@link replayLoaded}, with the run's digest when `opts.digest` is set. */
+export async function replayLoadedFull(
+  loaded: LoadedLog,
+  config: PairflowConfig,
+  opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number } = {},
+): Promise<{ summary: ReplaySummary; digest: RunDigest | null }> {
   const now = opts.now ?? defaultNow;
   const start = opts.start ?? now();
   const warm = opts.warm ?? true;
@@ -229,25 +344,28 @@ export async function replayLoaded(
   else {
     hindsightPromise = solveHindsight(loaded.events, config, {
       ...(opts.threads !== undefined ? { threads: opts.threads } : {}),
+      ...(opts.digest ? { cover: true } : {}),
       onProgress: (done: number, total: number) => opts.onProgress?.({ phase: 'hindsight', done, total }),
     });
   }
   // Without a handler now, a hindsight failure during the online replay would be "unhandled".
   hindsightPromise.catch(() => {});
+  const tally = opts.digest ? new RunTally(config, gridForEvents(loaded.events, config.metric)) : null;
   const run = await replaySource(fileSource(loaded), config, {
     ...(opts.sink ? { sink: opts.sink } : {}),
+    ...(tally ? { tally } : {}),
     warm,
     now,
     verify: opts.verify ?? false,
     ...(opts.onProgress ? { onProgress: opts.onProgress } : {}),
   });
   const hindsight = await hindsightPromise;
-  return buildSummary({
+  const summary = buildSummary({
     config,
     run,
     hindsight,
-    rejects: loaded.rejects.length,
-    inputs: loaded.inputs.map((i) => basename(i.file)),
+    rejects: loaded.rejectCount,
+    inputs: loaded.inputs,
     warm,
     timings: {
       loadMs: opts.loadMs ?? 0,
@@ -256,4 +374,9 @@ export async function replayLoaded(
       totalMs: now() - start,
     },
   });
+  // Nothing is lost (docs/principles.md rule 4): books that do not close are a bug.
+  // Rejects handed to the pipeline (kept by the loader) are in the books already.
+  const broken = run.pipelineRejects > loaded.rejects.length ? ['the engine refused events'] : booksErrors(summary.books);
+  if (broken.length > 0) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `the books of the run do not close: ${broken.join('; ')}` });
+  return { summary, digest: tally ? withHindsight(tally.online(), hindsight) : null };
 }

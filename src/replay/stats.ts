@@ -25,7 +25,7 @@ export interface OnlineRun {
 }
 
 /** Growable Float64Array: waits of 300k assignments without 300k boxed numbers. */
-class FloatList {
+export class FloatList {
   data = new Float64Array(1024);
   length = 0;
   push(v: number): void {

@@ -3,6 +3,8 @@
  * are always present; everything measured in wall time sits under `timings`, so two
  * runs of the same log compare equal once `timings` is removed.
  */
+import { describeInput } from '../consume/index.js';
+import { pairflowError } from '../errors.js';
 
 /** The online policy's outcome (SPEC §6 `online`). */
 export interface OnlineStats {
@@ -45,6 +47,75 @@ export interface MarketSummary {
   hindsight: { cost: number; matched: number; abandoned: number } | null;
 }
 
+/** What reading counted: per file in `files`, summed over the files in `books`. */
+export interface ReadCounts {
+  /** Lines (JSON Lines, blank ones included) or records (Avro, lost ones included when counted). */
+  lines: number;
+  blankLines: number;
+  events: number;
+  /** Lines or records rejected one by one. */
+  rejectedLines: number;
+  /** Avro records inside damaged blocks. */
+  lostRecords: number;
+  /** Rejects that stand for damage, not for one line (a gzip stream's end, an Avro block or header). */
+  damage: number;
+}
+
+/** How much of one input file was read (`files` in the summary). */
+export interface FileSummary extends ReadCounts {
+  /** The file's name (its directory left out, so runs compare equal wherever the log lies). */
+  file: string;
+  bytes: number;
+  /** Read to the end without damage. */
+  complete: boolean;
+}
+
+/**
+ * The books of a run (docs/principles.md rule 4, "nothing is lost"): every input line
+ * or record and every event accounted for, from the summary alone. They close when
+ * {@link booksErrors} finds nothing:
+ * - `lines = blankLines + events + rejectedLines + lostRecords` (what was read)
+ * - `rejects = rejectedLines + damage` (what the rejects output holds)
+ * - `events = arrivals + withdraws`
+ * - `arrivals = demandOccurrences + supplyOccurrences + duplicates`
+ * - `withdraws = appliedWithdraws + ignoredWithdraws`
+ * - `demandOccurrences = matched + demandExpired`, `supplyOccurrences = matched + supplyExpired`
+ */
+export interface Books extends ReadCounts {
+  rejects: number;
+  /** Supply and demand events read, and withdraws. */
+  arrivals: number;
+  withdraws: number;
+  /** Arrivals repeating a side, id and t: ignored (SPEC §1). */
+  duplicates: number;
+  demandOccurrences: number;
+  supplyOccurrences: number;
+  /** Withdraws that ended an occurrence (withdraws − ignoredWithdraws), and those that found none. */
+  appliedWithdraws: number;
+  ignoredWithdraws: number;
+  /** Executed pairs: one demand and one supply occurrence each. */
+  matched: number;
+  /** Occurrences that left unmatched (expired.jsonl), per side. */
+  demandExpired: number;
+  supplyExpired: number;
+}
+
+/** The identities of {@link Books} that do not hold, as sentences; empty when the books close. */
+export function booksErrors(b: Books): string[] {
+  const out: string[] = [];
+  const check = (name: string, left: number, right: number): void => {
+    if (left !== right) out.push(`${name}: ${left} ≠ ${right}`);
+  };
+  check('lines = blankLines + events + rejectedLines + lostRecords', b.lines, b.blankLines + b.events + b.rejectedLines + b.lostRecords);
+  check('rejects = rejectedLines + damage', b.rejects, b.rejectedLines + b.damage);
+  check('events = arrivals + withdraws', b.events, b.arrivals + b.withdraws);
+  check('arrivals = demandOccurrences + supplyOccurrences + duplicates', b.arrivals, b.demandOccurrences + b.supplyOccurrences + b.duplicates);
+  check('withdraws = appliedWithdraws + ignoredWithdraws', b.withdraws, b.appliedWithdraws + b.ignoredWithdraws);
+  check('demandOccurrences = matched + demandExpired', b.demandOccurrences, b.matched + b.demandExpired);
+  check('supplyOccurrences = matched + supplyExpired', b.supplyOccurrences, b.matched + b.supplyExpired);
+  return out;
+}
+
 /** `pairflow replay --json` (SPEC §6 plus extras). */
 export interface ReplaySummary {
   windowMs: number;
@@ -69,6 +140,10 @@ export interface ReplaySummary {
   epochs: { solved: number; warm: number; cold: number };
   markets: MarketSummary[];
   inputs: string[];
+  /** Per input file, in the order given: how much of it was read. */
+  files: FileSummary[];
+  /** Every line and event accounted for; see {@link Books}. */
+  books: Books;
   timings: {
     loadMs: number;
     onlineMs: number;
@@ -96,10 +171,25 @@ export function quantileLinear(values: Float64Array, p: number): number | null {
   return values[lo]! + (h - lo) * (values[hi]! - values[lo]!);
 }
 
-/** regret and ratio of SPEC §4 from the two costs. */
+/**
+ * regret and ratio of SPEC §4 from the two costs. The hindsight optimum is a lower
+ * bound on every online policy's cost, so a negative regret is never a result: within
+ * rounding (a relative 1e-9, as the certificates of SPEC §5) it is reported as 0 and
+ * the ratio as 1; beyond that it is a bug, raised as `PAIRFLOW_ERR_INTERNAL_BUG`
+ * rather than printed.
+ */
 export function regretAndRatio(online: number, hindsight: number | null): { regret: number | null; ratio: number | null } {
   if (hindsight === null) return { regret: null, ratio: null };
   const regret = online - hindsight;
+  if (regret < 0) {
+    const tolerance = 1e-9 * Math.max(1, Math.abs(online), Math.abs(hindsight));
+    if (!(regret >= -tolerance)) {
+      throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', {
+        detail: `the hindsight optimum (${hindsight}) exceeds the online cost (${online}), but it is a lower bound on every policy (SPEC §4)`,
+      });
+    }
+    return { regret: 0, ratio: 1 };
+  }
   let ratio: number | null;
   if (hindsight !== 0) ratio = online / hindsight;
   else ratio = online === 0 ? 1 : null;
@@ -133,9 +223,12 @@ export function formatWindow(ms: number): string {
 export function formatReplaySummary(s: ReplaySummary): string {
   const h = s.hindsight;
   const lines: string[] = [];
+  // "warm start" only where a solve had prices to start from: with commit "all" every
+  // carried-over unit is unmatched and priced 0, so each solve starts cold anyway.
+  const start = !s.warm ? 'cold start (--no-warm)' : s.epochs.warm > 0 ? 'warm start' : 'warm start on, no solve had prices to carry over';
   lines.push(
     `pairflow replay: ${s.inputs.length === 1 ? s.inputs[0] : `${s.inputs.length} files`}, window ${formatWindow(s.windowMs)}, ` +
-      `commit ${s.commit}, ${s.warm ? 'warm' : 'cold'} start`,
+      `commit ${s.commit}, ${start}`,
   );
   lines.push('');
   lines.push(textTable([
@@ -155,6 +248,7 @@ export function formatReplaySummary(s: ReplaySummary): string {
     ['ignored', `duplicates ${fmtInt(s.duplicates)}, withdraws finding no unit ${fmtInt(s.ignoredWithdraws)}`],
     ['rejects', `${fmtInt(s.rejects)}${s.rejects > 0 ? '  (rejected lines/records; --out DIR writes rejects.jsonl)' : ''}`],
   ];
+  for (const f of s.files) facts.push(['read', describeInput(f)]);
   if (h) facts.push(['match ceiling', `${fmtInt(h.ceiling)}  (most pairs any policy could match)`]);
   const keyWidth = Math.max(...facts.map((f) => f[0].length));
   for (const [k, v] of facts) lines.push(`${k.padEnd(keyWidth)}   ${v}`);

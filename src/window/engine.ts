@@ -96,6 +96,8 @@ export interface EpochRecord {
   priceMin: number;
   priceMean: number;
   priceMax: number;
+  /** Late events of this market (SPEC §3) taken since its previous epoch record. */
+  late: number;
 }
 
 /** Where the engine's records go; called synchronously, in epoch order per market. */
@@ -125,6 +127,11 @@ export interface EngineTotals {
   ignoredWithdraws: number;
   /** Events whose time was before an epoch already closed for their market. */
   late: number;
+  /**
+   * Events refused because they were later than the engine keeps history for (before
+   * the market's last closed epoch minus `allowedLatenessMs`); each became a reject.
+   */
+  tooLate: number;
 }
 
 /** Engine options. */
@@ -137,9 +144,16 @@ export interface EngineOptions {
   verify?: boolean;
   /** The sparse solver; injected to observe or record epoch solves (benchmarks, tests). @default solveSparse */
   solve?: (inst: SparseInstance, opts: SolveOptions) => SolveResult;
+  /**
+   * Forget occurrences once they are reported and their end lies more than
+   * `allowedLatenessMs` before the market's last closed epoch, so memory follows the
+   * pools rather than the length of the run; events older than that are refused. Off,
+   * every occurrence is kept (and nothing is refused). @default true
+   */
+  bounded?: boolean;
 }
 
-/** A unit of a {@link PoolSnapshot}: an occurrence the engine still holds (pending or in the pool). */
+/** A unit of a {@link PoolSnapshot}: an occurrence the engine still holds. */
 export interface SnapshotUnit {
   side: Side;
   id: string;
@@ -155,24 +169,45 @@ export interface SnapshotUnit {
   needs?: readonly string[];
   /** Carried dual price, null when none. */
   price: number | null;
-  /** `pending` = known but not yet in the pool: it joins at `joinEpoch`. */
-  state: 'pending' | 'pool';
-  joinEpoch: number;
+  /**
+   * `pending`: known, joins the pool at `joinEpoch`; `pool`: in the pool at `slot`;
+   * `done`: already reported (matched or expired), kept only while a late event could
+   * still concern it.
+   */
+  state: 'pending' | 'pool' | 'done';
+  /** `pending` only. */
+  joinEpoch?: number;
+  /** `pool` only: the unit's slot in its side's pool (row and column order of the solves). */
+  slot?: number;
 }
 
-/** Serialisable pool state of one market (live mode stores it on the compacted pool topic). */
+/** Slot layout of one side's pool, so a restored pool solves in the same row/column order. */
+export interface SnapshotPoolLayout {
+  /** Slots in use are below `high`. */
+  high: number;
+  /** Free slots below `high`, in reuse order (the last is reused first). */
+  free: number[];
+}
+
+/** Serialisable state of one market (live mode stores it on the compacted pool topic). */
 export interface PoolSnapshot {
-  version: 1;
+  version: 2;
   market: string;
   windowMs: number;
   /** Last closed epoch of the market; -Infinity is written as null. */
   lastClosed: number | null;
+  /** Late events not yet counted in an epoch record. */
+  late: number;
+  pools: { demand: SnapshotPoolLayout; supply: SnapshotPoolLayout };
   units: SnapshotUnit[];
   /** Tentative pairs (commit "due") as [demand unit, supply unit] positions in `units`. */
   tentative: Array<[number, number]>;
 }
 
-/** Where an occurrence is, as far as the engine is concerned. */
+/** The snapshot format this engine writes and reads. */
+export const SNAPSHOT_VERSION = 2;
+
+/** Where an occurrence is, as far as the engine is concerned (0: the index is free). */
 const ST_PENDING = 1;
 const ST_POOL = 2;
 const ST_MATCHED = 3;
@@ -181,35 +216,53 @@ const ST_GONE = 4;
 /** One side's pool of a market: slots (reused) hold occurrence indices; the grid indexes the slots. */
 class SidePool {
   slotOcc: Int32Array = new Int32Array(16).fill(-1);
+  /** The serial of the occurrence in each slot (0 when free): tells a live candidate entry from a stale one. */
+  slotSerial: Float64Array = new Float64Array(16);
   /** Slots in use are below `high`; freed ones are reused last-freed first. */
   high = 0;
   size = 0;
-  private readonly free: number[] = [];
+  free: number[] = [];
   readonly grid: SpatialGrid;
 
   constructor(gridOpts: GridOptions) {
     this.grid = new SpatialGrid(gridOpts);
   }
 
-  add(occ: number, a: number, b: number): number {
-    let slot: number;
-    if (this.free.length > 0) slot = this.free.pop()!;
-    else {
-      slot = this.high++;
-      if (slot >= this.slotOcc.length) {
-        const grown = new Int32Array(this.slotOcc.length * 2).fill(-1);
-        grown.set(this.slotOcc);
-        this.slotOcc = grown;
-      }
-    }
+  add(occ: number, serial: number, a: number, b: number): number {
+    const slot = this.free.length > 0 ? this.free.pop()! : this.high++;
+    this.place(occ, serial, slot, a, b);
+    return slot;
+  }
+
+  /** Takes a stored slot layout (restore): slots below `high` not in use must read -1. */
+  setLayout(high: number, free: readonly number[]): void {
+    if (high > this.slotOcc.length) this.grow(high);
+    this.high = high;
+    this.free = [...free];
+  }
+
+  private grow(n: number): void {
+    const size = Math.max(n, this.slotOcc.length * 2);
+    const occ = new Int32Array(size).fill(-1);
+    occ.set(this.slotOcc);
+    this.slotOcc = occ;
+    const ser = new Float64Array(size);
+    ser.set(this.slotSerial);
+    this.slotSerial = ser;
+  }
+
+  /** Puts `occ` (with its serial) at a given slot. */
+  place(occ: number, serial: number, slot: number, a: number, b: number): void {
+    if (slot >= this.slotOcc.length) this.grow(slot + 1);
     this.slotOcc[slot] = occ;
+    this.slotSerial[slot] = serial;
     this.grid.insert(slot, a, b);
     this.size++;
-    return slot;
   }
 
   remove(slot: number): void {
     this.slotOcc[slot] = -1;
+    this.slotSerial[slot] = 0;
     this.grid.remove(slot);
     this.free.push(slot);
     this.size--;
@@ -232,8 +285,12 @@ class MarketState {
   readonly expiry = new KeyedHeap();
   /** Pool units keyed by the first epoch at which they are at their last chance. */
   readonly lastChance = new KeyedHeap();
+  /** Reported occurrences keyed by the last-closed epoch from which they can be forgotten. */
+  readonly retire = new KeyedHeap();
   /** Something changed since the last solve that can change the optimum. */
   dirty = false;
+  /** Late events since the last epoch record. */
+  late = 0;
 
   constructor(name: string, index: number, lastClosed: number, gridOpts: GridOptions) {
     this.name = name;
@@ -278,6 +335,19 @@ function growI32(a: Int32Array, n: number, fill = 0): Int32Array {
  * tentative pairs of the last solve are the warm start of the next. An
  * {@link EpochRecord} is written for every solve.
  *
+ * What a market does depends on its own events alone, in their order: units that join
+ * or leave at the same epoch are taken in (t, seq) order, and each solve sees its rows
+ * and columns in pool-slot order with every row's pairs in column order. So one engine
+ * per Kafka partition (live) and one engine for a whole log (replay) make the same
+ * decisions for a market, and a market restored from its {@link snapshot} carries on
+ * exactly as if it had never stopped.
+ *
+ * Memory (with `bounded`, the default): an occurrence is forgotten once it has been
+ * reported and its end lies more than `allowedLatenessMs` before the market's last
+ * closed epoch; an event older than that horizon is refused (`ingest` says why), since
+ * the history it could concern may be gone. Memory then follows the pools and the
+ * arrival rate, never the length of the run.
+ *
  * @example
  * const engine = new WindowEngine(config, sink);
  * for (const ev of sortedEvents) { engine.advanceTo(ev.event.t); engine.ingest(ev); }
@@ -289,8 +359,10 @@ export class WindowEngine {
   private readonly W: number;
   private readonly P: number;
   private readonly R: number;
+  private readonly L: number;
   private readonly due: boolean;
   private readonly warmOn: boolean;
+  private readonly bounded: boolean;
   private readonly solver: (inst: SparseInstance, opts: SolveOptions) => SolveResult;
   private readonly verify: boolean;
   private readonly now: (() => number) | undefined;
@@ -307,13 +379,26 @@ export class WindowEngine {
   /** Markets keyed by their next trigger epoch (lazy: see {@link schedule}). */
   private readonly agenda = new KeyedHeap();
   private globalClosed = -Infinity;
+  /** Markets whose state changed since the last {@link takeTouched}. */
+  private readonly touched = new Set<MarketState>();
 
   // Per occurrence, by index.
   private state: Uint8Array = new Uint8Array(1024);
   private slotOf: Int32Array = new Int32Array(1024).fill(-1);
   private price: Float64Array = new Float64Array(1024).fill(NaN);
   private partner: Int32Array = new Int32Array(1024).fill(-1);
-  /** Demand only: allowed supply seen so far, flat [supplyOcc, travelMin, ...]; stale entries are dropped at use. */
+  /** A number never reused, told apart from a later occurrence at the same (reused) index. */
+  private serial: Float64Array = new Float64Array(1024);
+  /** The largest trigger key ever pushed for the occurrence: it can be forgotten only after it. */
+  private maxKey: Float64Array = new Float64Array(1024).fill(-Infinity);
+  private nextSerial = 1;
+  /**
+   * Supply only: allowed demand seen so far, flat [demand pool slot, travelMin, serial, ...]
+   * (an entry is live while that slot holds that serial);
+   * stale entries (left the pool, or the index reused) are dropped at use. Kept on the
+   * supply side so a solve can lay out each row's pairs in column order by counting,
+   * without sorting.
+   */
   private cand: Array<number[] | undefined> = [];
 
   // Solve buffers, reused across epochs.
@@ -328,11 +413,21 @@ export class WindowEngine {
   private rowPrices: Float64Array = new Float64Array(64);
   private colPrices: Float64Array = new Float64Array(64);
   private warmPairs: Int32Array = new Int32Array(64);
+  private rowOfSlot: Int32Array = new Int32Array(64);
+  private rowWait: Float64Array = new Float64Array(64);
+  private cursor: Int32Array = new Int32Array(64);
+  private nRows = 0;
+  private nCols = 0;
   private readonly qIds: number[] = [];
   private readonly qDist: number[] = [];
+  private readonly batch: number[] = [];
+  private readonly bySeq = (x: number, y: number): number => {
+    const a = this.ledger.occurrences[x]!, b = this.ledger.occurrences[y]!;
+    return a.t - b.t || a.seq - b.seq;
+  };
 
   private readonly tot: EngineTotals = {
-    demandUnits: 0, supplyUnits: 0, matched: 0, abandoned: 0, cost: 0, duplicates: 0, ignoredWithdraws: 0, late: 0,
+    demandUnits: 0, supplyUnits: 0, matched: 0, abandoned: 0, cost: 0, duplicates: 0, ignoredWithdraws: 0, late: 0, tooLate: 0,
   };
 
   constructor(config: PairflowConfig, sink: EngineSink, opts: EngineOptions = {}) {
@@ -341,8 +436,10 @@ export class WindowEngine {
     this.W = config.windowMs;
     this.P = config.abandonPenalty;
     this.R = reserveOf(config);
+    this.L = config.allowedLatenessMs;
     this.due = config.commit === 'due';
     this.warmOn = opts.warm ?? true;
+    this.bounded = opts.bounded ?? true;
     this.solver = opts.solve ?? solveSparse;
     this.verify = opts.verify ?? false;
     this.now = opts.now;
@@ -359,22 +456,31 @@ export class WindowEngine {
    * exactly an epoch τ is not known at τ. An event whose time is before an epoch
    * already closed for its market is late: counted, and its unit joins from the next
    * epoch if still available. Returns null when the event was taken, or the reason it
-   * was refused (the pipeline turns it into a reject).
+   * was refused (the pipeline turns it into a reject): with `bounded`, an event older
+   * than the market's last closed epoch minus `allowedLatenessMs`.
    */
   ingest(sourced: SourcedEvent): string | null {
     const ev = sourced.event;
     const m = this.marketOf(ev.market);
-    if (ev.t < m.lastClosed) this.tot.late++;
+    if (this.bounded && ev.t < m.lastClosed - this.L) {
+      this.tot.tooLate++;
+      return `too late: t=${ev.t} is more than allowedLatenessMs (${this.L} ms) before the last closed window ` +
+        `(epoch ${m.lastClosed}) of market '${m.name}'; the history it could concern is no longer held`;
+    }
+    if (ev.t < m.lastClosed) {
+      this.tot.late++;
+      m.late++;
+    }
+    this.touched.add(m);
     const out = this.ledger.apply(sourced);
     if (out.kind === 'arrival') {
       const occ = out.occurrence;
-      this.ensure(occ.index + 1);
+      this.fresh(occ.index);
       if (occ.side === 'demand') this.tot.demandUnits++;
       else this.tot.supplyUnits++;
       this.state[occ.index] = ST_PENDING;
       const join = Math.max(this.epochAfter(occ.t), m.lastClosed + this.W);
-      m.pending.push(join, occ.index);
-      this.schedule(m, join);
+      this.push(m, m.pending, join, occ.index);
       if (out.ended !== null) this.endMoved(m, out.ended);
     } else if (out.kind === 'withdraw') {
       if (out.changed) this.endMoved(m, out.ended);
@@ -392,10 +498,14 @@ export class WindowEngine {
       const m = this.marketOf(market);
       this.runMarket(m, watermark);
       if (closed > m.lastClosed) m.lastClosed = closed;
+      this.retireDue(m);
       return;
     }
     this.run(watermark);
-    for (const m of this.marketList) if (closed > m.lastClosed) m.lastClosed = closed;
+    for (const m of this.marketList) {
+      if (closed > m.lastClosed) m.lastClosed = closed;
+      this.retireDue(m);
+    }
     if (closed > this.globalClosed) this.globalClosed = closed;
   }
 
@@ -409,42 +519,73 @@ export class WindowEngine {
     return { ...this.tot, duplicates: this.ledger.duplicates, ignoredWithdraws: this.ledger.ignoredWithdraws };
   }
 
+  /** Occurrences held now (pending, pooled, or reported and not yet forgotten): what memory follows. */
+  heldOccurrences(): number {
+    return this.ledger.size;
+  }
+
+  /** Units in each market's pools now. */
+  poolSizes(): Array<{ market: string; demand: number; supply: number; pending: number }> {
+    return this.marketList.map((m) => ({ market: m.name, demand: m.demand.size, supply: m.supply.size, pending: m.pending.size }));
+  }
+
   /**
-   * The serialisable pool state of one market: units pending or in the pool (with
-   * their prices), tentative pairs, and the last closed epoch. Units already matched
-   * or expired are not included. JSON-safe.
+   * Markets whose state changed (an event taken, an epoch closed) since the last call,
+   * in first-seen order; clears the set. Live mode writes their snapshots with each
+   * committed batch.
+   */
+  takeTouched(): string[] {
+    const out = [...this.touched].sort((a, b) => a.index - b.index).map((m) => m.name);
+    this.touched.clear();
+    return out;
+  }
+
+  /**
+   * The serialisable state of one market: units pending or in the pool (with their
+   * prices and slots), reported units still within the lateness horizon, tentative
+   * pairs, the pools' slot layout and the last closed epoch. JSON-safe.
    */
   snapshot(market: string): PoolSnapshot {
     const m = this.markets.get(market);
     const closed = m === undefined ? this.globalClosed : m.lastClosed;
+    const empty = (): SnapshotPoolLayout => ({ high: 0, free: [] });
     const snap: PoolSnapshot = {
-      version: 1, market, windowMs: this.W, lastClosed: closed === -Infinity ? null : closed, units: [], tentative: [],
+      version: SNAPSHOT_VERSION, market, windowMs: this.W, lastClosed: closed === -Infinity ? null : closed,
+      late: m?.late ?? 0, pools: { demand: empty(), supply: empty() }, units: [], tentative: [],
     };
     if (m === undefined) return snap;
+    snap.pools = {
+      demand: { high: m.demand.high, free: [...m.demand.free] },
+      supply: { high: m.supply.high, free: [...m.supply.free] },
+    };
     const occs = this.ledger.occurrences;
     const at = new Map<number, number>();
-    const add = (id: number, state: 'pending' | 'pool', joinEpoch: number): void => {
+    const add = (id: number, u: Pick<SnapshotUnit, 'state' | 'joinEpoch' | 'slot'>): void => {
       const o = occs[id]!;
       const p = this.price[id]!;
-      const u: SnapshotUnit = { side: o.side, id: o.id, t: o.t, until: o.until, end: o.end, seq: o.seq, price: Number.isFinite(p) ? p : null, state, joinEpoch };
-      if (o.lat !== undefined) u.lat = o.lat;
-      if (o.lon !== undefined) u.lon = o.lon;
-      if (o.x !== undefined) u.x = o.x;
-      if (o.y !== undefined) u.y = o.y;
-      if (o.has !== undefined) u.has = [...o.has];
-      if (o.needs !== undefined) u.needs = [...o.needs];
+      const unit: SnapshotUnit = {
+        side: o.side, id: o.id, t: o.t, until: o.until, end: o.end, seq: o.seq, price: Number.isFinite(p) ? p : null, ...u,
+      };
+      if (u.state !== 'done') {
+        if (o.lat !== undefined) unit.lat = o.lat;
+        if (o.lon !== undefined) unit.lon = o.lon;
+        if (o.x !== undefined) unit.x = o.x;
+        if (o.y !== undefined) unit.y = o.y;
+        if (o.has !== undefined) unit.has = [...o.has];
+        if (o.needs !== undefined) unit.needs = [...o.needs];
+      }
       at.set(id, snap.units.length);
-      snap.units.push(u);
+      snap.units.push(unit);
     };
-    const joinAt = m.lastClosed === -Infinity ? 0 : m.lastClosed;
     for (const pool of [m.demand, m.supply]) {
       for (let slot = 0; slot < pool.high; slot++) {
         const id = pool.slotOcc[slot]!;
-        if (id >= 0) add(id, 'pool', joinAt);
+        if (id >= 0) add(id, { state: 'pool', slot });
       }
     }
-    const pending = m.pending.entries().sort((x, y) => x[0] - y[0] || x[1] - y[1]);
-    for (const [key, id] of pending) add(id, 'pending', key);
+    const bySeq = (x: [number, number], y: [number, number]): number => x[0] - y[0] || this.bySeq(x[1], y[1]);
+    for (const [key, id] of m.pending.entries().sort(bySeq)) add(id, { state: 'pending', joinEpoch: key });
+    for (const [, id] of m.retire.entries().sort(bySeq)) add(id, { state: 'done' });
     for (let slot = 0; slot < m.demand.high; slot++) {
       const d = m.demand.slotOcc[slot]!;
       if (d >= 0 && this.partner[d]! >= 0) snap.tentative.push([at.get(d)!, at.get(this.partner[d]!)!]);
@@ -454,45 +595,54 @@ export class WindowEngine {
 
   /**
    * Restores a market from {@link snapshot} output into an engine that holds no unit
-   * of that market yet (live mode after a restart). Restored units count in
-   * `demandUnits`/`supplyUnits`. Throws `PAIRFLOW_ERR_STATE_INVALID` for another
-   * version, another window length or a malformed state.
+   * of that market yet (live mode after a restart or a rebalance). Restored pending
+   * and pooled units count in `demandUnits`/`supplyUnits`. Throws
+   * `PAIRFLOW_ERR_STATE_INVALID` for another version, another window length or a
+   * malformed state.
    */
   restore(market: string, state: unknown): void {
     const snap = parseSnapshot(market, state, this.W);
     const m = this.marketOf(market);
-    if (m.demand.size + m.supply.size + m.pending.size > 0) {
+    if (m.demand.size + m.supply.size + m.pending.size + m.retire.size > 0) {
       throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `restore(${market}): the market already holds units` });
     }
     if (snap.lastClosed !== null && snap.lastClosed > m.lastClosed) m.lastClosed = snap.lastClosed;
+    m.late = snap.late;
     const ids: number[] = [];
     for (const u of snap.units) {
       const o = this.ledger.adopt({
         side: u.side, id: u.id, market, t: u.t, until: u.until, end: u.end, seq: u.seq,
         lat: u.lat, lon: u.lon, x: u.x, y: u.y, has: u.has, needs: u.needs,
       });
-      this.ensure(o.index + 1);
-      if (this.state[o.index] !== 0) {
+      if (this.state.length > o.index && this.state[o.index] !== 0) {
         throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `restore(${market}): ${u.side} ${u.id} at ${u.t} is already known` });
       }
-      if (u.side === 'demand') this.tot.demandUnits++;
-      else this.tot.supplyUnits++;
+      this.fresh(o.index);
+      if (u.state !== 'done') {
+        if (u.side === 'demand') this.tot.demandUnits++;
+        else this.tot.supplyUnits++;
+      }
       this.price[o.index] = u.price ?? NaN;
       ids.push(o.index);
     }
     const occs = this.ledger.occurrences;
-    // Supply first, so that each demand's candidate list is built by its own query.
+    m.demand.setLayout(snap.pools.demand.high, snap.pools.demand.free);
+    m.supply.setLayout(snap.pools.supply.high, snap.pools.supply.free);
+    // Supply first: each supply's candidate list starts empty and every demand adds itself by its own query.
     for (const side of ['supply', 'demand'] as const) {
       snap.units.forEach((u, k) => {
-        if (u.state === 'pool' && u.side === side) this.enterPool(m, occs[ids[k]!]!, m.lastClosed + this.W);
+        if (u.state === 'pool' && u.side === side) this.enterPool(m, occs[ids[k]!]!, m.lastClosed + this.W, u.slot!);
       });
     }
     snap.units.forEach((u, k) => {
-      if (u.state !== 'pending') return;
-      this.state[ids[k]!] = ST_PENDING;
-      const join = Math.max(u.joinEpoch, m.lastClosed + this.W);
-      m.pending.push(join, ids[k]!);
-      this.schedule(m, join);
+      const id = ids[k]!;
+      if (u.state === 'pending') {
+        this.state[id] = ST_PENDING;
+        this.push(m, m.pending, Math.max(u.joinEpoch!, m.lastClosed + this.W), id);
+      } else if (u.state === 'done') {
+        this.state[id] = ST_GONE;
+        this.retireLater(m, id);
+      }
     });
     for (const [d, s] of snap.tentative) {
       this.partner[ids[d]!] = ids[s]!;
@@ -524,15 +674,34 @@ export class WindowEngine {
     return m;
   }
 
-  private ensure(n: number): void {
-    if (n <= this.state.length) return;
-    const size = Math.max(n, this.state.length * 2);
-    const st = new Uint8Array(size);
-    st.set(this.state);
-    this.state = st;
-    this.slotOf = growI32(this.slotOf, size, -1);
-    this.price = growF64(this.price, size, NaN);
-    this.partner = growI32(this.partner, size, -1);
+  /** Readies the per-occurrence arrays for a new occurrence at `index` (new or reused). */
+  private fresh(index: number): void {
+    const n = index + 1;
+    if (n > this.state.length) {
+      const size = Math.max(n, this.state.length * 2);
+      const st = new Uint8Array(size);
+      st.set(this.state);
+      this.state = st;
+      this.slotOf = growI32(this.slotOf, size, -1);
+      this.price = growF64(this.price, size, NaN);
+      this.partner = growI32(this.partner, size, -1);
+      this.serial = growF64(this.serial, size, 0);
+      this.maxKey = growF64(this.maxKey, size, -Infinity);
+    }
+    this.state[index] = 0;
+    this.slotOf[index] = -1;
+    this.price[index] = NaN;
+    this.partner[index] = -1;
+    this.serial[index] = this.nextSerial++;
+    this.maxKey[index] = -Infinity;
+    this.cand[index] = undefined;
+  }
+
+  /** Pushes a trigger for an occurrence and schedules its market. */
+  private push(m: MarketState, heap: KeyedHeap, key: number, id: number): void {
+    heap.push(key, id);
+    if (key > this.maxKey[id]!) this.maxKey[id] = key;
+    this.schedule(m, key);
   }
 
   /** First epoch τ with `x < τ`. */
@@ -542,9 +711,24 @@ export class WindowEngine {
 
   private endMoved(m: MarketState, occ: Occurrence): void {
     if (this.state[occ.index] === ST_POOL) {
-      const at = Math.max(this.epochAfter(occ.end), m.lastClosed + this.W);
-      m.expiry.push(at, occ.index);
-      this.schedule(m, at);
+      this.push(m, m.expiry, Math.max(this.epochAfter(occ.end), m.lastClosed + this.W), occ.index);
+    }
+  }
+
+  /** A reported occurrence can be forgotten once the horizon and all its triggers have passed. */
+  private retireLater(m: MarketState, id: number): void {
+    if (!this.bounded) return;
+    const o = this.ledger.occurrences[id]!;
+    m.retire.push(Math.max(o.end + this.L + 1, this.maxKey[id]!), id);
+  }
+
+  /** Forgets the reported occurrences of `m` that no accepted event can concern any more. */
+  private retireDue(m: MarketState): void {
+    while (m.retire.size > 0 && m.retire.peekKey() <= m.lastClosed) {
+      const id = m.retire.pop();
+      this.state[id] = 0;
+      this.cand[id] = undefined;
+      this.ledger.release(id);
     }
   }
 
@@ -596,10 +780,25 @@ export class WindowEngine {
 
   private closeEpoch(m: MarketState, tau: number): void {
     const occs = this.ledger.occurrences;
-    while (m.pending.peekKey() <= tau) this.join(m, m.pending.pop(), tau);
+    const batch = this.batch;
+    this.touched.add(m);
+    // Units that join or leave at one epoch are taken in (t, seq) order, whatever order
+    // their triggers were pushed in: the pools' slot order then depends on the market's
+    // events alone.
+    batch.length = 0;
+    while (m.pending.peekKey() <= tau) batch.push(m.pending.pop());
+    if (batch.length > 1) batch.sort(this.bySeq);
+    for (const id of batch) this.join(m, id, tau);
+    batch.length = 0;
     while (m.expiry.peekKey() <= tau) {
       const id = m.expiry.pop();
-      if (this.state[id] === ST_POOL && occs[id]!.end < tau) this.leaveUnmatched(m, id, tau);
+      if (this.state[id] === ST_POOL && occs[id]!.end < tau) batch.push(id);
+    }
+    if (batch.length > 1) batch.sort(this.bySeq);
+    for (let k = 0; k < batch.length; k++) {
+      // A unit with two due entries appears twice, side by side after the sort.
+      if (k > 0 && batch[k] === batch[k - 1]) continue;
+      this.leaveUnmatched(m, batch[k]!, tau);
     }
     while (m.lastChance.peekKey() <= tau) {
       const id = m.lastChance.pop();
@@ -620,13 +819,17 @@ export class WindowEngine {
       // Ended before it could ever be in a pool: never matched.
       this.state[id] = ST_GONE;
       this.emitExpiry(m, o, tau);
+      this.retireLater(m, id);
       return;
     }
     this.enterPool(m, o, tau + this.W);
   }
 
-  /** Puts an occurrence in its market's pool; its triggers fire at epochs ≥ `from`. */
-  private enterPool(m: MarketState, o: Occurrence, from: number): void {
+  /**
+   * Puts an occurrence in its market's pool (at `slot` when restoring); its triggers
+   * fire at epochs ≥ `from`.
+   */
+  private enterPool(m: MarketState, o: Occurrence, from: number, slot = -1): void {
     const id = o.index;
     this.state[id] = ST_POOL;
     // Under "due" only a unit at its last chance can make a pair executable.
@@ -635,39 +838,41 @@ export class WindowEngine {
     const speed = this.config.speedKmh;
     const maxTravel = this.config.maxTravelMin;
     const occs = this.ledger.occurrences;
+    const serial = this.serial;
     if (o.side === 'demand') {
-      this.slotOf[id] = m.demand.add(id, a, b);
-      const list: number[] = [];
+      const did = serial[id]!;
+      if (slot >= 0) m.demand.place(id, did, slot, a, b);
+      else slot = m.demand.add(id, did, a, b);
+      this.slotOf[id] = slot;
       const n = m.supply.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
       for (let k = 0; k < n; k++) {
         const s = m.supply.slotOcc[this.qIds[k]!]!;
         const tr = travelMin(this.qDist[k]!, speed);
-        if (tr <= maxTravel && capabilitiesAllow(o.needs, occs[s]!.has)) list.push(s, tr);
+        if (tr <= maxTravel && capabilitiesAllow(o.needs, occs[s]!.has)) this.cand[s]!.push(slot, tr, did);
       }
-      this.cand[id] = list;
       if (this.demandLastChanceMatters) this.pushLastChance(m, o, from);
     } else {
-      this.slotOf[id] = m.supply.add(id, a, b);
+      if (slot >= 0) m.supply.place(id, serial[id]!, slot, a, b);
+      else slot = m.supply.add(id, serial[id]!, a, b);
+      this.slotOf[id] = slot;
+      const list: number[] = [];
       const n = m.demand.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
       for (let k = 0; k < n; k++) {
-        const d = m.demand.slotOcc[this.qIds[k]!]!;
+        const dSlot = this.qIds[k]!;
+        const d = m.demand.slotOcc[dSlot]!;
         const tr = travelMin(this.qDist[k]!, speed);
-        if (tr <= maxTravel && capabilitiesAllow(occs[d]!.needs, o.has)) this.cand[d]!.push(id, tr);
+        if (tr <= maxTravel && capabilitiesAllow(occs[d]!.needs, o.has)) list.push(dSlot, tr, serial[d]!);
       }
+      this.cand[id] = list;
       if (this.due) this.pushLastChance(m, o, from);
     }
-    const expiresAt = Math.max(this.epochAfter(o.end), from);
-    m.expiry.push(expiresAt, id);
-    this.schedule(m, expiresAt);
+    this.push(m, m.expiry, Math.max(this.epochAfter(o.end), from), id);
   }
 
   private pushLastChance(m: MarketState, o: Occurrence, from: number): void {
     // First epoch with until < τ + W; one already reached needs no trigger (the join is one).
     const at = this.epochAfter(o.until - this.W);
-    if (at >= from) {
-      m.lastChance.push(at, o.index);
-      this.schedule(m, at);
-    }
+    if (at >= from) this.push(m, m.lastChance, at, o.index);
   }
 
   private removeFromPool(m: MarketState, o: Occurrence, next: number): void {
@@ -681,6 +886,7 @@ export class WindowEngine {
       this.partner[p] = -1;
       this.partner[id] = -1;
     }
+    this.retireLater(m, id);
   }
 
   private leaveUnmatched(m: MarketState, id: number, tau: number): void {
@@ -735,85 +941,15 @@ export class WindowEngine {
     }
   }
 
+  /** One epoch's solve: pack the pools into arrays, solve, unpack the decisions. */
   private solve(m: MarketState, tau: number): void {
-    const occs = this.ledger.occurrences;
-    const W = this.W;
-    // Columns: the supply pool in slot order.
-    const sup = m.supply;
-    this.colOfSlot = growI32(this.colOfSlot, sup.high);
-    this.colOcc = growI32(this.colOcc, sup.size);
-    this.colPrices = growF64(this.colPrices, sup.size);
-    let nCols = 0;
-    for (let slot = 0; slot < sup.high; slot++) {
-      const s = sup.slotOcc[slot]!;
-      if (s < 0) continue;
-      this.colOfSlot[slot] = nCols;
-      this.colOcc[nCols] = s;
-      this.colPrices[nCols] = this.price[s]!;
-      nCols++;
-    }
-    // Rows: the demand pool in slot order, pairs from each demand's candidate list.
-    const dem = m.demand;
-    let bound = 0;
-    for (let slot = 0; slot < dem.high; slot++) {
-      const d = dem.slotOcc[slot]!;
-      if (d >= 0) bound += this.cand[d]!.length >> 1;
-    }
-    this.rowPtr = growI32(this.rowPtr, dem.size + 1);
-    this.rowOcc = growI32(this.rowOcc, dem.size);
-    this.delta = growF64(this.delta, dem.size);
-    this.rowPrices = growF64(this.rowPrices, dem.size);
-    this.warmPairs = growI32(this.warmPairs, dem.size);
-    this.colIdx = growI32(this.colIdx, bound);
-    this.cost = growF64(this.cost, bound);
-    this.travel = growF64(this.travel, bound);
-    const { rowPtr, colIdx, cost, travel, delta, rowOcc, rowPrices, warmPairs, colOfSlot } = this;
-    const st = this.state, slotOf = this.slotOf, partner = this.partner;
-    const waitPerMs = this.config.waitWeight / 60_000;
-    const lastChanceBefore = tau + W;
-    let nRows = 0;
-    let nnz = 0;
-    for (let slot = 0; slot < dem.high; slot++) {
-      const d = dem.slotOcc[slot]!;
-      if (d < 0) continue;
-      const od = occs[d]!;
-      rowOcc[nRows] = d;
-      rowPtr[nRows] = nnz;
-      const wait = waitPerMs * (tau - od.t);
-      const list = this.cand[d]!;
-      let w = 0;
-      for (let k = 0; k < list.length; k += 2) {
-        const s = list[k]!;
-        if (st[s] !== ST_POOL) continue;
-        const tr = list[k + 1]!;
-        list[w] = s;
-        list[w + 1] = tr;
-        w += 2;
-        colIdx[nnz] = colOfSlot[slotOf[s]!]!;
-        cost[nnz] = tr + wait;
-        travel[nnz] = tr;
-        nnz++;
-      }
-      if (w !== list.length) list.length = w;
-      delta[nRows] = od.until < lastChanceBefore ? this.P : this.R;
-      rowPrices[nRows] = this.price[d]!;
-      const p = partner[d]!;
-      warmPairs[nRows] = p >= 0 && st[p] === ST_POOL ? colOfSlot[slotOf[p]!]! : -1;
-      nRows++;
-    }
-    rowPtr[nRows] = nnz;
-    const inst: SparseInstance = {
-      nRows, nCols,
-      rowPtr: rowPtr.subarray(0, nRows + 1),
-      colIdx: colIdx.subarray(0, nnz),
-      cost: cost.subarray(0, nnz),
-      unmatchedCost: delta.subarray(0, nRows),
-    };
+    const inst = this.pack(m, tau);
     let warm: WarmStart | undefined;
     if (this.warmOn) {
+      const nRows = this.nRows, nCols = this.nCols;
       warm = this.due
-        ? { colPrices: this.colPrices.subarray(0, nCols), rowPrices: rowPrices.subarray(0, nRows), rowToCol: warmPairs.subarray(0, nRows) }
-        : { colPrices: this.colPrices.subarray(0, nCols), rowPrices: rowPrices.subarray(0, nRows) };
+        ? { colPrices: this.colPrices.subarray(0, nCols), rowPrices: this.rowPrices.subarray(0, nRows), rowToCol: this.warmPairs.subarray(0, nRows) }
+        : { colPrices: this.colPrices.subarray(0, nCols), rowPrices: this.rowPrices.subarray(0, nRows) };
     }
     const res: SolveResult = this.solver(inst, this.now !== undefined ? { warm, now: this.now } : { warm });
     if (this.verify) {
@@ -824,7 +960,116 @@ export class WindowEngine {
         });
       }
     }
+    this.unpack(m, tau, inst, res);
+  }
 
+  /**
+   * The window's instance: rows are the demand pool in slot order, columns the supply
+   * pool in slot order, each row's allowed pairs in column order (laid out by counting,
+   * from the supply side's lists); costs c(s,d,τ), deferral P or R; the carried prices
+   * and tentative pairs as the warm start.
+   */
+  private pack(m: MarketState, tau: number): SparseInstance {
+    const occs = this.ledger.occurrences;
+    const dem = m.demand;
+    const sup = m.supply;
+    const st = this.state, slotOf = this.slotOf, partner = this.partner;
+    const waitPerMs = this.config.waitWeight / 60_000;
+    const lastChanceBefore = tau + this.W;
+    // Rows: the demand pool in slot order.
+    this.rowOfSlot = growI32(this.rowOfSlot, dem.high);
+    this.rowPtr = growI32(this.rowPtr, dem.size + 1);
+    this.rowOcc = growI32(this.rowOcc, dem.size);
+    this.delta = growF64(this.delta, dem.size);
+    this.rowPrices = growF64(this.rowPrices, dem.size);
+    this.rowWait = growF64(this.rowWait, dem.size);
+    const { rowOfSlot, rowOcc, delta, rowPrices, rowWait } = this;
+    let nRows = 0;
+    for (let slot = 0; slot < dem.high; slot++) {
+      const d = dem.slotOcc[slot]!;
+      if (d < 0) continue;
+      const od = occs[d]!;
+      rowOfSlot[slot] = nRows;
+      rowOcc[nRows] = d;
+      rowWait[nRows] = waitPerMs * (tau - od.t);
+      delta[nRows] = od.until < lastChanceBefore ? this.P : this.R;
+      rowPrices[nRows] = this.price[d]!;
+      nRows++;
+    }
+    // Columns: the supply pool in slot order; count each row's live pairs, dropping stale ones.
+    this.colOfSlot = growI32(this.colOfSlot, sup.high);
+    this.colOcc = growI32(this.colOcc, sup.size);
+    this.colPrices = growF64(this.colPrices, sup.size);
+    this.rowPtr.fill(0, 0, nRows + 1);
+    const { colOfSlot, colOcc, colPrices, rowPtr } = this;
+    let nCols = 0;
+    let nnz = 0;
+    for (let slot = 0; slot < sup.high; slot++) {
+      const s = sup.slotOcc[slot]!;
+      if (s < 0) continue;
+      colOfSlot[slot] = nCols;
+      colOcc[nCols] = s;
+      colPrices[nCols] = this.price[s]!;
+      nCols++;
+      const list = this.cand[s]!;
+      const slotSerial = dem.slotSerial;
+      let w = 0;
+      for (let k = 0; k < list.length; k += 3) {
+        const dSlot = list[k]!;
+        if (slotSerial[dSlot] !== list[k + 2]) continue;
+        list[w] = dSlot;
+        list[w + 1] = list[k + 1]!;
+        list[w + 2] = list[k + 2]!;
+        w += 3;
+        rowPtr[rowOfSlot[dSlot]! + 1]!++;
+      }
+      if (w !== list.length) list.length = w;
+      nnz += w / 3;
+    }
+    for (let r = 0; r < nRows; r++) rowPtr[r + 1]! += rowPtr[r]!;
+    // Place the pairs column by column: each row receives its columns in increasing order.
+    this.colIdx = growI32(this.colIdx, nnz);
+    this.cost = growF64(this.cost, nnz);
+    this.travel = growF64(this.travel, nnz);
+    this.cursor = growI32(this.cursor, nRows);
+    const { colIdx, cost, travel, cursor } = this;
+    for (let r = 0; r < nRows; r++) cursor[r] = rowPtr[r]!;
+    for (let j = 0; j < nCols; j++) {
+      const list = this.cand[colOcc[j]!]!;
+      for (let k = 0; k < list.length; k += 3) {
+        const r = rowOfSlot[list[k]!]!;
+        const e = cursor[r]!++;
+        const tr = list[k + 1]!;
+        colIdx[e] = j;
+        travel[e] = tr;
+        cost[e] = tr + rowWait[r]!;
+      }
+    }
+    this.warmPairs = growI32(this.warmPairs, nRows);
+    const warmPairs = this.warmPairs;
+    for (let r = 0; r < nRows; r++) {
+      const p = partner[rowOcc[r]!]!;
+      warmPairs[r] = p >= 0 && st[p] === ST_POOL ? colOfSlot[slotOf[p]!]! : -1;
+    }
+    this.nRows = nRows;
+    this.nCols = nCols;
+    return {
+      nRows, nCols,
+      rowPtr: rowPtr.subarray(0, nRows + 1),
+      colIdx: colIdx.subarray(0, nnz),
+      cost: cost.subarray(0, nnz),
+      unmatchedCost: delta.subarray(0, nRows),
+    };
+  }
+
+  /** Carries the prices, executes the pairs the commit mode allows, keeps the rest tentative. */
+  private unpack(m: MarketState, tau: number, inst: SparseInstance, res: SolveResult): void {
+    const occs = this.ledger.occurrences;
+    const { nRows, nCols, rowOcc, colOcc } = this;
+    const { rowPtr, colIdx, cost } = inst;
+    const travel = this.travel;
+    const partner = this.partner;
+    const lastChanceBefore = tau + this.W;
     // Carry prices by occurrence; clear the old tentative pairs (the new solution replaces them).
     let dualObjective = 0;
     for (let i = 0; i < nRows; i++) {
@@ -835,7 +1080,7 @@ export class WindowEngine {
     }
     let pMin = Infinity, pMax = -Infinity, pSum = 0;
     for (let j = 0; j < nCols; j++) {
-      const s = this.colOcc[j]!;
+      const s = colOcc[j]!;
       const v = res.colDuals[j]!;
       this.price[s] = v;
       partner[s] = -1;
@@ -844,8 +1089,7 @@ export class WindowEngine {
       if (v < pMin) pMin = v;
       if (v > pMax) pMax = v;
     }
-
-    if (this.sink.prices) this.emitPrices(m.name, tau, nRows, rowOcc, res.rowDuals, nCols, this.colOcc, res.colDuals);
+    if (this.sink.prices) this.emitPrices(m.name, tau, nRows, rowOcc, res.rowDuals, nCols, colOcc, res.colDuals);
 
     let matched = 0;
     let tentative = 0;
@@ -853,7 +1097,7 @@ export class WindowEngine {
       const j = res.rowToCol[i]!;
       if (j < 0) continue;
       const d = rowOcc[i]!;
-      const s = this.colOcc[j]!;
+      const s = colOcc[j]!;
       const od = occs[d]!;
       const os = occs[s]!;
       if (this.due && od.until >= lastChanceBefore && os.until >= lastChanceBefore) {
@@ -876,11 +1120,14 @@ export class WindowEngine {
       this.removeFromPool(m, od, ST_MATCHED);
       this.removeFromPool(m, os, ST_MATCHED);
     }
+    const late = m.late;
+    m.late = 0;
     this.sink.epoch({
-      market: m.name, epoch: tau, poolDemand: nRows, poolSupply: nCols, candidatePairs: nnz, matched, tentative,
+      market: m.name, epoch: tau, poolDemand: nRows, poolSupply: nCols, candidatePairs: inst.colIdx.length, matched, tentative,
       solveMs: res.stats.ms, warm: res.stats.warm, augmentations: res.stats.augmentations,
       primalCost: res.cost, dualObjective,
       priceMin: nCols > 0 ? pMin : 0, priceMean: nCols > 0 ? pSum / nCols : 0, priceMax: nCols > 0 ? pMax : 0,
+      late,
     });
   }
 }
@@ -900,9 +1147,23 @@ function parseSnapshot(market: string, state: unknown, windowMs: number): PoolSn
   };
   if (state === null || typeof state !== 'object') return bad('expected an object');
   const s = state as Record<string, unknown>;
-  if (s.version !== 1) bad(`field 'version': got ${JSON.stringify(s.version)}, expected 1`);
+  if (s.version !== SNAPSHOT_VERSION) bad(`field 'version': got ${JSON.stringify(s.version)}, expected ${SNAPSHOT_VERSION}`);
   if (s.windowMs !== windowMs) bad(`field 'windowMs': got ${JSON.stringify(s.windowMs)}, expected ${windowMs} (the window of this run)`);
   if (s.lastClosed !== null && !isNum(s.lastClosed)) bad(`field 'lastClosed': expected null or a number`);
+  if (!Number.isInteger(s.late) || (s.late as number) < 0) bad(`field 'late': expected a count`);
+  const pools = s.pools as Record<string, unknown> | null;
+  if (pools === null || typeof pools !== 'object') return bad(`field 'pools': expected an object`);
+  const layouts = new Map<Side, { high: number; free: number[] }>();
+  for (const side of ['demand', 'supply'] as const) {
+    const l = pools[side] as Record<string, unknown> | null;
+    const where = `pools.${side}`;
+    if (l === null || typeof l !== 'object') return bad(`${where}: expected an object`);
+    if (!Number.isInteger(l.high) || (l.high as number) < 0) bad(`${where}.high: expected a count`);
+    if (!Array.isArray(l.free) || !l.free.every((x) => Number.isInteger(x) && x >= 0 && x < (l.high as number))) {
+      bad(`${where}.free: expected slots below high`);
+    }
+    layouts.set(side, { high: l.high as number, free: l.free as number[] });
+  }
   if (!Array.isArray(s.units)) return bad(`field 'units': expected an array`);
   if (!Array.isArray(s.tentative)) return bad(`field 'tentative': expected an array`);
   const units = s.units as unknown[];
@@ -912,13 +1173,29 @@ function parseSnapshot(market: string, state: unknown, windowMs: number): PoolSn
     if (u === null || typeof u !== 'object') return bad(`${where}: expected an object`);
     if (u.side !== 'demand' && u.side !== 'supply') bad(`${where}.side: got ${JSON.stringify(u.side)}, expected "demand" or "supply"`);
     if (typeof u.id !== 'string' || u.id === '') bad(`${where}.id: expected a non-empty string`);
-    for (const f of ['t', 'until', 'end', 'seq', 'joinEpoch']) if (!isNum(u[f])) bad(`${where}.${f}: expected a finite number`);
+    for (const f of ['t', 'until', 'end', 'seq']) if (!isNum(u[f])) bad(`${where}.${f}: expected a finite number`);
     for (const f of ['lat', 'lon', 'x', 'y']) if (u[f] !== undefined && !isNum(u[f])) bad(`${where}.${f}: expected a finite number`);
     for (const f of ['has', 'needs']) if (u[f] !== undefined && !isStrings(u[f])) bad(`${where}.${f}: expected an array of strings`);
     if (u.price !== null && !isNum(u.price)) bad(`${where}.price: expected null or a finite number`);
-    if (u.state !== 'pending' && u.state !== 'pool') bad(`${where}.state: got ${JSON.stringify(u.state)}, expected "pending" or "pool"`);
+    if (u.state !== 'pending' && u.state !== 'pool' && u.state !== 'done') {
+      bad(`${where}.state: got ${JSON.stringify(u.state)}, expected "pending", "pool" or "done"`);
+    }
+    if (u.state === 'pending' && !isNum(u.joinEpoch)) bad(`${where}.joinEpoch: expected a finite number`);
+    if (u.state === 'pool') {
+      const l = layouts.get(u.side as Side)!;
+      if (!Number.isInteger(u.slot) || (u.slot as number) < 0 || (u.slot as number) >= l.high) bad(`${where}.slot: expected a slot below pools.${String(u.side)}.high`);
+    }
     return undefined;
   });
+  // Every slot below high is either used once or free once.
+  for (const side of ['demand', 'supply'] as const) {
+    const l = layouts.get(side)!;
+    const used = new Uint8Array(l.high);
+    for (const slot of l.free) used[slot]! += 1;
+    for (const u of units as SnapshotUnit[]) if (u.state === 'pool' && u.side === side) used[u.slot!]! += 1;
+    const wrong = used.findIndex((c) => c !== 1);
+    if (wrong >= 0) bad(`pools.${side}: slot ${wrong} is ${used[wrong] === 0 ? 'neither used nor free' : 'used or freed twice'}`);
+  }
   const typed = units as SnapshotUnit[];
   const keys = new Set<string>();
   typed.forEach((u, k) => {

@@ -17,7 +17,10 @@ import { type ArrivalEvent, type PairflowConfig, type Side, type SourcedEvent, t
 
 /** One unit occurrence (SPEC §1). `end` only ever decreases as the ledger learns more. */
 export interface Occurrence extends UnitPlace {
-  /** Position in the ledger's creation order; dense from 0. */
+  /**
+   * Slot in the ledger: dense from 0 in creation order while nothing is released; a
+   * released slot is reused by a later occurrence (see {@link OccurrenceLedger.release}).
+   */
   readonly index: number;
   readonly side: Side;
   readonly id: string;
@@ -51,7 +54,10 @@ export type LedgerOutcome =
  * already applied are not revisited. Markets and sides are separate namespaces.
  */
 export class OccurrenceLedger {
-  /** Every occurrence so far, by index. */
+  /**
+   * Every occurrence held, by index. A released index holds `undefined` until it is
+   * reused; code that releases nothing (the hindsight) sees a dense array.
+   */
   readonly occurrences: Occurrence[] = [];
   /** Arrivals ignored as duplicates. */
   duplicates = 0;
@@ -61,8 +67,11 @@ export class OccurrenceLedger {
   private readonly config: PairflowConfig;
   /** Per unit (side, market, id): the index of its occurrence with the largest `t`. */
   private readonly tails = new Map<string, Map<string, number>>();
-  /** prev[i]: the unit's occurrence before occurrence i in time, or -1. */
+  /** prev[i] / next[i]: the unit's occurrence before / after occurrence i in time, or -1. */
   private prev: Int32Array = new Int32Array(1024);
+  private next: Int32Array = new Int32Array(1024);
+  /** Released indices, reused last-released first. */
+  private readonly freeIndices: number[] = [];
 
   constructor(config: PairflowConfig) {
     this.config = config;
@@ -100,7 +109,7 @@ export class OccurrenceLedger {
       before = this.prev[before]!;
     }
     if (before >= 0 && this.occurrences[before]!.t === fields.t) return this.occurrences[before]!;
-    const index = this.occurrences.length;
+    const index = this.nextIndex();
     const occ: Occurrence = {
       index, side: fields.side, id: fields.id, market: fields.market, t: fields.t, until: fields.until, end: fields.end,
       lat: fields.lat, lon: fields.lon, x: fields.x, y: fields.y, has: fields.has, needs: fields.needs, seq: fields.seq,
@@ -109,15 +118,52 @@ export class OccurrenceLedger {
     return occ;
   }
 
+  /** Occurrences held now (released ones excluded). */
+  get size(): number {
+    return this.occurrences.length - this.freeIndices.length;
+  }
+
+  /**
+   * Forgets an occurrence and frees its index for reuse. Its unit's history closes
+   * over the gap. The caller (the engine) releases only occurrences already reported
+   * and so far in the past that no event it still accepts can concern them.
+   */
+  release(index: number): void {
+    const occ = this.occurrences[index];
+    if (occ === undefined) return;
+    const p = this.prev[index]!;
+    const n = this.next[index]!;
+    if (p >= 0) this.next[p] = n;
+    if (n >= 0) this.prev[n] = p;
+    else {
+      const units = this.unitsOf(occ.side, occ.market);
+      if (p >= 0) units.set(occ.id, p);
+      else units.delete(occ.id);
+    }
+    (this.occurrences as (Occurrence | undefined)[])[index] = undefined;
+    this.freeIndices.push(index);
+  }
+
+  private nextIndex(): number {
+    return this.freeIndices.length > 0 ? this.freeIndices.pop()! : this.occurrences.length;
+  }
+
   private push(occ: Occurrence, before: number, after: number, units: Map<string, number>): void {
     const index = occ.index;
-    this.occurrences.push(occ);
+    if (index === this.occurrences.length) this.occurrences.push(occ);
+    else this.occurrences[index] = occ;
     if (index >= this.prev.length) {
-      const grown = new Int32Array(this.prev.length * 2);
-      grown.set(this.prev);
-      this.prev = grown;
+      const size = Math.max(index + 1, this.prev.length * 2);
+      const grownPrev = new Int32Array(size);
+      grownPrev.set(this.prev);
+      this.prev = grownPrev;
+      const grownNext = new Int32Array(size);
+      grownNext.set(this.next);
+      this.next = grownNext;
     }
     this.prev[index] = before;
+    this.next[index] = after;
+    if (before >= 0) this.next[before] = index;
     if (after >= 0) this.prev[after] = index;
     else units.set(occ.id, index);
   }
@@ -149,7 +195,7 @@ export class OccurrenceLedger {
       this.duplicates++;
       return { kind: 'duplicate', of: this.occurrences[before]! };
     }
-    const index = this.occurrences.length;
+    const index = this.nextIndex();
     const until = untilOf(ev, this.config);
     let end = until;
     if (after >= 0) {

@@ -15,6 +15,7 @@ import { writeEventLog, type LogWriteFormat, type WrittenLog } from '../../gen/w
 import { generateEvents, GEN_DEFAULTS, resolveGenOptions, syncMarkerFor, type GenOptions } from '../../gen/gen.js';
 import { packageVersion } from '../main.js';
 import { parseNumber } from '../parse.js';
+import { writeOut } from '../stdout.js';
 
 interface RawGenOptions {
   out?: string;
@@ -120,17 +121,17 @@ async function updateManifest(manifestPath: string, opts: GenOptions, written: W
   }
 }
 
+/** Streams the events to stdout as JSON Lines; stops at the first failed write (see ../stdout.ts). */
 async function writeStdout(events: Iterable<PairflowEvent>): Promise<void> {
   let buf = '';
-  const flush = async (): Promise<void> => {
-    if (!process.stdout.write(buf)) await new Promise<void>((resolve) => process.stdout.once('drain', () => resolve()));
-    buf = '';
-  };
   for (const ev of events) {
     buf += `${toJsonLine(ev)}\n`;
-    if (buf.length > 1 << 18) await flush();
+    if (buf.length > 1 << 18) {
+      await writeOut(buf);
+      buf = '';
+    }
   }
-  if (buf.length > 0) await flush();
+  if (buf.length > 0) await writeOut(buf);
 }
 
 /** Registers `pairflow gen`. */
@@ -170,10 +171,10 @@ export function registerGen(program: Command): void {
       }
       const written = await writeEventLog(raw.out, format, generateEvents(opts), { syncMarker: syncMarkerFor(opts.seed) });
       if (raw.manifest !== undefined) await updateManifest(raw.manifest, opts, written);
-      if (raw.json) process.stdout.write(`${JSON.stringify(written)}\n`);
+      if (raw.json) await writeOut(`${JSON.stringify(written)}\n`);
       else {
         const c = written.counts;
-        process.stdout.write(
+        await writeOut(
           `wrote ${written.file}: ${written.events} events (${c.demand} demand, ${c.supply} supply, ${c.withdrawDemand + c.withdrawSupply} withdraws) in ${written.markets.length} markets, ${written.bytes} bytes, sha256 ${written.sha256}\n`,
         );
       }

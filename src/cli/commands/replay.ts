@@ -5,13 +5,20 @@
  * JSON object with --json); rejects, progress and notes go to stderr.
  */
 import type { Command } from 'commander';
+import { configWarnings } from '../../config.js';
 import { pairflowError } from '../../errors.js';
 import type { Reject } from '../../model.js';
 import { runReplay } from '../../replay/run.js';
 import { formatReplaySummary } from '../../replay/summary.js';
 import { resolveConfig } from '../config-file.js';
-import { parseDuration, parseNumber } from '../parse.js';
-import { progressLine } from './sweep.js';
+import { replayNextSteps } from '../next-steps.js';
+import { parseDuration, parseNumber, parseRejectLimit } from '../parse.js';
+import { phasedProgress } from '../progress.js';
+import { writeOut } from '../stdout.js';
+
+/** The phases of a replay as its progress line names them. */
+export const ONLINE_PHASE = 'online replay';
+export const HINDSIGHT_PHASE = 'hindsight optimum';
 
 /** Rejects printed on stderr before the rest are only counted. */
 export const REJECTS_SHOWN = 10;
@@ -51,6 +58,7 @@ export function rejectReporter(where: string): { onReject: (r: Reject) => void; 
 }
 
 interface ReplayCliOptions {
+  maxRejects?: string;
   window?: string;
   config?: string;
   json?: boolean;
@@ -71,8 +79,9 @@ export function registerReplay(program: Command): void {
     .option('--config <file>', 'JSON configuration, every field optional (see README, Configuration)')
     .option('--json', 'print one JSON object on stdout')
     .option('--out <dir>', 'write a run directory: assignments, expirations, epochs, rejects, summary, manifest')
-    .option('--rejects <file>', 'without --out, write every reject as JSON Lines to this file')
+    .option('--rejects <file>', 'write every reject as JSON Lines to this file (also with --out)')
     .option('--strict', 'stop at the first rejected line or record (exit 2)')
+    .option('--max-rejects <n|p%>', 'exit 2 when more lines or records are rejected than this count or share (e.g. 100, 1%)')
     .option('--no-warm', 'solve every epoch cold (no dual prices carried over)')
     .option('--no-hindsight', 'skip the hindsight optimum (regret and ratio are then null)')
     .option('--threads <n>', 'worker threads for the hindsight optimum (default: one per market, up to the cores)')
@@ -82,31 +91,39 @@ regret = online - hindsight; ratio = online / hindsight (1 when both are 0).
 Waits are (decidedAt - demand t) in minutes over matched pairs; p95 interpolates
 linearly between order statistics (numpy's default); both are null with no match.
 Rejected lines are counted in "rejects", the first ${REJECTS_SHOWN} printed on stderr; --out DIR
-(rejects.jsonl) or --rejects FILE keeps them all. Exit: 0 ok, 2 usage/input, 1 other.`)
+(rejects.jsonl) or --rejects FILE keeps them all. A log with no valid event is an
+input error. Exit: 0 ok, 2 usage/input, 1 other.`)
     .action(async (logs: string[], o: ReplayCliOptions) => {
       const windowMs = o.window !== undefined ? parseDuration(o.window, '--window') : undefined;
       const threads = o.threads !== undefined ? parseThreads(o.threads) : undefined;
+      const maxRejects = o.maxRejects !== undefined ? parseRejectLimit(o.maxRejects, '--max-rejects') : undefined;
       const config = await resolveConfig({ configFile: o.config, windowMs });
-      const rejects = rejectReporter(o.out !== undefined ? `see ${o.out}/rejects.jsonl` : o.rejects !== undefined ? `see ${o.rejects}` : 'use --out DIR or --rejects FILE to keep them');
-      const progress = progressLine('replay');
-      const summary = await runReplay(logs, config, {
-        strict: o.strict ?? false,
-        warm: o.warm,
-        hindsight: o.hindsight,
-        ...(o.out !== undefined ? { outDir: o.out } : {}),
-        ...(o.rejects !== undefined ? { rejectsFile: o.rejects } : {}),
-        ...(threads !== undefined ? { threads } : {}),
-        command: ['pairflow', ...process.argv.slice(2)],
-        onReject: rejects.onReject,
-        // The hindsight runs alongside on worker threads; the bar follows the online replay.
-        onProgress: (p) => { if (p.phase === 'online') progress.update(p.done, p.total); },
-      });
-      progress.done();
-      rejects.finish();
-      if (summary.demandUnits + summary.supplyUnits === 0) {
-        const why = summary.rejects > 0 ? `every one of its ${summary.rejects} lines or records was rejected` : 'it holds no events';
-        process.stderr.write(`pairflow: warning: ${logs.join(', ')}: ${why}, so every figure is 0\n`);
+      for (const warning of configWarnings(config)) process.stderr.write(`pairflow: warning: ${warning}\n`);
+      const kept = [o.out !== undefined ? `${o.out}/rejects.jsonl` : null, o.rejects ?? null].filter((x) => x !== null);
+      const rejects = rejectReporter(kept.length > 0 ? `see ${kept.join(' and ')}` : 'use --out DIR or --rejects FILE to keep them');
+      const progress = phasedProgress([ONLINE_PHASE, HINDSIGHT_PHASE]);
+      let summary;
+      try {
+        summary = await runReplay(logs, config, {
+          strict: o.strict ?? false,
+          warm: o.warm,
+          hindsight: o.hindsight,
+          ...(o.out !== undefined ? { outDir: o.out } : {}),
+          ...(o.rejects !== undefined ? { rejectsFile: o.rejects } : {}),
+          ...(threads !== undefined ? { threads } : {}),
+          ...(maxRejects !== undefined ? { maxRejects } : {}),
+          command: ['pairflow', ...process.argv.slice(2)],
+          onReject: rejects.onReject,
+          // The hindsight runs alongside on worker threads: its bar takes over once the online replay is done.
+          onProgress: (p) => {
+            if (p.phase === 'online') progress.update(ONLINE_PHASE, p.done, p.total, 'events');
+            else progress.update(HINDSIGHT_PHASE, p.done, p.total, 'markets');
+          },
+        });
+      } finally {
+        progress.done();
       }
-      process.stdout.write(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary));
+      rejects.finish();
+      await writeOut(o.json ? `${JSON.stringify(summary)}\n` : formatReplaySummary(summary) + replayNextSteps(summary, logs, o.out));
     });
 }

@@ -10,7 +10,9 @@ import { pairflowError, PairflowError } from '../../errors.js';
 import { maxCardinalityMatching, minVertexCover, type BipartiteGraph } from '../../matching/cardinality.js';
 import { checkCertificate, maximizeDense, maximizeSparse, solveDense, solveSparse } from '../../matching/index.js';
 import type { DenseInstance, SolveResult, SparseInstance } from '../../matching/types.js';
+import { MAX_COST, MAX_COST_TEXT } from '../../matching/validate.js';
 import { parseNumber } from '../parse.js';
+import { writeOut } from '../stdout.js';
 import { readSolveInput, type SolveInput } from '../solve-input.js';
 
 /** Options of `pairflow solve`. */
@@ -180,6 +182,13 @@ export function formatJson(report: SolveReport): string {
   return `${JSON.stringify({ cost, pairs, rowDuals, colDuals, solveMs })}\n`;
 }
 
+/** A cost option: a number within the solver's bound (SPEC §5). */
+export function parseCost(text: string, option: string): number {
+  const v = parseNumber(text, option);
+  if (Math.abs(v) > MAX_COST) throw pairflowError('PAIRFLOW_ERR_CLI_OPTION', { option, detail: `'${text}' is beyond ${MAX_COST_TEXT}, the largest cost pairflow solves exactly` });
+  return v;
+}
+
 /** Registers `pairflow solve` on the program. */
 export function registerSolve(program: Command): void {
   program
@@ -189,13 +198,13 @@ export function registerSolve(program: Command): void {
     .option('--unmatched-cost <x>', 'cost of leaving a row unmatched (default: every row must be matched)')
     .option('--maximize', 'treat the numbers as weights and maximise (duals of the maximisation LP)', false)
     .option('--json', 'print {"cost","pairs","rowDuals","colDuals","solveMs"} on one line', false)
-    .action((file: string, raw: { unmatchedCost?: string; maximize: boolean; json: boolean }) => {
+    .action(async (file: string, raw: { unmatchedCost?: string; maximize: boolean; json: boolean }) => {
       const opts: SolveCommandOptions = {
         maximize: raw.maximize,
-        ...(raw.unmatchedCost === undefined ? {} : { unmatchedCost: parseNumber(raw.unmatchedCost, '--unmatched-cost') }),
+        ...(raw.unmatchedCost === undefined ? {} : { unmatchedCost: parseCost(raw.unmatchedCost, '--unmatched-cost') }),
       };
       const input = readSolveInput(file);
       const report = solveInstance(input, opts);
-      process.stdout.write(raw.json ? formatJson(report) : formatHuman(input, opts, report));
+      await writeOut(raw.json ? formatJson(report) : formatHuman(input, opts, report));
     });
 }

@@ -25,6 +25,17 @@ describe('readConfigFile()', () => {
     await expect(readConfigFile(q)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_CONFIG_INVALID', params: { file: q, field: 'windowMS' } });
   });
 
+  it('a repeated field is PAIRFLOW_ERR_CONFIG_INVALID naming it; a directory is PAIRFLOW_ERR_INPUT_UNREADABLE', async () => {
+    const p = file('twice.json', '{"windowMs": 10000, "speedKmh": 20, "windowMs": 2000}');
+    await expect(readConfigFile(p)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_CONFIG_INVALID', params: { field: 'windowMs' } });
+    await expect(readConfigFile(dir)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_UNREADABLE' });
+  });
+
+  it('accepts a byte-order mark, as every other input does', async () => {
+    const c = await readConfigFile(file('bom.json', '\uFEFF{"windowMs": 10000}'));
+    expect(c.windowMs).toBe(10_000);
+  });
+
   it('bad JSON is PAIRFLOW_ERR_CONFIG_INVALID and a missing file PAIRFLOW_ERR_INPUT_NOT_FOUND', async () => {
     const p = file('syntax.json', '{"windowMs": ');
     await expect(readConfigFile(p)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_CONFIG_INVALID', params: { file: p } });

@@ -18,10 +18,13 @@ afterEach(() => {
 async function run(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
   let stdout = '';
   let stderr = '';
-  vi.spyOn(process.stdout, 'write').mockImplementation((chunk: string | Uint8Array) => {
+  // Like a stream: the text is taken, then the write's callback (if any) runs.
+  vi.spyOn(process.stdout, 'write').mockImplementation(((chunk: string | Uint8Array, ...rest: unknown[]) => {
     stdout += String(chunk);
+    const done = rest.find((x) => typeof x === 'function') as (() => void) | undefined;
+    if (done) queueMicrotask(done);
     return true;
-  });
+  }) as typeof process.stdout.write);
   vi.spyOn(process.stderr, 'write').mockImplementation((chunk: string | Uint8Array) => {
     stderr += String(chunk);
     return true;

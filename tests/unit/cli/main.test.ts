@@ -1,5 +1,7 @@
 import { spawnSync } from 'node:child_process';
-import { readFileSync } from 'node:fs';
+import { closeSync, existsSync, mkdtempSync, openSync, readFileSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 
 // The CLI is tested as users run it: the built bin (npm test builds first).
@@ -35,5 +37,30 @@ describe('pairflow CLI', () => {
     const r = run(['frobnicate']);
     expect(r.status).toBe(2);
     expect(r.stderr.trim().split('\n')).toHaveLength(1);
+  });
+});
+
+describe('stdout that fails', () => {
+  const dir = mkdtempSync(join(tmpdir(), 'pairflow-cli-main-'));
+  const matrix = join(dir, 'm.csv');
+  writeFileSync(matrix, '1,2\n3,4\n');
+
+  it('a reader that goes away (`pairflow gen | head`) ends the command quietly with 0', () => {
+    // bash reports the exit status of the first command of the pipeline in PIPESTATUS.
+    const r = spawnSync('bash', ['-c', `"${process.execPath}" "${bin}" gen --days 2 | head -c 100 >/dev/null; echo "status=\${PIPESTATUS[0]}"`], { encoding: 'utf8' });
+    expect(r.stdout.trim()).toBe('status=0');
+    expect(r.stderr).toBe('');
+  });
+
+  it.skipIf(!existsSync('/dev/full'))('a full device on stdout is one line naming stdout and exit 1, for every command', () => {
+    for (const args of [['gen', '--scale', '0.01'], ['solve', matrix, '--json']]) {
+      const fd = openSync('/dev/full', 'w');
+      const r = spawnSync(process.execPath, [bin, ...args], { stdio: ['ignore', fd, 'pipe'], encoding: 'utf8' });
+      closeSync(fd);
+      expect(r.status, args.join(' ')).toBe(1);
+      expect(r.stderr.trim().split('\n'), r.stderr).toHaveLength(1);
+      expect(r.stderr).toContain('stdout');
+      expect(r.stderr).toContain('PAIRFLOW_ERR_OUTPUT_WRITE');
+    }
   });
 });

@@ -4,7 +4,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { solveInstance } from '../../../src/cli/commands/solve.js';
-import { parseCostMatrixCsv, parseSolveInput, parseSparseJson, type SolveInput } from '../../../src/cli/solve-input.js';
+import { MAX_SOLVE_DIM, parseCostMatrixCsv, parseSolveInput, parseSparseJson, type SolveInput } from '../../../src/cli/solve-input.js';
 import { PairflowError } from '../../../src/errors.js';
 import { checkCertificate } from '../../../src/matching/index.js';
 import type { SolveResult } from '../../../src/matching/types.js';
@@ -238,6 +238,11 @@ describe('pairflow solve (built CLI)', () => {
       ['infeasible.csv', '1,inf\n2,\n', []],
       ['bad-pair.json', '{"rows": 1, "cols": 1, "pairs": [[0, 3, 1]]}', []],
       ['bad-option.csv', '1\n', ['--unmatched-cost', 'lots']],
+      // Finite, but beyond what sums can hold (SPEC §5): input errors stating the bound, not internal bugs.
+      ['near-limit.csv', '1e308,1e308,1\n1e308,1,1e308\n', []],
+      ['huge-delta.csv', '1,2\n', ['--unmatched-cost', '-1e308']],
+      ['huge-pair.json', '{"rows": 1, "cols": 1, "pairs": [[0, 0, 1e200]]}', []],
+      ['huge-unmatched.json', '{"rows": 1, "cols": 1, "pairs": [[0, 0, 1]], "unmatchedCost": -1e300}', []],
     ];
     const codes: Record<string, string> = {
       'ragged.csv': 'PAIRFLOW_ERR_INPUT_FORMAT',
@@ -247,6 +252,10 @@ describe('pairflow solve (built CLI)', () => {
       'infeasible.csv': 'PAIRFLOW_ERR_SOLVER_INFEASIBLE',
       'bad-pair.json': 'PAIRFLOW_ERR_INPUT_FORMAT',
       'bad-option.csv': 'PAIRFLOW_ERR_CLI_OPTION',
+      'near-limit.csv': 'PAIRFLOW_ERR_INPUT_FORMAT',
+      'huge-delta.csv': 'PAIRFLOW_ERR_CLI_OPTION',
+      'huge-pair.json': 'PAIRFLOW_ERR_INPUT_FORMAT',
+      'huge-unmatched.json': 'PAIRFLOW_ERR_INPUT_FORMAT',
     };
     for (const [name, text, extra] of cases) {
       const r = run([file(name, text), ...extra, '--json']);
@@ -337,7 +346,66 @@ describe('parseSparseJson()', () => {
     ];
     for (const text of bad) expect(caught(() => parseSparseJson(text, 'i.json')).code, text).toBe('PAIRFLOW_ERR_INPUT_FORMAT');
     expect(caught(() => parseSparseJson('  \n', 'i.json')).code).toBe('PAIRFLOW_ERR_INPUT_EMPTY');
+    // A repeated key is not silently the last one: the error names its line.
+    expect(caught(() => parseSparseJson('{"rows": 1, "cols": 1,\n"pairs": [[0, 0, 1]],\n"rows": 2}', 'i.json'))).toMatchObject({
+      code: 'PAIRFLOW_ERR_INPUT_FORMAT', params: { line: 3 },
+    });
     expect(caught(() => parseSparseJson('{"rows": 0, "cols": 2, "pairs": []}', 'i.json')).code).toBe('PAIRFLOW_ERR_INPUT_EMPTY');
+  });
+});
+
+describe('solve input limits and odd files (issue #10 items 12, 17)', () => {
+  it('refuses declared sizes beyond the limit before allocating anything', () => {
+    for (const text of ['{"rows": 1e10, "cols": 1, "pairs": []}', '{"rows": 100000000, "cols": 2, "pairs": [], "unmatchedCost": 1}', '{"rows": 1, "cols": 1e8, "pairs": []}']) {
+      expect(caught(() => parseSparseJson(text, 'i.json')).code, text).toBe('PAIRFLOW_ERR_INPUT_LIMIT');
+    }
+    expect(parseSparseJson(`{"rows": 2, "cols": ${MAX_SOLVE_DIM}, "pairs": [[0, 0, 1], [1, 9999999, 2]]}`, 'i.json').nCols).toBe(MAX_SOLVE_DIM);
+  });
+
+  it('reads a JSON array as JSON (an error), not as a one-row CSV', () => {
+    expect(caught(() => parseSolveInput('[1,2]', 'm.csv')).code).toBe('PAIRFLOW_ERR_INPUT_FORMAT');
+    expect(caught(() => parseSolveInput('\uFEFF [[1, 2]]\n', 'm.json')).code).toBe('PAIRFLOW_ERR_INPUT_FORMAT');
+  });
+
+  it('reads CR-only line ends and never puts raw control characters into a message', () => {
+    // eslint-disable-next-line no-control-regex
+    const control = /[\u0000-\u001f]/;
+    const cr = parseCostMatrixCsv('1,2\r3,4\r', 'mac.csv');
+    expect([cr.nRows, cr.nCols, ...cr.cost]).toEqual([2, 2, 1, 2, 3, 4]);
+    for (const text of ['1,\u0000\n', '1,a\u001bb\n', '1,2\n3,\u0007']) {
+      const err = caught(() => parseCostMatrixCsv(text, 'ctl.csv'));
+      expect(err.code).toBe('PAIRFLOW_ERR_INPUT_FORMAT');
+      expect(err.message).not.toMatch(control);
+    }
+    expect(caught(() => parseSparseJson('{"rows": 1,\u0000}', 'ctl.json')).message).not.toMatch(control);
+  });
+
+  it('a directory is "not a file" (exit 2, PAIRFLOW_ERR_INPUT_UNREADABLE), not "no such file"', () => {
+    const r = run([dir, '--json']);
+    expect(r.status).toBe(2);
+    expect(r.stderr).toContain('[PAIRFLOW_ERR_INPUT_UNREADABLE]');
+  });
+});
+
+describe('solveInstance() across the whole allowed range of costs (SPEC §5, seeded)', () => {
+  it('solves and certifies matrices mixing magnitudes up to ±1e150 — never an internal error', () => {
+    const seed = 10150;
+    const rand = mulberry32(seed);
+    const magnitudes = [0, 5e-324, 1e-300, 1, 1e15, 1e100, 1e150];
+    for (let round = 0; round < 60; round++) {
+      const rows = randInt(rand, 1, 6);
+      const cols = randInt(rand, rows, 7);
+      const cells = Array.from({ length: rows }, () => Array.from({ length: cols }, () => {
+        if (rand() < 0.15) return 'inf';
+        return String((rand() < 0.3 ? -1 : 1) * magnitudes[randInt(rand, 0, magnitudes.length - 1)]! * (1 + rand()) / 2);
+      }).join(','));
+      // every row keeps one allowed cell on the diagonal so the instance stays feasible
+      const text = cells.map((line, r) => line.split(',').map((c, k) => (k === r && c === 'inf' ? '1' : c)).join(',')).join('\n');
+      const input = parseSolveInput(text, `r${round}.csv`);
+      for (const opts of [{}, { maximize: true }, { unmatchedCost: -1e150 }, { unmatchedCost: 1e150, maximize: true }]) {
+        expect(() => solveInstance(input, opts), `seed ${seed} round ${round} ${JSON.stringify(opts)}:\n${text}`).not.toThrow();
+      }
+    }
   });
 });
 

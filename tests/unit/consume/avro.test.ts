@@ -1,9 +1,9 @@
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import avro from 'avsc';
 import { afterAll, describe, expect, it } from 'vitest';
-import { readAvroContainer, type AvroPiece } from '../../../src/consume/avro.js';
+import { MAX_BLOCK_BYTES, MAX_INFLATED_BLOCK_BYTES, readAvroContainer, type AvroPiece } from '../../../src/consume/avro.js';
 import type { EventRecord } from '../../../src/consume/schema.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 import { blockLayout, writeAvro } from './avro-files.js';
@@ -70,19 +70,45 @@ describe('readAvroContainer()', () => {
     expect([...blocksRead].sort((a, c) => a - c)).toEqual(layout.map((_, i) => i).filter((i) => i !== k));
   });
 
-  it('rejects a block whose sync marker is damaged and resyncs at the next marker', async () => {
+  it('a damaged sync marker loses its block alone, counted exactly; the next block still decodes', async () => {
     const path = join(dir, 'sync.avro');
     const buf = await writeAvro(path, Array.from({ length: 400 }, (_, i) => record(i)), { blockSize: 1024 });
     const layout = blockLayout(buf);
     const bad = Buffer.from(buf);
     bad[layout[1]!.dataEnd + 3]! ^= 0xff;
     const got = await pieces(bad);
-    const corrupt = got.filter((p) => p.kind === 'corrupt');
-    expect(corrupt).toHaveLength(1);
-    expect(corrupt[0]).toMatchObject({ block: 1 });
-    // Blocks 1 and 2 share the damaged region; the records of every other block survive.
-    const records = got.filter((p) => p.kind === 'record').length;
-    expect(records).toBe(400 - layout[1]!.count - layout[2]!.count);
+    expect(got.filter((p) => p.kind === 'corrupt')).toEqual([expect.objectContaining({ block: 1, records: layout[1]!.count })]);
+    expect(got.filter((p) => p.kind === 'record')).toHaveLength(400 - layout[1]!.count);
+    expect(new Set(got.flatMap((p) => (p.kind === 'record' ? [p.block] : []))).has(2)).toBe(true);
+  });
+
+  it('counts exactly what consecutive damaged sync markers lose (issue #10: two markers, 87 lost, the reject said 29)', async () => {
+    const path = join(dir, 'sync2.avro');
+    const buf = await writeAvro(path, Array.from({ length: 600 }, (_, i) => record(i)), { blockSize: 1024 });
+    const layout = blockLayout(buf);
+    for (const damagedBlocks of [[1, 2], [2, 3, 4], [layout.length - 2, layout.length - 1]]) {
+      const bad = Buffer.from(buf);
+      for (const k of damagedBlocks) bad[layout[k]!.dataEnd + 7]! ^= 0x5a;
+      const got = await pieces(bad, 333);
+      const corrupt = got.filter((p) => p.kind === 'corrupt');
+      expect(corrupt.map((p) => p.kind === 'corrupt' && [p.block, p.records]), String(damagedBlocks)).toEqual(damagedBlocks.map((k) => [k, layout[k]!.count]));
+      const lost = damagedBlocks.reduce((a, k) => a + layout[k]!.count, 0);
+      expect(got.filter((p) => p.kind === 'record'), String(damagedBlocks)).toHaveLength(600 - lost);
+      // Block indexes after the damage are the true ones.
+      expect(got.flatMap((p) => (p.kind === 'record' ? [p.block] : [])).every((b) => !damagedBlocks.includes(b))).toBe(true);
+    }
+  });
+
+  it('a marker damaged together with the next block\'s framing: the loss is reported as unknown, later blocks still decode', async () => {
+    const path = join(dir, 'sync3.avro');
+    const buf = await writeAvro(path, Array.from({ length: 400 }, (_, i) => record(i)), { blockSize: 1024 });
+    const layout = blockLayout(buf);
+    const bad = Buffer.from(buf);
+    bad[layout[1]!.dataEnd + 3]! ^= 0xff;
+    bad[layout[2]!.start] = 0x01; // a count of -1: framing that makes no sense
+    const got = await pieces(bad);
+    expect(got.filter((p) => p.kind === 'corrupt')).toEqual([expect.objectContaining({ block: 1, records: null })]);
+    expect(got.filter((p) => p.kind === 'record')).toHaveLength(400 - layout[1]!.count - layout[2]!.count);
   });
 
   it('ends a truncated file with a corrupt piece and keeps the records of the complete blocks', async () => {
@@ -181,5 +207,12 @@ describe('readAvroContainer()', () => {
       const fatal = got.findIndex((p) => p.kind === 'fatal');
       expect(fatal === -1 || fatal === got.length - 1, `seed ${seed}, round ${round}`).toBe(true);
     }
+  });
+});
+
+describe('docs/events.md on Avro limits', () => {
+  it('states the block limits the reader applies (issue #10: the deflate limit in the docs differed from the code)', () => {
+    const doc = readFileSync(new URL('../../../docs/events.md', import.meta.url), 'utf8').replace(/\s+/g, ' ');
+    expect(doc).toContain(`larger than ${MAX_BLOCK_BYTES / 2 ** 20} MiB, or one whose deflate data expands beyond ${MAX_INFLATED_BLOCK_BYTES / 2 ** 20} MiB`);
   });
 });

@@ -44,7 +44,7 @@ function badLine(rand: Rand, i: number): { text: string; kind: string } {
   const obj = validObject(rand, i);
   const isArrival = obj.type !== 'withdraw';
   const json = JSON.stringify(obj);
-  const kinds = ['truncated', 'nan', 'wrongType', 'range', 'untilBefore', 'unknownType', 'huge', 'bytes', 'missing', 'empty', 'fraction', 'badTime', 'notObject', 'badSide'] as const;
+  const kinds = ['truncated', 'nan', 'wrongType', 'range', 'untilBefore', 'unknownType', 'huge', 'bytes', 'missing', 'empty', 'fraction', 'badTime', 'notObject', 'badSide', 'dupKey', 'control'] as const;
   const kind = pickOf(rand, kinds);
   switch (kind) {
     case 'truncated': // any proper prefix of an object text is not JSON
@@ -101,6 +101,17 @@ function badLine(rand: Rand, i: number): { text: string; kind: string } {
       return { kind, text: pickOf(rand, ['[1,2,3]', '42', '"supply"', 'null', 'true', `[${json}]`]) };
     case 'badSide':
       return { kind, text: JSON.stringify({ ...obj, type: 'withdraw', side: pickOf(rand, [null, 'both', 3, 'Supply']) }) };
+    case 'dupKey': {
+      // Issue #10: a repeated key silently took the last value; both values here are valid.
+      const field = pickOf(rand, ['t', 'id', 'market', 'type']);
+      const again = field === 't' ? String(T0) : JSON.stringify(field === 'type' ? obj.type : 'other');
+      return { kind, text: `${json.slice(0, -1)},"${field}":${again}}` };
+    }
+    case 'control': {
+      // Raw control bytes inside a string are not JSON; the reason must not carry them.
+      const at = json.indexOf(':"') + 2; // inside the first string value
+      return { kind, text: json.slice(0, at) + pickOf(rand, ['\u0000', '\u001b[2J', '\r', '\u0007']) + json.slice(at) };
+    }
   }
 }
 
@@ -154,6 +165,8 @@ describe('log readers under fuzzing', () => {
       expect(rejectLines, `seed ${seed}`).toEqual([...p.bad.keys()].sort((a, b) => a - b));
       expect(got.every((it) => (it.kind === 'event' ? it.ev.pos.file : it.reject.pos.file) === path), `seed ${seed}`).toBe(true);
       expect(got.every((it) => it.kind === 'event' || it.reject.reason.length > 0), `seed ${seed}`).toBe(true);
+      // eslint-disable-next-line no-control-regex
+      expect(got.filter((it) => it.kind === 'reject' && /[\u0000-\u001f]/.test(it.reject.reason)), `seed ${seed}: raw control characters in a reason`).toEqual([]);
     });
   }
 
@@ -271,5 +284,29 @@ describe('log readers under fuzzing', () => {
     expect(blockRejects.length, `seed ${seed}`).toBe(damaged.size);
     // Sanity: the file really was changed where we think.
     expect(readFileSync(path).equals(intact)).toBe(false);
+  });
+
+  it('counts exactly the records of every block whose sync marker is damaged, in runs of any length (seeded)', async () => {
+    const seed = 16016;
+    const rand = mulberry32(seed);
+    const records: EventRecord[] = Array.from({ length: 1200 }, (_, i) => ({ type: 'supply', id: `s${i}`, market: 'm', t: T0 + i, until: null, lat: 46.5, lon: -31.2, x: null, y: null, has: null, needs: null, side: null }));
+    const intact = await writeAvro(join(dir, 'markers.avro'), records, { blockSize: 1024, codec: pickOf(rand, ['null', 'deflate']) });
+    const layout = blockLayout(intact);
+    for (let round = 0; round < 12; round++) {
+      const file = Buffer.from(intact);
+      const damaged = new Set<number>();
+      for (let k = 0; k < layout.length; k++) if (rand() < 0.25) damaged.add(k);
+      for (const k of damaged) file[layout[k]!.dataEnd + randInt(rand, 0, 15)]! ^= randInt(rand, 1, 255);
+      const path = join(dir, `markers-${round}.avro`);
+      writeFileSync(path, file);
+      const got = await collect(path);
+      const lost = got.flatMap((it) => (it.kind === 'reject' ? [[it.reject.pos.block, Number(/; (\d+) records lost/.exec(it.reject.reason)?.[1])]] : []));
+      expect(lost, `seed ${seed} round ${round}`).toEqual([...damaged].map((k) => [k, layout[k]!.count]));
+      const kept = layout.reduce((a, b, k) => a + (damaged.has(k) ? 0 : b.count), 0);
+      expect(got.filter((it) => it.kind === 'event').length, `seed ${seed} round ${round}`).toBe(kept);
+      // Record numbers stay true after the damage: the last record is record 1200.
+      const lastEvent = got.filter((it) => it.kind === 'event').at(-1);
+      if (lastEvent?.kind === 'event' && !damaged.has(layout.length - 1)) expect(lastEvent.ev.pos.line, `seed ${seed} round ${round}`).toBe(1200);
+    }
   });
 });

@@ -4,7 +4,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { gzipSync } from 'node:zlib';
 import { afterAll, describe, expect, it } from 'vitest';
-import { formatReject, loadLog, logFormatOf, readLogFile, type LogItem } from '../../../src/consume/index.js';
+import { checkLoadedLog, formatReject, loadLog, logFormatOf, readLogFile, type LogItem } from '../../../src/consume/index.js';
 import { toEventRecord } from '../../../src/consume/schema.js';
 import type { ArrivalEvent, PairflowEvent } from '../../../src/model.js';
 import { writeAvro } from './avro-files.js';
@@ -148,13 +148,17 @@ describe('readLogFile()', () => {
     for await (const _ of reader) void _;
     const bytes = readFileSync(path);
     // Reference: node:crypto over the file read whole.
-    expect(reader.input).toEqual({ file: path, bytes: bytes.length, sha256: createHash('sha256').update(bytes).digest('hex'), lines: 7 });
+    expect(reader.input).toEqual({
+      file: path, bytes: bytes.length, sha256: createHash('sha256').update(bytes).digest('hex'), lines: 7,
+      // 2 blank lines, 3 events (2 arrivals, 1 withdraw), 2 rejected: the books of the file close.
+      blankLines: 2, events: 3, arrivals: 2, withdraws: 1, rejectedLines: 2, lostRecords: 0, damage: 0, uncountedLoss: false, complete: true, hints: [],
+    });
   });
 
-  it('throws PAIRFLOW_ERR_INPUT_NOT_FOUND for a missing file or a directory, and PAIRFLOW_ERR_INPUT_UNSUPPORTED for an unknown extension', async () => {
+  it('throws PAIRFLOW_ERR_INPUT_NOT_FOUND for a missing file, PAIRFLOW_ERR_INPUT_UNREADABLE for a directory, and PAIRFLOW_ERR_INPUT_UNSUPPORTED for an unknown extension', async () => {
     await expect(items(join(dir, 'nope.jsonl'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_NOT_FOUND' });
     mkdirSync(join(dir, 'd.jsonl'), { recursive: true });
-    await expect(items(join(dir, 'd.jsonl'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_NOT_FOUND' });
+    await expect(items(join(dir, 'd.jsonl'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_UNREADABLE' });
     await expect(items(write('x.csv', 'a,b\n'))).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_UNSUPPORTED' });
   });
 });
@@ -165,6 +169,54 @@ describe('logFormatOf()', () => {
     expect(logFormatOf('x.jsonl.gz')).toBe('jsonl.gz');
     expect(logFormatOf('x.Avro')).toBe('avro');
     expect(() => logFormatOf('x.gz')).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_INPUT_UNSUPPORTED' }));
+  });
+});
+
+describe('loadLog() limits and checkLoadedLog() (issue #10 items 5, 14)', () => {
+  const lines = (n: number, bad: number): string =>
+    [...Array.from({ length: n }, (_, i) => JSON.stringify(sup(`s${i}`, T0 + i))), ...Array.from({ length: bad }, () => 'bad')].join('\n');
+
+  it('keepRejects: false hands every reject on and keeps none, awaiting a busy output between batches', async () => {
+    const path = write('many.jsonl', lines(5, 3000));
+    let seen = 0;
+    let drains = 0;
+    const out = { get pressure() { return seen > 0 && seen % 500 < 300; }, drain: async () => { drains++; } };
+    const loaded = await loadLog([path], { metric: 'haversine', keepRejects: false, onReject: () => seen++, backpressure: out });
+    expect(loaded.rejects).toEqual([]);
+    expect([loaded.rejectCount, seen, loaded.events.length]).toEqual([3000, 3000, 5]);
+    expect(loaded.firstReject?.pos.line).toBe(6);
+    expect(drains).toBeGreaterThan(0);
+  });
+
+  it('maxRejects as a count stops reading at the reject that exceeds it; as a share it is checked at the end', async () => {
+    const path = write('limit.jsonl', lines(90, 10));
+    let seen = 0;
+    await expect(loadLog([path], { metric: 'haversine', maxRejects: { count: 3 }, onReject: () => seen++ })).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_TOO_MANY_REJECTS' });
+    expect(seen).toBe(4);
+    const loaded = await loadLog([path], { metric: 'haversine', maxRejects: { count: 10 } });
+    expect(() => checkLoadedLog(loaded, { count: 10 })).not.toThrow();
+    expect(() => checkLoadedLog(loaded, { share: 0.1 })).not.toThrow(); // 10 of 100
+    expect(() => checkLoadedLog(loaded, { share: 0.099 })).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_INPUT_TOO_MANY_REJECTS' }));
+  });
+
+  it('no valid arrival is PAIRFLOW_ERR_INPUT_NO_EVENTS, with the guessable causes as hints', async () => {
+    const noEvents = async (path: string): Promise<{ code: string; hints: readonly string[] }> => {
+      const loaded = await loadLog([path], { metric: 'haversine' });
+      try {
+        checkLoadedLog(loaded);
+      } catch (err) {
+        return { code: (err as { code: string }).code, hints: loaded.inputs[0]!.hints };
+      }
+      return { code: 'none', hints: [] };
+    };
+    const gz = await noEvents(write('gz.jsonl', gzipSync(lines(50, 0))));
+    expect(gz.code).toBe('PAIRFLOW_ERR_INPUT_NO_EVENTS');
+    expect(gz.hints).toHaveLength(1);
+    const xy = await noEvents(write('xy.jsonl', JSON.stringify({ type: 'supply', id: 's', market: 'm', t: T0, x: 1, y: 2 })));
+    expect(xy).toMatchObject({ code: 'PAIRFLOW_ERR_INPUT_NO_EVENTS', hints: [expect.stringContaining('euclidean')] });
+    expect((await noEvents(write('blank.jsonl', '\n\n'))).code).toBe('PAIRFLOW_ERR_INPUT_NO_EVENTS');
+    expect((await noEvents(write('w.jsonl', '{"type":"withdraw","id":"a","market":"m","t":5,"side":"supply"}'))).code).toBe('PAIRFLOW_ERR_INPUT_NO_EVENTS');
+    expect((await noEvents(write('ok.jsonl', lines(1, 0)))).code).toBe('none');
   });
 });
 

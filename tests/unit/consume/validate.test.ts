@@ -82,8 +82,14 @@ describe('validateEvent()', () => {
     expect(reasonOf(supply, 'euclidean')).toMatch(/field 'x'/);
     const xy = validateEvent({ ...noLatLon, x: 3.5, y: -2 }, 'euclidean');
     expect(xy).toEqual({ ok: true, event: { type: 'supply', id: 's1', market: 'north', t: supply.t, until: null, x: 3.5, y: -2 } });
-    // Euclidean x/y have no range, but must be finite.
+    // Euclidean x/y must be finite and within ±1e6 km, so every distance and cost stays finite (SPEC §5).
     expect(reasonOf({ ...noLatLon, x: Number('1e400'), y: 0 }, 'euclidean')).toMatch(/field 'x'/);
+    for (const v of [1e308, -1e308, 1e6 + 1]) expect(validateEvent({ ...noLatLon, x: 0, y: v }, 'euclidean').ok, String(v)).toBe(false);
+    expect(validateEvent({ ...noLatLon, x: -1e6, y: 1e6 }, 'euclidean').ok).toBe(true);
+    // The other metric's coordinates instead of this one's: flagged, for the hint of an empty run.
+    expect(validateEvent({ ...noLatLon, x: 1, y: 2 }, 'haversine')).toMatchObject({ ok: false, hint: 'other-metric' });
+    expect(validateEvent(supply, 'euclidean')).toMatchObject({ ok: false, hint: 'other-metric' });
+    expect(validateEvent({ ...supply, lat: 95 }, 'haversine')).not.toHaveProperty('hint');
   });
 
   it('rejects has/needs that are not arrays of strings', () => {

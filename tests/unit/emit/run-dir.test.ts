@@ -1,8 +1,8 @@
-import { mkdtempSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join } from 'node:path';
+import { basename, join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { ASSIGNMENT_CSV_HEADER, buildManifest, openRunDir, RUN_FILES, TextFileWriter } from '../../../src/emit/index.js';
+import { ASSIGNMENT_CSV_HEADER, buildManifest, checkOutputPath, openRunDir, RUN_FILES, TextFileWriter } from '../../../src/emit/index.js';
 import { DEFAULT_CONFIG } from '../../../src/model.js';
 import type { AssignmentRecord, EpochRecord, ExpiryRecord } from '../../../src/ports.js';
 
@@ -28,6 +28,8 @@ describe('openRunDir()', () => {
     sink.reject({ pos: { file: 'a.avro', line: 7, block: 0, record: 6 }, reason: 'missing id', raw: '{"type":"supply"}' });
     await sink.close();
     await sink.writeJson(RUN_FILES.summary, { windowMs: 5000 });
+    expect(existsSync(dir)).toBe(false); // written aside until committed
+    await sink.commit();
     expect(readdirSync(dir).sort()).toEqual([
       'assignments.csv', 'assignments.jsonl', 'epochs.jsonl', 'expired.jsonl', 'rejects.jsonl', 'summary.json',
     ]);
@@ -43,6 +45,48 @@ describe('openRunDir()', () => {
       file: 'a.avro', line: 7, block: 0, record: 6, reason: 'missing id', raw: '{"type":"supply"}',
     });
     expect(JSON.parse(readFileSync(join(dir, RUN_FILES.summary), 'utf8'))).toEqual({ windowMs: 5000 });
+  });
+
+  it('replaces an earlier run directory whole on commit; abort leaves it as it was and nothing beside it', async () => {
+    const base = tmp();
+    const dir = join(base, 'run');
+    const first = await openRunDir(dir);
+    first.assignment(assignment(0));
+    await first.close();
+    await first.writeJson(RUN_FILES.summary, { run: 1 });
+    await first.writeJson(RUN_FILES.manifest, { run: 1 });
+    await first.commit();
+
+    const failed = await openRunDir(dir);
+    failed.reject({ pos: { file: 'x.jsonl', line: 1 }, reason: 'bad', raw: '' });
+    expect(readdirSync(base).sort()).toEqual(['run', basename(failed.workDir)]);
+    expect(basename(failed.workDir)).toMatch(/^run\.partial-/); // a killed run leaves a directory that says so
+    await failed.abort();
+    expect(readdirSync(base)).toEqual(['run']);
+    expect(JSON.parse(readFileSync(join(dir, RUN_FILES.summary), 'utf8'))).toEqual({ run: 1 });
+    expect(readFileSync(join(dir, RUN_FILES.rejects), 'utf8')).toBe('');
+
+    const second = await openRunDir(dir);
+    await second.close();
+    await second.writeJson(RUN_FILES.summary, { run: 2 });
+    await second.commit();
+    expect(readdirSync(base)).toEqual(['run']);
+    expect(readdirSync(dir)).not.toContain(RUN_FILES.manifest); // nothing of the first run is left beside the second
+    expect(readFileSync(join(dir, RUN_FILES.assignments), 'utf8')).toBe('');
+  });
+
+  it('refuses a directory holding files it did not write, and anything under /proc or /sys', async () => {
+    const dir = join(tmp(), 'mine');
+    mkdirSync(dir);
+    writeFileSync(join(dir, 'notes.txt'), 'keep me');
+    await expect(openRunDir(dir)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_OUTPUT_WRITE', params: { file: dir } });
+    expect(readFileSync(join(dir, 'notes.txt'), 'utf8')).toBe('keep me');
+    // Node's recursive mkdir spins forever under /proc: refused before any mkdir.
+    for (const path of ['/proc/pairflow-run/a', '/proc', '/sys/kernel/pairflow']) {
+      await expect(openRunDir(path)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_OUTPUT_WRITE' });
+      await expect(checkOutputPath(path)).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_OUTPUT_WRITE' });
+    }
+    await expect(checkOutputPath(join(tmp(), 'x', 'y'))).resolves.toBeUndefined();
   });
 
   it('raises PAIRFLOW_ERR_OUTPUT_WRITE when the directory cannot be created', async () => {
@@ -72,6 +116,15 @@ describe('TextFileWriter', () => {
     const lines = readFileSync(path, 'utf8').trimEnd().split('\n');
     expect(lines).toHaveLength(n);
     expect(lines.every((l, i) => (JSON.parse(l) as { i: number }).i === i)).toBe(true);
+  });
+
+  it.skipIf(!existsSync('/dev/full'))('close() rejects naming the file when the last buffered write fails (a full device)', async () => {
+    // The failed write reports its error after end()'s callback: waiting for that alone lost it.
+    for (const lines of [1, 5000]) {
+      const w = new TextFileWriter('/dev/full', { chunkChars: 1 << 20 });
+      for (let i = 0; i < lines; i++) w.write(`{"i":${i}}\n`);
+      await expect(w.close()).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_OUTPUT_WRITE', params: { file: '/dev/full', detail: 'ENOSPC' } });
+    }
   });
 
   it('close() rejects with PAIRFLOW_ERR_OUTPUT_WRITE when the file cannot be opened', async () => {

@@ -142,7 +142,9 @@ describe('generateEvents()', () => {
 
 describe('resolveGenOptions()', () => {
   it('refuses out-of-range options with PAIRFLOW_ERR_CLI_OPTION naming the option', () => {
-    const cases: [Partial<GenOptions>, string][] = [[{ days: 0 }, '--days'], [{ markets: 1.5 }, '--markets'], [{ markets: 65 }, '--markets'], [{ scale: 0 }, '--scale'], [{ scale: 21 }, '--scale'], [{ scale: Number.NaN }, '--scale'], [{ seed: 0.5 }, '--seed']];
+    const cases: [Partial<GenOptions>, string][] = [[{ days: 0 }, '--days'], [{ markets: 1.5 }, '--markets'], [{ markets: 65 }, '--markets'], [{ scale: 0 }, '--scale'], [{ scale: 21 }, '--scale'], [{ scale: Number.NaN }, '--scale'], [{ seed: 0.5 }, '--seed'],
+      // hostile sizes (issue #10): a day count of a lifetime, seeds beyond 32 bits, days past the range of dates
+      [{ days: 3661 }, '--days'], [{ days: 1e15 }, '--days'], [{ seed: -1 }, '--seed'], [{ seed: 2 ** 32 }, '--seed'], [{ startMs: 8.64e15 - 86_400_000 }, '--start']];
     for (const [opts, option] of cases) {
       expect(() => resolveGenOptions(opts), option).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_CLI_OPTION', params: expect.objectContaining({ option }) }));
     }

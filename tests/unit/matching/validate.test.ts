@@ -37,6 +37,9 @@ describe('validateSparse() via solveSparse()', () => {
     ['unmatchedCost wrong length', { unmatchedCost: Float64Array.of(1) }],
     ['unmatchedCost NaN', { unmatchedCost: Float64Array.of(1, NaN) }],
     ['unmatchedCost -Infinity', { unmatchedCost: Float64Array.of(1, -Infinity) }],
+    // SPEC §5: finite costs whose sums overflow are input errors stating the bound.
+    ['cost near the double limit', { cost: Float64Array.of(1e308, 2, 3) }],
+    ['unmatchedCost near the double limit', { unmatchedCost: Float64Array.of(1, -1e308) }],
   ])('rejects %s with PAIRFLOW_ERR_SOLVER_INPUT', (_name, patch) => {
     expect(() => solveSparse({ ...base(), ...patch } as SparseInstance)).toThrow(INPUT);
   });

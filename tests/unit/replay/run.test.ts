@@ -9,7 +9,9 @@ import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
 import { generateEvents } from '../../../src/gen/gen.js';
 import { solveHindsight } from '../../../src/hindsight/hindsight.js';
 import { runReplay, type ReplaySummary } from '../../../src/replay/run.js';
+import { MAX_REACH_KM, validateConfig } from '../../../src/config.js';
 import { runPythonJson, scipyVersion } from '../../helpers/python.js';
+import { mulberry32 } from '../../helpers/random.js';
 
 const tmp = (): string => mkdtempSync(join(tmpdir(), 'pairflow-replay-'));
 
@@ -29,6 +31,34 @@ function stable(s: ReplaySummary): Omit<ReplaySummary, 'timings'> {
   const { timings: _t, ...rest } = s;
   return rest;
 }
+
+describe('runReplay() with extreme but valid configs (issue #10 item 11)', () => {
+  it('gives a result with a regret ≥ 0 — the hindsight a true lower bound — at the edges of every range (seeded)', async () => {
+    const seed = 1011;
+    const rand = mulberry32(seed);
+    const dir = tmp();
+    const latlon = writeLog(dir, 5, false);
+    const xyPath = join(dir, 'xy.jsonl');
+    writeFileSync(xyPath, [...generateEvents({ days: 1, seed: 5, scale: 0.005, coords: 'xy' })].map(toJsonLine).join('\n') + '\n');
+    const pick = <T>(xs: readonly T[]): T => xs[Math.floor(rand() * xs.length)]!;
+    for (let i = 0; i < 12; i++) {
+      const metric = pick(['haversine', 'euclidean'] as const);
+      const speedKmh = pick([0.001, 1, 25, 900, 10_000]);
+      const reach = MAX_REACH_KM[metric] * pick([1e-6, 0.01, 0.5, 0.999, 1]);
+      const raw = {
+        metric, speedKmh, maxTravelMin: Math.min(1e6, Math.floor((reach * 60) / speedKmh)),
+        waitWeight: pick([0, 1, 1e6]), abandonPenalty: pick([0, 30, 1e9]), reserve: pick([null, 0, 1e9]),
+        demandPatienceMin: pick([0, 10, 1e7]), supplyPatienceMin: pick([0, 30, 1e7]), windowMs: pick([1000, 5000, 3_600_000]),
+      };
+      const checked = validateConfig(raw);
+      expect('config' in checked, `seed ${seed}: ${JSON.stringify(raw)}`).toBe(true);
+      if (!('config' in checked)) continue;
+      const s = await runReplay([metric === 'euclidean' ? xyPath : latlon], checked.config, { threads: 0 });
+      expect(s.regret!, `seed ${seed} case ${i}: ${JSON.stringify(raw)}`).toBeGreaterThanOrEqual(0);
+      expect(Number.isFinite(s.online.cost) && Number.isFinite(s.hindsight!.cost), `seed ${seed} case ${i}`).toBe(true);
+    }
+  });
+});
 
 describe('runReplay()', () => {
   it('returns the SPEC §6 summary keys with their types', async () => {
@@ -143,8 +173,9 @@ describe('runReplay()', () => {
     const a = stable(await runReplay([whole], config, { threads: 0 }));
     const b = stable(await runReplay([even, odd], config, { threads: 0 }));
     const c = stable(await runReplay([odd, even], config, { threads: 0 }));
-    expect({ ...b, inputs: null }).toEqual({ ...a, inputs: null });
-    expect({ ...c, inputs: null }).toEqual({ ...a, inputs: null });
+    expect({ ...b, inputs: null, files: null }).toEqual({ ...a, inputs: null, files: null });
+    expect({ ...c, inputs: null, files: null }).toEqual({ ...a, inputs: null, files: null });
+    expect(b.files.map((f) => f.lines)).toEqual([Math.ceil(lines.length / 2), Math.floor(lines.length / 2)]);
     expect(b.inputs).toEqual(['even.jsonl', 'odd.jsonl']);
   });
 
@@ -171,8 +202,9 @@ describe('runReplay()', () => {
   it.skipIf(!haveDemo && process.env.CI !== 'true')('replaying the bundled demo day from .jsonl.gz and from .avro gives the same summary', async () => {
     const a = await runReplay([join(demo, 'demo-day.jsonl.gz')], { ...config, windowMs: 30_000 }, { hindsight: false });
     const b = await runReplay([join(demo, 'demo-day.avro')], { ...config, windowMs: 30_000 }, { hindsight: false });
-    const { inputs: ia, ...sa } = stable(a);
-    const { inputs: ib, ...sb } = stable(b);
+    const { inputs: ia, files: fa, ...sa } = stable(a);
+    const { inputs: ib, files: fb, ...sb } = stable(b);
+    expect(fb.map((f) => ({ ...f, file: '', bytes: 0 }))).toEqual(fa.map((f) => ({ ...f, file: '', bytes: 0 })));
     expect(ia).toEqual(['demo-day.jsonl.gz']);
     expect(ib).toEqual(['demo-day.avro']);
     expect(sb).toEqual(sa);

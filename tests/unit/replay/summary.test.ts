@@ -36,6 +36,13 @@ describe('regretAndRatio()', () => {
     expect(regretAndRatio(5, 0)).toEqual({ regret: 5, ratio: null });
     expect(regretAndRatio(5, null)).toEqual({ regret: null, ratio: null });
   });
+
+  it('never reports a negative regret: rounding noise is 0, anything more is a bug (the hindsight is a lower bound)', () => {
+    const online = 0.1 + 0.2; // 0.30000000000000004
+    expect(regretAndRatio(online - 1e-12, 0.3 + 1e-12)).toEqual({ regret: 0, ratio: 1 });
+    expect(() => regretAndRatio(90, 100)).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_INTERNAL_BUG' }));
+    expect(() => regretAndRatio(0, 1e-6)).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_INTERNAL_BUG' }));
+  });
 });
 
 describe('formatWindow()', () => {

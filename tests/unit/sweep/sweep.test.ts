@@ -23,7 +23,7 @@ const config: PairflowConfig = { ...DEFAULT_CONFIG };
 const windows = [2000, 10_000, 60_000];
 
 function withoutTimings(r: SweepResult): unknown {
-  return { ...r, timings: null, windows: r.windows.map((w) => ({ ...w, timings: null })) };
+  return { ...r, timings: null, policies: r.policies.map((w) => ({ ...w, timings: null })) };
 }
 
 describe('runSweep()', () => {
@@ -31,19 +31,19 @@ describe('runSweep()', () => {
 
   it('gives each window the figures of a separate runReplay, sharing one hindsight optimum', async () => {
     const r = await runSweep([week], config, { windows, threads: 1, bootstrap: 200, seed: 4 });
-    expect(r.windows.map((w) => w.windowMs)).toEqual(windows);
+    expect(r.policies.map((w) => w.policy.windowMs)).toEqual(windows);
     // Computed here, so where its time went is reported.
     expect(Object.keys(r.timings.hindsightPhases!).sort()).toEqual(['ceilingMs', 'firstSolveMs', 'graphMs', 'pricingMs', 'resolveMs', 'setupMs']);
-    for (const w of r.windows) {
-      const single = await runReplay([week], { ...config, windowMs: w.windowMs }, { threads: 0 });
-      expect(w.online, `W ${w.windowMs}`).toEqual(single.online);
-      expect(w.regret, `W ${w.windowMs}`).toBe(single.regret);
-      expect(w.ratio, `W ${w.windowMs}`).toBe(single.ratio);
+    for (const w of r.policies) {
+      const single = await runReplay([week], { ...config, windowMs: w.policy.windowMs }, { threads: 0 });
+      expect(w.online, `W ${w.policy.windowMs}`).toEqual(single.online);
+      expect(w.regret, `W ${w.policy.windowMs}`).toBe(single.regret);
+      expect(w.ratio, `W ${w.policy.windowMs}`).toBe(single.ratio);
       expect(r.hindsight).toEqual(single.hindsight);
       expect(r.demandUnits).toBe(single.demandUnits);
     }
-    const best = r.windows.reduce((b, w) => (w.online.cost < b.online.cost ? w : b));
-    expect(r.best.windowMs).toBe(best.windowMs);
+    const best = r.policies.reduce((b, w) => (w.online.cost < b.online.cost ? w : b));
+    expect(r.best.windowMs).toBe(best.policy.windowMs);
   });
 
   it('bootstraps over days for a multi-day log: intervals contain the point estimates, the same seed gives the same result', async () => {
@@ -51,15 +51,15 @@ describe('runSweep()', () => {
     const b = await runSweep([week], config, { windows, threads: 1, bootstrap: 300, seed: 9 });
     expect(withoutTimings(b)).toEqual(withoutTimings(a));
     expect(a.bootstrap).toMatchObject({ resamples: 300, seed: 9, unit: 'day', buckets: 3 });
-    for (const w of a.windows) {
-      expect(w.interval!.cost[0], `W ${w.windowMs}`).toBeLessThanOrEqual(w.online.cost);
-      expect(w.interval!.cost[1], `W ${w.windowMs}`).toBeGreaterThanOrEqual(w.online.cost);
+    for (const w of a.policies) {
+      expect(w.interval!.cost[0], `W ${w.policy.windowMs}`).toBeLessThanOrEqual(w.online.cost);
+      expect(w.interval!.cost[1], `W ${w.policy.windowMs}`).toBeGreaterThanOrEqual(w.online.cost);
       expect(w.interval!.regret[0]).toBeLessThanOrEqual(w.regret + 1e-6);
       expect(w.interval!.regret[1]).toBeGreaterThanOrEqual(w.regret - 1e-6);
     }
-    expect(a.windows.reduce((s, w) => s + w.bestShare!, 0)).toBeCloseTo(1, 12);
+    expect(a.policies.reduce((s, w) => s + w.bestShare!, 0)).toBeCloseTo(1, 12);
     const c = await runSweep([week], config, { windows, threads: 1, bootstrap: 300, seed: 10 });
-    expect(c.windows.map((w) => w.interval)).not.toEqual(a.windows.map((w) => w.interval));
+    expect(c.policies.map((w) => w.interval)).not.toEqual(a.policies.map((w) => w.interval));
   });
 
   it('resamples hours for a log shorter than two days', async () => {
@@ -74,7 +74,7 @@ describe('runSweep()', () => {
     const h = await solveHindsight(loaded.events, config, { threads: 0 });
     const r = await sweepLoaded(loaded, config, { windows: [5000], threads: 1, bootstrap: 0, hindsight: h });
     expect(r.bootstrap).toBeNull();
-    expect(r.windows[0]!.interval).toBeNull();
+    expect(r.policies[0]!.interval).toBeNull();
     expect(r.timings.hindsightMs).toBeNull();
     expect(r.timings.hindsightPhases).toBeNull();
     expect(r.hindsight.cost).toBe(h.cost);
@@ -99,7 +99,68 @@ describe('runSweep()', () => {
     expect(manifest.config).toEqual(config);
     const csv = readFileSync(join(out, 'sweep.csv'), 'utf8').split('\r\n').filter((l) => l !== '');
     expect(csv).toHaveLength(3);
-    expect(csv[1]!.split(',')[0]).toBe('5000');
+    expect(csv[1]!.split(',').slice(0, 4)).toEqual(['5s / R=P / all', '5000', '', 'all']);
+  });
+
+  it('sweeps a grid of windows x reserves x commits, each policy equal to a separate replay with its config', async () => {
+    const r = await runSweep([week], config, { windows: [5000, 30_000], reserves: [null, 5], commits: ['all', 'due'], threads: 1, bootstrap: 200, seed: 6 });
+    expect(r.policies.map((p) => p.label)).toEqual([
+      '5s / R=P / all', '5s / R=P / due', '5s / R=5 / all', '5s / R=5 / due',
+      '30s / R=P / all', '30s / R=P / due', '30s / R=5 / all', '30s / R=5 / due',
+    ]);
+    const p = r.policies.find((x) => x.label === '30s / R=5 / due')!;
+    const single = await runReplay([week], { ...config, windowMs: 30_000, reserve: 5, commit: 'due' }, { threads: 0 });
+    expect(p.online).toEqual(single.online);
+    expect(p.regret).toBe(single.regret);
+    // The cheapest policy is the reference of every paired difference.
+    const best = r.policies.reduce((b, x) => (x.online.cost < b.online.cost ? x : b));
+    expect(r.best.label).toBe(best.label);
+    expect(best.vsBest).toEqual({ diff: 0, interval: [0, 0] });
+    for (const x of r.policies) {
+      expect(x.vsBest.diff).toBeCloseTo(x.online.cost - best.online.cost, 9);
+      expect(x.vsBest.interval![0]).toBeLessThanOrEqual(x.vsBest.diff + 1e-6);
+      expect(x.vsBest.interval![1]).toBeGreaterThanOrEqual(x.vsBest.diff - 1e-6);
+    }
+    // Per-bucket costs add up to each policy's cost and the hindsight's.
+    r.buckets.policies.forEach((b, i) => expect(b.reduce((a, c) => a + c, 0)).toBeCloseTo(r.policies[i]!.online.cost, 6));
+    expect(r.buckets.hindsight.reduce((a, c) => a + c, 0)).toBeCloseTo(r.hindsight.cost, 6);
+  });
+
+  it('recommends the cheapest policy with its margin over the runner-up and whether the interval clears zero', async () => {
+    const r = await runSweep([week], config, { windows: [2000, 60_000], reserves: [null, 2], threads: 1, bootstrap: 300, seed: 1 });
+    const rec = r.recommendation;
+    expect(rec.label).toBe(r.best.label);
+    const others = r.policies.filter((p) => p.label !== rec.label).sort((a, b) => a.online.cost - b.online.cost);
+    expect(rec.runnerUp).toBe(others[0]!.label);
+    expect(rec.margin).toBeCloseTo(others[0]!.online.cost - r.best.cost, 9);
+    expect(rec.marginInterval).toEqual(others[0]!.vsBest.interval);
+    expect(rec.clear).toBe(rec.marginInterval![0] > 0);
+    expect(rec.text).toContain(rec.label);
+    expect(rec.text).toContain(rec.runnerUp!);
+    const one = await runSweep([week], config, { windows: [5000], threads: 1, bootstrap: 0 });
+    expect(one.recommendation).toMatchObject({ runnerUp: null, margin: null, clear: false });
+  });
+
+  it('outDir writes each policy\'s digest, equal to the digest of a separate replay with --out', async () => {
+    const outDir = join(dir, 'sweep-digests');
+    const r = await runSweep([week], config, { windows: [10_000], reserves: [4], threads: 1, bootstrap: 50, outDir });
+    expect(r.policies[0]!.digest).toBe('policies/1.json');
+    const run = join(dir, 'replay-digest');
+    await runReplay([week], { ...config, windowMs: 10_000, reserve: 4 }, { outDir: run, threads: 0 });
+    expect(JSON.parse(readFileSync(join(outDir, 'policies', '1.json'), 'utf8'))).toEqual(JSON.parse(readFileSync(join(run, 'digest.json'), 'utf8')));
+  });
+
+  it('checks its output directory before reading the log', async () => {
+    const file = join(dir, 'a-file');
+    writeFileSync(file, 'x');
+    await expect(runSweep(['/nonexistent/log.jsonl'], config, { windows: [5000], outDir: join(file, 'sub') })).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_OUTPUT_WRITE' });
+    await expect(runSweep(['/nonexistent/log.jsonl'], config, { windows: [5000], commits: [] })).rejects.toMatchObject({ code: 'PAIRFLOW_ERR_CLI_OPTION' });
+  });
+
+  it('tells its phases as they start', async () => {
+    const phases: string[] = [];
+    await runSweep([week], config, { windows: [5000, 10_000], threads: 1, bootstrap: 20, onPhase: (p) => phases.push(p) });
+    expect(phases).toEqual(['load', 'hindsight', 'policies', 'bootstrap']);
   });
 
   it('rejects an empty window list', async () => {

@@ -300,9 +300,12 @@ describe('WindowEngine: capabilities', () => {
 });
 
 describe('WindowEngine: late events (live mode)', () => {
+  // Lateness 5 s: the late events below are within what the engine keeps history for.
+  const lax: PairflowConfig = { ...base, allowedLatenessMs: 5000 };
+
   it('an event before an epoch already closed is counted and joins from the next epoch', () => {
     const rec = new Recorder();
-    const engine = new WindowEngine(base, rec, { verify: true });
+    const engine = new WindowEngine(lax, rec, { verify: true });
     const [d, s] = sourced([
       { type: 'demand', id: 'd', t: 2000 },
       { type: 'supply', id: 's', t: 5500, x: 1 },
@@ -318,7 +321,7 @@ describe('WindowEngine: late events (live mode)', () => {
 
   it('a late unit no longer available when it could join is expired, not pooled', () => {
     const rec = new Recorder();
-    const engine = new WindowEngine(base, rec, { verify: true });
+    const engine = new WindowEngine(lax, rec, { verify: true });
     const [d, s] = sourced([
       { type: 'demand', id: 'd', t: 2000, until: 4000 },
       { type: 'supply', id: 's', t: 5500, x: 1 },
@@ -330,6 +333,40 @@ describe('WindowEngine: late events (live mode)', () => {
     expect(pairs(rec)).toEqual([]);
     expect(rec.expiries[0]).toMatchObject({ side: 'demand', id: 'd', epoch: 6000, cost: 30 });
     expect(engine.totals()).toMatchObject({ late: 1, abandoned: 1 });
+  });
+
+  it('late events are counted in the next epoch record of their market', () => {
+    const rec = new Recorder();
+    const engine = new WindowEngine(lax, rec, { verify: true });
+    const [d, s, d2, s2] = sourced([
+      { type: 'demand', id: 'd', t: 2000 },
+      { type: 'supply', id: 's', t: 2500, x: 1 },
+      { type: 'demand', id: 'd2', t: 3500, x: 0.5 },
+      { type: 'supply', id: 's2', t: 5500, x: 0.5 },
+    ]);
+    engine.advanceTo(4000);
+    engine.ingest(d!); // both late: before the closed epoch 4000
+    engine.ingest(s!);
+    engine.advanceTo(5000);
+    engine.ingest(d2!); // late
+    engine.ingest(s2!); // on time
+    engine.advanceTo(6000);
+    expect(rec.epochs.map((e) => [e.epoch, e.late])).toEqual([[5000, 2], [6000, 1]]);
+  });
+
+  it('an event older than the last closed epoch minus allowedLatenessMs is refused, with the reason', () => {
+    const rec = new Recorder();
+    const engine = new WindowEngine(base, rec, { verify: true });
+    const [d, d2] = sourced([{ type: 'demand', id: 'd', t: 2999 }, { type: 'demand', id: 'd2', t: 3000 }]);
+    engine.advanceTo(5000);
+    expect(engine.ingest(d!)).toMatch(/too late/);
+    expect(engine.ingest(d2!)).toBeNull();
+    expect(engine.totals()).toMatchObject({ tooLate: 1, late: 1, demandUnits: 1 });
+    // Unbounded, nothing is forgotten and nothing refused.
+    const keepAll = new WindowEngine(base, new Recorder(), { bounded: false });
+    keepAll.advanceTo(5000);
+    expect(keepAll.ingest(d!)).toBeNull();
+    expect(keepAll.totals()).toMatchObject({ tooLate: 0, late: 1 });
   });
 
   it('an event at exactly the last closed epoch is not late', () => {
@@ -678,26 +715,34 @@ describe('WindowEngine: snapshot() and restore()', () => {
     engine.advanceTo(2000);
     const snap = engine.snapshot('m');
     expect(JSON.parse(JSON.stringify(snap))).toEqual(snap);
-    expect(snap).toMatchObject({ version: 1, market: 'm', windowMs: 1000, lastClosed: 2000 });
+    expect(snap).toMatchObject({ version: 2, market: 'm', windowMs: 1000, lastClosed: 2000, late: 0 });
     expect(snap.units.map((u) => [u.side, u.id, u.state])).toEqual([
       ['demand', 'd', 'pool'], ['demand', 'e', 'pool'], ['supply', 's', 'pool'], ['supply', 'later', 'pending'],
     ]);
     expect(rec.epochs.map((x) => [x.epoch, x.tentative])).toEqual([[2000, 1]]);
     expect(snap.units[0]).toMatchObject({ needs: ['van'], x: 0 });
     expect(snap.units[3]!.joinEpoch).toBe(3000);
+    expect(snap.units.slice(0, 3).map((u) => u.slot)).toEqual([0, 1, 0]);
+    expect(snap.pools).toEqual({ demand: { high: 2, free: [] }, supply: { high: 1, free: [] } });
     expect(snap.tentative).toEqual([[0, 2]]);
     expect(snap.units.every((u) => u.state === 'pending' || typeof u.price === 'number')).toBe(true);
     expect(engine.snapshot('none')).toMatchObject({ lastClosed: 2000, units: [], tentative: [] });
   });
 
   it('restore() rejects another version, another window or a damaged state with PAIRFLOW_ERR_STATE_INVALID', () => {
-    const good = { version: 1, market: 'm', windowMs: 1000, lastClosed: 5000, units: [], tentative: [] };
-    const unit = { side: 'demand', id: 'd', t: 0, until: 9000, end: 9000, seq: 0, price: null, state: 'pool', joinEpoch: 1000 };
+    const pools = { demand: { high: 1, free: [] }, supply: { high: 0, free: [] } };
+    const good = { version: 2, market: 'm', windowMs: 1000, lastClosed: 5000, late: 0, pools, units: [], tentative: [] };
+    const noSlots = { ...good, pools: { demand: { high: 0, free: [] }, supply: { high: 0, free: [] } } };
+    const unit = { side: 'demand', id: 'd', t: 0, until: 9000, end: 9000, seq: 0, price: null, state: 'pool', slot: 0 };
     const cases: unknown[] = [
-      null, 'x', { ...good, version: 2 }, { ...good, windowMs: 5000 }, { ...good, units: 'no' },
+      null, 'x', { ...good, version: 1 }, { ...good, windowMs: 5000 }, { ...good, units: 'no' },
       { ...good, units: [{ ...unit, side: 'both' }] }, { ...good, units: [{ ...unit, t: 'soon' }] },
       { ...good, units: [{ ...unit, has: [1] }] }, { ...good, units: [unit], tentative: [[0, 0]] },
-      { ...good, units: [unit], tentative: [[0, 7]] }, { ...good, units: [unit, unit] },
+      { ...good, units: [unit], tentative: [[0, 7]] }, { ...good, units: [unit, { ...unit, t: 1 }] },
+      { ...good, units: [unit, unit] }, { ...good, late: -1 }, { ...good, pools: null },
+      // Slot 0 below high but neither used nor free; a slot out of range; a pending unit without joinEpoch.
+      good, { ...noSlots, units: [unit] }, { ...noSlots, units: [{ ...unit, state: 'pending', slot: undefined }] },
+      { ...good, pools: { ...pools, demand: { high: 1, free: [0] } }, units: [unit] },
     ];
     for (const state of cases) {
       const engine = new WindowEngine(base, new Recorder());
@@ -712,5 +757,8 @@ describe('WindowEngine: snapshot() and restore()', () => {
     const ok = new WindowEngine(base, new Recorder());
     ok.restore('m', { ...good, units: [unit] });
     expect(ok.snapshot('m').units.map((u) => u.id)).toEqual(['d']);
+    const done = new WindowEngine(base, new Recorder());
+    done.restore('m', { ...noSlots, units: [{ ...unit, state: 'done', slot: undefined, end: 4000 }] });
+    expect(done.snapshot('m').units.map((u) => [u.id, u.state])).toEqual([['d', 'done']]);
   });
 });
