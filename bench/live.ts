@@ -21,7 +21,7 @@
  * `--only throughput,paced,restore` picks parts.
  */
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
-import { mkdirSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { loadavg } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -214,12 +214,39 @@ async function restore(brokers: string, dir: string, quick: boolean, log: (s: st
   return res;
 }
 
-function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: ThroughputResult[] | null, p: PacedResult | null, r: RestoreResult | null): string {
+/** When a part ran, and the machine's load then. */
+interface PartTime { at: string; loadStart: number; loadEnd: number }
+
+/** Runs one part of the bench, noting when it ran. */
+async function timed<T>(times: Partial<Record<'throughput' | 'paced' | 'restore', PartTime>>, part: 'throughput' | 'paced' | 'restore', run: () => Promise<T>): Promise<T> {
+  const at = new Date().toISOString().slice(0, 16).replace('T', ' ');
+  const loadStart = loadavg()[0] ?? 0;
+  const out = await run();
+  times[part] = { at, loadStart, loadEnd: loadavg()[0] ?? 0 };
+  return out;
+}
+
+/**
+ * The parts (### subsections) of the current bench:live section of `doc` that this run
+ * did not measure, by title, so `--only` keeps them.
+ */
+function keptParts(doc: string): Map<string, string> {
+  const kept = new Map<string, string>();
+  const a = doc.indexOf('<!-- bench:live:start -->');
+  const b = doc.indexOf('<!-- bench:live:end -->');
+  if (a < 0 || b < a) return kept;
+  const parts = doc.slice(a, b).split(/\n(?=### )/).slice(1);
+  for (const part of parts) kept.set(part.slice(0, part.indexOf('\n')), part.trimEnd());
+  return kept;
+}
+
+function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: ThroughputResult[] | null, p: PacedResult | null, r: RestoreResult | null, times: Partial<Record<'throughput' | 'paced' | 'restore', PartTime>>, kept: Map<string, string>): string {
   const out: string[] = ['## Live mode on Kafka (`npm run bench:live`)', ''];
-  out.push(`Run ${new Date().toISOString().slice(0, 16).replace('T', ' ')} UTC${quick ? ', quick mode (smoke sizes)' : ''}, on ${m.cpu} (${m.cores} cores, ${m.memoryGb} GB), Node ${m.node}; the Kafka broker (local, KRaft, scripts/kafka.mjs) on the same machine; 1-minute load at start ${m.loadAtStart.toFixed(2)}, at end ${(loadavg()[0] ?? 0).toFixed(2)}. Targets from the live-mode issue: ≥ 20,000 events/s backlog, p99 close-to-commit ≤ 250 ms paced, restore of 10,000 units ≤ 10 s, memory at 30 minutes within 10 % of 10 minutes.`);
+  out.push(`On ${m.cpu} (${m.cores} cores, ${m.memoryGb} GB), Node ${m.node}${quick ? ', quick mode (smoke sizes)' : ''}; the Kafka broker (local, KRaft, scripts/kafka.mjs) on the same machine. Targets from the live-mode issue: ≥ 20,000 events/s backlog, p99 close-to-commit ≤ 250 ms paced, restore of 10,000 units ≤ 10 s, memory at 30 minutes within 10 % of 10 minutes. Each part says when it ran and the machine's 1-minute load average then (the machine is shared); \`--only PART\` reruns one part and keeps the others as they were.`);
   out.push('');
+  const when = (at: PartTime): string => `Run ${at.at} UTC, 1-minute load ${at.loadStart.toFixed(2)} at its start, ${at.loadEnd.toFixed(2)} at its end.`;
   if (t) {
-    out.push('### Backlog throughput', '');
+    out.push('### Backlog throughput', '', when(times.throughput!), '');
     out.push('A generated city log (`pairflow gen`) published first (4 partitions, `pairflow publish`), then one `pairflow live` process drains it (commit "all", W = 5 s, JSON values). "busy" runs from the first record taken to the commit of the last one; "whole process" adds start-up, topic checks and the group join. Scale multiplies the units per day of each market: at scale 5 the pools are five times as full, and the engine\'s own work per event (candidate pairs, solves) grows with them — `bench:replay` times the engine alone.');
     out.push('');
     out.push('| log | events | publish | drain, busy | events/s busy | events/s whole process | transactions |');
@@ -228,7 +255,7 @@ function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: Throughp
     out.push('');
   }
   if (p) {
-    out.push('### Paced run', '');
+    out.push('### Paced run', '', when(times.paced!), '');
     const hhmm = (h: number): string => `${String(Math.floor(h)).padStart(2, '0')}:${String(Math.round((h % 1) * 60)).padStart(2, '0')}`;
     const backlogText = p.backlog > 0 ? `First its hours from ${hhmm(p.backlogFromHour)} to ${hhmm(p.fromHour)} (${p.backlog.toLocaleString('en-US')} events) are published at once and drained, so the pools are as full as those of a processor that has run all day; then ` : '';
     out.push(`The log: a city at scale ${p.scale}. ${backlogText}it is published as time passes, ${p.speedup === 1 ? 'in real time' : `event time running ${p.speedup}× the wall clock`}, from ${hhmm(p.fromHour)} of its first day (${p.published.toLocaleString('en-US')} events) — an hour of the generated day where the pools hold steady, so the memory of minute 10 and minute 30 compare like with like. Each row is the processor's own figures for one minute: resident memory, records behind the end of the input (lag, summed over partitions), and the epoch-close-to-commit latency: from the watermark passing an epoch to the commit of the transaction holding that epoch's records.`);
@@ -241,13 +268,24 @@ function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: Throughp
     if (!quick) out.push('![Resident memory, consumer lag and close-to-commit p99 per minute of the paced run](bench-live-paced.svg)', '');
   }
   if (r) {
-    out.push('### Restore', '');
+    out.push('### Restore', '', when(times.restore!), '');
     out.push(`${r.units.toLocaleString('en-US')} supply units held in the pools of ${r.markets} markets on ${r.partitions} partitions (nothing to match them), committed; then a new process takes the group over and restores them from the pool topic (${r.poolRecords} pool records read): producer fenced and initialised, a marker committed, the partition read back to it, the markets rebuilt.`);
     out.push('');
     out.push(`| units | slowest partition | per partition (ms) | process ready after |`);
     out.push('|---|---|---|---|');
     out.push(`| ${r.units.toLocaleString('en-US')} | ${Math.max(...r.restoreMs)} ms | ${r.restoreMs.join(', ')} | ${(r.readyMs / 1000).toFixed(1)} s |`);
     out.push('');
+  }
+  // Parts not measured this time stay as they were, in their usual order.
+  const order = ['### Backlog throughput', '### Paced run', '### Restore'];
+  const measured = new Set([t ? order[0] : '', p ? order[1] : '', r ? order[2] : '']);
+  if (!quick) {
+    const text = out.join('\n');
+    const sections = new Map<string, string>();
+    for (const part of text.split(/\n(?=### )/).slice(1)) sections.set(part.slice(0, part.indexOf('\n')), part.trimEnd());
+    const head = text.split(/\n(?=### )/)[0]!.trimEnd();
+    const body = order.map((title) => (measured.has(title) ? sections.get(title) : kept.get(title))).filter((x): x is string => x !== undefined);
+    return `<!-- bench:live:start -->\n${[head, ...body].join('\n\n')}\n<!-- bench:live:end -->`;
   }
   return `<!-- bench:live:start -->\n${out.join('\n').trimEnd()}\n<!-- bench:live:end -->`;
 }
@@ -298,15 +336,18 @@ export async function runLiveBench(opts: LiveBenchOptions = {}): Promise<{ throu
     own = true;
   }
   try {
+    const times: Partial<Record<'throughput' | 'paced' | 'restore', PartTime>> = {};
     const sizes = quick ? [{ days: 1, scale: 0.05 }] : [{ days: 5, scale: 1 }, { days: 1, scale: 5 }];
     let t: ThroughputResult[] | null = null;
     if (only.has('throughput')) {
       t = [];
-      for (const size of sizes) t.push(await throughput(brokers, dir, size, log));
+      await timed(times, 'throughput', async () => {
+        for (const size of sizes) t!.push(await throughput(brokers, dir, size, log));
+      });
     }
-    const r = only.has('restore') ? await restore(brokers, dir, quick, log) : null;
-    const p = only.has('paced') ? await paced(brokers, dir, quick, opts.minutes ?? 30, opts.speedup ?? (quick ? 60 : 1), log) : null;
-    const md = markdown(m, quick, t, p, r);
+    const r = only.has('restore') ? await timed(times, 'restore', () => restore(brokers, dir, quick, log)) : null;
+    const p = only.has('paced') ? await timed(times, 'paced', () => paced(brokers, dir, quick, opts.minutes ?? 30, opts.speedup ?? (quick ? 60 : 1), log)) : null;
+    const md = markdown(m, quick, t, p, r, times, keptParts(existsSync(DOC) ? readFileSync(DOC, 'utf8') : ''));
     if ((opts.write ?? true) && p && !quick) writeFileSync(CHART, `${await pacedChart(p)}\n`);
     if (opts.write ?? true) writeSection(DOC, 'live', md.replace(/^<!-- bench:live:start -->\n/, '').replace(/\n<!-- bench:live:end -->$/, ''));
     return { throughput: t, paced: p, restore: r, markdown: md };

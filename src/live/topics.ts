@@ -36,13 +36,17 @@ export const OUTPUT_TOPIC_CONFIG: ReadonlyArray<{ name: string; value: string }>
 ];
 
 /**
- * The pool topic: compacted (the latest state per market), in small segments so that
- * compaction keeps up and a restore reads little more than the latest states; records
- * up to 64 MiB (a market with a large pool is one record).
+ * The pool topic: compacted (the latest state per market), in segments rolled every
+ * minute so that compaction keeps up and a restore reads little more than the latest
+ * states; records up to 64 MiB (a market with a large pool is one record). A segment
+ * must hold a transaction's whole batch of pool records (the broker refuses a batch
+ * larger than `segment.bytes`): while a backlog drains, a partition's pools can hold
+ * tens of thousands of units (measured: 50,000 units, over 8 MiB, in one partition of a
+ * scale-20 city), so segments may grow to 128 MiB and `segment.ms` rolls them.
  */
 export const POOL_TOPIC_CONFIG: ReadonlyArray<{ name: string; value: string }> = [
   { name: 'cleanup.policy', value: 'compact' },
-  { name: 'segment.bytes', value: String(8 << 20) },
+  { name: 'segment.bytes', value: String(128 << 20) },
   { name: 'segment.ms', value: '60000' },
   { name: 'min.cleanable.dirty.ratio', value: '0.1' },
   { name: 'max.message.bytes', value: String(64 << 20) },
