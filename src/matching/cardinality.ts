@@ -1,5 +1,6 @@
 /**
- * Maximum-cardinality bipartite matching (Hopcroft–Karp) and the minimum vertex
+ * Maximum-cardinality bipartite matching (Hopcroft–Karp, finished by depth-first
+ * passes once its phases augment few paths) and the minimum vertex
  * cover it proves by König's theorem. Costs play no part here: the replay report
  * uses the matching size as the "match ceiling" of a window (no policy can match
  * more pairs than exist disjointly) and the cover to name the units that limit it.
@@ -65,9 +66,11 @@ function checkGraph(g: BipartiteGraph): void {
 }
 
 /**
- * A maximum-cardinality matching by Hopcroft–Karp: O(E·√V). A greedy pass seeds
- * it; each phase then layers the graph by BFS from the free rows and augments
- * along a maximal set of vertex-disjoint shortest paths, found by an explicit-stack DFS.
+ * A maximum-cardinality matching by Hopcroft–Karp. A greedy pass seeds it; each
+ * phase then layers the graph by BFS from the free rows and augments along a maximal
+ * set of vertex-disjoint shortest paths, found by an explicit-stack DFS. Once a phase
+ * augments fewer than {@link DEPTH_FIRST_BELOW} paths, depth-first passes finish
+ * the job (see depthFirstPasses).
  *
  * @example
  * const g = { nRows: 2, nCols: 2, rowPtr: Int32Array.of(0, 2, 3), colIdx: Int32Array.of(0, 1, 0) };
@@ -98,8 +101,14 @@ export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
   const next = new Int32Array(nRows); // per-row cursor into its pairs, kept across DFS restarts
   const stack = new Int32Array(nRows);
   let r = 0, r2 = 0, c = 0, e = 0, end = 0, head = 0, tail = 0, sp = 0, limit = 0, lr = 0;
+  let phaseAugments = Infinity;
 
   for (;;) {
+    if (phaseAugments < DEPTH_FIRST_BELOW) {
+      size += depthFirstPasses(g, rowToCol, colToRow);
+      break;
+    }
+    phaseAugments = 0;
     // BFS: layer rows by alternating-path length from the free rows; `limit` is the
     // length of the shortest augmenting path (the layer at which a free column appears).
     head = 0;
@@ -158,6 +167,7 @@ export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
               colToRow[col] = row;
             }
             size++;
+            phaseAugments++;
             // The path's rows must not start another path this phase.
             for (let i = 0; i < sp; i++) layer[stack[i]!] = UNREACHED;
             break;
@@ -172,6 +182,103 @@ export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
     }
   }
   return { size, rowToCol, colToRow };
+}
+
+/**
+ * A Hopcroft–Karp phase costs a pass over the pairs of every row its BFS reaches,
+ * however few paths it then augments. Near the end (long augmenting paths, one or two
+ * per phase: a week of a busy market took twenty such phases) the depth-first passes
+ * below find all the remaining paths in a pass or two instead.
+ */
+const DEPTH_FIRST_BELOW = 64;
+
+/**
+ * Augments a matching to a maximum one by depth-first passes (Pothen and Fan's
+ * method with lookahead, the scan direction alternating between passes for fairness,
+ * as in Duff, Kaya and Uçar's study of maximum transversal algorithms). Each pass runs
+ * a depth-first search for an augmenting path from every free row, a column visited
+ * at most once per pass, so a pass costs O(pairs); a pass that augments nothing has
+ * searched everything reachable from the free rows by alternating paths without
+ * meeting a free column, which (Berge) proves the matching maximum. The lookahead
+ * cursor of a row only moves forward: a matched column never becomes free again.
+ * Iterative, so paths of any length fit. Returns the number of augmentations.
+ */
+function depthFirstPasses(g: BipartiteGraph, rowToCol: Int32Array, colToRow: Int32Array): number {
+  const { nRows, nCols, rowPtr, colIdx } = g;
+  const look = rowPtr.slice(0, nRows);
+  const next = new Int32Array(nRows);
+  const stack = new Int32Array(nRows);
+  // via[i]: the column through which stack[i + 1] was reached (its matched column).
+  const via = new Int32Array(nRows);
+  const seen = new Int32Array(nCols);
+  let added = 0;
+  for (let pass = 1; ; pass++) {
+    const forward = (pass & 1) === 1;
+    let found = 0;
+    for (let root = 0; root < nRows; root++) {
+      if (rowToCol[root] !== -1 || rowPtr[root] === rowPtr[root + 1]) continue;
+      let sp = 0;
+      stack[sp++] = root;
+      next[root] = forward ? rowPtr[root]! : rowPtr[root + 1]! - 1;
+      while (sp > 0) {
+        const r = stack[sp - 1]!;
+        const end = rowPtr[r + 1]!;
+        // Lookahead: a free column of r ends the path at once.
+        let e = look[r]!;
+        let free = -1;
+        while (e < end) {
+          const c = colIdx[e++]!;
+          if (colToRow[c] === -1) {
+            free = c;
+            break;
+          }
+        }
+        look[r] = e;
+        if (free >= 0) {
+          for (let i = 0; i < sp - 1; i++) {
+            rowToCol[stack[i]!] = via[i]!;
+            colToRow[via[i]!] = stack[i]!;
+          }
+          rowToCol[r] = free;
+          colToRow[free] = r;
+          found++;
+          break;
+        }
+        // Every column of r is matched: go on through the next one not yet visited.
+        let child = -1;
+        if (forward) {
+          for (let f = next[r]!; f < end; f++) {
+            const c = colIdx[f]!;
+            if (seen[c] === pass) continue;
+            seen[c] = pass;
+            next[r] = f + 1;
+            via[sp - 1] = c;
+            child = colToRow[c]!;
+            break;
+          }
+        } else {
+          const start = rowPtr[r]!;
+          for (let f = next[r]!; f >= start; f--) {
+            const c = colIdx[f]!;
+            if (seen[c] === pass) continue;
+            seen[c] = pass;
+            next[r] = f - 1;
+            via[sp - 1] = c;
+            child = colToRow[c]!;
+            break;
+          }
+        }
+        if (child < 0) {
+          sp--;
+          continue;
+        }
+        stack[sp++] = child;
+        next[child] = forward ? rowPtr[child]! : rowPtr[child + 1]! - 1;
+      }
+    }
+    added += found;
+    if (found === 0) return added;
+  }
 }
 
 /**

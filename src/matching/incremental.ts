@@ -71,11 +71,18 @@ class Lines {
     const index = new Int32Array(size);
     const cost = new Float64Array(size);
     let at = 0;
+    const oldIndex = this.index;
+    const oldCost = this.cost;
     for (let l = 0; l < this.start.length; l++) {
       const from = this.start[l]!;
       const n = this.end[l]! - from;
-      index.set(this.index.subarray(from, from + n), at);
-      cost.set(this.cost.subarray(from, from + n), at);
+      // A plain loop: lines hold a few dozen pairs, and a subarray per line (a new
+      // typed-array object each) cost more than the copy itself — seconds over a
+      // week's restricted instance, compacted dozens of times.
+      for (let k = 0; k < n; k++) {
+        index[at + k] = oldIndex[from + k]!;
+        cost[at + k] = oldCost[from + k]!;
+      }
       this.start[l] = at;
       this.end[l] = at + n;
       at += this.cap[l]!;
@@ -264,8 +271,11 @@ export class GrowingAssignment {
     const colIdx = new Int32Array(rowPtr[nRows]!);
     const c = new Float64Array(rowPtr[nRows]!);
     for (let r = 0; r < nRows; r++) {
-      colIdx.set(index.subarray(start[r]!, end[r]!), rowPtr[r]!);
-      c.set(cost.subarray(start[r]!, end[r]!), rowPtr[r]!);
+      let at = rowPtr[r]!;
+      for (let e = start[r]!; e < end[r]!; e++) {
+        colIdx[at] = index[e]!;
+        c[at++] = cost[e]!;
+      }
     }
     return { nRows, nCols, rowPtr, colIdx, cost: c, unmatchedCost: delta };
   }

@@ -260,15 +260,27 @@ class ReverseSearch {
         const di = dist[i]!;
         const x = off + colCost[t]! - u[i]!;
         if (!(x < di) || x >= best) continue; // also skips settled rows (di = -Infinity)
-        if (di === Infinity) {
-          touched[nTouched++] = i;
-          p = hsize++;
-        } else {
-          p = hpos[i]!;
-        }
+        if (di === Infinity) touched[nTouched++] = i;
         dist[i] = x;
         predCol[i] = c;
+        // Terminals count as soon as they are reached, so `best` falls early and
+        // prunes the heap (the rows settled stay the same: the search still stops
+        // once no heap entry is below best). An unmatched row is only ever a
+        // terminal; a matched row's column could go free at x − v.
+        const k = rowToCol[i]!;
+        if (k === NONE) {
+          best = x;
+          bestCol = NONE;
+          bestRow = i;
+          continue;
+        }
+        p = di === Infinity ? hsize++ : hpos[i]!;
         heapUp(hkey, hrow, hpos, p, x, i);
+        const term = x - v[k]!;
+        if (term < best) {
+          best = term;
+          bestCol = k;
+        }
       }
       scanned += stop - colStart[c]!;
       if (hsize === 0 || hkey[0]! >= best) break;
@@ -277,22 +289,11 @@ class ReverseSearch {
       const d = hkey[0]!;
       heapPopRoot(hkey, hrow, hpos, hsize--);
       dist[i] = -Infinity;
+      // (only matched rows enter the heap; their terminal was counted when reached)
       c = rowToCol[i]!;
-      if (c === NONE) {
-        // an unmatched row (at u = δ) takes the chain's first move: the cheapest option left
-        best = d;
-        bestCol = NONE;
-        bestRow = i;
-        break;
-      }
       settledRow[nSettled] = i;
       settledRowDist[nSettled++] = d;
       dc = d;
-      const term = d - v[c]!;
-      if (term < best) {
-        best = term;
-        bestCol = c;
-      }
     }
 
     // dual update: settled columns (j0 and the settled rows' columns) rise, their rows fall

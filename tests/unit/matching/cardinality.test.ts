@@ -102,6 +102,29 @@ describe('maxCardinalityMatching()', () => {
     }
   });
 
+  it('hands Hopcroft–Karp over to depth-first passes on large graphs and still proves a maximum (König cover)', () => {
+    // Large enough that the first phases augment many paths and the last ones few,
+    // so both methods run; sparse rows with a few long-range columns make long paths.
+    for (let seed = 2001; seed <= 2006; seed++) {
+      const rand = mulberry32(seed);
+      const nRows = randInt(rand, 3000, 6000);
+      const nCols = randInt(rand, nRows - 500, nRows + 500);
+      const lists: number[][] = [];
+      for (let r = 0; r < nRows; r++) {
+        const near = Math.floor((r * nCols) / nRows);
+        const set = new Set<number>();
+        const deg = randInt(rand, 0, 3);
+        while (set.size < deg) set.add(Math.min(nCols - 1, Math.max(0, near + randInt(rand, -3, 3))));
+        if (randInt(rand, 0, 9) === 0) set.add(randInt(rand, 0, nCols - 1));
+        lists.push([...set]);
+      }
+      const g = graphFromLists(nCols, lists);
+      const m = maxCardinalityMatching(g);
+      expectValidMatching(g, m, seed);
+      expectCoverCertifies(g, m, seed);
+    }
+  });
+
   it('agrees in size with scipy.sparse.csgraph.maximum_bipartite_matching on seeded graphs', (ctx) => {
     // Reference: scipy.sparse.csgraph.maximum_bipartite_matching (scipy ≥ 1.4, Hopcroft–Karp).
     if (scipyVersion() === null) ctx.skip();
