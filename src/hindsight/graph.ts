@@ -14,7 +14,7 @@
  * whichever of the two arrives later, and never by comparing all pairs.
  *
  * A week of a busy market has tens of millions of pairs, so the solve keeps them
- * compact (see {@link CompactGraph}): 9 bytes a pair, written once, in place.
+ * compact (see {@link CompactGraph}): one 32-bit word a pair, written once, in place.
  */
 
 import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
