@@ -285,8 +285,20 @@ class MarketState {
   readonly expiry = new KeyedHeap();
   /** Pool units keyed by the first epoch at which they are at their last chance. */
   readonly lastChance = new KeyedHeap();
-  /** Reported occurrences keyed by the last-closed epoch from which they can be forgotten. */
+  /**
+   * Reported occurrences keyed by the last-closed epoch from which their index can be
+   * reused: past their end plus the lateness and past every trigger pushed for them
+   * (a stale trigger must not fire for the index's next occurrence).
+   */
   readonly retire = new KeyedHeap();
+  /**
+   * Reported occurrences keyed by the last-closed epoch past their end plus the
+   * lateness (pushed again when the end moves earlier): from then on no accepted event
+   * can concern them, so they leave the snapshot, though their index waits in `retire`.
+   */
+  readonly quiet = new KeyedHeap();
+  /** Reported occurrences out of `quiet` whose index still waits in `retire`. */
+  readonly forgotten = new Set<number>();
   /** Something changed since the last solve that can change the optimum. */
   dirty = false;
   /** Late events since the last epoch record. */
@@ -585,7 +597,7 @@ export class WindowEngine {
     }
     const bySeq = (x: [number, number], y: [number, number]): number => x[0] - y[0] || this.bySeq(x[1], y[1]);
     for (const [key, id] of m.pending.entries().sort(bySeq)) add(id, { state: 'pending', joinEpoch: key });
-    for (const [, id] of m.retire.entries().sort(bySeq)) add(id, { state: 'done' });
+    for (const [, id] of m.retire.entries().sort(bySeq)) if (!m.forgotten.has(id)) add(id, { state: 'done' });
     for (let slot = 0; slot < m.demand.high; slot++) {
       const d = m.demand.slotOcc[slot]!;
       if (d >= 0 && this.partner[d]! >= 0) snap.tentative.push([at.get(d)!, at.get(this.partner[d]!)!]);
@@ -710,8 +722,13 @@ export class WindowEngine {
   }
 
   private endMoved(m: MarketState, occ: Occurrence): void {
-    if (this.state[occ.index] === ST_POOL) {
+    const st = this.state[occ.index];
+    if (st === ST_POOL) {
       this.push(m, m.expiry, Math.max(this.epochAfter(occ.end), m.lastClosed + this.W), occ.index);
+    } else if (this.bounded && (st === ST_MATCHED || st === ST_GONE)) {
+      // A reported occurrence ended earlier (its courier is back after the job): it
+      // falls quiet sooner. Its earlier entry stays; it is skipped when it comes up.
+      m.quiet.push(occ.end + this.L + 1, occ.index);
     }
   }
 
@@ -719,13 +736,22 @@ export class WindowEngine {
   private retireLater(m: MarketState, id: number): void {
     if (!this.bounded) return;
     const o = this.ledger.occurrences[id]!;
+    m.quiet.push(o.end + this.L + 1, id);
     m.retire.push(Math.max(o.end + this.L + 1, this.maxKey[id]!), id);
   }
 
   /** Forgets the reported occurrences of `m` that no accepted event can concern any more. */
   private retireDue(m: MarketState): void {
+    // Quiet first: a `quiet` key of an occurrence is never above its `retire` key (an
+    // end only moves earlier), so no quiet entry outlives its index.
+    while (m.quiet.size > 0 && m.quiet.peekKey() <= m.lastClosed) {
+      const id = m.quiet.pop();
+      const st = this.state[id];
+      if (st === ST_MATCHED || st === ST_GONE) m.forgotten.add(id);
+    }
     while (m.retire.size > 0 && m.retire.peekKey() <= m.lastClosed) {
       const id = m.retire.pop();
+      m.forgotten.delete(id);
       this.state[id] = 0;
       this.cand[id] = undefined;
       this.ledger.release(id);

@@ -199,6 +199,40 @@ describe('WindowEngine state: bounded memory', () => {
   });
 });
 
+describe('WindowEngine state: couriers back after each job', () => {
+  it('a matched occurrence ended by its courier coming back leaves the snapshot once past the lateness, not at the end of the shift', () => {
+    // 20 couriers on 8-hour shifts, each back 5 minutes after every job (SPEC §1: the
+    // new arrival ends the matched occurrence at its time); orders every few seconds.
+    const rand = mulberry32(77);
+    const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', windowMs: 5000, allowedLatenessMs: 2000, maxTravelMin: 60 };
+    const shiftEnd = 8 * 3_600_000;
+    const backAt: Array<{ t: number; id: string }> = [];
+    const sink = new Tape();
+    const matched: string[] = [];
+    sink.assignment = (a: AssignmentRecord): void => { matched.push(a.supplyId); backAt.push({ t: a.epoch + 300_000, id: a.supplyId }); };
+    const engine = new WindowEngine(config, sink);
+    let seq = 0;
+    const offer = (t: number, side: 'supply' | 'demand', id: string, until: number | null): void => {
+      engine.advanceTo(t);
+      expect(engine.ingest({ event: { type: side, id, market: 'm', t, until, x: rand() * 5, y: rand() * 5 }, pos: { file: 'shift', line: seq + 1 }, seq: seq++ })).toBeNull();
+    };
+    for (let c = 0; c < 20; c++) offer(c, 'supply', `c${c}`, shiftEnd);
+    for (let t = 1000; t < 2 * 3_600_000; t += randInt(rand, 2000, 8000)) {
+      backAt.sort((a, b) => a.t - b.t);
+      while (backAt.length > 0 && backAt[0]!.t <= t) {
+        const b = backAt.shift()!;
+        offer(b.t, 'supply', b.id, shiftEnd);
+      }
+      offer(t, 'demand', `o${seq}`, null);
+    }
+    const done = engine.snapshot('m').units.filter((u) => u.state === 'done' && u.side === 'supply').length;
+    // Hundreds of jobs, yet only the courier occurrences still open (matched, not yet
+    // back) or ended within the lateness are kept.
+    expect(matched.length).toBeGreaterThan(400);
+    expect(done).toBeLessThanOrEqual(20 + 5);
+  });
+});
+
 describe('Pipeline', () => {
   it('the watermark lateness delays when epochs close, never what they decide, on an in-order log (seeded)', () => {
     for (let seed = 400; seed < 420; seed++) {
