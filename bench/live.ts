@@ -235,8 +235,17 @@ function keptParts(doc: string): Map<string, string> {
   const a = doc.indexOf('<!-- bench:live:start -->');
   const b = doc.indexOf('<!-- bench:live:end -->');
   if (a < 0 || b < a) return kept;
-  const parts = doc.slice(a, b).split(/\n(?=### )/).slice(1);
-  for (const part of parts) kept.set(part.slice(0, part.indexOf('\n')), part.trimEnd());
+  const [head, ...parts] = doc.slice(a, b).split(/\n(?=### )/);
+  // A section written before parts carried their own run line has one run line for all.
+  const old = /Run (\d{4}-\d\d-\d\d \d\d:\d\d) UTC.*?1-minute load at start (\d+\.\d+), at end (\d+\.\d+)/.exec(head ?? '');
+  for (const part of parts) {
+    let text = part.trimEnd();
+    if (!/\nRun \d{4}/.test(text) && old) {
+      const nl = text.indexOf('\n');
+      text = `${text.slice(0, nl)}\n\nRun ${old[1]} UTC with the other parts of that run, 1-minute load ${old[2]} at the run's start, ${old[3]} at its end.${text.slice(nl)}`;
+    }
+    kept.set(part.slice(0, part.indexOf('\n')), text);
+  }
   return kept;
 }
 
