@@ -8,8 +8,9 @@
  * owned it before. A batch of consumed records goes through the pipeline; once it has
  * closed epochs (or enough input is uncommitted), one transaction commits together
  * - the outputs: assignments, expired, windows, rejects — each to partition p of its topic;
- * - the pool state of every market the batch touched, and the partition's position
- *   (next input offset, watermark) — to partition p of the compacted pool topic;
+ * - the pool state of every market the batch touched (its market record, and a unit
+ *   record for each unit that came or went: see `pool-records.ts`), and the partition's
+ *   position (next input offset, watermark) — to partition p of the compacted pool topic;
  * - the consumed offsets (last processed + 1) for the group.
  *
  * kafkajs 2.2.4 predates KIP-447 (the broker cannot make a new owner wait for the old
@@ -30,16 +31,14 @@ import { pairflowError } from '../errors.js';
 import type { PairflowConfig, Reject } from '../model.js';
 import { Pipeline, type RecordSink } from '../pipeline/drive.js';
 import type { AssignmentRecord, Clock, EpochRecord, ExpiryRecord } from '../ports.js';
+import { applyPersisted, PoolReader, poolRecords, POSITION_KEY, RESTORE_MARK_KEY, type PersistedUnits } from './pool-records.js';
 import { readToEnd } from './read.js';
 import { InputDecoder, OutputEncoder, type BusFormat, type RecordOrigin, type RejectCode } from './records.js';
 import { ensureOutputTopics, liveTopics, type LiveTopics } from './topics.js';
 
 type KafkaClient = InstanceType<typeof kafkajs.Kafka>;
 
-/** The key of a partition's position record on the pool topic: 0xFF never starts UTF-8, so no market can take it. */
-export const POSITION_KEY = Buffer.from([0xff, 0x70]);
-/** The key of the marker a new owner commits before it reads its pool partition back. */
-export const RESTORE_MARK_KEY = Buffer.from([0xff, 0x72]);
+export { POSITION_KEY, RESTORE_MARK_KEY };
 
 /** What a partition's position record holds. */
 export interface PartitionPosition {
@@ -224,6 +223,8 @@ class PartitionState {
   sought = false;
   lastInputAt: number;
   readonly token = randomUUID();
+  /** Per market, the units whose unit record is committed: seq → record key. */
+  persisted: PersistedUnits = new Map();
 
   constructor(readonly partition: number, encoder: OutputEncoder, input: string, clock: Clock, observer: LiveObserver | undefined) {
     const now = clock.now();
@@ -533,7 +534,7 @@ export class LiveProcessor {
         await tx.commit();
         const mark = Number(meta?.baseOffset ?? meta?.offset);
         if (!Number.isFinite(mark)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `no offset for the restore marker of partition ${p}` });
-        const latest = new Map<string, Buffer>();
+        const reader = new PoolReader();
         let position: PartitionPosition | null = null;
         let poolRecords = 0;
         await readToEnd({
@@ -550,17 +551,12 @@ export class LiveProcessor {
               position = m.value === null ? null : (JSON.parse(m.value.toString('utf8')) as PartitionPosition);
               return;
             }
-            if (m.value === null) latest.delete(key.toString('utf8'));
-            else latest.set(key.toString('utf8'), m.value);
+            reader.take(key, m.value);
           },
         });
         const pipeline = new Pipeline(this.o.config, st.output, { warm: this.o.warm ?? true, clock: this.clock, now: () => this.clock.now() });
-        let units = 0;
-        for (const [market, value] of latest) {
-          const snap = JSON.parse(value.toString('utf8')) as { units: unknown[] };
-          pipeline.engine.restore(market, snap);
-          units += snap.units.length;
-        }
+        const { markets, units, persisted } = reader.restoreInto(pipeline.engine);
+        st.persisted = persisted;
         const pos = position as PartitionPosition | null;
         if (pos) {
           pipeline.resume({ maxT: pos.maxT, watermark: pos.watermark });
@@ -572,8 +568,8 @@ export class LiveProcessor {
         st.lastCommitAt = this.clock.now();
         const ms = this.clock.now() - t0;
         this.stats.restores++;
-        this.o.observer?.restored?.(p, { ms, markets: latest.size, units, poolRecords });
-        this.log.info({ partition: p, ms: Math.round(ms), markets: latest.size, units, poolRecords, nextOffset: st.nextOffset }, 'live: partition restored');
+        this.o.observer?.restored?.(p, { ms, markets, units, poolRecords });
+        this.log.info({ partition: p, ms: Math.round(ms), markets, units, poolRecords, nextOffset: st.nextOffset }, 'live: partition restored');
         return;
       } catch (err) {
         await st.producer?.disconnect().catch(() => {});
@@ -693,9 +689,8 @@ export class LiveProcessor {
     const t0 = this.clock.now();
     const { messages, counts, firstAt } = st.output.take();
     const touched = pipeline.engine.takeTouched();
-    const pool: Message[] = touched.map((market) => ({
-      key: market, value: JSON.stringify(pipeline.engine.snapshot(market)), partition: p,
-    }));
+    const written = poolRecords(pipeline.engine, touched, st.persisted);
+    const pool: Message[] = written.records.map((r) => ({ key: r.key, value: r.value, partition: p }));
     const position: PartitionPosition = {
       version: 1,
       nextOffset: st.nextOffset,
@@ -721,7 +716,9 @@ export class LiveProcessor {
         }
       }
       // Uncompressed: a transaction per window in real time makes gzip's CPU the larger cost.
-      await tx.sendBatch({ topicMessages: [{ topic: this.topics.pool, messages: pool }] });
+      for (let i = 0; i < pool.length; i += SEND_SLICE) {
+        await tx.sendBatch({ topicMessages: [{ topic: this.topics.pool, messages: pool.slice(i, i + SEND_SLICE) }] });
+      }
       this.o.fault?.('after-send');
       if (st.nextOffset !== null) {
         await tx.sendOffsets({
@@ -737,6 +734,7 @@ export class LiveProcessor {
       await this.recover(st, err);
       return;
     }
+    applyPersisted(st.persisted, written.after);
     this.firstCommitDone = true;
     this.o.fault?.('after-commit');
     const done = this.clock.now();

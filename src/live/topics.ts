@@ -36,7 +36,7 @@ export const OUTPUT_TOPIC_CONFIG: ReadonlyArray<{ name: string; value: string }>
 ];
 
 /**
- * The pool topic: compacted (the latest state per market), in segments rolled every
+ * The pool topic: compacted (the latest state per market and unit), in segments rolled every
  * minute so that compaction keeps up and a restore reads little more than the latest
  * states; records up to 64 MiB (a market with a large pool is one record). A segment
  * must hold a transaction's whole batch of pool records (the broker refuses a batch
@@ -49,6 +49,11 @@ export const POOL_TOPIC_CONFIG: ReadonlyArray<{ name: string; value: string }> =
   { name: 'segment.bytes', value: String(128 << 20) },
   { name: 'segment.ms', value: '60000' },
   { name: 'min.cleanable.dirty.ratio', value: '0.1' },
+  // Every unit that leaves a market leaves a tombstone for its unit record; a restore
+  // reads every tombstone still kept, so they go after a minute, not the default day.
+  // (A restore that read a unit record whose tombstone went while it read finds a
+  // record no market names, and deletes it again.)
+  { name: 'delete.retention.ms', value: '60000' },
   { name: 'max.message.bytes', value: String(64 << 20) },
 ];
 

@@ -207,6 +207,58 @@ export interface PoolSnapshot {
 /** The snapshot format this engine writes and reads. */
 export const SNAPSHOT_VERSION = 2;
 
+/** The fixed part of a {@link SnapshotUnit}: what stays the same while the engine holds it. */
+export type PoolUnit = Pick<SnapshotUnit, 'side' | 'id' | 't' | 'until' | 'seq' | 'lat' | 'lon' | 'x' | 'y' | 'has' | 'needs'>;
+
+/** {@link PoolColumns} `state` codes. */
+export const COL_POOL = 0;
+export const COL_PENDING = 1;
+export const COL_DONE = 2;
+
+/**
+ * A {@link PoolSnapshot} in columns: one entry per unit in snapshot order. `aux` is the
+ * slot (state pool) or the join epoch (state pending); `price` is NaN for none.
+ */
+export interface PoolColumns {
+  head: Omit<PoolSnapshot, 'units' | 'tentative'>;
+  /** Occurrence index in the engine that wrote it (meaningless elsewhere). */
+  occ: Int32Array;
+  seq: Float64Array;
+  end: Float64Array;
+  price: Float64Array;
+  state: Uint8Array;
+  aux: Float64Array;
+  tentative: Array<[number, number]>;
+}
+
+/** Builds the snapshot of `cols`, taking the fixed part of its k-th unit from `unitAt(k)`. */
+export function expandPoolColumns(cols: Omit<PoolColumns, 'occ'>, unitAt: (k: number) => PoolUnit): PoolSnapshot {
+  const snap: PoolSnapshot = { ...cols.head, units: [], tentative: cols.tentative };
+  const n = cols.seq.length;
+  for (let k = 0; k < n; k++) {
+    const f = unitAt(k);
+    const code = cols.state[k];
+    const p = cols.price[k]!;
+    const unit: SnapshotUnit = {
+      side: f.side, id: f.id, t: f.t, until: f.until, end: cols.end[k]!, seq: cols.seq[k]!, price: Number.isNaN(p) ? null : p,
+      state: code === COL_POOL ? 'pool' : code === COL_PENDING ? 'pending' : 'done',
+    };
+    if (code === COL_POOL) unit.slot = cols.aux[k]!;
+    else if (code === COL_PENDING) unit.joinEpoch = cols.aux[k]!;
+    if (code !== COL_DONE) {
+      // A reported unit keeps only what tells it apart.
+      if (f.lat !== undefined) unit.lat = f.lat;
+      if (f.lon !== undefined) unit.lon = f.lon;
+      if (f.x !== undefined) unit.x = f.x;
+      if (f.y !== undefined) unit.y = f.y;
+      if (f.has !== undefined) unit.has = f.has;
+      if (f.needs !== undefined) unit.needs = f.needs;
+    }
+    snap.units.push(unit);
+  }
+  return snap;
+}
+
 /** Where an occurrence is, as far as the engine is concerned (0: the index is free). */
 const ST_PENDING = 1;
 const ST_POOL = 2;
@@ -558,51 +610,81 @@ export class WindowEngine {
    * pairs, the pools' slot layout and the last closed epoch. JSON-safe.
    */
   snapshot(market: string): PoolSnapshot {
+    const cols = this.poolColumns(market);
+    return expandPoolColumns(cols, (k) => this.unitOf(cols.occ[k]!));
+  }
+
+  /**
+   * The state of {@link snapshot} in columns, per unit in snapshot order: what changes
+   * from window to window (state, slot or join epoch, end, price) in typed arrays, the
+   * unit itself by its occurrence index (see {@link unitOf}). Live mode writes a
+   * market's columns with each commit and a unit's fixed part only once.
+   */
+  poolColumns(market: string): PoolColumns {
     const m = this.markets.get(market);
     const closed = m === undefined ? this.globalClosed : m.lastClosed;
-    const empty = (): SnapshotPoolLayout => ({ high: 0, free: [] });
-    const snap: PoolSnapshot = {
+    const head: PoolColumns['head'] = {
       version: SNAPSHOT_VERSION, market, windowMs: this.W, lastClosed: closed === -Infinity ? null : closed,
-      late: m?.late ?? 0, pools: { demand: empty(), supply: empty() }, units: [], tentative: [],
+      late: m?.late ?? 0, pools: { demand: { high: 0, free: [] }, supply: { high: 0, free: [] } },
     };
-    if (m === undefined) return snap;
-    snap.pools = {
-      demand: { high: m.demand.high, free: [...m.demand.free] },
-      supply: { high: m.supply.high, free: [...m.supply.free] },
+    const ids: number[] = [];
+    const states: number[] = [];
+    const aux: number[] = [];
+    const tentative: Array<[number, number]> = [];
+    if (m !== undefined) {
+      head.pools = {
+        demand: { high: m.demand.high, free: [...m.demand.free] },
+        supply: { high: m.supply.high, free: [...m.supply.free] },
+      };
+      const at = new Map<number, number>();
+      const add = (id: number, state: number, a: number): void => {
+        at.set(id, ids.length);
+        ids.push(id);
+        states.push(state);
+        aux.push(a);
+      };
+      for (const pool of [m.demand, m.supply]) {
+        for (let slot = 0; slot < pool.high; slot++) {
+          const id = pool.slotOcc[slot]!;
+          if (id >= 0) add(id, COL_POOL, slot);
+        }
+      }
+      const bySeq = (x: [number, number], y: [number, number]): number => x[0] - y[0] || this.bySeq(x[1], y[1]);
+      for (const [key, id] of m.pending.entries().sort(bySeq)) add(id, COL_PENDING, key);
+      for (const [, id] of m.retire.entries().sort(bySeq)) if (!m.forgotten.has(id)) add(id, COL_DONE, 0);
+      for (let slot = 0; slot < m.demand.high; slot++) {
+        const d = m.demand.slotOcc[slot]!;
+        if (d >= 0 && this.partner[d]! >= 0) tentative.push([at.get(d)!, at.get(this.partner[d]!)!]);
+      }
+    }
+    const n = ids.length;
+    const cols: PoolColumns = {
+      head, occ: Int32Array.from(ids), seq: new Float64Array(n), end: new Float64Array(n), price: new Float64Array(n),
+      state: Uint8Array.from(states), aux: Float64Array.from(aux), tentative,
     };
     const occs = this.ledger.occurrences;
-    const at = new Map<number, number>();
-    const add = (id: number, u: Pick<SnapshotUnit, 'state' | 'joinEpoch' | 'slot'>): void => {
-      const o = occs[id]!;
-      const p = this.price[id]!;
-      const unit: SnapshotUnit = {
-        side: o.side, id: o.id, t: o.t, until: o.until, end: o.end, seq: o.seq, price: Number.isFinite(p) ? p : null, ...u,
-      };
-      if (u.state !== 'done') {
-        if (o.lat !== undefined) unit.lat = o.lat;
-        if (o.lon !== undefined) unit.lon = o.lon;
-        if (o.x !== undefined) unit.x = o.x;
-        if (o.y !== undefined) unit.y = o.y;
-        if (o.has !== undefined) unit.has = [...o.has];
-        if (o.needs !== undefined) unit.needs = [...o.needs];
-      }
-      at.set(id, snap.units.length);
-      snap.units.push(unit);
-    };
-    for (const pool of [m.demand, m.supply]) {
-      for (let slot = 0; slot < pool.high; slot++) {
-        const id = pool.slotOcc[slot]!;
-        if (id >= 0) add(id, { state: 'pool', slot });
-      }
+    for (let k = 0; k < n; k++) {
+      const o = occs[ids[k]!]!;
+      cols.seq[k] = o.seq;
+      cols.end[k] = o.end;
+      const p = this.price[o.index]!;
+      cols.price[k] = Number.isFinite(p) ? p : NaN;
     }
-    const bySeq = (x: [number, number], y: [number, number]): number => x[0] - y[0] || this.bySeq(x[1], y[1]);
-    for (const [key, id] of m.pending.entries().sort(bySeq)) add(id, { state: 'pending', joinEpoch: key });
-    for (const [, id] of m.retire.entries().sort(bySeq)) if (!m.forgotten.has(id)) add(id, { state: 'done' });
-    for (let slot = 0; slot < m.demand.high; slot++) {
-      const d = m.demand.slotOcc[slot]!;
-      if (d >= 0 && this.partner[d]! >= 0) snap.tentative.push([at.get(d)!, at.get(this.partner[d]!)!]);
-    }
-    return snap;
+    return cols;
+  }
+
+  /** The fixed part of a held occurrence (what {@link poolColumns} leaves out). */
+  unitOf(occ: number): PoolUnit {
+    const o = this.ledger.occurrences[occ];
+    if (o === undefined) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `unitOf(${occ}): no occurrence at that index` });
+    const u: PoolUnit = { side: o.side, id: o.id, t: o.t, until: o.until, seq: o.seq };
+    if (o.lat !== undefined) u.lat = o.lat;
+    if (o.lon !== undefined) u.lon = o.lon;
+    if (o.x !== undefined) u.x = o.x;
+    if (o.y !== undefined) u.y = o.y;
+    if (o.has !== undefined) u.has = [...o.has];
+    if (o.needs !== undefined) u.needs = [...o.needs];
+    return u;
   }
 
   /**
