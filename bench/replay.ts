@@ -124,6 +124,20 @@ type Phases = { graphMs: number; setupMs: number; firstSolveMs: number; pricingM
 type Solves = { count: number; meanMs: number | null; p95Ms: number | null; totalMs: number };
 type DueSolves = { warm: Solves; cold: Solves };
 
+/** One log replayed with the warm start and with `--no-warm`: epoch solves, online loop time and cost of each. */
+interface WarmCold { warm: DueSolves; cold: DueSolves; warmOnlineMs: number; coldOnlineMs: number; warmCost: number; coldCost: number }
+
+function warmCold(warm: ChildRun, cold: ChildRun): WarmCold {
+  return {
+    warm: get(warm.json, 'timings.epochSolve') as DueSolves,
+    cold: get(cold.json, 'timings.epochSolve') as DueSolves,
+    warmOnlineMs: num(warm.json, 'timings.onlineMs'),
+    coldOnlineMs: num(cold.json, 'timings.onlineMs'),
+    warmCost: num(warm.json, 'online.cost'),
+    coldCost: num(cold.json, 'online.cost'),
+  };
+}
+
 export interface ReplayBenchResult {
   machine: { cpu: string; cores: number; memGb: number; node: string; date: string; loadStart: number; loadEnd: number };
   quick: boolean;
@@ -133,9 +147,9 @@ export interface ReplayBenchResult {
     cold: DueSolves;
     coldOnlineMs: number;
     /** commit "due": epoch solves of the warm run (split by whether the solver used the warm start) and of the cold run. */
-    due: { days: number; warm: DueSolves; cold: DueSolves; warmOnlineMs: number; coldOnlineMs: number; warmCost: number; coldCost: number };
+    due: WarmCold & { days: number };
     /** commit "due" on three small markets (bench/replay.ts makes the log). */
-    small: { warm: DueSolves; cold: DueSolves; warmOnlineMs: number; coldOnlineMs: number; warmCost: number; coldCost: number };
+    small: WarmCold;
     sweep: { windows: string; wallMs: number; rssMb: number | null; hindsightMs: number | null; hindsightPhases: Phases | null; windowsMs: number; threads: number; best: number };
   };
   growth: GrowthResult | null;
@@ -282,23 +296,8 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
     days: last.days,
     cold: get(cold.json, 'timings.epochSolve') as DueSolves,
     coldOnlineMs: num(cold.json, 'timings.onlineMs'),
-    due: {
-      days: dueDays,
-      warm: get(dueWarm.json, 'timings.epochSolve') as DueSolves,
-      cold: get(dueCold.json, 'timings.epochSolve') as DueSolves,
-      warmOnlineMs: num(dueWarm.json, 'timings.onlineMs'),
-      coldOnlineMs: num(dueCold.json, 'timings.onlineMs'),
-      warmCost: num(dueWarm.json, 'online.cost'),
-      coldCost: num(dueCold.json, 'online.cost'),
-    },
-    small: {
-      warm: get(smallWarm.json, 'timings.epochSolve') as DueSolves,
-      cold: get(smallCold.json, 'timings.epochSolve') as DueSolves,
-      warmOnlineMs: num(smallWarm.json, 'timings.onlineMs'),
-      coldOnlineMs: num(smallCold.json, 'timings.onlineMs'),
-      warmCost: num(smallWarm.json, 'online.cost'),
-      coldCost: num(smallCold.json, 'online.cost'),
-    },
+    due: { days: dueDays, ...warmCold(dueWarm, dueCold) },
+    small: warmCold(smallWarm, smallCold),
     sweep: {
       windows,
       wallMs: sweep.wallMs,
