@@ -281,7 +281,7 @@ describe('warm start: free columns left below price 0', () => {
 });
 
 describe('solveSparse(): when a warm hint is used', () => {
-  it('ignores it below 32 pairs or when it offers a pair to under a quarter of the rows, and the optimum is the same either way', () => {
+  it('ignores it below 128 pairs or when it offers a pair to under a quarter of the rows, and the optimum is the same either way', () => {
     const build = (n: number, perRow: number, seed: number): SparseInstance => {
       const rand = mulberry32(seed);
       const rowPtr = new Int32Array(n + 1);
@@ -304,8 +304,9 @@ describe('solveSparse(): when a warm hint is used', () => {
       return { rowToCol, colPrices: cold.colDuals };
     };
     const tiny = build(5, 5, 1); // 25 pairs
+    const small = build(12, 10, 3); // 120 pairs
     const big = build(60, 6, 2); // 360 pairs
-    for (const [inst, share, used] of [[tiny, 1, false], [big, 1, true], [big, 0.2, false], [big, 0.5, true]] as const) {
+    for (const [inst, share, used] of [[tiny, 1, false], [small, 1, false], [big, 1, true], [big, 0.2, false], [big, 0.5, true]] as const) {
       const warm = hintOf(inst, share);
       const r = solveSparse(inst, { warm });
       expect(r.stats.warm, `${inst.rowPtr[inst.nRows]} pairs, share ${share}`).toBe(used);

@@ -4,6 +4,7 @@ import {
   type AssignmentRecord, type EngineOptions, type EngineSink, type EpochRecord, type ExpiryRecord, WindowEngine,
 } from '../../../src/window/engine.js';
 import { haversineKm } from '../../../src/window/geo.js';
+import { solveSparse } from '../../../src/matching/index.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
 const MIN = 60_000;
@@ -566,11 +567,15 @@ describe('WindowEngine: warm prices, determinism, and how epochs are closed', ()
     for (let seed = 1000; seed < 1040; seed++) {
       const sc = randomScenario(seed, 120, 200_000);
       const warm = runScenario(sc, { warm: true });
+      // These pools are below the solver's own warm threshold: forced, the warm path runs on every hint.
+      const forced = runScenario(sc, { warm: true, solve: (inst, o) => solveSparse(inst, { ...o, warmWhen: 'always' }) });
       const cold = runScenario(sc, { warm: false });
-      expect(warm.engine.totals().cost, `seed ${seed}`).toBeCloseTo(cold.engine.totals().cost, 9);
-      expect(pairs(warm.rec), `seed ${seed}`).toEqual(pairs(cold.rec));
+      for (const w of [warm, forced]) {
+        expect(w.engine.totals().cost, `seed ${seed}`).toBeCloseTo(cold.engine.totals().cost, 9);
+        expect(pairs(w.rec), `seed ${seed}`).toEqual(pairs(cold.rec));
+      }
       expect(cold.rec.epochs.every((e) => !e.warm), `seed ${seed}`).toBe(true);
-      warmUsed += warm.rec.epochs.filter((e) => e.warm).length;
+      warmUsed += forced.rec.epochs.filter((e) => e.warm).length;
     }
     // The warm option does reach the solver.
     expect(warmUsed).toBeGreaterThan(0);
