@@ -14,13 +14,15 @@
  * hindsight as users run it, and the hindsight alone in a child of its own,
  * bench/lib/hindsight-child.mjs, for where its time goes).
  *
- *   tsx bench/replay.ts [--quick] [--no-write] [--no-growth] [--root DIR] [--label TEXT]
+ *   tsx bench/replay.ts [--quick] [--no-write] [--no-growth] [--growth-cap SECONDS] [--root DIR] [--label TEXT]
  *                       [--json-out FILE] [--before FILE]
  *
  * `--quick` runs tiny logs (smoke test); `--no-write` prints only; `--root DIR`
  * measures another built checkout (its bin/ and dist/, e.g. the code before a
  * change); `--json-out FILE` keeps the figures; `--before FILE` (figures of an earlier
- * run) adds that run's growth tables above this one's, for comparison.
+ * run) adds that run's growth tables above this one's, for comparison;
+ * `--growth-cap SECONDS` (default 900) stops a growth row's replay there and reports
+ * its time and memory as lower bounds.
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
@@ -50,6 +52,8 @@ export interface ReplayBenchOptions {
   log?: (line: string) => void;
   /** Also the growth tables of density and length. @default true */
   growth?: boolean;
+  /** A growth row's replay is stopped after this many seconds (0: never). @default 900 */
+  growthCapS?: number;
   /** A built checkout to measure instead of this one (its bin/ and dist/). @default this repository */
   root?: string;
   /** What the figures are of, e.g. a commit. @default the checkout's HEAD */
@@ -76,6 +80,8 @@ export interface GrowthRow {
   hindsightCost: number;
   /** 1-minute load average right after the replay. */
   load: number;
+  /** The replay was stopped at the growth cap (`--growth-cap`): wall time and memory are lower bounds. */
+  capped?: boolean;
 }
 
 /** The growth tables' figures, kept by `--json-out` for a later `--before`. */
@@ -95,6 +101,8 @@ export interface ChildRun {
   wallMs: number;
   peakRssMb: number | null;
   json: Record<string, unknown>;
+  /** Stopped at its time cap (growth rows only): no figures but time and memory so far. */
+  capped?: boolean;
 }
 
 export interface SizeRow {
@@ -190,16 +198,27 @@ export function runChild(args: string[], parseJson = true): ChildRun {
   }
 }
 
-function runChildOnce(args: string[], parseJson: boolean): ChildRun {
+/** `pairflow ARGS` in a child, stopped after `capS` seconds (`capped` then, its time and memory so far). */
+export function runChildCapped(args: string[], capS: number): ChildRun {
+  return runChildOnce(args, true, capS);
+}
+
+function runChildOnce(args: string[], parseJson: boolean, capS = 0): ChildRun {
   const t0 = performance.now();
-  const cmd = haveTimeV ? '/usr/bin/time' : process.execPath;
-  const argv = haveTimeV ? ['-v', process.execPath, bin(), ...args] : [bin(), ...args];
+  // With a cap, coreutils' timeout stops pairflow itself (SIGTERM, then SIGKILL 10 s
+  // later), so /usr/bin/time above it still reports the peak memory reached.
+  const run = capS > 0 ? ['timeout', '-k', '10', String(capS), process.execPath, bin(), ...args] : [process.execPath, bin(), ...args];
+  const cmd = haveTimeV ? '/usr/bin/time' : run[0]!;
+  const argv = haveTimeV ? ['-v', ...run] : run.slice(1);
   const r = spawnSync(cmd, argv, { encoding: 'utf8', maxBuffer: 1 << 28 });
   const wallMs = performance.now() - t0;
-  if (r.status !== 0) throw new Error(`pairflow ${args.join(' ')} exited ${r.status}: ${r.stderr.slice(-2000)}`);
   const rss = /Maximum resident set size \(kbytes\): (\d+)/.exec(r.stderr);
+  const peakRssMb = rss ? Number(rss[1]) / 1024 : null;
+  // timeout exits 124 (137 after its SIGKILL) when the cap was reached.
+  if (capS > 0 && (r.status === 124 || r.status === 137)) return { wallMs, peakRssMb, json: {}, capped: true };
+  if (r.status !== 0) throw new Error(`pairflow ${args.join(' ')} exited ${r.status}: ${r.stderr.slice(-2000)}`);
   const lines = r.stdout.trimEnd().split('\n');
-  return { wallMs, peakRssMb: rss ? Number(rss[1]) / 1024 : null, json: parseJson && lines[0] ? (JSON.parse(lines[lines.length - 1]!) as Record<string, unknown>) : {} };
+  return { wallMs, peakRssMb, json: parseJson && lines[0] ? (JSON.parse(lines[lines.length - 1]!) as Record<string, unknown>) : {} };
 }
 
 const get = (o: unknown, path: string): unknown => path.split('.').reduce<unknown>((v, k) => (v as Record<string, unknown> | null)?.[k], o);
@@ -306,7 +325,7 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
     hindsightAlone: true,
   });
 
-  const growth = opts.growth ?? true ? measureGrowth(quick, outDir, log, opts.label ?? headOf(target), num(sweep.json, 'timings.hindsightMs')) : null;
+  const growth = opts.growth ?? true ? measureGrowth(quick, outDir, log, opts.label ?? headOf(target), num(sweep.json, 'timings.hindsightMs'), opts.growthCapS ?? 900) : null;
 
   const machine = {
     cpu: cpus()[0]?.model.trim() ?? 'unknown',
@@ -443,7 +462,7 @@ function hindsightAlone(file: string): { ms: number; phases: Phases; rssMb: numb
  * included) for time and peak memory as users see them, and the hindsight alone for
  * where its time went (every density; the longest log only).
  */
-function measureGrowth(quick: boolean, outDir: string, log: (line: string) => void, label: string, demoWeekHindsightMs: number): GrowthResult {
+function measureGrowth(quick: boolean, outDir: string, log: (line: string) => void, label: string, demoWeekHindsightMs: number, capS: number): GrowthResult {
   const scales = quick ? [0.01, 0.02] : [1, 2, 4, 8];
   const daysScale = quick ? 0.02 : 4;
   const daysList = quick ? [1] : [1, 2, 4, 7];
@@ -451,10 +470,14 @@ function measureGrowth(quick: boolean, outDir: string, log: (line: string) => vo
   const row = (scale: number, days: number, alone: boolean): GrowthRow => {
     const file = ensureLog(outDir, days, scale);
     log(`bench:replay: growth: ${days} day(s) at scale ${scale}: replay with the hindsight`);
-    const full = runChild(['replay', file, '--window', '10s', '--json']);
+    const full = runChildCapped(['replay', file, '--window', '10s', '--json'], capS);
     const load = loadavg()[0]!;
-    log(`bench:replay:   wall ${full.wallMs.toFixed(0)} ms rss ${full.peakRssMb} MB load ${load.toFixed(2)}`);
+    log(`bench:replay:   wall ${full.wallMs.toFixed(0)} ms rss ${full.peakRssMb} MB load ${load.toFixed(2)}${full.capped ? ' (stopped at the cap)' : ''}`);
     let a: GrowthRow['alone'] = null;
+    if (full.capped) {
+      return { scale, days, demandUnits: NaN, supplyUnits: NaN, pairsPriced: NaN, pairsSolved: NaN, pricingRounds: NaN, replayWallMs: full.wallMs,
+        replayRssMb: full.peakRssMb, alone: null, onlineCost: NaN, hindsightCost: NaN, load, capped: true };
+    }
     if (alone) {
       log(`bench:replay: growth: ${days} day(s) at scale ${scale}: the hindsight alone`);
       a = hindsightAlone(file);
@@ -498,9 +521,13 @@ function renderGrowth(g: GrowthResult, title: string | null, targets: string[] |
   md.push('');
   md.push('| scale | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | peak MB | time ÷ scale 1 | memory ÷ scale 1 | alone s | alone peak MB | load |');
   md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+  // A row stopped at the cap shows its time and memory so far as lower bounds.
+  const wall = (r: GrowthRow): string => (r.capped ? `> ${s1(r.replayWallMs)} (stopped)` : s1(r.replayWallMs));
+  const peak = (r: GrowthRow): string => (r.capped ? `≥ ${f1(r.replayRssMb)}` : f1(r.replayRssMb));
+  const ge = (r: GrowthRow): string => (r.capped ? '> ' : '');
   for (const r of g.byScale) {
-    md.push(`| ${r.scale} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${s1(r.replayWallMs)} | ${f1(r.replayRssMb)} | ` +
-      `${f2(r.replayWallMs / base.replayWallMs)}× | ${f2((r.replayRssMb ?? NaN) / (base.replayRssMb ?? NaN))}× | ${s1(r.alone?.ms)} | ${f1(r.alone?.rssMb)} | ${f1(r.load)} |`);
+    md.push(`| ${r.scale} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${wall(r)} | ${peak(r)} | ` +
+      `${ge(r)}${f2(r.replayWallMs / base.replayWallMs)}× | ${r.capped ? '≥ ' : ''}${f2((r.replayRssMb ?? NaN) / (base.replayRssMb ?? NaN))}× | ${s1(r.alone?.ms)} | ${f1(r.alone?.rssMb)} | ${f1(r.load)} |`);
   }
   md.push('');
   md.push('Where the hindsight\'s time went (alone, s of thread time): ' + g.byScale.filter((r) => r.alone).map((r) => `scale ${r.scale}: ${phaseLine(r.alone!.phases)}`).join('; ') + '.');
@@ -510,7 +537,12 @@ function renderGrowth(g: GrowthResult, title: string | null, targets: string[] |
   md.push('| days | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | peak MB | alone s | load |');
   md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
   for (const r of g.byDays) {
-    md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${s1(r.replayWallMs)} | ${f1(r.replayRssMb)} | ${s1(r.alone?.ms)} | ${f1(r.load)} |`);
+    md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${wall(r)} | ${peak(r)} | ${s1(r.alone?.ms)} | ${f1(r.load)} |`);
+  }
+  const stopped = [...g.byScale, ...g.byDays].filter((r) => r.capped);
+  if (stopped.length > 0) {
+    md.push('');
+    md.push(`"(stopped)": the replay did not finish within the cap (\`--growth-cap\`) and was stopped there; its counts are unknown, its time and memory are lower bounds.`);
   }
   const last = g.byDays[g.byDays.length - 1];
   if (last?.alone) {
@@ -532,7 +564,7 @@ function targetsOf(g: GrowthResult): string[] {
   const mem = s1r && s4r && s1r.replayRssMb && s4r.replayRssMb ? s4r.replayRssMb / s1r.replayRssMb : null;
   return [
     `Targets: one day at scale 4 ≤ 5× the time of scale 1 — ${f2(time)}× (${ok(time === null ? null : time <= 5)}), ≤ 4× the memory — ${f2(mem)}× (${ok(mem === null ? null : mem <= 4)}); ` +
-      `7 days at scale 4, replay with the exact hindsight ≤ 4 min — ${s1(week?.replayWallMs)} s (${ok(week ? week.replayWallMs <= 240_000 : null)}) and ≤ 4 GB — ${f1(week?.replayRssMb)} MB (${ok(week?.replayRssMb ? week.replayRssMb <= 4096 : null)}); ` +
+      `7 days at scale 4, replay with the exact hindsight ≤ 4 min — ${week?.capped ? '> ' : ''}${s1(week?.replayWallMs)} s (${ok(week ? week.replayWallMs <= 240_000 && !week.capped : null)}) and ≤ 4 GB — ${week?.capped ? '≥ ' : ''}${f1(week?.replayRssMb)} MB (${ok(week?.replayRssMb ? week.replayRssMb <= 4096 : null)}); ` +
       `the demo week's hindsight (scale 1, alone, as the sweep computes it) ≤ 20 s — ${s1(g.demoWeekHindsightMs)} s (${ok(Number.isFinite(g.demoWeekHindsightMs) ? g.demoWeekHindsightMs! <= 20_000 : null)}).`,
   ];
 }
@@ -561,6 +593,7 @@ if (isMain) {
     quick: args.includes('--quick'),
     write: !args.includes('--no-write'),
     growth: !args.includes('--no-growth'),
+    ...(value('--growth-cap') !== undefined ? { growthCapS: Number(value('--growth-cap')) } : {}),
     before: beforeFile ? (JSON.parse(readFileSync(beforeFile, 'utf8')) as GrowthResult) : null,
     ...(root ? { root } : {}),
     ...(label ? { label } : {}),

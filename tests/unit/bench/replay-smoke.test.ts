@@ -2,7 +2,7 @@ import { existsSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { runReplayBench, writeSection } from '../../../bench/replay.js';
+import { runChildCapped, runReplayBench, writeSection } from '../../../bench/replay.js';
 
 // The bench runs the built CLI (npm test builds first), so it cannot rot unnoticed.
 const built = existsSync(new URL('../../../dist/cli/main.js', import.meta.url));
@@ -19,6 +19,16 @@ describe('bench/replay.ts', () => {
     expect(r.largest.sweep.best === 5000 || r.largest.sweep.best === 30_000).toBe(true);
     expect(r.markdown.startsWith('<!-- bench:replay:start -->')).toBe(true);
     expect(r.markdown.endsWith('<!-- bench:replay:end -->')).toBe(true);
+  });
+
+  it.skipIf(!built && process.env.CI !== 'true')('a growth run past its cap is stopped and reported as capped; one within it gives its figures', () => {
+    const sample = new URL('../../../replay-logs/demo-day.jsonl.gz', import.meta.url).pathname;
+    const stopped = runChildCapped(['replay', sample, '--window', '10s', '--json'], 0.05);
+    expect(stopped.capped).toBe(true);
+    expect(stopped.json).toEqual({});
+    const done = runChildCapped(['replay', sample, '--window', '10s', '--json', '--no-hindsight'], 120);
+    expect(done.capped).toBeUndefined();
+    expect(Number((done.json.online as { matched: number }).matched)).toBeGreaterThan(0);
   });
 
   it('writeSection() replaces only its own marked section', () => {
