@@ -491,6 +491,20 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
     count[r] = n;
   }
 
+  /** Room for `need` candidates in every row's list. */
+  const ensureCap = (need: number): void => {
+    if (need <= cap) return;
+    const nextCap = Math.max(need, 2 * cap);
+    const grown = new Int32Array(nRows * nextCap);
+    const grownCost = new Float64Array(nRows * nextCap);
+    for (let r = 0; r < nRows; r++) {
+      grown.set(slots.subarray(r * cap, r * cap + count[r]!), r * nextCap);
+      grownCost.set(slotCost.subarray(r * cap, r * cap + count[r]!), r * nextCap);
+    }
+    slots = grown;
+    slotCost = grownCost;
+    cap = nextCap;
+  };
   let warm: WarmStart | undefined = opts.warm;
   let augmentations = 0;
   const extra = new Int32Array(nRows);
@@ -535,18 +549,7 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
     // grow the lists and add the pairs that priced out and are not candidates yet
     let need = 0;
     for (let r = 0; r < nRows; r++) need = Math.max(need, count[r]! + extra[r]!);
-    if (need > cap) {
-      const nextCap = Math.max(need, 2 * cap);
-      const grown = new Int32Array(nRows * nextCap);
-      const grownCost = new Float64Array(nRows * nextCap);
-      for (let r = 0; r < nRows; r++) {
-        grown.set(slots.subarray(r * cap, r * cap + count[r]!), r * nextCap);
-        grownCost.set(slotCost.subarray(r * cap, r * cap + count[r]!), r * nextCap);
-      }
-      slots = grown;
-      slotCost = grownCost;
-      cap = nextCap;
-    }
+    ensureCap(need);
     stamp ??= new Int32Array(nCols);
     let added = 0;
     for (let r = 0; r < nRows; r++) {
@@ -585,7 +588,7 @@ function pickRow(
   floor: Float64Array,
   maxAbs: Float64Array,
 ): number {
-  const n = cheapestK(cost, base, nCols, k, key, col, guess);
+  const n = cheapestK(cost, base, nCols, k, key, col, guess, scanStart(r, nCols));
   let top = -Infinity;
   let big = maxAbs[0]!;
   for (let t = 0; t < n; t++) {
@@ -649,20 +652,25 @@ function certified(res: SolveResult, augmentations: number, scanned: number, opt
 }
 
 /**
- * Moves the k cheapest allowed pairs of one row (as a set, ties broken by position)
- * into key/col[0 .. returned count); `key` holds 4k. Pairs below a threshold are
- * gathered; when the buffer fills, a selection keeps the 2k cheapest and lowers the
- * threshold to the dearest kept. The threshold starts at `guess[0]`, the previous
- * row's 2k-th cheapest cost (rows of one matrix tend to look alike), so a row costs
- * one read and about 2k gathered pairs; when fewer than k pairs fall below it the
- * row is read again from +Infinity. Any guess gives the same set; a good one is
- * only faster. The row's 2k-th cheapest becomes the next guess.
+ * Moves the k cheapest allowed pairs of one row (as a set, ties broken by position in
+ * the row's scan order, see {@link scanStart}) into key/col[0 .. returned count);
+ * `key` holds 4k. Pairs below a threshold are gathered; when the buffer fills, a
+ * selection keeps the 2k cheapest and lowers the threshold to the dearest kept. The
+ * threshold starts at `guess[0]`, the previous row's 2k-th cheapest cost (rows of one
+ * matrix tend to look alike), so a row costs one read and about 2k gathered pairs;
+ * when fewer than k pairs fall below it the row is read again from +Infinity. Any
+ * guess gives the same set; a good one is only faster. The row's 2k-th cheapest
+ * (raised by an ulp or two, so ties at it are gathered) becomes the next guess.
  */
-function cheapestK(cost: Float64Array, base: number, nCols: number, k: number, key: Float64Array, col: Int32Array, guess: Float64Array): number {
-  let n = gatherBelow(cost, base, nCols, 2 * k, key, col, guess[0]!);
-  if (n < k && guess[0]! < Infinity) n = gatherBelow(cost, base, nCols, 2 * k, key, col, Infinity);
+function cheapestK(cost: Float64Array, base: number, nCols: number, k: number, key: Float64Array, col: Int32Array, guess: Float64Array, start: number): number {
+  let n = gatherBelow(cost, base, nCols, 2 * k, key, col, guess[0]!, start);
+  if (n < k && guess[0]! < Infinity) n = gatherBelow(cost, base, nCols, 2 * k, key, col, Infinity, start);
   if (n >= 2 * k) {
-    guess[0] = keepCheapest(key, col, n, 2 * k);
+    // The next row gathers below a hair above this row's 2k-th cheapest, so that ties
+    // at it count: with few distinct costs it is often the row's minimum (0), and a
+    // strict "below 0" would gather nothing and read every row twice.
+    const kth = keepCheapest(key, col, n, 2 * k);
+    guess[0] = kth + Math.max(Math.abs(kth) * Number.EPSILON, Number.MIN_VALUE);
     n = 2 * k;
   }
   if (n > k) {
@@ -673,22 +681,40 @@ function cheapestK(cost: Float64Array, base: number, nCols: number, k: number, k
 }
 
 /**
- * Gathers the row's pairs with cost below `threshold` into key/col; whenever the
- * buffer fills, keeps the `keep` cheapest and lowers the threshold to the dearest of
- * them, so the `keep` cheapest pairs below the starting threshold are always among
- * those gathered. Returns how many were gathered.
+ * Where row r's scan for its cheapest pairs starts: a column spread over the row by
+ * the golden ratio (Fibonacci hashing), the scan wrapping round from there. Among
+ * pairs of equal cost the first ones scanned are kept, so with a common start every
+ * row of a matrix with few distinct costs (integers 0..9, say) would take its ties
+ * from the same first columns, and the candidates would crowd onto a few hundred
+ * columns that cannot serve every row: many pricing rounds. Spread starts give each
+ * row a different share of its ties. Any start gives the exact optimum.
  */
-function gatherBelow(cost: Float64Array, base: number, nCols: number, keep: number, key: Float64Array, col: Int32Array, threshold: number): number {
+function scanStart(r: number, nCols: number): number {
+  return Math.floor(((r * 0.6180339887498949) % 1) * nCols);
+}
+
+/**
+ * Gathers the row's pairs with cost below `threshold` into key/col, scanning from
+ * column `start` round to `start − 1`; whenever the buffer fills, keeps the `keep`
+ * cheapest and lowers the threshold to the dearest of them, so the `keep` cheapest
+ * pairs below the starting threshold are always among those gathered. Returns how
+ * many were gathered.
+ */
+function gatherBelow(cost: Float64Array, base: number, nCols: number, keep: number, key: Float64Array, col: Int32Array, threshold: number, start: number): number {
   const size = key.length;
   let n = 0;
-  for (let j = 0; j < nCols; j++) {
-    const c = cost[base + j]!;
-    if (c < threshold) {
-      key[n] = c;
-      col[n++] = j;
-      if (n === size) {
-        threshold = keepCheapest(key, col, n, keep);
-        n = keep;
+  for (let pass = 0; pass < 2; pass++) {
+    const from = pass === 0 ? start : 0;
+    const to = pass === 0 ? nCols : start;
+    for (let j = from; j < to; j++) {
+      const c = cost[base + j]!;
+      if (c < threshold) {
+        key[n] = c;
+        col[n++] = j;
+        if (n === size) {
+          threshold = keepCheapest(key, col, n, keep);
+          n = keep;
+        }
       }
     }
   }
