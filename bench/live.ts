@@ -226,18 +226,24 @@ async function timed<T>(times: Partial<Record<'throughput' | 'paced' | 'restore'
   return out;
 }
 
+/** Markdown split at its `###` subsections: what precedes the first, then each (title line first). */
+function splitParts(text: string): { head: string; parts: string[] } {
+  const [head, ...parts] = text.split(/\n(?=### )/);
+  return { head: head ?? '', parts };
+}
+
 /**
  * The parts (### subsections) of the current bench:live section of `doc` that this run
  * did not measure, by title, so `--only` keeps them.
  */
-function keptParts(doc: string): Map<string, string> {
+export function keptParts(doc: string): Map<string, string> {
   const kept = new Map<string, string>();
   const a = doc.indexOf('<!-- bench:live:start -->');
   const b = doc.indexOf('<!-- bench:live:end -->');
   if (a < 0 || b < a) return kept;
-  const [head, ...parts] = doc.slice(a, b).split(/\n(?=### )/);
+  const { head, parts } = splitParts(doc.slice(a, b));
   // A section written before parts carried their own run line has one run line for all.
-  const old = /Run (\d{4}-\d\d-\d\d \d\d:\d\d) UTC.*?1-minute load at start (\d+\.\d+), at end (\d+\.\d+)/.exec(head ?? '');
+  const old = /Run (\d{4}-\d\d-\d\d \d\d:\d\d) UTC.*?1-minute load at start (\d+\.\d+), at end (\d+\.\d+)/.exec(head);
   for (const part of parts) {
     let text = part.trimEnd();
     if (!/\nRun \d{4}/.test(text) && old) {
@@ -289,12 +295,11 @@ function markdown(m: ReturnType<typeof machineInfo>, quick: boolean, t: Throughp
   const order = ['### Backlog throughput', '### Paced run', '### Restore'];
   const measured = new Set([t ? order[0] : '', p ? order[1] : '', r ? order[2] : '']);
   if (!quick) {
-    const text = out.join('\n');
+    const { head, parts } = splitParts(out.join('\n'));
     const sections = new Map<string, string>();
-    for (const part of text.split(/\n(?=### )/).slice(1)) sections.set(part.slice(0, part.indexOf('\n')), part.trimEnd());
-    const head = text.split(/\n(?=### )/)[0]!.trimEnd();
+    for (const part of parts) sections.set(part.slice(0, part.indexOf('\n')), part.trimEnd());
     const body = order.map((title) => (measured.has(title) ? sections.get(title) : kept.get(title))).filter((x): x is string => x !== undefined);
-    return `<!-- bench:live:start -->\n${[head, ...body].join('\n\n')}\n<!-- bench:live:end -->`;
+    return `<!-- bench:live:start -->\n${[head.trimEnd(), ...body].join('\n\n')}\n<!-- bench:live:end -->`;
   }
   return `<!-- bench:live:start -->\n${out.join('\n').trimEnd()}\n<!-- bench:live:end -->`;
 }
