@@ -508,10 +508,11 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   };
   // Every row must be matched: the candidates must hold a full matching, or the
   // sparse solve below is infeasible (a corner of a geometric matrix, or a cluster,
-  // with more rows than columns among their nearest). Widen the rows that cannot all
-  // be matched inside their candidates, until a full matching fits.
+  // with more rows than columns among their nearest). Checked before solving, as a
+  // maximum matching of the candidates costs far less than a solve that fails late
+  // (geometric n = 4000: 1.1 s against 1.8 s when widened after the failed solve).
   if (nRows <= nCols && mustMatchAll(inst.unmatchedCost ?? null)) {
-    const w = widenUntilMatchable(inst, k, slots, slotCost, cap, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }));
+    const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }));
     if (w < 0) return null;
     scanned += w;
   }
@@ -602,16 +603,14 @@ interface Lists {
  * alternating path from an unmatched row (the rows that compete for too few columns,
  * Hall's condition) takes twice its cheapest pairs, and again. The pairs added are
  * each row's next cheapest, so the lists stay "the row's cheapest" and `floor` stays
- * a bound on every pair left out. Returns the cells read, or -1 when no row can grow
- * (the rows cannot all be matched: the full search reports it). A row's warm pair,
- * if any, is added back after its list is picked again.
+ * a bound on every pair left out. Returns the cells read, or -1 when it gives up (see
+ * WIDEN_MAX) or no row can grow (then the rows cannot all be matched, which the full
+ * search reports). A row's warm pair, if any, is added back after its list is picked
+ * again.
  */
 function widenUntilMatchable(
   inst: DenseInstance,
   k0: number,
-  slots0: Int32Array,
-  slotCost0: Float64Array,
-  cap0: number,
   count: Int32Array,
   floor: Float64Array,
   maxAbs: Float64Array,
@@ -620,7 +619,6 @@ function widenUntilMatchable(
   lists: () => Lists,
 ): number {
   const { nRows, nCols, cost } = inst;
-  let cur: Lists = { slots: slots0, slotCost: slotCost0, cap: cap0 };
   let scanned = 0;
   const rowSeen = new Uint8Array(nRows);
   const colSeen = new Uint8Array(nCols);
@@ -628,10 +626,8 @@ function widenUntilMatchable(
   const guess = Float64Array.of(Infinity);
   let lastDeficit = Infinity;
   for (let k = k0; ; ) {
-    const rowPtr = new Int32Array(nRows + 1);
-    for (let r = 0; r < nRows; r++) rowPtr[r + 1] = rowPtr[r]! + count[r]!;
-    const colIdx = new Int32Array(rowPtr[nRows]!);
-    for (let r = 0; r < nRows; r++) colIdx.set(cur.slots.subarray(r * cur.cap, r * cur.cap + count[r]!), rowPtr[r]!);
+    let cur = lists();
+    const { rowPtr, colIdx } = packCandidates(nRows, nCols, cur.slots, cur.slotCost, cur.cap, count, null);
     const m = maxCardinalityMatching({ nRows, nCols, rowPtr, colIdx });
     if (m.size === nRows) return scanned;
     // rows reachable from an unmatched row by alternating paths
