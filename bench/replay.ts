@@ -539,8 +539,7 @@ function renderGrowth(g: GrowthResult, title: string | null, targets: string[] |
   for (const r of g.byDays) {
     md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${wall(r)} | ${peak(r)} | ${s1(r.alone?.ms)} | ${f1(r.load)} |`);
   }
-  const stopped = [...g.byScale, ...g.byDays].filter((r) => r.capped);
-  if (stopped.length > 0) {
+  if ([...g.byScale, ...g.byDays].some((r) => r.capped)) {
     md.push('');
     md.push(`"(stopped)": the replay did not finish within the cap (\`--growth-cap\`) and was stopped there; its counts are unknown, its time and memory are lower bounds.`);
   }
