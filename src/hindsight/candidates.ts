@@ -27,6 +27,19 @@ export function unmarkCandidate(words: Uint32Array, e: number): void {
  * best demands, so the first prices are not blind to it. Costs are compared by their
  * codes (ties, a thousandth of a minute apart at most, fall either way: any choice
  * of candidates gives the same optimum). Also notes each row's column range.
+ *
+ * The cheapest pairs alone cannot match enough rows: near each other in time and
+ * place, demands want the same few supplies. On a busy day (`gen --scale 4`, 58,050
+ * demands of one district) the k = 12 cheapest of every row and column held a
+ * matching of 35,647 pairs where the allowed graph holds 52,792; the rows left over
+ * start the pricing at u = P, so half of all allowed pairs priced out in the first
+ * round and the rounds dragged on. So each row also takes, as it is completed, one
+ * free column by earliest deadline: of its columns not yet taken, the one whose
+ * unit leaves first. Rows complete in the order their demands leave, which makes
+ * this the greedy that is optimal when only time constrains (a demand and a supply
+ * that are present together; common practice for interval scheduling), and on that
+ * day it matched 52,782 rows: the first prices start from nearly the largest
+ * matching, and the solve took 35 s instead of 51 s (same optimum).
  */
 export class FirstCandidates implements RowVisitor {
   /** Per row: the lowest and highest column among its pairs (lo > hi when none). */
@@ -39,12 +52,21 @@ export class FirstCandidates implements RowVisitor {
   private readonly bestCode: Int32Array;
   private readonly bestEdge: Int32Array;
 
-  /** @param k candidates per row and per column */
+  /** Rows the earliest-deadline greedy matched (see {@link row}). */
+  greedy = 0;
+  private readonly taken: Uint8Array | null;
+  /**
+   * @param k candidates per row and per column
+   * @param supplyEnd per column, when its unit leaves: with it, each row also takes the
+   *   earliest-leaving free column of its own as a candidate (see {@link row})
+   */
   constructor(
     nRows: number,
     private readonly nCols: number,
     private readonly k: number,
+    private readonly supplyEnd: Float64Array | null = null,
   ) {
+    this.taken = supplyEnd === null ? null : new Uint8Array(nCols);
     this.colLo = new Int32Array(nRows);
     this.colHi = new Int32Array(nRows);
     // Per column a max-heap of k codes (CODE_TOP, "≥ P", while not full).
@@ -56,10 +78,14 @@ export class FirstCandidates implements RowVisitor {
   }
 
   row(r: number, _demand: number, cols: Int32Array, codes: Uint16Array, from: number, len: number, start: number, words: Uint32Array): void {
-    const { k, colCode, colEdge, colBar, bestCode, bestEdge } = this;
+    const { k, colCode, colEdge, colBar, bestCode, bestEdge, taken, supplyEnd } = this;
     let lo = this.nCols;
     let hi = -1;
     let n = 0;
+    // The earliest-deadline pick: the free column that leaves first (cheapest on a tie).
+    let bestI = -1;
+    let bestEnd = Infinity;
+    let bestC = CODE_TOP;
     for (let i = 0; i < len; i++) {
       const j = cols[from + i]!;
       if (j < lo) lo = j;
@@ -67,6 +93,14 @@ export class FirstCandidates implements RowVisitor {
       const c = codes[from + i]!;
       if (c === CODE_TOP) continue;
       const e = start + i;
+      if (taken !== null && taken[j] === 0) {
+        const en = supplyEnd![j]!;
+        if (en < bestEnd || (en === bestEnd && c < bestC)) {
+          bestEnd = en;
+          bestC = c;
+          bestI = i;
+        }
+      }
       // The row's k cheapest, by insertion into a small sorted buffer.
       if (n < k || c < bestCode[k - 1]!) {
         let p = n < k ? n++ : k - 1;
@@ -98,6 +132,11 @@ export class FirstCandidates implements RowVisitor {
     }
     this.colLo[r] = lo;
     this.colHi[r] = hi;
+    if (bestI >= 0) {
+      taken![cols[from + bestI]!] = 1;
+      this.greedy++;
+      markCandidate(words, start + bestI);
+    }
     for (let q = 0; q < n; q++) markCandidate(words, bestEdge[q]!);
   }
 

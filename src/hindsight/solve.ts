@@ -280,7 +280,7 @@ function solveSegment(
     phases[key] += t - tPhase;
     tPhase = t;
   };
-  const first = new FirstCandidates(m.nDemand, m.nSupply, k);
+  const first = new FirstCandidates(m.nDemand, m.nSupply, k, m.supplyEnd);
   const g = buildCompactGraph(m, config, store, 0, first);
   const exact = pairCostOf(m, config);
   lap('graphMs');
