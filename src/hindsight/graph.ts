@@ -378,80 +378,6 @@ export class GraphStore {
 }
 
 /**
- * The pairs of the rows still open in the sweep (demands present), one slice of a
- * shared pool per row. A supply's arrival adds a pair to each demand it meets, all
- * over the pool: per pair that is one lookup of the row's slot (start and count side
- * by side) and one store, where an object per row cost a chain of pointer loads.
- * A full slice moves to the pool's end at twice its size; when the pool is full, the
- * open rows are copied to the front of a pool four times what they hold.
- */
-class RowArena {
-  cols = new Int32Array(1 << 16);
-  codes = new Uint16Array(1 << 16);
-  end = 0;
-  /** Per demand: [start, count, capacity]; start −1 when the row holds no slice. */
-  readonly slot: Int32Array;
-
-  constructor(nDemand: number) {
-    this.slot = new Int32Array(3 * nDemand);
-    for (let d = 0; d < nDemand; d++) this.slot[3 * d] = -1;
-  }
-
-  /** Room for one more pair in row d's slice; `open` lists the rows with a slice. */
-  grow(d: number, open: Int32Array, nOpen: number): void {
-    const slot = this.slot;
-    const n = slot[3 * d + 1]!;
-    const cap = Math.max(16, 2 * slot[3 * d + 2]!);
-    if (this.end + cap > this.cols.length) this.compact(open, nOpen, cap, d);
-    const start = this.end;
-    const from = slot[3 * d]!;
-    if (n > 0) {
-      this.cols.copyWithin(start, from, from + n);
-      this.codes.copyWithin(start, from, from + n);
-    }
-    slot[3 * d] = start;
-    slot[3 * d + 2] = cap;
-    this.end = start + cap;
-  }
-
-  /** Drops row d's slice (its pairs were written out). */
-  release(d: number): void {
-    this.slot[3 * d] = -1;
-    this.slot[3 * d + 1] = 0;
-    this.slot[3 * d + 2] = 0;
-  }
-
-  private compact(open: Int32Array, nOpen: number, extra: number, growing: number): void {
-    const slot = this.slot;
-    let live = extra;
-    for (let q = 0; q < nOpen; q++) live += slot[3 * open[q]! + 2]!;
-    const size = Math.max(1 << 16, 4 * live);
-    const cols = size > this.cols.length ? new Int32Array(size) : this.cols;
-    const codes = size > this.codes.length ? new Uint16Array(size) : this.codes;
-    // In pool order, so an in-place copy never overwrites a slice not yet moved.
-    const rows = Array.from(open.subarray(0, nOpen)).filter((d) => slot[3 * d]! >= 0);
-    rows.sort((x, y) => slot[3 * x]! - slot[3 * y]!);
-    let at = 0;
-    for (const d of rows) {
-      const from = slot[3 * d]!;
-      const n = slot[3 * d + 1]!;
-      // The growing row keeps only its count: it is about to move again.
-      const cap = d === growing ? n : slot[3 * d + 2]!;
-      if (cols !== this.cols || from !== at) {
-        cols.set(this.cols.subarray(from, from + n), at);
-        codes.set(this.codes.subarray(from, from + n), at);
-      }
-      slot[3 * d] = at;
-      if (d === growing) slot[3 * d + 2] = n;
-      at += cap;
-    }
-    this.cols = cols;
-    this.codes = codes;
-    this.end = at;
-  }
-}
-
-/**
  * Sees each graph row once, as its pairs are written: their columns and cost codes
  * are `cols` / `codes` over `[from, from + n)`, and pair i of them is word
  * `start + i` of `words` (where a candidate is marked). What must look at every pair
@@ -509,10 +435,21 @@ const SERIES_MAX_H = 1e-4;
 const EDGE = 1e-9;
 
 /**
- * Every allowed, time-overlapping pair of one market with its hindsight cost, by the
- * time sweep described above. A demand's pairs are held aside while it is present
- * and written out as one row once the sweep passes its `end` (no later arrival can
- * meet it), so the pairs are written once, in row order, with no sort and no copy.
+ * Every allowed, time-overlapping pair of one market with its hindsight cost. Rows
+ * are written one at a time, each at once and whole: a time sweep takes the events
+ * "supply arrives" (its unit joins the supply grid) and "demand leaves" (its row is
+ * written) in time order, an arrival before a departure at the same instant. When
+ * demand d leaves, every supply it can ever meet has arrived, so its row is the
+ * supplies of the 3×3 (half-reach) cells around it still present at some instant
+ * of d's stay: one scan of the grid, its pairs written in sequence straight into the
+ * words. (Building each pair from the side that arrived later, as a first version
+ * did, wrote the pairs of an arriving supply into a thousand rows at once, each
+ * held aside in a pool until its demand left: a cache miss a pair, and the pool's
+ * memory besides; measured on a busy district's day, 114 M pairs, the sweep took
+ * 10 s that way.)
+ *
+ * A supply leaves the grid once it ended before the oldest arrival among the
+ * demands still to be written: no row after that can meet it.
  *
  * The float32 cost is that of a fast distance: on the plane `√(Δx² + Δy²)`, on the
  * sphere `2R·asin(√h)` by its series (h ≤ 1e-4, so the series' error is below 1e-14
@@ -539,27 +476,32 @@ export function buildCompactGraph(
   const maxTravel = config.maxTravelMin;
   const waitWeight = config.waitWeight;
   const exact = pairCostOf(m, config);
+  const { demandNeeds, supplyHas, demandA, demandB, supplyA, supplyB, demandT, demandEnd, supplyT } = m;
 
-  // Arrivals in time order; demand index k ↦ k, supply index k ↦ nDemand + k.
-  const n = nDemand + nSupply;
-  const order = new Int32Array(n);
-  const at = new Float64Array(n);
-  for (let i = 0; i < nDemand; i++) at[i] = m.demandT[i]!;
-  for (let i = 0; i < nSupply; i++) at[nDemand + i] = m.supplyT[i]!;
-  for (let i = 0; i < n; i++) order[i] = i;
-  order.sort((a, b) => at[a]! - at[b]! || a - b);
+  // Supplies by arrival, demands by departure (rows are written in that order), and
+  // demands by arrival (for the oldest one not written yet).
+  const byArrival = (t: Float64Array): Int32Array => {
+    const idx = new Int32Array(t.length);
+    for (let i = 0; i < idx.length; i++) idx[i] = i;
+    return idx.sort((a, b) => t[a]! - t[b]! || a - b);
+  };
+  const supplyOrder = byArrival(supplyT);
+  const leaveOrder = byArrival(demandEnd);
+  const demandOrder = byArrival(demandT);
+  const written = new Uint8Array(nDemand);
+  let oldest = 0;
 
-  const demandGrid = new Map<number, number[]>();
   const supplyGrid = new Map<number, number[]>();
   const neighbours: number[] = [];
-  const dTerms = termsOf(m.demandA, m.demandB, m.demandT, m.demandEnd, m.demandNeeds, capWords, !euclid);
-  const sTerms = termsOf(m.supplyA, m.supplyB, m.supplyT, m.supplyEnd, m.supplyHas, capWords, !euclid);
+  const dTerms = termsOf(demandA, demandB, demandT, demandEnd, demandNeeds, capWords, !euclid);
+  const sTerms = termsOf(supplyA, supplyB, supplyT, m.supplyEnd, supplyHas, capWords, !euclid);
   // The prefilter's limit: h (sphere) or squared km (plane) of the farthest allowed pair.
   const maxKm = maxDistanceKm(config);
   // (No prefilter on the sphere once the limit reaches half way round it.)
   const limit = euclid ? maxKm * maxKm : maxKm >= Math.PI * EARTH_RADIUS_KM ? Infinity : Math.sin(maxKm / EARTH_RADIUS_KM / 2) ** 2;
   const useSeries = !euclid && limit <= SERIES_MAX_H;
   const kmPerMin = speed / 60;
+  const cut = limit * SLACK_SQ;
 
   const rowDemand = new Int32Array(nDemand);
   const demandRow = new Int32Array(nDemand);
@@ -568,190 +510,149 @@ export function buildCompactGraph(
   const wide = new Map<number, Int32Array>();
   const P = config.abandonPenalty;
   const step = codeStep(P);
-  let nRows = 0;
   let nnz = 0;
   store.ensure(reserve > 0 ? reserve : Math.max(1024, Math.min(RESERVE_PAIRS, nDemand * nSupply)), 0);
+  // One row's pairs while it is scanned (its lowest column, the words' base, is known only after).
+  let rowCols = new Int32Array(1024);
+  let rowCodes = new Uint16Array(1024);
 
-  // Present demands, by (end, index) in a binary heap, each with its pairs so far.
-  const heap = new Int32Array(nDemand);
-  let heapSize = 0;
-  const demandEnd = m.demandEnd;
-  const before = (a: number, b: number): boolean => demandEnd[a]! < demandEnd[b]! || (demandEnd[a] === demandEnd[b] && a < b);
-  const arena = new RowArena(nDemand);
-  const slot = arena.slot;
-  const finishRow = (d: number): void => {
-    const from = slot[3 * d]!;
-    const len = slot[3 * d + 1]!;
+  let next = 0;
+  for (let r = 0; r < nDemand; r++) {
+    const d = leaveOrder[r]!;
+    const t = demandT[d]!;
+    const end = demandEnd[d]!;
+    // Every supply that arrives while d is here joins the grid first.
+    for (; next < nSupply && supplyT[supplyOrder[next]!]! <= end; next++) {
+      const s = supplyOrder[next]!;
+      const key = supplyCell[s]!;
+      // A unit with no location, or ended before it began, can meet nobody.
+      if (Number.isNaN(key) || m.supplyEnd[s]! < supplyT[s]!) continue;
+      const bucket = supplyGrid.get(key);
+      if (bucket === undefined) supplyGrid.set(key, [s]);
+      else bucket.push(s);
+    }
+    written[d] = 1;
+    while (oldest < nDemand && written[demandOrder[oldest]!] === 1) oldest++;
+    // Supplies that ended before this are of no use to any row still to come.
+    const gone = oldest < nDemand ? Math.min(t, demandT[demandOrder[oldest]!]!) : t;
+    let len = 0;
+    const key = demandCell[d]!;
+    if (!Number.isNaN(key) && end >= t) {
+      const cx = Math.floor(key / ny);
+      const cy = key - cx * ny;
+      neighbours.length = 0;
+      for (let dx = -CELL_SPAN; dx <= CELL_SPAN; dx++) {
+        if (ny === 1) {
+          neighbours.push(cx + dx);
+          continue;
+        }
+        for (let dy = -CELL_SPAN; dy <= CELL_SPAN; dy++) {
+          let y = cy + dy;
+          if (wrap) y = (y + ny) % ny;
+          else if (y < 0 || y >= ny) continue;
+          neighbours.push((cx + dx) * ny + y);
+        }
+      }
+      // This demand's own terms, hoisted out of the pair loop; the supplies', interleaved.
+      const uo = d * STRIDE;
+      const u0 = dTerms[uo]!;
+      const u1 = dTerms[uo + 1]!;
+      const u2 = dTerms[uo + 2]!;
+      const u3 = dTerms[uo + 3]!;
+      const u4 = dTerms[uo + 4]!;
+      const needs1 = dTerms[uo + T_CAPS]!;
+      for (let q = 0; q < neighbours.length; q++) {
+        const bucket = supplyGrid.get(neighbours[q]!);
+        if (bucket === undefined) continue;
+        let keep = 0;
+        for (let b = 0; b < bucket.length; b++) {
+          const j = bucket[b]!;
+          const o = j * STRIDE;
+          const sEnd = sTerms[o + T_END]!;
+          if (sEnd < gone) continue;
+          bucket[keep++] = j;
+          // Present together: every supply here arrived by `end`; it must not leave before t.
+          if (sEnd < t) continue;
+          // Prefilter on the distance terms alone (symmetric in the two points).
+          let km: number;
+          if (euclid) {
+            const dx = sTerms[o]! - u0;
+            const dy = sTerms[o + 1]! - u1;
+            const sq = dx * dx + dy * dy;
+            if (!(sq <= cut)) continue;
+            km = Math.sqrt(sq);
+          } else {
+            const x = sTerms[o]! * u1 - sTerms[o + 1]! * u0;
+            const y = sTerms[o + 2]! * u3 - sTerms[o + 3]! * u2;
+            const h = x * x + sTerms[o + 4]! * u4 * y * y;
+            if (!(h <= cut)) continue;
+            km = useSeries ? 2 * EARTH_RADIUS_KM * Math.sqrt(h) * (1 + h / 6 + 0.075 * h * h) : haversineCosKm(supplyA[j]!, supplyB[j]!, sTerms[o + 4]!, demandA[d]!, demandB[d]!, u4);
+          }
+          if (capWords === 1) {
+            if ((needs1 & ~sTerms[o + T_CAPS]!) !== 0) continue;
+          } else if (capWords > 1) {
+            let ok = true;
+            for (let w = 0; w < capWords; w++) {
+              if ((demandNeeds[d * capWords + w]! & ~supplyHas[j * capWords + w]!) !== 0) {
+                ok = false;
+                break;
+              }
+            }
+            if (!ok) continue;
+          }
+          const travel = km / kmPerMin;
+          let c: number;
+          if (Math.abs(travel - maxTravel) <= EDGE * (maxTravel + travel) || travel !== travel) {
+            // Near the limit the exact formula decides (and gives the cost).
+            c = exact(d, j);
+            if (c !== c) continue;
+          } else {
+            if (!(travel <= maxTravel)) continue;
+            const wait = sTerms[o + T_T]! - t;
+            c = travel + (wait > 0 ? (waitWeight * wait) / 60_000 : 0);
+          }
+          if (len === rowCols.length) {
+            const cols = new Int32Array(2 * len);
+            cols.set(rowCols);
+            rowCols = cols;
+            const codes = new Uint16Array(2 * len);
+            codes.set(rowCodes);
+            rowCodes = codes;
+          }
+          rowCols[len] = j;
+          rowCodes[len++] = costCode(c, P, step);
+        }
+        bucket.length = keep;
+      }
+    }
+    // Write the row: columns less the row's lowest, under the cost codes.
     const start = nnz;
-    const r = nRows;
     if (len > 0) {
       store.ensure(nnz + len, nnz);
-      const cols = arena.cols;
-      const codes = arena.codes;
       const words = store.words;
-      let lo = cols[from]!;
+      let lo = rowCols[0]!;
       let hi = lo;
-      for (let i = from + 1; i < from + len; i++) {
-        const c = cols[i]!;
+      for (let i = 1; i < len; i++) {
+        const c = rowCols[i]!;
         if (c < lo) lo = c;
         if (c > hi) hi = c;
       }
       rowBase[r] = lo;
       if (hi - lo <= SPAN) {
-        for (let i = 0; i < len; i++) words[start + i] = ((codes[from + i]! << 16) | (cols[from + i]! - lo)) >>> 0;
+        for (let i = 0; i < len; i++) words[start + i] = ((rowCodes[i]! << 16) | (rowCols[i]! - lo)) >>> 0;
       } else {
-        wide.set(r, cols.slice(from, from + len));
-        for (let i = 0; i < len; i++) words[start + i] = (codes[from + i]! << 16) >>> 0;
+        wide.set(r, rowCols.slice(0, len));
+        for (let i = 0; i < len; i++) words[start + i] = (rowCodes[i]! << 16) >>> 0;
       }
-      visitor?.row(r, d, cols, codes, from, len, start, words);
-    } else {
-      visitor?.row(r, d, arena.cols, arena.codes, 0, 0, start, store.words);
     }
-    arena.release(d);
+    visitor?.row(r, d, rowCols, rowCodes, 0, len, start, store.words);
     nnz += len;
     rowDemand[r] = d;
     demandRow[d] = r;
-    rowPtr[++nRows] = nnz;
-  };
-  const popRow = (): void => {
-    const top = heap[0]!;
-    const last = heap[--heapSize]!;
-    let p = 0;
-    for (;;) {
-      let c = 2 * p + 1;
-      if (c >= heapSize) break;
-      if (c + 1 < heapSize && before(heap[c + 1]!, heap[c]!)) c++;
-      if (!before(heap[c]!, last)) break;
-      heap[p] = heap[c]!;
-      p = c;
-    }
-    if (heapSize > 0) heap[p] = last;
-    finishRow(top);
-  };
-
-  // Hot-loop locals: typed arrays read through plain variables, not properties.
-  const { demandNeeds, supplyHas, demandA, demandB, supplyA, supplyB, demandT, supplyT, supplyEnd } = m;
-  const cut = limit * SLACK_SQ;
-
-  for (let k = 0; k < n; k++) {
-    const u = order[k]!;
-    const isDemand = u < nDemand;
-    const i = isDemand ? u : u - nDemand;
-    const t = isDemand ? demandT[i]! : supplyT[i]!;
-    // Every demand that ended before now has met all it ever will.
-    while (heapSize > 0 && demandEnd[heap[0]!]! < t) popRow();
-    const end = isDemand ? demandEnd[i]! : supplyEnd[i]!;
-    if (isDemand) {
-      let p = heapSize++;
-      while (p > 0) {
-        const parent = (p - 1) >> 1;
-        if (!before(i, heap[parent]!)) break;
-        heap[p] = heap[parent]!;
-        p = parent;
-      }
-      heap[p] = i;
-    }
-    const key = isDemand ? demandCell[i]! : supplyCell[i]!;
-    // A unit with no location, or ended before it began, can meet nobody.
-    if (Number.isNaN(key) || end < t) continue;
-    const cx = Math.floor(key / ny);
-    const cy = key - cx * ny;
-    neighbours.length = 0;
-    for (let dx = -CELL_SPAN; dx <= CELL_SPAN; dx++) {
-      if (ny === 1) {
-        neighbours.push(cx + dx);
-        continue;
-      }
-      for (let dy = -CELL_SPAN; dy <= CELL_SPAN; dy++) {
-        let y = cy + dy;
-        if (wrap) y = (y + ny) % ny;
-        else if (y < 0 || y >= ny) continue;
-        neighbours.push((cx + dx) * ny + y);
-      }
-    }
-    const other = isDemand ? supplyGrid : demandGrid;
-    // This unit's own terms, hoisted out of the pair loop; the other side's, interleaved.
-    const own = isDemand ? dTerms : sTerms;
-    const ot = isDemand ? sTerms : dTerms;
-    const uo = i * STRIDE;
-    const u0 = own[uo]!;
-    const u1 = own[uo + 1]!;
-    const u2 = own[uo + 2]!;
-    const u3 = own[uo + 3]!;
-    const u4 = own[uo + 4]!;
-    const u7 = own[uo + T_CAPS]!;
-    for (let q = 0; q < neighbours.length; q++) {
-      const bucket = other.get(neighbours[q]!);
-      if (bucket === undefined) continue;
-      let keep = 0;
-      for (let b = 0; b < bucket.length; b++) {
-        const j = bucket[b]!;
-        const o = j * STRIDE;
-        // Sweep times only grow, so a unit gone before now is gone for good.
-        if (ot[o + T_END]! < t) continue;
-        bucket[keep++] = j;
-        // Prefilter on the distance terms alone (symmetric in the two points).
-        let km: number;
-        if (euclid) {
-          const dx = ot[o]! - u0;
-          const dy = ot[o + 1]! - u1;
-          const sq = dx * dx + dy * dy;
-          if (!(sq <= cut)) continue;
-          km = Math.sqrt(sq);
-        } else {
-          const x = ot[o]! * u1 - ot[o + 1]! * u0;
-          const y = ot[o + 2]! * u3 - ot[o + 3]! * u2;
-          const h = x * x + ot[o + 4]! * u4 * y * y;
-          if (!(h <= cut)) continue;
-          km = useSeries
-            ? 2 * EARTH_RADIUS_KM * Math.sqrt(h) * (1 + h / 6 + 0.075 * h * h)
-            : isDemand
-              ? haversineCosKm(supplyA[j]!, supplyB[j]!, ot[o + 4]!, demandA[i]!, demandB[i]!, u4)
-              : haversineCosKm(supplyA[i]!, supplyB[i]!, u4, demandA[j]!, demandB[j]!, ot[o + 4]!);
-        }
-        const dd = isDemand ? i : j;
-        const ss = isDemand ? j : i;
-        if (capWords === 1) {
-          const needs = isDemand ? u7 : ot[o + T_CAPS]!;
-          const has = isDemand ? ot[o + T_CAPS]! : u7;
-          if ((needs & ~has) !== 0) continue;
-        } else if (capWords > 1) {
-          let ok = true;
-          for (let w = 0; w < capWords; w++) {
-            if ((demandNeeds[dd * capWords + w]! & ~supplyHas[ss * capWords + w]!) !== 0) {
-              ok = false;
-              break;
-            }
-          }
-          if (!ok) continue;
-        }
-        const travel = km / kmPerMin;
-        let c: number;
-        if (Math.abs(travel - maxTravel) <= EDGE * (maxTravel + travel) || travel !== travel) {
-          // Near the limit the exact formula decides (and gives the cost).
-          c = exact(dd, ss);
-          if (c !== c) continue;
-        } else {
-          if (!(travel <= maxTravel)) continue;
-          const wait = isDemand ? ot[o + T_T]! - t : t - ot[o + T_T]!;
-          c = travel + (wait > 0 ? (waitWeight * wait) / 60_000 : 0);
-        }
-        const sl = 3 * dd;
-        if (slot[sl + 1] === slot[sl + 2]) arena.grow(dd, heap, heapSize);
-        const to = slot[sl]! + slot[sl + 1]!++;
-        arena.cols[to] = ss;
-        arena.codes[to] = costCode(c, P, step);
-      }
-      bucket.length = keep;
-    }
-    const grid = isDemand ? demandGrid : supplyGrid;
-    const bucket = grid.get(key);
-    if (bucket === undefined) grid.set(key, [i]);
-    else bucket.push(i);
+    rowPtr[r + 1] = nnz;
   }
-  while (heapSize > 0) popRow();
   return {
-    nRows,
+    nRows: nDemand,
     nCols: nSupply,
     rowDemand,
     demandRow,
