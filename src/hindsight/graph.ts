@@ -355,9 +355,11 @@ export function columnsInPlace(g: CompactGraph): Int32Array {
 }
 
 // Pairs the first buffers are sized for. Pages of a typed array that are never
-// written are never made resident, so a roomy first reservation costs address space,
-// not memory, and spares the copy (and the doubled footprint) of growing.
-const RESERVE_PAIRS = 1 << 27;
+// written are never made resident (the zeroed memory comes from the system as it is
+// touched), so a roomy first reservation costs address space, not memory, and spares
+// the copies of growing: growing a week's graph of a busy district (800 M pairs) from
+// 2^27 took three copies, the last holding 2 GB of old words beside the new ones.
+const RESERVE_PAIRS = 1 << 30;
 
 /**
  * Buffers for the pairs of one build after another (the time segments of a market):
@@ -370,8 +372,17 @@ export class GraphStore {
   /** Room for at least `n` pairs, keeping the first `keep`. */
   ensure(n: number, keep: number): void {
     if (n <= this.words.length) return;
-    const cap = Math.max(n, Math.min(RESERVE_PAIRS, 2 * n), 2 * this.words.length);
-    const words = new Uint32Array(cap);
+    let cap = Math.max(n, Math.min(RESERVE_PAIRS, 2 * n), 2 * this.words.length);
+    let words: Uint32Array<ArrayBuffer> | null = null;
+    // A system that will not promise that much address space gets a smaller reservation.
+    while (words === null) {
+      try {
+        words = new Uint32Array(cap);
+      } catch (err) {
+        if (!(err instanceof RangeError) || cap <= n) throw err;
+        cap = Math.max(n, Math.floor(cap / 2));
+      }
+    }
     words.set(this.words.subarray(0, keep));
     this.words = words;
   }
