@@ -445,7 +445,9 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
 
 function headOf(root: string): string {
   const r = spawnSync('git', ['-C', root, 'log', '-1', '--format=%h %s'], { encoding: 'utf8' });
-  return r.status === 0 ? r.stdout.trim().slice(0, 80) : root;
+  if (r.status !== 0) return root;
+  const head = r.stdout.trim();
+  return head.length > 80 ? `${head.slice(0, 79)}…` : head;
 }
 
 /** The hindsight alone in a child process (bench/lib/hindsight-child.mjs) of the measured checkout. */

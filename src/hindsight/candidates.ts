@@ -32,14 +32,16 @@ export function unmarkCandidate(words: Uint32Array, e: number): void {
  * place, demands want the same few supplies. On a busy day (`gen --scale 4`, 58,050
  * demands of one district) the k = 12 cheapest of every row and column held a
  * matching of 35,647 pairs where the allowed graph holds 52,792; the rows left over
- * start the pricing at u = P, so half of all allowed pairs priced out in the first
- * round and the rounds dragged on. So each row also takes, as it is completed, one
- * free column by earliest deadline: of its columns not yet taken, the one whose
- * unit leaves first. Rows complete in the order their demands leave, which makes
- * this the greedy that is optimal when only time constrains (a demand and a supply
- * that are present together; common practice for interval scheduling), and on that
- * day it matched 52,782 rows: the first prices start from nearly the largest
- * matching, and the solve took 35 s instead of 51 s (same optimum).
+ * priced at u = P, so half of all allowed pairs priced out in the first round and the
+ * rounds dragged on. So each row, as it is completed, also picks one free column by
+ * earliest deadline: of its columns not yet taken, the one whose unit leaves first.
+ * Rows complete in the order their demands leave, which makes this the greedy that
+ * is optimal when only time constrains (a demand and a supply present together; an
+ * exchange argument, common practice for interval scheduling); on that day it
+ * matched 52,782 rows. Its pairs join the restricted assignment with the first
+ * pricing round's, not in the first solve: there they made the cold solve's searches
+ * long (3–4× its time) for no fewer rounds. The solve of that district's day took
+ * 32 s instead of 51 s (same optimum).
  */
 export class FirstCandidates implements RowVisitor {
   /** Per row: the lowest and highest column among its pairs (lo > hi when none). */
@@ -54,6 +56,8 @@ export class FirstCandidates implements RowVisitor {
 
   /** Rows the earliest-deadline greedy matched (see {@link row}). */
   greedy = 0;
+  /** The greedy's pairs (words), rows ascending, for the caller to add (not marked here). */
+  readonly greedyEdges: Int32Array;
   private readonly taken: Uint8Array | null;
   /**
    * @param k candidates per row and per column
@@ -67,6 +71,7 @@ export class FirstCandidates implements RowVisitor {
     private readonly supplyEnd: Float64Array | null = null,
   ) {
     this.taken = supplyEnd === null ? null : new Uint8Array(nCols);
+    this.greedyEdges = new Int32Array(supplyEnd === null ? 0 : Math.min(nRows, nCols));
     this.colLo = new Int32Array(nRows);
     this.colHi = new Int32Array(nRows);
     // Per column a max-heap of k codes (CODE_TOP, "≥ P", while not full).
@@ -134,8 +139,7 @@ export class FirstCandidates implements RowVisitor {
     this.colHi[r] = hi;
     if (bestI >= 0) {
       taken![cols[from + bestI]!] = 1;
-      this.greedy++;
-      markCandidate(words, start + bestI);
+      this.greedyEdges[this.greedy++] = start + bestI;
     }
     for (let q = 0; q < n; q++) markCandidate(words, bestEdge[q]!);
   }

@@ -1,14 +1,26 @@
 /**
  * The pricing pass of the hindsight optimum (SPEC §4): under the restricted solves'
  * prices, the reduced cost `c − u_d − v_s` of every allowed pair that is not a
- * candidate yet; the most negative few of each row become candidates. A pass that
- * finds none proves the prices feasible for the LP over all allowed pairs. Pure.
+ * candidate yet; the most negative few of each row become candidates. An exhaustive
+ * pass that finds none proves the prices feasible for the LP over all allowed pairs.
+ * Pure.
  *
  * Incremental: a row whose last pricing found it clean (no violator left out) needs
  * no new pass while its price and the prices of all its columns stand still, as its
  * reduced costs are then the same numbers. Columns are in arrival order, so a row's
  * columns lie in a short index range, and "did a column in the range move?" is one
  * lookup in a prefix count of the columns that moved.
+ *
+ * Bounded: prices move every round, but a row priced clean knows how far its pairs
+ * stood from pricing out (`floor`: the least `lo − v` over its pairs left out, lo
+ * being a pair's cost code's lower end). Its pairs' `lo − v` can fall only as far as
+ * its columns' prices rose since, which the pass bounds by the largest rise over
+ * blocks of columns covering the row's range (a sparse table over the blocks, one
+ * lookup a row), summed over the passes since the row was priced. While the floor
+ * less that sum stays at or above `u + slack`, no pair of the row can price out, and
+ * the row is skipped. A pass that finds nothing after skipping so is not the proof:
+ * the caller runs one `exhaustive` pass, which skips only rows whose numbers are
+ * all the same as when they were priced.
  */
 
 import { pairflowError } from '../errors.js';
@@ -44,6 +56,13 @@ export class Pricer {
   private readonly addEdge: Int32Array;
   private readonly addCol: Int32Array;
   private readonly addCost: Float64Array;
+  /** Per row: the least `lo − v` over its pairs left out when last priced (+Infinity when none). */
+  private readonly floor: Float64Array;
+  /** Per row: how far its columns' prices may have risen since it was last priced. */
+  private readonly risen: Float64Array;
+  /** Blocks of {@link BLOCK} columns; level k of the table holds the largest rise over 2^k blocks from each. */
+  private readonly nBlocks: number;
+  private readonly rise: Float64Array;
   private newRow = new Int32Array(1024);
   private newCol = new Int32Array(1024);
   private newCost = new Float64Array(1024);
@@ -75,23 +94,34 @@ export class Pricer {
     this.addEdge = new Int32Array(addPerRow);
     this.addCol = new Int32Array(addPerRow);
     this.addCost = new Float64Array(addPerRow);
+    this.floor = new Float64Array(g.nRows).fill(Infinity);
+    this.risen = new Float64Array(g.nRows);
+    this.nBlocks = Math.ceil(g.nCols / BLOCK);
+    this.rise = new Float64Array(this.nBlocks * levels(this.nBlocks));
   }
 
   /**
    * One pass under prices (u per graph row, v per column); the pairs it returns are
    * marked candidates in the graph. The arrays returned are reused by the next pass.
+   * Only an `exhaustive` pass that finds no violator proves the prices feasible for
+   * every pair (see the module comment).
    */
-  pass(rowDuals: Float64Array, colDuals: Float64Array): PricedOut {
-    const { g, exact, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCol, addCost } = this;
+  pass(rowDuals: Float64Array, colDuals: Float64Array, exhaustive = false): PricedOut {
+    const { g, exact, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCol, addCost, floor, risen, rise, nBlocks } = this;
     const { nRows, nCols, rowPtr, rowBase, words, wide, step, rowDemand } = g;
     const first = this.passes++ === 0;
-    // Columns whose price moved since the previous pass (every one, the first time).
+    // Columns whose price moved since the previous pass (every one, the first time),
+    // and the largest rise per block of columns.
+    rise.fill(0, 0, nBlocks);
     for (let c = 0; c < nCols; c++) {
       const v = colDuals[c]!;
       const moved = first || v !== pricedV[c] ? 1 : 0;
       movedBefore[c + 1] = movedBefore[c]! + moved;
+      const up = v - pricedV[c]!;
+      if (!first && up > rise[c >>> BLOCK_BITS]!) rise[c >>> BLOCK_BITS] = up;
       pricedV[c] = v;
     }
+    buildLevels(rise, nBlocks);
     // The largest |v|, for a slack per row that holds for every pair of it.
     let maxAbsV = 0;
     for (let c = 0; c < nCols; c++) maxAbsV = Math.max(maxAbsV, Math.abs(colDuals[c]!));
@@ -101,8 +131,15 @@ export class Pricer {
     let rowsPriced = 0;
     for (let r = 0; r < nRows; r++) {
       const u = rowDuals[r]!;
-      if (rowClean[r] === 1 && u === pricedU[r] && (colHi[r]! < colLo[r]! || movedBefore[colHi[r]! + 1] === movedBefore[colLo[r]!])) continue;
+      const lo0 = colLo[r]!;
+      const hi0 = colHi[r]!;
+      if (rowClean[r] === 1) {
+        if (hi0 >= lo0) risen[r] = risen[r]! + maxOver(rise, nBlocks, lo0 >>> BLOCK_BITS, hi0 >>> BLOCK_BITS);
+        if (u === pricedU[r] && (hi0 < lo0 || movedBefore[hi0 + 1] === movedBefore[lo0])) continue;
+        if (!exhaustive && floor[r]! - risen[r]! >= u + BOUND_SLACK * (P + step + Math.abs(u) + maxAbsV)) continue;
+      }
       pricedU[r] = u;
+      risen[r] = 0;
       rowsPriced++;
       const d = rowDemand[r]!;
       const base = rowBase[r]!;
@@ -116,6 +153,8 @@ export class Pricer {
       const bar = u + slack;
       let nb = 0;
       let rowViolators = 0;
+      // The least lo − v of the pairs left out (violators are all added when the row ends clean).
+      let least = Infinity;
       for (let e = start; e < end; e++) {
         const w = words[e]!;
         // Candidates (the top bit makes the code ≥ 0x8000) and pairs of P or more
@@ -125,7 +164,10 @@ export class Pricer {
         const col = wideCols === undefined ? base + (w & 0xffff) : wideCols[e - start]!;
         const v = colDuals[col]!;
         const lo = code * step;
-        if (lo - v >= bar) continue;
+        if (lo - v >= bar) {
+          if (lo - v < least) least = lo - v;
+          continue;
+        }
         // Near zero the exact cost decides; the reduced cost kept for ranking may be
         // the interval's lower end: any choice among true violators is sound.
         let red = lo - u - v;
@@ -134,7 +176,10 @@ export class Pricer {
           rechecks++;
           c = exact(d, col);
           red = c - u - v;
-          if (red >= -PRICE_TOL * (1 + Math.abs(c))) continue;
+          if (red >= -PRICE_TOL * (1 + Math.abs(c))) {
+            if (lo - v < least) least = lo - v;
+            continue;
+          }
         }
         violators++;
         rowViolators++;
@@ -156,6 +201,7 @@ export class Pricer {
       }
       // Clean when every violator found is added now.
       rowClean[r] = rowViolators > nb ? 0 : 1;
+      floor[r] = least;
       if (nb === 0) continue;
       if (nNew + nb > this.newRow.length) this.grow(nNew + nb);
       for (let q = 0; q < nb; q++) {
@@ -187,4 +233,34 @@ export class Pricer {
     this.newCol = cols;
     this.newCost = costs;
   }
+}
+
+/** Columns per block of the rise table. */
+const BLOCK_BITS = 5;
+const BLOCK = 1 << BLOCK_BITS;
+
+/** Levels of a sparse table over n entries. */
+function levels(n: number): number {
+  return n <= 1 ? 1 : 32 - Math.clz32(n);
+}
+
+/** Fills levels 1.. of the sparse table whose level 0 is `t[0 .. n)` (level k at k·n). */
+function buildLevels(t: Float64Array, n: number): void {
+  for (let k = 1, half = 1; 2 * half <= n; k++, half *= 2) {
+    const at = k * n;
+    const prev = (k - 1) * n;
+    for (let b = 0; b + 2 * half <= n; b++) {
+      const x = t[prev + b]!;
+      const y = t[prev + b + half]!;
+      t[at + b] = x > y ? x : y;
+    }
+  }
+}
+
+/** The largest entry of blocks a..b (inclusive) of a sparse table over n blocks. */
+function maxOver(t: Float64Array, n: number, a: number, b: number): number {
+  const k = 31 - Math.clz32(b - a + 1);
+  const x = t[k * n + a]!;
+  const y = t[k * n + b - (1 << k) + 1]!;
+  return x > y ? x : y;
 }

@@ -9,9 +9,12 @@
  * (candidates.ts). The segment is first solved on its candidates alone, cold; a
  * pricing pass (pricing.ts) then computes the reduced cost `c − u_d − v_s` of EVERY
  * allowed pair under the solver's dual prices. The most negative few of each demand
- * join the candidates and the restricted assignment is solved again from where it
- * stood (matching/incremental.ts: only the rows the new pairs disturb are searched),
- * until no pair prices out. The final prices and pairs are then checked against the
+ * join the candidates (in the first round with the earliest-deadline greedy's pairs,
+ * so the restricted graph can match nearly as many rows as the full one) and the
+ * restricted assignment is solved again from where it stood
+ * (matching/incremental.ts: only the rows the new pairs disturb are searched), until
+ * no pair prices out in a pass that reads every row whose prices moved (rounds
+ * before may skip rows by a bound, pricing.ts). The final prices and pairs are then checked against the
  * certificate of SPEC §5 on the candidates: feasible for every allowed pair (the last
  * pricing pass) with an objective equal to the primal cost, which proves the optimum
  * exact. Last, the match ceiling (ceiling.ts).
@@ -26,9 +29,9 @@ import { checkCertificate } from '../matching/certificate.js';
 import { GrowingAssignment } from '../matching/incremental.js';
 import type { SolveOptions, SolveResult, SparseInstance } from '../matching/types.js';
 import type { PairflowConfig } from '../model.js';
-import { FirstCandidates, unmarkCandidate } from './candidates.js';
+import { FirstCandidates, markCandidate, unmarkCandidate } from './candidates.js';
 import { matchCeiling } from './ceiling.js';
-import { buildCompactGraph, columnOf, expandGraph, GraphStore, pairCostOf, type AllowedGraph, type PackedMarket } from './graph.js';
+import { buildCompactGraph, columnOf, expandGraph, GraphStore, isMarked, pairCostOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
 import { Pricer } from './pricing.js';
 import { mergeProofs, subMarket, timeSegments, type SegmentProof } from './segments.js';
 
@@ -314,8 +317,11 @@ function solveSegment(
   for (;;) {
     lap(pricingRounds === 0 ? 'firstSolveMs' : 'resolveMs');
     pricingRounds++;
-    const found = pricer.pass(restricted.u, restricted.v);
+    let found = pricer.pass(restricted.u, restricted.v);
+    // A pass that skipped rows by their bounds proves nothing; the proof is one that reads them.
+    if (found.violators === 0) found = pricer.pass(restricted.u, restricted.v, true);
     for (let q = 0; q < found.n; q++) restricted.add(found.rows[q]!, found.cols[q]!, found.costs[q]!);
+    if (pricingRounds === 1) addGreedyPairs(g, first, exact, P, restricted);
     lap('pricingMs');
     if (found.violators === 0) {
       // No allowed pair prices out: the prices prove the optimum once they certify
@@ -417,4 +423,27 @@ function certified(inst: SparseInstance, res: SolveResult, solve: SparseSolver, 
     });
   }
   return again;
+}
+
+/**
+ * The earliest-deadline greedy's pairs (candidates.ts) not yet candidates, added to
+ * the restricted assignment with the first pricing round's pairs.
+ */
+function addGreedyPairs(g: CompactGraph, first: FirstCandidates, exact: PairCost, P: number, restricted: GrowingAssignment): void {
+  const { greedyEdges: edges } = first;
+  const n = first.greedy;
+  if (edges.length === 0) return;
+  const { nRows, rowPtr, words, rowDemand } = g;
+  let q = 0;
+  for (let r = 0; r < nRows && q < n; r++) {
+    for (; q < n && edges[q]! < rowPtr[r + 1]!; q++) {
+      const e = edges[q]!;
+      if (isMarked(words[e]!)) continue;
+      const col = columnOf(g, r, e);
+      const c = exact(rowDemand[r]!, col);
+      if (!(c < P)) continue;
+      markCandidate(words, e);
+      restricted.add(r, col, c);
+    }
+  }
 }

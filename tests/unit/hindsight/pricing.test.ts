@@ -1,8 +1,9 @@
 import { describe, expect, it } from 'vitest';
 
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
-import { buildCompactGraph, packMarket, pairCostOf, type HindsightUnit } from '../../../src/hindsight/graph.js';
+import { buildCompactGraph, columnOf, isMarked, packMarket, pairCostOf, type HindsightUnit } from '../../../src/hindsight/graph.js';
 import { Pricer } from '../../../src/hindsight/pricing.js';
+import { mulberry32, randInt } from '../../helpers/random.js';
 
 const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', speedKmh: 20, abandonPenalty: 25 };
 
@@ -36,5 +37,59 @@ describe('Pricer.pass()', () => {
     // Marked pairs are candidates now: the next pass under the same prices skips them.
     const again = pricer.pass(u, v);
     expect(again.violators).toBe(70_000 + 30 - 24);
+  });
+});
+
+describe('Pricer.pass() skipping rows by their bounds', () => {
+  it('never skips a row that holds a violator, while prices rise and fall between passes (seeded)', () => {
+    const euclid: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', waitWeight: 0.5 };
+    const P = euclid.abandonPenalty;
+    for (let seed = 1; seed <= 5; seed++) {
+      const rnd = mulberry32(seed);
+      const units: HindsightUnit[] = [];
+      for (let i = 0; i < 300; i++) {
+        const t = randInt(rnd, 0, 7_200_000);
+        units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 60_000, 2_400_000), x: rnd() * 8, y: rnd() * 8 });
+      }
+      const m = packMarket(units, euclid);
+      const g = buildCompactGraph(m, euclid);
+      const exact = pairCostOf(m, euclid);
+      const colLo = new Int32Array(g.nRows).fill(g.nCols);
+      const colHi = new Int32Array(g.nRows).fill(-1);
+      const rowMin = new Float64Array(g.nRows).fill(P);
+      for (let r = 0; r < g.nRows; r++) {
+        for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+          const j = columnOf(g, r, e);
+          colLo[r] = Math.min(colLo[r]!, j);
+          colHi[r] = Math.max(colHi[r]!, j);
+          rowMin[r] = Math.min(rowMin[r]!, exact(g.rowDemand[r]!, j));
+        }
+      }
+      const pricer = new Pricer(g, exact, colLo, colHi, 3, P);
+      // Prices near each row's cheapest pair, so a few pairs price out in each pass.
+      const u = Float64Array.from(rowMin, (c) => Math.min(P, c + rnd() * 2));
+      const v = new Float64Array(g.nCols);
+      const passes = 10;
+      for (let p = 0; p < passes; p++) {
+        const found = pricer.pass(u, v);
+        const reported = new Set(Array.from(found.rows.subarray(0, found.n)));
+        // A row the pass added nothing to must hold no violator among the pairs left out.
+        for (let r = 0; r < g.nRows; r++) {
+          if (reported.has(r)) continue;
+          for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+            if (isMarked(g.words[e]!)) continue;
+            const j = columnOf(g, r, e);
+            const c = exact(g.rowDemand[r]!, j);
+            if (!(c < P)) continue;
+            expect(c - u[r]! - v[j]!, `seed ${seed} pass ${p} row ${r} column ${j}`).toBeGreaterThan(-1e-9 * (1 + c));
+          }
+        }
+        // Prices move: some columns fall, some rise (never above 0), some rows move.
+        for (let j = 0; j < g.nCols; j++) if (rnd() < 0.3) v[j] = Math.min(0, v[j]! + (rnd() - 0.65) * 1.5);
+        for (let r = 0; r < g.nRows; r++) if (rnd() < 0.2) u[r] = Math.min(P, u[r]! + (rnd() - 0.5));
+      }
+      // The bounds did skip rows (otherwise this test would not test them).
+      expect(pricer.rowsPriced, `seed ${seed}`).toBeLessThan(passes * g.nRows);
+    }
   });
 });
