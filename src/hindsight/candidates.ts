@@ -61,8 +61,8 @@ export class FirstCandidates implements RowVisitor {
   private readonly taken: Uint8Array | null;
   /**
    * @param k candidates per row and per column
-   * @param supplyEnd per column, when its unit leaves: with it, each row also takes the
-   *   earliest-leaving free column of its own as a candidate (see {@link row})
+   * @param supplyEnd per column, when its unit leaves: with it, each row also picks the
+   *   earliest-leaving free column of its own, listed in {@link greedyEdges}
    */
   constructor(
     nRows: number,

@@ -8,10 +8,10 @@
  * `max(s.t, d.t) ≤ min(end_s, end_d)`. Its cost is
  * `travel + waitWeight · max(0, s.t − d.t) / 60000`.
  *
- * Pairs are enumerated by a time sweep over arrivals with one spatial grid per side:
- * each arrival looks up the still-present units of the other side in the 3×3 cells
- * around it, then joins its own side's grid. A pair is thus found exactly once, by
- * whichever of the two arrives later, and never by comparing all pairs.
+ * Pairs are enumerated by a time sweep with a spatial grid of the supplies present:
+ * when a demand leaves, every supply it could meet has arrived, and its row is read
+ * from the grid cells around it (see {@link buildCompactGraph}). Each pair is found
+ * exactly once, and never by comparing all pairs.
  *
  * A week of a busy market has tens of millions of pairs, so the solve keeps them
  * compact (see {@link CompactGraph}): one 32-bit word a pair, written once, in place.
@@ -269,7 +269,7 @@ export function pairCostOf(m: PackedMarket, config: PairflowConfig): PairCost {
 /**
  * The allowed pairs of one market in CSR form, stored for size: one 32-bit word per
  * pair (see {@link pairWord}). Rows are graph rows, one per demand, numbered in the
- * order the time sweep completed them (roughly by `end`), so no row's pairs ever need
+ * order their demands leave (by `end`, then index), so no row's pairs ever need
  * moving. A word holds the pair's column less its row's lowest column (16 bits), a
  * code of its cost (15 bits: a cost step of P/32767, so the code bounds the cost
  * within about a thousandth of a minute at P = 30, and the top code says "≥ P"), and
@@ -451,7 +451,7 @@ const EDGE = 1e-9;
  * "supply arrives" (its unit joins the supply grid) and "demand leaves" (its row is
  * written) in time order, an arrival before a departure at the same instant. When
  * demand d leaves, every supply it can ever meet has arrived, so its row is the
- * supplies of the 3×3 (half-reach) cells around it still present at some instant
+ * supplies of the 5×5 half-reach cells around it still present at some instant
  * of d's stay: one scan of the grid, its pairs written in sequence straight into the
  * words. (Building each pair from the side that arrived later, as a first version
  * did, wrote the pairs of an arriving supply into a thousand rows at once, each

@@ -14,8 +14,8 @@
  * restricted assignment is solved again from where it stood
  * (matching/incremental.ts: only the rows the new pairs disturb are searched), until
  * no pair prices out in a pass that reads every row whose prices moved (rounds
- * before may skip rows by a bound, pricing.ts). The final prices and pairs are then checked against the
- * certificate of SPEC §5 on the candidates: feasible for every allowed pair (the last
+ * before may skip rows by a bound, pricing.ts). The final prices and pairs are then
+ * checked against the certificate of SPEC §5 on the candidates: feasible for every allowed pair (the last
  * pricing pass) with an objective equal to the primal cost, which proves the optimum
  * exact. Last, the match ceiling (ceiling.ts).
  *
