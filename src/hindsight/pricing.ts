@@ -20,7 +20,7 @@
  * less that sum stays at or above `u + slack`, no pair of the row can price out, and
  * the row is skipped. A pass that finds nothing after skipping so is not the proof:
  * the caller runs one `exhaustive` pass, which skips only rows whose numbers are
- * all the same as when they were priced.
+ * all the same as when they were last read.
  */
 
 import { pairflowError } from '../errors.js';
@@ -60,6 +60,8 @@ export class Pricer {
   private readonly floor: Float64Array;
   /** Per row: how far its columns' prices may have risen since it was last priced. */
   private readonly risen: Float64Array;
+  /** Per row: 1 when skipped by its bound since it was last priced (its numbers are not the priced ones). */
+  private readonly stale: Uint8Array;
   /** Blocks of {@link BLOCK} columns; level k of the table holds the largest rise over 2^k blocks from each. */
   private readonly nBlocks: number;
   private readonly rise: Float64Array;
@@ -96,6 +98,7 @@ export class Pricer {
     this.addCost = new Float64Array(addPerRow);
     this.floor = new Float64Array(g.nRows).fill(Infinity);
     this.risen = new Float64Array(g.nRows);
+    this.stale = new Uint8Array(g.nRows);
     this.nBlocks = Math.ceil(g.nCols / BLOCK);
     this.rise = new Float64Array(this.nBlocks * levels(this.nBlocks));
   }
@@ -107,7 +110,7 @@ export class Pricer {
    * every pair (see the module comment).
    */
   pass(rowDuals: Float64Array, colDuals: Float64Array, exhaustive = false): PricedOut {
-    const { g, exact, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCol, addCost, floor, risen, rise, nBlocks } = this;
+    const { g, exact, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCol, addCost, floor, risen, stale, rise, nBlocks } = this;
     const { nRows, nCols, rowPtr, rowBase, words, wide, step, rowDemand } = g;
     const first = this.passes++ === 0;
     // Columns whose price moved since the previous pass (every one, the first time),
@@ -135,11 +138,17 @@ export class Pricer {
       const hi0 = colHi[r]!;
       if (rowClean[r] === 1) {
         if (hi0 >= lo0) risen[r] = risen[r]! + maxOver(rise, nBlocks, lo0 >>> BLOCK_BITS, hi0 >>> BLOCK_BITS);
-        if (u === pricedU[r] && (hi0 < lo0 || movedBefore[hi0 + 1] === movedBefore[lo0])) continue;
-        if (!exhaustive && floor[r]! - risen[r]! >= u + BOUND_SLACK * (P + step + Math.abs(u) + maxAbsV)) continue;
+        // (Prices unchanged since the previous pass mean unchanged since the row was
+        // priced only if the row was not skipped by its bound in between.)
+        if (stale[r] === 0 && u === pricedU[r] && (hi0 < lo0 || movedBefore[hi0 + 1] === movedBefore[lo0])) continue;
+        if (!exhaustive && floor[r]! - risen[r]! >= u + BOUND_SLACK * (P + step + Math.abs(u) + maxAbsV)) {
+          stale[r] = 1;
+          continue;
+        }
       }
       pricedU[r] = u;
       risen[r] = 0;
+      stale[r] = 0;
       rowsPriced++;
       const d = rowDemand[r]!;
       const base = rowBase[r]!;

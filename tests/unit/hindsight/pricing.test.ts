@@ -92,4 +92,44 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
       expect(pricer.rowsPriced, `seed ${seed}`).toBeLessThan(passes * g.nRows);
     }
   });
+
+  it('has its exhaustive pass read again every row it skipped by a bound', () => {
+    const euclid: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean' };
+    const P = euclid.abandonPenalty;
+    const rnd = mulberry32(11);
+    const units: HindsightUnit[] = [];
+    for (let i = 0; i < 200; i++) {
+      const t = randInt(rnd, 0, 3_600_000);
+      units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 60_000, 1_800_000), x: rnd() * 6, y: rnd() * 6 });
+    }
+    const m = packMarket(units, euclid);
+    const g = buildCompactGraph(m, euclid);
+    const exact = pairCostOf(m, euclid);
+    const colLo = new Int32Array(g.nRows).fill(g.nCols);
+    const colHi = new Int32Array(g.nRows).fill(-1);
+    const rowMin = new Float64Array(g.nRows).fill(P);
+    for (let r = 0; r < g.nRows; r++) {
+      for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+        const j = columnOf(g, r, e);
+        colLo[r] = Math.min(colLo[r]!, j);
+        colHi[r] = Math.max(colHi[r]!, j);
+        rowMin[r] = Math.min(rowMin[r]!, exact(g.rowDemand[r]!, j));
+      }
+    }
+    const withPairs = Array.from(colHi).filter((hi, r) => hi >= colLo[r]!).length;
+    expect(withPairs).toBeGreaterThan(20);
+    // Every pair 3 above pricing out; then every column's price rises by half: the
+    // bound still covers each row, so the next pass reads none of them.
+    const u = Float64Array.from(rowMin, (c) => c - 2);
+    const v = new Float64Array(g.nCols).fill(-1);
+    const pricer = new Pricer(g, exact, colLo, colHi, 3, P);
+    expect(pricer.pass(u, v).violators).toBe(0);
+    const afterFirst = pricer.rowsPriced;
+    v.fill(-0.5);
+    expect(pricer.pass(u, v).violators).toBe(0);
+    expect(pricer.rowsPriced).toBe(afterFirst);
+    // Under the same prices the exhaustive pass reads each of them again.
+    expect(pricer.pass(u, v, true).violators).toBe(0);
+    expect(pricer.rowsPriced - afterFirst).toBe(withPairs);
+  });
 });
