@@ -82,7 +82,7 @@ export class FirstCandidates implements RowVisitor {
     this.bestEdge = new Int32Array(k);
   }
 
-  row(r: number, _demand: number, cols: Int32Array, codes: Uint16Array, from: number, len: number, start: number, words: Uint32Array): void {
+  row(r: number, _demand: number, cols: Int32Array, codes: Uint16Array, len: number, start: number, words: Uint32Array): void {
     const { k, colCode, colEdge, colBar, bestCode, bestEdge, taken, supplyEnd } = this;
     let lo = this.nCols;
     let hi = -1;
@@ -92,10 +92,10 @@ export class FirstCandidates implements RowVisitor {
     let bestEnd = Infinity;
     let bestC = CODE_TOP;
     for (let i = 0; i < len; i++) {
-      const j = cols[from + i]!;
+      const j = cols[i]!;
       if (j < lo) lo = j;
       if (j > hi) hi = j;
-      const c = codes[from + i]!;
+      const c = codes[i]!;
       if (c === CODE_TOP) continue;
       const e = start + i;
       if (taken !== null && taken[j] === 0) {
@@ -138,7 +138,7 @@ export class FirstCandidates implements RowVisitor {
     this.colLo[r] = lo;
     this.colHi[r] = hi;
     if (bestI >= 0) {
-      taken![cols[from + bestI]!] = 1;
+      taken![cols[bestI]!] = 1;
       this.greedyEdges[this.greedy++] = start + bestI;
     }
     for (let q = 0; q < n; q++) markCandidate(words, bestEdge[q]!);

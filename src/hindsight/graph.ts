@@ -390,13 +390,13 @@ export class GraphStore {
 
 /**
  * Sees each graph row once, as its pairs are written: their columns and cost codes
- * are `cols` / `codes` over `[from, from + n)`, and pair i of them is word
+ * are `cols` / `codes` over `[0, n)`, and pair i of them is word
  * `start + i` of `words` (where a candidate is marked). What must look at every pair
  * (the first candidates) does it here, while the row is in cache, instead of in a
  * pass of its own over the whole graph.
  */
 export interface RowVisitor {
-  row(r: number, demand: number, cols: Int32Array, codes: Uint16Array, from: number, n: number, start: number, words: Uint32Array): void;
+  row(r: number, demand: number, cols: Int32Array, codes: Uint16Array, n: number, start: number, words: Uint32Array): void;
 }
 
 /**
@@ -491,14 +491,14 @@ export function buildCompactGraph(
 
   // Supplies by arrival, demands by departure (rows are written in that order), and
   // demands by arrival (for the oldest one not written yet).
-  const byArrival = (t: Float64Array): Int32Array => {
+  const sortedBy = (t: Float64Array): Int32Array => {
     const idx = new Int32Array(t.length);
     for (let i = 0; i < idx.length; i++) idx[i] = i;
     return idx.sort((a, b) => t[a]! - t[b]! || a - b);
   };
-  const supplyOrder = byArrival(supplyT);
-  const leaveOrder = byArrival(demandEnd);
-  const demandOrder = byArrival(demandT);
+  const supplyOrder = sortedBy(supplyT);
+  const leaveOrder = sortedBy(demandEnd);
+  const demandOrder = sortedBy(demandT);
   const written = new Uint8Array(nDemand);
   let oldest = 0;
 
@@ -656,7 +656,7 @@ export function buildCompactGraph(
         for (let i = 0; i < len; i++) words[start + i] = (rowCodes[i]! << 16) >>> 0;
       }
     }
-    visitor?.row(r, d, rowCols, rowCodes, 0, len, start, store.words);
+    visitor?.row(r, d, rowCols, rowCodes, len, start, store.words);
     nnz += len;
     rowDemand[r] = d;
     demandRow[d] = r;

@@ -41,6 +41,25 @@ describe('Pricer.pass()', () => {
 });
 
 describe('Pricer.pass() skipping rows by their bounds', () => {
+  /** The compact graph of `units`, each row's column range and the cost of its cheapest pair (P when none). */
+  function graphWithRanges(units: readonly HindsightUnit[], cfg: PairflowConfig) {
+    const m = packMarket(units, cfg);
+    const g = buildCompactGraph(m, cfg);
+    const exact = pairCostOf(m, cfg);
+    const colLo = new Int32Array(g.nRows).fill(g.nCols);
+    const colHi = new Int32Array(g.nRows).fill(-1);
+    const rowMin = new Float64Array(g.nRows).fill(cfg.abandonPenalty);
+    for (let r = 0; r < g.nRows; r++) {
+      for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+        const j = columnOf(g, r, e);
+        colLo[r] = Math.min(colLo[r]!, j);
+        colHi[r] = Math.max(colHi[r]!, j);
+        rowMin[r] = Math.min(rowMin[r]!, exact(g.rowDemand[r]!, j));
+      }
+    }
+    return { g, exact, colLo, colHi, rowMin };
+  }
+
   it('never skips a row that holds a violator, while prices rise and fall between passes (seeded)', () => {
     const euclid: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', waitWeight: 0.5 };
     const P = euclid.abandonPenalty;
@@ -51,20 +70,7 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
         const t = randInt(rnd, 0, 7_200_000);
         units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 60_000, 2_400_000), x: rnd() * 8, y: rnd() * 8 });
       }
-      const m = packMarket(units, euclid);
-      const g = buildCompactGraph(m, euclid);
-      const exact = pairCostOf(m, euclid);
-      const colLo = new Int32Array(g.nRows).fill(g.nCols);
-      const colHi = new Int32Array(g.nRows).fill(-1);
-      const rowMin = new Float64Array(g.nRows).fill(P);
-      for (let r = 0; r < g.nRows; r++) {
-        for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
-          const j = columnOf(g, r, e);
-          colLo[r] = Math.min(colLo[r]!, j);
-          colHi[r] = Math.max(colHi[r]!, j);
-          rowMin[r] = Math.min(rowMin[r]!, exact(g.rowDemand[r]!, j));
-        }
-      }
+      const { g, exact, colLo, colHi, rowMin } = graphWithRanges(units, euclid);
       const pricer = new Pricer(g, exact, colLo, colHi, 3, P);
       // Prices near each row's cheapest pair, so a few pairs price out in each pass.
       const u = Float64Array.from(rowMin, (c) => Math.min(P, c + rnd() * 2));
@@ -102,20 +108,7 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
       const t = randInt(rnd, 0, 3_600_000);
       units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 60_000, 1_800_000), x: rnd() * 6, y: rnd() * 6 });
     }
-    const m = packMarket(units, euclid);
-    const g = buildCompactGraph(m, euclid);
-    const exact = pairCostOf(m, euclid);
-    const colLo = new Int32Array(g.nRows).fill(g.nCols);
-    const colHi = new Int32Array(g.nRows).fill(-1);
-    const rowMin = new Float64Array(g.nRows).fill(P);
-    for (let r = 0; r < g.nRows; r++) {
-      for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
-        const j = columnOf(g, r, e);
-        colLo[r] = Math.min(colLo[r]!, j);
-        colHi[r] = Math.max(colHi[r]!, j);
-        rowMin[r] = Math.min(rowMin[r]!, exact(g.rowDemand[r]!, j));
-      }
-    }
+    const { g, exact, colLo, colHi, rowMin } = graphWithRanges(units, euclid);
     const withPairs = Array.from(colHi).filter((hi, r) => hi >= colLo[r]!).length;
     expect(withPairs).toBeGreaterThan(20);
     // Every pair 3 above pricing out; then every column's price rises by half: the
