@@ -41,6 +41,13 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   const k = candidateCount(inst.nCols);
   const strategy = opts.strategy ?? 'auto';
   if (strategy === 'candidates' || (strategy === 'auto' && preferCandidates(inst.nRows, inst.nCols, k))) {
+    if (inst.nRows === inst.nCols && opts.warm === undefined && mustMatchAll(inst.unmatchedCost ?? null)) {
+      const res = solveFromRowMinima(inst);
+      if (res !== null) {
+        res.stats.ms = now() - t0;
+        return res;
+      }
+    }
     const res = solveByCandidates(inst, opts, k);
     if (res !== null) {
       res.stats.ms = now() - t0;
@@ -72,7 +79,7 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
   // by column, which the sparse core builds, and a warm re-solve searches little.
   if (opts.warm?.rowToCol !== undefined) return solveSparseChecked(denseToCsr(inst), opts, now, t0);
 
-  const { nRows, nCols, cost } = inst;
+  const { nRows, nCols } = inst;
   const delta = inst.unmatchedCost ?? null;
 
   const v = new Float64Array(nCols);
@@ -81,8 +88,6 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
   const colToRow = new Int32Array(nCols).fill(NONE);
   let scannedPairs = 0;
   let augmentations = 0;
-  let j = 0;
-  let r = 0;
 
   // ---- a perfect assignment starts from column reduction and reduction transfer
   // (see sparse.ts for why that is allowed there).
@@ -117,10 +122,37 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
     }
   }
 
+  return finishDense(inst, perfect, u, v, rowToCol, colToRow, {
+    augmentations,
+    scannedPairs,
+    ms: now() - t0,
+    warm: false,
+    warmPairsKept: 0,
+    searchedRows,
+    ...(auctionBids > 0 ? { auctionBids } : {}),
+  });
+}
+
+/**
+ * The result of a finished search: each matched row's price made tight on its pair
+ * (u = c − v), an unmatched row's set to its δ, and in the perfect case the column
+ * prices shifted to SPEC §5's sign (max v = 0).
+ */
+function finishDense(
+  inst: DenseInstance,
+  perfect: boolean,
+  u: Float64Array,
+  v: Float64Array,
+  rowToCol: Int32Array,
+  colToRow: Int32Array,
+  stats: SolveResult['stats'],
+): SolveResult {
+  const { nRows, nCols, cost } = inst;
+  const delta = inst.unmatchedCost ?? null;
   if (perfect) shiftToNonPositive(v);
   const primal = new Sum();
-  for (r = 0; r < nRows; r++) {
-    j = rowToCol[r]!;
+  for (let r = 0; r < nRows; r++) {
+    const j = rowToCol[r]!;
     if (j === NONE) {
       u[r] = delta![r]!;
       primal.add(u[r]!);
@@ -130,15 +162,86 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
       primal.add(c);
     }
   }
-  return finishResult(primal.value, rowToCol, colToRow, u, v, {
-    augmentations,
-    scannedPairs,
-    ms: now() - t0,
+  return finishResult(primal.value, rowToCol, colToRow, u, v, stats);
+}
+
+/**
+ * Row reduction and a greedy pass on the rows' cheapest pairs, then shortest
+ * augmenting paths for the rows left over — the Hungarian method's own start — for a
+ * square instance where every row must be matched. Each row's price starts at its
+ * minimum cost and every column's at 0 (dual feasible: no pair costs less than its
+ * row's minimum), and a row takes a free column at that minimum if it has one (a
+ * tight pair). On costs with few distinct values (integers 0..9 leave a row about
+ * n/10 ties at its minimum) nearly every row does, and the few left over find a free
+ * column within a row or two, so the solve reads the matrix about once. Where the
+ * rows' cheapest pairs crowd onto few columns (distances, products, rank one) the
+ * greedy pass soon fails on many rows: it gives up after an eighth of the rows, and
+ * the caller goes on as before. Returns null when it gives up (also when the
+ * searches read more than SEARCH_BUDGET_MIN matrices, or a row has no allowed pair).
+ */
+function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
+  const { nRows: n, cost } = inst;
+  const u = new Float64Array(n);
+  const v = new Float64Array(n);
+  const rowToCol = new Int32Array(n).fill(NONE);
+  const colToRow = new Int32Array(n).fill(NONE);
+  const out = new Float64Array(2);
+  const freeRows = new Int32Array(n);
+  let nFree = 0;
+  for (let r = 0; r < n; r++) {
+    rowMinFree(cost, r * n, n, colToRow, out);
+    const m = out[0]!;
+    if (m === -Infinity) checkDenseCells(inst);
+    if (!(m < Infinity)) return null;
+    u[r] = m;
+    const j = out[1]!;
+    if (j === NONE) {
+      freeRows[nFree++] = r;
+      if (nFree > 2 + (r >> 6)) return null;
+    } else {
+      rowToCol[r] = j;
+      colToRow[j] = r;
+    }
+  }
+  if (nFree > n >> 5) return null;
+  let scanned = n * n;
+  const search = new DenseSearch(inst, null, u, v, rowToCol, colToRow);
+  const budget = scanned + SEARCH_BUDGET_MIN * n * n;
+  for (let f = 0; f < nFree; f++) {
+    scanned += search.run(freeRows[f]!);
+    if (scanned > budget) return null;
+  }
+  return finishDense(inst, true, u, v, rowToCol, colToRow, {
+    augmentations: nFree,
+    scannedPairs: scanned,
+    ms: 0,
     warm: false,
     warmPairsKept: 0,
-    searchedRows,
-    ...(auctionBids > 0 ? { auctionBids } : {}),
+    searchedRows: nFree,
   });
+}
+
+/** Matrices' worth of cells the searches after the row-minima start may read before it gives up. */
+const SEARCH_BUDGET_MIN = 1;
+
+/**
+ * One row of the row-minima start: writes the row's minimum cost to out[0] and to
+ * out[1] the first column still free at that minimum (NONE when there is none).
+ */
+function rowMinFree(cost: Float64Array, base: number, n: number, colToRow: Int32Array, out: Float64Array): void {
+  let m = Infinity;
+  let free = NONE;
+  for (let j = 0; j < n; j++) {
+    const x = cost[base + j]!;
+    if (x < m) {
+      m = x;
+      free = colToRow[j] === NONE ? j : NONE;
+    } else if (x === m && free === NONE && colToRow[j] === NONE) {
+      free = j;
+    }
+  }
+  out[0] = m;
+  out[1] = free;
 }
 
 /** Square instances below this size never switch to the auction (searches are cheap there). */
@@ -926,3 +1029,4 @@ function denseToCsr(inst: DenseInstance): SparseInstance {
   }
   return { nRows, nCols, rowPtr, colIdx, cost: sub, unmatchedCost: inst.unmatchedCost ?? null };
 }
+

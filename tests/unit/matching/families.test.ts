@@ -3,6 +3,7 @@ import { checkCertificate, solveDense, solveSparse } from '../../../src/matching
 import { DENSE_FAMILIES, denseFamily } from '../../../bench/lib/instances.js';
 import { scipyDenseCosts, scipyVersion } from '../../helpers/python.js';
 import { denseToSparse, mulberry32 } from './gen.js';
+import type { DenseInstance } from '../../../src/matching/types.js';
 
 /*
  * Reference: scipy.optimize.linear_sum_assignment (from PyPI; the version in use is
@@ -77,5 +78,58 @@ describe('the candidates strategy on costs with many ties', () => {
     const r = solveDense(inst, { strategy: 'candidates' });
     expect(checkCertificate(inst, r).problems).toEqual([]);
     expect(r.cost).toBeCloseTo(solveDense(inst, { strategy: 'full' }).cost, 9);
+  });
+});
+
+describe.skipIf(version === null)(`the row-minima start (row reduction, greedy on tight pairs, then searches) against scipy ${version}`, () => {
+  // Few distinct costs: each row has about n/10 zeros, so a greedy pass on the rows'
+  // cheapest pairs matches all but a few rows and the rest are searched from there.
+  const n = 600;
+  const variants: { label: string; inst: () => DenseInstance }[] = [
+    ...[9300, 9301, 9302].map((seed) => ({ label: `few-ints seed ${seed}`, inst: () => denseFamily(seed, n, 'few-ints') })),
+    {
+      // no row's cheapest pair is in column 17: the greedy leaves a row over whose
+      // search must raise a column price (v ≠ 0) to reach it
+      label: 'few-ints, column 17 all nines',
+      inst: () => {
+        const inst = denseFamily(9303, n, 'few-ints');
+        for (let r = 0; r < n; r++) inst.cost[r * n + 17] = 9;
+        return inst;
+      },
+    },
+    {
+      // forbidden pairs (+Infinity) and negative costs on the same path
+      label: 'few-ints shifted by −4, a tenth of the pairs forbidden',
+      inst: () => {
+        const inst = denseFamily(9304, n, 'few-ints');
+        const rand = mulberry32(9304);
+        for (let k = 0; k < inst.cost.length; k++) inst.cost[k] = rand() < 0.1 ? Infinity : inst.cost[k]! - 4;
+        return inst;
+      },
+    },
+  ];
+
+  it('reaches scipy’s optimum with a certificate, searching only the few rows the greedy pass leaves over', () => {
+    const cases = variants.map((c) => ({ ...c, built: c.inst() }));
+    const want = scipyDenseCosts(cases.map((c) => c.built));
+    cases.forEach(({ label, built }, k) => {
+      const ref = want[k]!;
+      expect(ref, label).not.toBeNull();
+      const r = solveDense(built);
+      expect(checkCertificate(built, r).problems, label).toEqual([]);
+      expect(Math.abs(r.cost - ref), `${label}: ${r.cost} vs ${ref}`).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(ref)));
+      // the path taken: at most n/32 rows searched, the matrix read about once
+      expect(r.stats.augmentations, label).toBeLessThanOrEqual(n / 32);
+      expect(r.stats.scannedPairs, label).toBeLessThan(2 * n * n);
+    });
+  });
+
+  it('gives up at once on distances (the rows’ cheapest pairs crowd onto few columns) and the candidates strategy finds the same optimum', () => {
+    const inst = denseFamily(9305, n, 'geometric');
+    const [ref] = scipyDenseCosts([inst]);
+    const r = solveDense(inst);
+    expect(checkCertificate(inst, r).problems).toEqual([]);
+    expect(Math.abs(r.cost - ref!)).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(ref!)));
+    expect(r.stats.augmentations).toBeGreaterThan(n / 32);
   });
 });
