@@ -205,19 +205,46 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
   }
   if (nFree > n >> 5) return null;
   let scanned = n * n;
-  const search = new DenseSearch(inst, null, u, v, rowToCol, colToRow);
+  let searched = 0;
+  let search: DenseSearch | null = null;
   const budget = scanned + SEARCH_BUDGET_MIN * n * n;
   for (let f = 0; f < nFree; f++) {
-    scanned += search.run(freeRows[f]!);
+    const r = freeRows[f]!;
+    // First a path of length two through tight pairs: r takes a column at its minimum
+    // whose row moves to a free column at that row's minimum (all prices unchanged).
+    // It reuses the greedy pass's kernel, already optimised, where a search would run
+    // code the engine has not compiled yet.
+    const base = r * n;
+    const ur = u[r]!;
+    let done = false;
+    for (let j = 0; j < n && !done; j++) {
+      if (cost[base + j] !== ur) continue;
+      const i = colToRow[j]!;
+      rowMinFree(cost, i * n, n, colToRow, out);
+      scanned += n;
+      const to = out[1]!;
+      if (to === NONE) continue;
+      rowToCol[i] = to;
+      colToRow[to] = i;
+      rowToCol[r] = j;
+      colToRow[j] = r;
+      done = true;
+    }
+    scanned += n;
+    if (!done) {
+      search ??= new DenseSearch(inst, null, u, v, rowToCol, colToRow);
+      searched++;
+      scanned += search.run(r);
+    }
     if (scanned > budget) return null;
   }
   return finishDense(inst, true, u, v, rowToCol, colToRow, {
-    augmentations: nFree,
+    augmentations: searched,
     scannedPairs: scanned,
     ms: 0,
     warm: false,
     warmPairsKept: 0,
-    searchedRows: nFree,
+    searchedRows: searched,
   });
 }
 
@@ -230,14 +257,19 @@ const SEARCH_BUDGET_MIN = 1;
  */
 function rowMinFree(cost: Float64Array, base: number, n: number, colToRow: Int32Array, out: Float64Array): void {
   let m = Infinity;
-  let free = NONE;
+  let first = n;
   for (let j = 0; j < n; j++) {
     const x = cost[base + j]!;
     if (x < m) {
       m = x;
-      free = colToRow[j] === NONE ? j : NONE;
-    } else if (x === m && free === NONE && colToRow[j] === NONE) {
+      first = j;
+    }
+  }
+  let free = NONE;
+  for (let j = first; j < n; j++) {
+    if (cost[base + j] === m && colToRow[j] === NONE) {
       free = j;
+      break;
     }
   }
   out[0] = m;
@@ -615,7 +647,8 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   // maximum matching of the candidates costs far less than a solve that fails late
   // (geometric n = 4000: 1.1 s against 1.8 s when widened after the failed solve).
   if (nRows <= nCols && mustMatchAll(inst.unmatchedCost ?? null)) {
-    const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }));
+    const bridge = opts.strategy === 'candidates' || nRows >= BRIDGE_MIN_ROWS;
+    const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }), bridge);
     if (w < 0) return null;
     scanned += w;
   }
@@ -683,12 +716,14 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
 
 /*
  * When widening gives up. A local shortage (a corner of a geometric matrix: 7 of
- * 4000 rows short) is met by a doubling or two; rows that must reach much farther (a
+ * 4000 rows short) is met by a doubling or two. Rows that must reach much farther (a
  * cluster with more rows than columns: 1–6 % of the rows short, the shortage not
- * shrinking as the lists double) would get prices so far from the optimum that the
- * pricing rounds cost more than the full search (measured: clustered n = 4000 took
- * 35 s widened, 5 s by the full search). Give up when more than 1 % of the rows are
- * short, when a doubling did not shrink the shortage, or at 4× the first count.
+ * shrinking as the lists double) are not helped by more of their own nearest
+ * columns (measured: clustered n = 4000 took 35 s widened, 5 s by the full search);
+ * they are bridged instead (see widenUntilMatchable), on matrices of BRIDGE_MIN_ROWS
+ * rows or more (where bridging also takes the place of doubling: about as fast on a
+ * corner's shortage), and given up on below that. Give up when a doubling did not
+ * shrink the shortage, at 4× the first count, or after BRIDGE_MAX bridgings.
  */
 const WIDEN_MAX = 4;
 const WIDEN_MAX_SHORT = 100;
@@ -706,10 +741,14 @@ interface Lists {
  * alternating path from an unmatched row (the rows that compete for too few columns,
  * Hall's condition) takes twice its cheapest pairs, and again. The pairs added are
  * each row's next cheapest, so the lists stay "the row's cheapest" and `floor` stays
- * a bound on every pair left out. Returns the cells read, or -1 when it gives up (see
- * WIDEN_MAX) or no row can grow (then the rows cannot all be matched, which the full
- * search reports). A row's warm pair, if any, is added back after its list is picked
- * again.
+ * a bound on every pair left out. When `bridge` is set, each reachable row
+ * instead gets its k0 cheapest pairs to the
+ * columns no alternating path reaches (outside its cluster): the pairs an optimum
+ * must use to move rows out of a crowded cluster, which no number of the row's own
+ * nearest columns provides. Those pairs are not among the row's cheapest, so `floor`
+ * stays a bound too. Returns the cells read, or -1 when it gives up (see WIDEN_MAX)
+ * or no row can grow (then the rows cannot all be matched, which the full search
+ * reports). A row's warm pair, if any, is added back after its list is picked again.
  */
 function widenUntilMatchable(
   inst: DenseInstance,
@@ -720,6 +759,7 @@ function widenUntilMatchable(
   wPair: Int32Array | undefined,
   ensureCap: (need: number) => void,
   lists: () => Lists,
+  bridge: boolean,
 ): number {
   const { nRows, nCols, cost } = inst;
   let scanned = 0;
@@ -728,6 +768,9 @@ function widenUntilMatchable(
   const queue = new Int32Array(nRows);
   const guess = Float64Array.of(Infinity);
   let lastDeficit = Infinity;
+  let bridges = 0;
+  let bridgeKey: Float64Array | null = null;
+  let bridgeCol: Int32Array | null = null;
   for (let k = k0; ; ) {
     let cur = lists();
     const { rowPtr, colIdx } = packCandidates(nRows, nCols, cur.slots, cur.slotCost, cur.cap, count, null);
@@ -758,7 +801,22 @@ function widenUntilMatchable(
       }
     }
     const deficit = nRows - m.size;
-    if (deficit > nRows / WIDEN_MAX_SHORT || deficit >= lastDeficit || k >= WIDEN_MAX * k0 || k >= nCols) return -1;
+    if (bridge || deficit > nRows / WIDEN_MAX_SHORT) {
+      if (!bridge || bridges >= BRIDGE_MAX) return -1;
+      bridges++;
+      ensureCap(maxCount(count) + k0);
+      cur = lists();
+      bridgeKey ??= new Float64Array(nCols);
+      bridgeCol ??= new Int32Array(nCols);
+      for (let t = 0; t < tail; t++) {
+        const r = queue[t]!;
+        const at = r * cur.cap;
+        count[r] = addOutside(cost, r * nCols, nCols, colSeen, k0, bridgeKey, bridgeCol, at, count[r]!, cur.slots, cur.slotCost, maxAbs);
+        scanned += nCols;
+      }
+      continue;
+    }
+    if (deficit >= lastDeficit || k >= WIDEN_MAX * k0 || k >= nCols) return -1;
     lastDeficit = deficit;
     k = Math.min(nCols, 2 * k);
     ensureCap(k + 1);
@@ -776,6 +834,67 @@ function widenUntilMatchable(
       scanned += nCols;
     }
   }
+}
+
+/** Times the candidates of short rows are bridged to columns outside their cluster before giving up. */
+const BRIDGE_MAX = 8;
+/**
+ * Below this many rows, `auto` gives a candidate graph with many rows short to the
+ * full search rather than bridging it: the bridged candidates' pricing rounds cost
+ * more there (measured, process CPU time of a first solve on clustered costs:
+ * n = 1000 bridged 375 ms, full search 242 ms; n = 2000 553 ms against 779 ms;
+ * n = 4000 1.40 s against 2.62 s).
+ */
+const BRIDGE_MIN_ROWS = 1500;
+
+function maxCount(count: Int32Array): number {
+  let m = 0;
+  for (let r = 0; r < count.length; r++) if (count[r]! > m) m = count[r]!;
+  return m;
+}
+
+/**
+ * Appends to the row's n candidates (from `at`) its k cheapest allowed pairs to
+ * columns with `inside[j] === 0`; returns the new count. These columns are not among
+ * the row's candidates, so they cost at least its dearest candidate and floor[r]
+ * stays a bound on the pairs left out.
+ */
+function addOutside(
+  cost: Float64Array,
+  base: number,
+  nCols: number,
+  inside: Uint8Array,
+  k: number,
+  key: Float64Array,
+  col: Int32Array,
+  at: number,
+  n: number,
+  slots: Int32Array,
+  slotCost: Float64Array,
+  maxAbs: Float64Array,
+): number {
+  let g = 0;
+  for (let j = 0; j < nCols; j++) {
+    const c = cost[base + j]!;
+    if (inside[j] === 0 && c < Infinity) {
+      key[g] = c;
+      col[g++] = j;
+    }
+  }
+  if (g > k) {
+    keepCheapest(key, col, g, k);
+    g = k;
+  }
+  let big = maxAbs[0]!;
+  for (let t = 0; t < g; t++) {
+    const c = key[t]!;
+    if (c > big) big = c;
+    else if (-c > big) big = -c;
+    slots[at + n + t] = col[t]!;
+    slotCost[at + n + t] = c;
+  }
+  maxAbs[0] = big;
+  return n + g;
 }
 
 /**
