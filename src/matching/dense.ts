@@ -808,12 +808,16 @@ function widenUntilMatchable(
       cur = lists();
       bridgeKey ??= new Float64Array(nCols);
       bridgeCol ??= new Int32Array(nCols);
+      let grown = 0;
       for (let t = 0; t < tail; t++) {
         const r = queue[t]!;
-        const at = r * cur.cap;
-        count[r] = addOutside(cost, r * nCols, nCols, colSeen, k0, bridgeKey, bridgeCol, at, count[r]!, cur.slots, cur.slotCost, maxAbs);
+        const was = count[r]!;
+        count[r] = addOutside(cost, r * nCols, nCols, colSeen, k0, bridgeKey, bridgeCol, r * cur.cap, was, cur.slots, cur.slotCost, maxAbs);
+        grown += count[r]! - was;
         scanned += nCols;
       }
+      // no allowed pair leads out: the rows cannot all be matched (the full search says which)
+      if (grown === 0) return -1;
       continue;
     }
     if (deficit >= lastDeficit || k >= WIDEN_MAX * k0 || k >= nCols) return -1;

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { checkCertificate, solveDense, solveSparse } from '../../../src/matching/index.js';
+import { maxCardinalityMatching } from '../../../src/matching/cardinality.js';
 import { DENSE_FAMILIES, denseFamily } from '../../../bench/lib/instances.js';
 import { scipyDenseCosts, scipyVersion } from '../../helpers/python.js';
 import { denseToSparse, mulberry32 } from './gen.js';
@@ -92,6 +93,28 @@ describe('the candidates strategy on costs with many ties', () => {
       expect(checkCertificate(inst, auto).problems, `${label} auto`).toEqual([]);
       expect(Math.abs(auto.cost - ref), `${label} auto`).toBeLessThanOrEqual(tol);
     });
+  });
+});
+
+describe('bridging candidates when the rows cannot all be matched', () => {
+  it('a crowded cluster whose pairs out of it are all forbidden: an infeasibility error, not a wrong answer', () => {
+    // clustered n = 400 seed 5 has 19 rows short among their cheapest; forbid every pair
+    // longer than 60 (about two σ) so the crowded cluster cannot send rows elsewhere.
+    // Hall's condition then fails among the allowed pairs themselves (checked by
+    // Hopcroft–Karp on them), and the bridging finds no pair that leads out.
+    const n = 400;
+    const inst = denseFamily(5, n, 'clustered');
+    const cost = inst.cost.map((c) => (c > 60 ? Infinity : c));
+    const rowPtr = new Int32Array(n + 1);
+    const cols: number[] = [];
+    for (let r = 0; r < n; r++) {
+      for (let j = 0; j < n; j++) if (cost[r * n + j]! < Infinity) cols.push(j);
+      rowPtr[r + 1] = cols.length;
+    }
+    expect(maxCardinalityMatching({ nRows: n, nCols: n, rowPtr, colIdx: Int32Array.from(cols) }).size).toBeLessThan(n);
+    for (const strategy of ['candidates', 'auto'] as const) {
+      expect(() => solveDense({ nRows: n, nCols: n, cost }, { strategy }), strategy).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' }));
+    }
   });
 });
 
