@@ -202,6 +202,7 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
       rowToCol[r] = j;
       colToRow[j] = r;
     }
+    if (r + 1 === TIES_SAMPLE && tiesAtMinimum(cost, n, u, TIES_SAMPLE) < TIES_MIN * TIES_SAMPLE) return null;
   }
   if (nFree > n >> 5) return null;
   let scanned = n * n;
@@ -246,6 +247,28 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
     warmPairsKept: 0,
     searchedRows: searched,
   });
+}
+
+/**
+ * The row-minima start needs many ties at the rows' minima: a row fails the greedy
+ * pass when every column at its minimum is taken, so with d ties per row about
+ * n/(d + 1) rows are left over, and the start takes at most n/32. Costs with a unique or near
+ * unique minimum per row (distances, uniform integers 1..1000 on 4000 columns: about
+ * 4 ties) would fail only late, after reading much of the matrix; the first
+ * TIES_SAMPLE rows' ties decide at once.
+ */
+const TIES_SAMPLE = 32;
+const TIES_MIN = 32;
+
+/** Cells equal to their row's minimum u[r], over the first `rows` rows. */
+function tiesAtMinimum(cost: Float64Array, n: number, u: Float64Array, rows: number): number {
+  let ties = 0;
+  for (let r = 0; r < rows; r++) {
+    const m = u[r]!;
+    const base = r * n;
+    for (let j = 0; j < n; j++) if (cost[base + j] === m) ties++;
+  }
+  return ties;
 }
 
 /** Matrices' worth of cells the searches after the row-minima start may read before it gives up. */
