@@ -174,10 +174,12 @@ function finishDense(
  * tight pair). On costs with few distinct values (integers 0..9 leave a row about
  * n/10 ties at its minimum) nearly every row does, and the few left over find a free
  * column within a row or two, so the solve reads the matrix about once. Where the
- * rows' cheapest pairs crowd onto few columns (distances, products, rank one) the
- * greedy pass soon fails on many rows: it gives up after an eighth of the rows, and
- * the caller goes on as before. Returns null when it gives up (also when the
- * searches read more than SEARCH_BUDGET_MIN matrices, or a row has no allowed pair).
+ * rows' minima are unique or nearly so (distances, products, rank one, uniform
+ * random costs) it gives up within the first rows — after TIES_SAMPLE rows holding
+ * few ties at their minima, or once more than 1 in 64 rows fails the greedy pass —
+ * and the caller goes on as before. Returns null when it gives up (also when more
+ * than n/32 rows are left over, when the searches read more than SEARCH_BUDGET_MIN
+ * matrices, or when a row has no allowed pair).
  */
 function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
   const { nRows: n, cost } = inst;
@@ -252,10 +254,10 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
 /**
  * The row-minima start needs many ties at the rows' minima: a row fails the greedy
  * pass when every column at its minimum is taken, so with d ties per row about
- * n/(d + 1) rows are left over, and the start takes at most n/32. Costs with a unique or near
- * unique minimum per row (distances, uniform integers 1..1000 on 4000 columns: about
- * 4 ties) would fail only late, after reading much of the matrix; the first
- * TIES_SAMPLE rows' ties decide at once.
+ * n/(d + 1) rows are left over, and the start takes at most n/32. Costs with a
+ * unique or nearly unique minimum per row (distances; uniform integers 1..1000 on
+ * 4000 columns: about 4 ties) would fail only late, after reading much of the
+ * matrix; the first TIES_SAMPLE rows' ties decide at once.
  */
 const TIES_SAMPLE = 32;
 const TIES_MIN = 32;
@@ -764,11 +766,10 @@ interface Lists {
  * alternating path from an unmatched row (the rows that compete for too few columns,
  * Hall's condition) takes twice its cheapest pairs, and again. The pairs added are
  * each row's next cheapest, so the lists stay "the row's cheapest" and `floor` stays
- * a bound on every pair left out. When `bridge` is set, each reachable row
- * instead gets its k0 cheapest pairs to the
- * columns no alternating path reaches (outside its cluster): the pairs an optimum
- * must use to move rows out of a crowded cluster, which no number of the row's own
- * nearest columns provides. Those pairs are not among the row's cheapest, so `floor`
+ * a bound on every pair left out. When `bridge` is set, each reachable row instead
+ * gets its k0 cheapest pairs to the columns no alternating path reaches (outside its
+ * cluster): the pairs an optimum must use to move rows out of a crowded cluster,
+ * which no number of the row's own nearest columns provides. Those pairs are not among the row's cheapest, so `floor`
  * stays a bound too. Returns the cells read, or -1 when it gives up (see WIDEN_MAX)
  * or no row can grow (then the rows cannot all be matched, which the full search
  * reports). A row's warm pair, if any, is added back after its list is picked again.
