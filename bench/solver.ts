@@ -6,12 +6,15 @@
  *                       [--cap SECONDS] [--pairflow-cap SECONDS] [--note TEXT] [--list]
  *
  * --case selects cases by exact name or name prefix (`--case dense-int`, `--case sparse`).
+ * A selection of structured families alone (`--case geometric,clustered,few-ints,
+ * machol-wien,rank-one`, or some of them) writes only their table, in place, with its
+ * own run line; any other selection replaces the whole section (use --no-write).
  * --quick runs tiny sizes (the unit suite smoke-runs it). The markdown table goes to
  * stdout and, unless --no-write, between the bench:solver markers of
  * docs/benchmarks.md; --json prints the raw results instead of the table.
  */
 
-import { mkdtempSync, rmSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
@@ -535,8 +538,14 @@ async function main(): Promise<void> {
     else process.stdout.write(table);
     if (args.write) {
       const doc = new URL('../docs/benchmarks.md', import.meta.url).pathname;
-      writeSection(doc, 'solver', table);
-      log(`wrote the bench:solver section of ${doc}`);
+      const familiesOnly = !args.quick && cases.every((c) => c.group === 'family');
+      const command = `npx tsx bench/solver.ts --case ${args.select?.join(',') ?? ''}`;
+      if (familiesOnly && spliceFamilies(doc, results, command)) {
+        log(`wrote the structured families' table in the bench:solver section of ${doc}`);
+      } else {
+        writeSection(doc, 'solver', table);
+        log(`wrote the bench:solver section of ${doc}`);
+      }
     }
   } finally {
     cleanup();
@@ -587,6 +596,60 @@ function check(ok: boolean | null, pf: Timed): string {
   return ok ? '✓' : '✗';
 }
 
+/** The heading of the structured families' table, where a families-only run writes (see spliceFamilies). */
+const FAMILIES_HEADING = "### Dense, structured costs: a user's first solve";
+
+/**
+ * The structured families' table; `runLine` says when and where it ran when it is
+ * written on its own (a families-only run), null inside a whole section.
+ */
+function renderFamilies(res: Results, runLine: string | null): string[] {
+  const lines: string[] = [FAMILIES_HEADING, ''];
+  if (runLine !== null) lines.push(runLine, '');
+  lines.push(
+    'The costs users have rather than uniform random numbers (bench/lib/instances.ts, named after the classes of the dense-assignment literature, from memory): ' +
+      '`geometric` (Euclidean distances between random points in a square), `clustered` (the same around 10 centres), `few-ints` (integers 0..9), ' +
+      '`machol-wien` (c_ij = i·j, Machol & Wien 1976), `rank-one` (a_i·b_j plus uniform noise in [0, 1)). ' +
+      'pairflow is timed as `pairflow solve` is: each repeat a fresh Node process and its first solve, no warm-up (the JIT\'s warm-up counts); ' +
+      'scipy\'s `linear_sum_assignment` from its first call too (it has nothing to warm). Target: pairflow ≤ 1.0× scipy, ≤ 0.5× on the geometric families.',
+    '',
+  );
+  lines.push('| case | n | pairflow first solve | scipy | pairflow/scipy | target | same cost |');
+  lines.push('|---|---|---|---|---|---|---|');
+  for (const r of res.families) {
+    const sc = r.scipy ? median(r.scipy.ms) : undefined;
+    const target = GEOMETRIC.has(r.family) ? 0.5 : 1.0;
+    lines.push(
+      `| ${r.name} | ${r.n} | ${pfCell(r.pairflow, res.pairflowCapMs)} | ${r.scipy ? fmtMs(r.scipy.ms) : '—'} | ${pfRatio(r.pairflow, sc, res.pairflowCapMs)} | ≤ ${target.toFixed(1)}× | ${check(r.ok, r.pairflow)} |`,
+    );
+  }
+  return lines;
+}
+
+/**
+ * A run of the structured families alone (`--case geometric,clustered,…`) replaces
+ * only their table inside the bench:solver section, from its heading to the next
+ * heading, leaving the tables of the last whole run as they are; the table's first
+ * line then says that it comes from a run of its own. Returns false when the section
+ * or the heading is missing (a whole run writes them).
+ */
+function spliceFamilies(doc: string, res: Results, command: string): boolean {
+  const m = res.machine;
+  const runLine =
+    `Measured in a run of its own (\`${command}\`; the other tables of this section are from the run above): ` +
+    `run ${res.date.slice(0, 16).replace('T', ' ')} UTC, ${res.mode} mode, on ${m.cpu} (${m.cores} cores, ${m.memoryGb} GB), ` +
+    `Node ${m.node}, Python ${m.python ?? '—'}, scipy ${m.scipy ?? '—'}, numpy ${m.numpy ?? '—'}; 1-minute load at start ${m.loadAtStart.toFixed(2)}, at end ${res.loadAtEnd.toFixed(2)}.`;
+  const text = existsSync(doc) ? readFileSync(doc, 'utf8') : '';
+  const start = text.indexOf('<!-- bench:solver:start -->');
+  const end = text.indexOf('<!-- bench:solver:end -->');
+  const at = text.indexOf(FAMILIES_HEADING, start);
+  if (start < 0 || end < start || at < 0 || at > end) return false;
+  const next = text.indexOf('\n### ', at + FAMILIES_HEADING.length);
+  const stop = next >= 0 && next < end ? next + 1 : end;
+  writeFileSync(doc, `${text.slice(0, at)}${renderFamilies(res, runLine).join('\n')}\n\n${text.slice(stop)}`);
+  return true;
+}
+
 function render(res: Results, note: string | null): string {
   const m = res.machine;
   const lines: string[] = [];
@@ -629,26 +692,7 @@ function render(res: Results, note: string | null): string {
     }
   }
 
-  if (res.families.length > 0) {
-    lines.push('', '### Dense, structured costs: a user\'s first solve', '');
-    lines.push(
-      'The costs users have rather than uniform random numbers (bench/lib/instances.ts, named after the classes of the dense-assignment literature, from memory): ' +
-        '`geometric` (Euclidean distances between random points in a square), `clustered` (the same around 10 centres), `few-ints` (integers 0..9), ' +
-        '`machol-wien` (c_ij = i·j, Machol & Wien 1976), `rank-one` (a_i·b_j plus uniform noise in [0, 1)). ' +
-        'pairflow is timed as `pairflow solve` is: each repeat a fresh Node process and its first solve, no warm-up (the JIT\'s warm-up counts); ' +
-        'scipy\'s `linear_sum_assignment` from its first call too (it has nothing to warm). Target: pairflow ≤ 1.0× scipy, ≤ 0.5× on the geometric families.',
-      '',
-    );
-    lines.push('| case | n | pairflow first solve | scipy | pairflow/scipy | target | same cost |');
-    lines.push('|---|---|---|---|---|---|---|');
-    for (const r of res.families) {
-      const sc = r.scipy ? median(r.scipy.ms) : undefined;
-      const target = GEOMETRIC.has(r.family) ? 0.5 : 1.0;
-      lines.push(
-        `| ${r.name} | ${r.n} | ${pfCell(r.pairflow, res.pairflowCapMs)} | ${r.scipy ? fmtMs(r.scipy.ms) : '—'} | ${pfRatio(r.pairflow, sc, res.pairflowCapMs)} | ≤ ${target.toFixed(1)}× | ${check(r.ok, r.pairflow)} |`,
-      );
-    }
-  }
+  if (res.families.length > 0) lines.push('', ...renderFamilies(res, null));
 
   if (res.sparse.length > 0) {
     lines.push('', '### Sparse, a perfect matching planted', '');

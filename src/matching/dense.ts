@@ -41,6 +41,13 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   const k = candidateCount(inst.nCols);
   const strategy = opts.strategy ?? 'auto';
   if (strategy === 'candidates' || (strategy === 'auto' && preferCandidates(inst.nRows, inst.nCols, k))) {
+    if (inst.nRows === inst.nCols && opts.warm === undefined && mustMatchAll(inst.unmatchedCost ?? null)) {
+      const res = solveFromRowMinima(inst);
+      if (res !== null) {
+        res.stats.ms = now() - t0;
+        return res;
+      }
+    }
     const res = solveByCandidates(inst, opts, k);
     if (res !== null) {
       res.stats.ms = now() - t0;
@@ -72,7 +79,7 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
   // by column, which the sparse core builds, and a warm re-solve searches little.
   if (opts.warm?.rowToCol !== undefined) return solveSparseChecked(denseToCsr(inst), opts, now, t0);
 
-  const { nRows, nCols, cost } = inst;
+  const { nRows, nCols } = inst;
   const delta = inst.unmatchedCost ?? null;
 
   const v = new Float64Array(nCols);
@@ -81,8 +88,6 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
   const colToRow = new Int32Array(nCols).fill(NONE);
   let scannedPairs = 0;
   let augmentations = 0;
-  let j = 0;
-  let r = 0;
 
   // ---- a perfect assignment starts from column reduction and reduction transfer
   // (see sparse.ts for why that is allowed there).
@@ -117,10 +122,37 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
     }
   }
 
+  return finishDense(inst, perfect, u, v, rowToCol, colToRow, {
+    augmentations,
+    scannedPairs,
+    ms: now() - t0,
+    warm: false,
+    warmPairsKept: 0,
+    searchedRows,
+    ...(auctionBids > 0 ? { auctionBids } : {}),
+  });
+}
+
+/**
+ * The result of a finished search: each matched row's price made tight on its pair
+ * (u = c − v), an unmatched row's set to its δ, and in the perfect case the column
+ * prices shifted to SPEC §5's sign (max v = 0).
+ */
+function finishDense(
+  inst: DenseInstance,
+  perfect: boolean,
+  u: Float64Array,
+  v: Float64Array,
+  rowToCol: Int32Array,
+  colToRow: Int32Array,
+  stats: SolveResult['stats'],
+): SolveResult {
+  const { nRows, nCols, cost } = inst;
+  const delta = inst.unmatchedCost ?? null;
   if (perfect) shiftToNonPositive(v);
   const primal = new Sum();
-  for (r = 0; r < nRows; r++) {
-    j = rowToCol[r]!;
+  for (let r = 0; r < nRows; r++) {
+    const j = rowToCol[r]!;
     if (j === NONE) {
       u[r] = delta![r]!;
       primal.add(u[r]!);
@@ -130,15 +162,143 @@ function solveDenseFull(inst: DenseInstance, opts: SolveOptions, now: () => numb
       primal.add(c);
     }
   }
-  return finishResult(primal.value, rowToCol, colToRow, u, v, {
-    augmentations,
-    scannedPairs,
-    ms: now() - t0,
+  return finishResult(primal.value, rowToCol, colToRow, u, v, stats);
+}
+
+/**
+ * Row reduction and a greedy pass on the rows' cheapest pairs, then shortest
+ * augmenting paths for the rows left over — the Hungarian method's own start — for a
+ * square instance where every row must be matched. Each row's price starts at its
+ * minimum cost and every column's at 0 (dual feasible: no pair costs less than its
+ * row's minimum), and a row takes a free column at that minimum if it has one (a
+ * tight pair). On costs with few distinct values (integers 0..9 leave a row about
+ * n/10 ties at its minimum) nearly every row does, and the few left over find a free
+ * column within a row or two, so the solve reads the matrix about once. Where the
+ * rows' minima are unique or nearly so (distances, products, rank one, uniform
+ * random costs) it gives up within the first rows — after TIES_SAMPLE rows holding
+ * few ties at their minima, or once more than 1 in 64 rows fails the greedy pass —
+ * and the caller goes on as before. Returns null when it gives up (also when more
+ * than n/32 rows are left over, when the searches read more than SEARCH_BUDGET_MIN
+ * matrices, or when a row has no allowed pair).
+ */
+function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
+  const { nRows: n, cost } = inst;
+  const u = new Float64Array(n);
+  const v = new Float64Array(n);
+  const rowToCol = new Int32Array(n).fill(NONE);
+  const colToRow = new Int32Array(n).fill(NONE);
+  const out = new Float64Array(2);
+  const freeRows = new Int32Array(n);
+  let nFree = 0;
+  for (let r = 0; r < n; r++) {
+    rowMinFree(cost, r * n, n, colToRow, out);
+    const m = out[0]!;
+    if (m === -Infinity) checkDenseCells(inst);
+    if (!(m < Infinity)) return null;
+    u[r] = m;
+    const j = out[1]!;
+    if (j === NONE) {
+      freeRows[nFree++] = r;
+      if (nFree > 2 + (r >> 6)) return null;
+    } else {
+      rowToCol[r] = j;
+      colToRow[j] = r;
+    }
+    if (r + 1 === TIES_SAMPLE && tiesAtMinimum(cost, n, u, TIES_SAMPLE) < TIES_MIN * TIES_SAMPLE) return null;
+  }
+  if (nFree > n >> 5) return null;
+  let scanned = n * n;
+  let searched = 0;
+  let search: DenseSearch | null = null;
+  const budget = scanned + SEARCH_BUDGET_MIN * n * n;
+  for (let f = 0; f < nFree; f++) {
+    const r = freeRows[f]!;
+    // First a path of length two through tight pairs: r takes a column at its minimum
+    // whose row moves to a free column at that row's minimum (all prices unchanged).
+    // It reuses the greedy pass's kernel, already optimised, where a search would run
+    // code the engine has not compiled yet.
+    const base = r * n;
+    const ur = u[r]!;
+    let done = false;
+    for (let j = 0; j < n && !done; j++) {
+      if (cost[base + j] !== ur) continue;
+      const i = colToRow[j]!;
+      rowMinFree(cost, i * n, n, colToRow, out);
+      scanned += n;
+      const to = out[1]!;
+      if (to === NONE) continue;
+      rowToCol[i] = to;
+      colToRow[to] = i;
+      rowToCol[r] = j;
+      colToRow[j] = r;
+      done = true;
+    }
+    scanned += n;
+    if (!done) {
+      search ??= new DenseSearch(inst, null, u, v, rowToCol, colToRow);
+      searched++;
+      scanned += search.run(r);
+    }
+    if (scanned > budget) return null;
+  }
+  return finishDense(inst, true, u, v, rowToCol, colToRow, {
+    augmentations: searched,
+    scannedPairs: scanned,
+    ms: 0,
     warm: false,
     warmPairsKept: 0,
-    searchedRows,
-    ...(auctionBids > 0 ? { auctionBids } : {}),
+    searchedRows: searched,
   });
+}
+
+/**
+ * The row-minima start needs many ties at the rows' minima: a row fails the greedy
+ * pass when every column at its minimum is taken, so with d ties per row about
+ * n/(d + 1) rows are left over, and the start takes at most n/32. Costs with a
+ * unique or nearly unique minimum per row (distances; uniform integers 1..1000 on
+ * 4000 columns: about 4 ties) would fail only late, after reading much of the
+ * matrix; the first TIES_SAMPLE rows' ties decide at once.
+ */
+const TIES_SAMPLE = 32;
+const TIES_MIN = 32;
+
+/** Cells equal to their row's minimum u[r], over the first `rows` rows. */
+function tiesAtMinimum(cost: Float64Array, n: number, u: Float64Array, rows: number): number {
+  let ties = 0;
+  for (let r = 0; r < rows; r++) {
+    const m = u[r]!;
+    const base = r * n;
+    for (let j = 0; j < n; j++) if (cost[base + j] === m) ties++;
+  }
+  return ties;
+}
+
+/** Matrices' worth of cells the searches after the row-minima start may read before it gives up. */
+const SEARCH_BUDGET_MIN = 1;
+
+/**
+ * One row of the row-minima start: writes the row's minimum cost to out[0] and to
+ * out[1] the first column still free at that minimum (NONE when there is none).
+ */
+function rowMinFree(cost: Float64Array, base: number, n: number, colToRow: Int32Array, out: Float64Array): void {
+  let m = Infinity;
+  let first = n;
+  for (let j = 0; j < n; j++) {
+    const x = cost[base + j]!;
+    if (x < m) {
+      m = x;
+      first = j;
+    }
+  }
+  let free = NONE;
+  for (let j = first; j < n; j++) {
+    if (cost[base + j] === m && colToRow[j] === NONE) {
+      free = j;
+      break;
+    }
+  }
+  out[0] = m;
+  out[1] = free;
 }
 
 /** Square instances below this size never switch to the auction (searches are cheap there). */
@@ -512,7 +672,8 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   // maximum matching of the candidates costs far less than a solve that fails late
   // (geometric n = 4000: 1.1 s against 1.8 s when widened after the failed solve).
   if (nRows <= nCols && mustMatchAll(inst.unmatchedCost ?? null)) {
-    const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }));
+    const bridge = opts.strategy === 'candidates' || nRows >= BRIDGE_MIN_ROWS;
+    const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }), bridge);
     if (w < 0) return null;
     scanned += w;
   }
@@ -580,12 +741,14 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
 
 /*
  * When widening gives up. A local shortage (a corner of a geometric matrix: 7 of
- * 4000 rows short) is met by a doubling or two; rows that must reach much farther (a
+ * 4000 rows short) is met by a doubling or two. Rows that must reach much farther (a
  * cluster with more rows than columns: 1–6 % of the rows short, the shortage not
- * shrinking as the lists double) would get prices so far from the optimum that the
- * pricing rounds cost more than the full search (measured: clustered n = 4000 took
- * 35 s widened, 5 s by the full search). Give up when more than 1 % of the rows are
- * short, when a doubling did not shrink the shortage, or at 4× the first count.
+ * shrinking as the lists double) are not helped by more of their own nearest
+ * columns (measured: clustered n = 4000 took 35 s widened, 5 s by the full search);
+ * they are bridged instead (see widenUntilMatchable), on matrices of BRIDGE_MIN_ROWS
+ * rows or more (where bridging also takes the place of doubling: about as fast on a
+ * corner's shortage), and given up on below that. Give up when a doubling did not
+ * shrink the shortage, at 4× the first count, or after BRIDGE_MAX bridgings.
  */
 const WIDEN_MAX = 4;
 const WIDEN_MAX_SHORT = 100;
@@ -603,10 +766,13 @@ interface Lists {
  * alternating path from an unmatched row (the rows that compete for too few columns,
  * Hall's condition) takes twice its cheapest pairs, and again. The pairs added are
  * each row's next cheapest, so the lists stay "the row's cheapest" and `floor` stays
- * a bound on every pair left out. Returns the cells read, or -1 when it gives up (see
- * WIDEN_MAX) or no row can grow (then the rows cannot all be matched, which the full
- * search reports). A row's warm pair, if any, is added back after its list is picked
- * again.
+ * a bound on every pair left out. When `bridge` is set, each reachable row instead
+ * gets its k0 cheapest pairs to the columns no alternating path reaches (outside its
+ * cluster): the pairs an optimum must use to move rows out of a crowded cluster,
+ * which no number of the row's own nearest columns provides. Those pairs are not among the row's cheapest, so `floor`
+ * stays a bound too. Returns the cells read, or -1 when it gives up (see WIDEN_MAX)
+ * or no row can grow (then the rows cannot all be matched, which the full search
+ * reports). A row's warm pair, if any, is added back after its list is picked again.
  */
 function widenUntilMatchable(
   inst: DenseInstance,
@@ -617,6 +783,7 @@ function widenUntilMatchable(
   wPair: Int32Array | undefined,
   ensureCap: (need: number) => void,
   lists: () => Lists,
+  bridge: boolean,
 ): number {
   const { nRows, nCols, cost } = inst;
   let scanned = 0;
@@ -625,6 +792,9 @@ function widenUntilMatchable(
   const queue = new Int32Array(nRows);
   const guess = Float64Array.of(Infinity);
   let lastDeficit = Infinity;
+  let bridges = 0;
+  let bridgeKey: Float64Array | null = null;
+  let bridgeCol: Int32Array | null = null;
   for (let k = k0; ; ) {
     let cur = lists();
     const { rowPtr, colIdx } = packCandidates(nRows, nCols, cur.slots, cur.slotCost, cur.cap, count, null);
@@ -655,7 +825,26 @@ function widenUntilMatchable(
       }
     }
     const deficit = nRows - m.size;
-    if (deficit > nRows / WIDEN_MAX_SHORT || deficit >= lastDeficit || k >= WIDEN_MAX * k0 || k >= nCols) return -1;
+    if (bridge || deficit > nRows / WIDEN_MAX_SHORT) {
+      if (!bridge || bridges >= BRIDGE_MAX) return -1;
+      bridges++;
+      ensureCap(maxCount(count) + k0);
+      cur = lists();
+      bridgeKey ??= new Float64Array(nCols);
+      bridgeCol ??= new Int32Array(nCols);
+      let grown = 0;
+      for (let t = 0; t < tail; t++) {
+        const r = queue[t]!;
+        const was = count[r]!;
+        count[r] = addOutside(cost, r * nCols, nCols, colSeen, k0, bridgeKey, bridgeCol, r * cur.cap, was, cur.slots, cur.slotCost, maxAbs);
+        grown += count[r]! - was;
+        scanned += nCols;
+      }
+      // no allowed pair leads out: the rows cannot all be matched (the full search says which)
+      if (grown === 0) return -1;
+      continue;
+    }
+    if (deficit >= lastDeficit || k >= WIDEN_MAX * k0 || k >= nCols) return -1;
     lastDeficit = deficit;
     k = Math.min(nCols, 2 * k);
     ensureCap(k + 1);
@@ -673,6 +862,67 @@ function widenUntilMatchable(
       scanned += nCols;
     }
   }
+}
+
+/** Times the candidates of short rows are bridged to columns outside their cluster before giving up. */
+const BRIDGE_MAX = 8;
+/**
+ * Below this many rows, `auto` gives a candidate graph with many rows short to the
+ * full search rather than bridging it: the bridged candidates' pricing rounds cost
+ * more there (measured, process CPU time of a first solve on clustered costs:
+ * n = 1000 bridged 375 ms, full search 242 ms; n = 2000 553 ms against 779 ms;
+ * n = 4000 1.40 s against 2.62 s).
+ */
+const BRIDGE_MIN_ROWS = 1500;
+
+function maxCount(count: Int32Array): number {
+  let m = 0;
+  for (let r = 0; r < count.length; r++) if (count[r]! > m) m = count[r]!;
+  return m;
+}
+
+/**
+ * Appends to the row's n candidates (from `at`) its k cheapest allowed pairs to
+ * columns with `inside[j] === 0`; returns the new count. These columns are not among
+ * the row's candidates, so they cost at least its dearest candidate and floor[r]
+ * stays a bound on the pairs left out.
+ */
+function addOutside(
+  cost: Float64Array,
+  base: number,
+  nCols: number,
+  inside: Uint8Array,
+  k: number,
+  key: Float64Array,
+  col: Int32Array,
+  at: number,
+  n: number,
+  slots: Int32Array,
+  slotCost: Float64Array,
+  maxAbs: Float64Array,
+): number {
+  let g = 0;
+  for (let j = 0; j < nCols; j++) {
+    const c = cost[base + j]!;
+    if (inside[j] === 0 && c < Infinity) {
+      key[g] = c;
+      col[g++] = j;
+    }
+  }
+  if (g > k) {
+    keepCheapest(key, col, g, k);
+    g = k;
+  }
+  let big = maxAbs[0]!;
+  for (let t = 0; t < g; t++) {
+    const c = key[t]!;
+    if (c > big) big = c;
+    else if (-c > big) big = -c;
+    slots[at + n + t] = col[t]!;
+    slotCost[at + n + t] = c;
+  }
+  maxAbs[0] = big;
+  return n + g;
 }
 
 /**
@@ -926,3 +1176,4 @@ function denseToCsr(inst: DenseInstance): SparseInstance {
   }
   return { nRows, nCols, rowPtr, colIdx, cost: sub, unmatchedCost: inst.unmatchedCost ?? null };
 }
+

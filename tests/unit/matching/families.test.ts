@@ -1,8 +1,10 @@
 import { describe, expect, it } from 'vitest';
 import { checkCertificate, solveDense, solveSparse } from '../../../src/matching/index.js';
+import { maxCardinalityMatching } from '../../../src/matching/cardinality.js';
 import { DENSE_FAMILIES, denseFamily } from '../../../bench/lib/instances.js';
 import { scipyDenseCosts, scipyVersion } from '../../helpers/python.js';
 import { denseToSparse, mulberry32 } from './gen.js';
+import type { DenseInstance } from '../../../src/matching/types.js';
 
 /*
  * Reference: scipy.optimize.linear_sum_assignment (from PyPI; the version in use is
@@ -71,11 +73,100 @@ describe('the candidates strategy on costs with many ties', () => {
     expect(r.stats.scannedPairs).toBeLessThan(10 * n * n);
   });
 
-  it('gives clustered costs whose cheapest pairs leave many rows short to the full search, with the same optimum', () => {
-    // seed 5, n = 400: 19 rows short among their 22 cheapest (over 1 %).
-    const inst = denseFamily(5, 400, 'clustered');
-    const r = solveDense(inst, { strategy: 'candidates' });
+  it.skipIf(version === null)('bridges clustered costs whose cheapest pairs leave many rows short to columns outside their cluster, reaching scipy’s optimum', () => {
+    // seed 5, n = 400: 19 rows short among their 22 cheapest (over 1 %). Their own
+    // nearest columns never suffice; before bridging, `candidates` gave up and the full
+    // search ran (40 matrix reads and the auction). `auto` still does so below
+    // BRIDGE_MIN_ROWS rows.
+    const cases = [[5, 400], [6, 400], [7, 600]].map(([seed, n]) => ({ seed: seed!, n: n!, inst: denseFamily(seed!, n!, 'clustered') }));
+    const want = scipyDenseCosts(cases.map((c) => c.inst));
+    cases.forEach(({ seed, n, inst }, k) => {
+      const label = `clustered n=${n} seed ${seed}`;
+      const ref = want[k]!;
+      const tol = 1e-9 * Math.max(1, Math.abs(ref));
+      const r = solveDense(inst, { strategy: 'candidates' });
+      expect(checkCertificate(inst, r).problems, label).toEqual([]);
+      expect(Math.abs(r.cost - ref), `${label}: ${r.cost} vs ${ref}`).toBeLessThanOrEqual(tol);
+      expect(r.stats.auctionBids, label).toBeUndefined();
+      expect(r.stats.scannedPairs, label).toBeLessThan(20 * n * n);
+      const auto = solveDense(inst);
+      expect(checkCertificate(inst, auto).problems, `${label} auto`).toEqual([]);
+      expect(Math.abs(auto.cost - ref), `${label} auto`).toBeLessThanOrEqual(tol);
+    });
+  });
+});
+
+describe('bridging candidates when the rows cannot all be matched', () => {
+  it('a crowded cluster whose pairs out of it are all forbidden: an infeasibility error, not a wrong answer', () => {
+    // clustered n = 400 seed 5 has 19 rows short among their cheapest; forbid every pair
+    // longer than 60 (about two σ) so the crowded cluster cannot send rows elsewhere.
+    // Hall's condition then fails among the allowed pairs themselves (checked by
+    // Hopcroft–Karp on them), and the bridging finds no pair that leads out.
+    const n = 400;
+    const inst = denseFamily(5, n, 'clustered');
+    const cost = inst.cost.map((c) => (c > 60 ? Infinity : c));
+    const rowPtr = new Int32Array(n + 1);
+    const cols: number[] = [];
+    for (let r = 0; r < n; r++) {
+      for (let j = 0; j < n; j++) if (cost[r * n + j]! < Infinity) cols.push(j);
+      rowPtr[r + 1] = cols.length;
+    }
+    expect(maxCardinalityMatching({ nRows: n, nCols: n, rowPtr, colIdx: Int32Array.from(cols) }).size).toBeLessThan(n);
+    for (const strategy of ['candidates', 'auto'] as const) {
+      expect(() => solveDense({ nRows: n, nCols: n, cost }, { strategy }), strategy).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' }));
+    }
+  });
+});
+
+describe.skipIf(version === null)(`the row-minima start (row reduction, greedy on tight pairs, then searches) against scipy ${version}`, () => {
+  // Few distinct costs: each row has about n/10 zeros, so a greedy pass on the rows'
+  // cheapest pairs matches all but a few rows and the rest are searched from there.
+  const n = 600;
+  const variants: { label: string; inst: () => DenseInstance }[] = [
+    ...[9300, 9301, 9302].map((seed) => ({ label: `few-ints seed ${seed}`, inst: () => denseFamily(seed, n, 'few-ints') })),
+    {
+      // no row's cheapest pair is in column 17: the greedy leaves a row over whose
+      // search must raise a column price (v ≠ 0) to reach it
+      label: 'few-ints, column 17 all nines',
+      inst: () => {
+        const inst = denseFamily(9303, n, 'few-ints');
+        for (let r = 0; r < n; r++) inst.cost[r * n + 17] = 9;
+        return inst;
+      },
+    },
+    {
+      // forbidden pairs (+Infinity) and negative costs on the same path
+      label: 'few-ints shifted by −4, a tenth of the pairs forbidden',
+      inst: () => {
+        const inst = denseFamily(9304, n, 'few-ints');
+        const rand = mulberry32(9304);
+        for (let k = 0; k < inst.cost.length; k++) inst.cost[k] = rand() < 0.1 ? Infinity : inst.cost[k]! - 4;
+        return inst;
+      },
+    },
+  ];
+
+  it('reaches scipy’s optimum with a certificate, searching only the few rows the greedy pass leaves over', () => {
+    const cases = variants.map((c) => ({ ...c, built: c.inst() }));
+    const want = scipyDenseCosts(cases.map((c) => c.built));
+    cases.forEach(({ label, built }, k) => {
+      const ref = want[k]!;
+      expect(ref, label).not.toBeNull();
+      const r = solveDense(built);
+      expect(checkCertificate(built, r).problems, label).toEqual([]);
+      expect(Math.abs(r.cost - ref), `${label}: ${r.cost} vs ${ref}`).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(ref)));
+      // the path taken: at most n/32 rows searched, the matrix read about once
+      expect(r.stats.augmentations, label).toBeLessThanOrEqual(n / 32);
+      expect(r.stats.scannedPairs, label).toBeLessThan(2 * n * n);
+    });
+  });
+
+  it('gives up at once on distances (the rows’ cheapest pairs crowd onto few columns) and the candidates strategy finds the same optimum', () => {
+    const inst = denseFamily(9305, n, 'geometric');
+    const [ref] = scipyDenseCosts([inst]);
+    const r = solveDense(inst);
     expect(checkCertificate(inst, r).problems).toEqual([]);
-    expect(r.cost).toBeCloseTo(solveDense(inst, { strategy: 'full' }).cost, 9);
+    expect(Math.abs(r.cost - ref!)).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(ref!)));
+    expect(r.stats.augmentations).toBeGreaterThan(n / 32);
   });
 });
