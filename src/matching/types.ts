@@ -61,7 +61,13 @@ export interface SolveOptions {
    * allowed pair with the duals found, adds any that prices out and re-solves
    * (warm) until none does — exact either way; `'auto'` uses candidates for
    * matrices of 250,000 cells or more with fewer than 1.08 columns per row
-   * (measured crossovers; wider ones are faster searched in full). @default 'auto'
+   * (measured crossovers; wider ones are faster searched in full). On that path a
+   * square matrix whose rows must all be matched first tries the row-minima start
+   * (row reduction and a greedy pass on tied minima: costs with few distinct values
+   * are solved in about one read of the matrix; it gives up at once on unique minima),
+   * and where the candidates cannot match every row (a crowded cluster) their short
+   * rows are bridged to columns outside the cluster — always under `'candidates'`,
+   * under `'auto'` from 1500 rows (dense.ts). @default 'auto'
    */
   readonly strategy?: 'auto' | 'full' | 'candidates';
   /**
