@@ -36,7 +36,7 @@ const NONE = -1;
 export const TIE_TOL = 1e-12;
 
 export interface WarmOutcome {
-  /** Whether any previous pair could be kept (otherwise nothing was changed). */
+  /** Whether any previous pair could be kept (otherwise the state is to be discarded). */
   used: boolean;
   /** Pairs kept after step 1. */
   pairsKept: number;
@@ -46,7 +46,8 @@ export interface WarmOutcome {
 
 /**
  * Steps 1 and 2: applies `warm` to the solver state (u, v, rowToCol, colToRow: all
- * fresh, unmatched, v = 0). Leaves rows without a pair for the caller's searches.
+ * fresh, unmatched, v = 0). Leaves rows without a pair for the caller's searches;
+ * when no pair could be kept (`used` false) the caller discards the state.
  */
 export function applyWarmStart(
   inst: SparseInstance,
@@ -136,13 +137,10 @@ export function applyWarmStart(
     }
   }
   scanned += keptEdges;
-  if (kept === 0) {
-    v.fill(0);
-    rowToCol.fill(NONE);
-    colToRow.fill(NONE);
-    return { used: false, pairsKept: 0, scanned };
-  }
-  return { used: true, pairsKept: kept, scanned };
+  // With no pair kept the state is left as it is: the caller then solves cold on
+  // arrays of its own (resetting these here was a branch V8 had never run, and
+  // meeting it cost a recompile of this function).
+  return { used: kept > 0, pairsKept: kept, scanned };
 }
 
 /** The pairs of an instance by column, as ranges (see RowsView in sparse.ts). */
@@ -191,7 +189,8 @@ export function columnsOf(inst: SparseInstance): ColumnsView {
  * rows by as much: exactly the re-optimisation step described above. Sharing the
  * search's code, rather than a reverse Dijkstra of its own, matters in short runs:
  * the forward search is already compiled and optimised by the time a warm start
- * needs it (measured on a day of small markets, docs/benchmarks.md).
+ * needs it (a day of small markets: ~100 warm solves, too few to pay for compiling a
+ * search of their own).
  */
 export function releaseFreeColumns(
   inst: SparseInstance | { nRows: number; nCols: number; columns: () => ColumnsView },
