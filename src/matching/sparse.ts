@@ -1,5 +1,5 @@
 import { pairflowError } from '../errors.js';
-import type { SolveOptions, SolveResult, SparseInstance, WarmStart } from './types.js';
+import type { SolveOptions, SolveResult, SolveStats, SparseInstance, WarmStart } from './types.js';
 import { validateSparse, validateWarm } from './validate.js';
 import { defaultNow, finishResult, Sum } from './result.js';
 import { applyWarmStart, releaseFreeColumns } from './warm.js';
@@ -31,24 +31,27 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
   if (opts.presolve === 'auction') {
     // Prices from the auction, then the exact solver warm from them (auction.ts).
     const a = auctionPrices(inst, opts.warm?.colPrices !== undefined ? { colPrices: opts.warm.colPrices } : {});
-    return solveSparseFull(inst, { ...opts, warm: { rowToCol: a.rowToCol, colPrices: a.colPrices } }, now, t0);
+    return solveChecked(inst, { rowToCol: a.rowToCol, colPrices: a.colPrices }, now, t0);
   }
-  if (opts.warm !== undefined && opts.warmWhen !== 'always' && !warmPays(inst, opts.warm)) {
-    const { warm: _ignored, ...cold } = opts;
-    return solveSparseFull(inst, cold, now, t0);
-  }
-  return solveSparseFull(inst, opts, now, t0);
+  const warm = opts.warm;
+  const useWarm = warm !== undefined && (opts.warmWhen === 'always' || warmPays(inst, warm));
+  return solveChecked(inst, useWarm ? warm : undefined, now, t0);
 }
 
 /**
- * Below this many pairs a warm hint is ignored: a cold solve of such a pool takes a
- * few microseconds, and the warm start's own fixed work (its passes over the kept
- * rows, the reverse searches' arrays and pairs by column) costs as much as it saves.
- * Measured on the engine's `commit: "due"` solves of a small generated market (scale
- * 0.03), each instance solved warm and cold in one process after JIT warm-up: warm
- * took 1.2–2× the cold time below 128 pairs, 0.87× at 128–255, 0.3–0.5× above.
+ * Below this many pairs a warm hint is ignored. After JIT warm-up a warm start pays on
+ * almost any pool (measured on the engine's `commit: "due"` solves of generated
+ * markets at scale 0.03–0.1: warm/cold 0.85 below 32 pairs, 0.55–0.65 at 64–256,
+ * 0.45–0.25 above), but below 256 pairs it saves at most ~15 µs a solve, while the
+ * first warm starts of a process cost a fixed ~15 ms of CPU (V8 compiling and
+ * optimising the warm-only code, applyWarmStart and the pairs by column): a day of
+ * small markets (a few units per pool, ~100 hinted solves of 128–272 pairs) never
+ * earned that back and ran 1.2× slower warm than cold, where at 256 it takes no warm
+ * start at all. From 256 pairs a warm solve saves 20–40 µs, from 512 pairs 90 µs and
+ * more, so a process with such pools recovers the fixed cost within a few hundred
+ * solves.
  */
-const WARM_MIN_PAIRS = 128;
+const WARM_MIN_PAIRS = 256;
 /** A hint that offers a previous pair to fewer rows than this share is ignored too: too little survives to pay. */
 const WARM_MIN_HINTED = 0.25;
 
@@ -63,12 +66,30 @@ function warmPays(inst: SparseInstance, warm: WarmStart): boolean {
 
 /** The sparse solve of an instance known to be well formed (dense.ts converts its own). */
 export function solveSparseChecked(inst: SparseInstance, opts: SolveOptions, now: () => number, t0: number): SolveResult {
-  return solveSparseFull(inst, opts, now, t0);
+  return solveChecked(inst, opts.warm, now, t0);
 }
 
-function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => number, t0: number): SolveResult {
-  const warm = opts.warm;
+/** Warm from `warm` when it holds pairs and any of them can be kept, else cold. */
+function solveChecked(inst: SparseInstance, warm: WarmStart | undefined, now: () => number, t0: number): SolveResult {
+  if (warm?.rowToCol !== undefined) {
+    const res = solveWarm(inst, warm, now, t0);
+    if (res !== null) return res;
+  }
+  return solveCold(inst, now, t0);
+}
 
+/*
+ * The cold and the warm solve are separate functions that share the shortest-path
+ * searches and the last step (searchFreeRows, finishSolve) rather than one function
+ * with warm branches: V8 optimises a function once its loops are hot, and a function
+ * holding both paths is compiled again, larger, when the warm branches first run. In a
+ * short run (a day of small markets: ~100 warm solves among ~1,000) that compiling
+ * cost more than the warm starts saved; split, the warm solve reuses kernels the
+ * cold solves have already made hot.
+ */
+
+/** A cold solve: Jonker–Volgenant start where every row must be matched, greedy passes, searches. */
+function solveCold(inst: SparseInstance, now: () => number, t0: number): SolveResult {
   const { nRows, nCols, rowPtr, colIdx, cost } = inst;
   const delta = inst.unmatchedCost ?? null;
 
@@ -77,8 +98,6 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   const rowToCol = new Int32Array(nRows).fill(NONE);
   const colToRow = new Int32Array(nCols).fill(NONE);
   let scannedPairs = 0;
-  let augmentations = 0;
-  let usedWarm = false;
 
   let e = 0;
   let end = 0;
@@ -86,22 +105,12 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   let r = 0;
   let x = 0;
 
-  // ---- warm start (warm.ts): kept pairs, repriced free columns, reverse searches
-  let warmPairsKept = 0;
-  let reverseSearches = 0;
-  if (warm !== undefined && warm.rowToCol !== undefined) {
-    const w = applyWarmStart(inst, delta, warm, u, v, rowToCol, colToRow);
-    usedWarm = w.used;
-    warmPairsKept = w.pairsKept;
-    scannedPairs += w.scanned;
-  }
-
   // ---- a perfect assignment (square, every row must be matched) ends with every
   // column matched, so its prices need not stay ≤ 0 on the way: they are shifted at
   // the end. That admits the Jonker–Volgenant start: column reduction (each column
   // priced at its cheapest pair, given to that row if still free), then reduction
   // transfer (a row holding one column moves its slack onto that column's price).
-  const perfect = nRows === nCols && nRows > 0 && !usedWarm && mustMatchAll(delta);
+  const perfect = nRows === nCols && nRows > 0 && mustMatchAll(delta);
   if (perfect) {
     const colArg = new Int32Array(nCols).fill(NONE);
     v.fill(Infinity);
@@ -156,52 +165,109 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
   const freeAtStart = new Int32Array(nRows);
   let nFreeAtStart = 0;
   for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeAtStart[nFreeAtStart++] = r;
-  // After a warm start one pass suffices, and it takes only what is free (measured:
-  // displacing near the previous optimum costs more than the searches it saves).
   const reduced = reduceRows(freeAtStart, nFreeAtStart, u, v, rowToCol, colToRow, {
-    passes: usedWarm ? 1 : 2,
-    noDisplace: usedWarm,
+    passes: 2,
+    noDisplace: false,
     cheapestTwo: (row, two) => cheapestTwoSparse(rowsOf(inst), delta, v, row, two),
     infeasible: infeasibleRow,
   });
   scannedPairs += reduced.scanned;
-  const { freeRows, nFree } = reduced;
 
-  // ---- shortest augmenting paths (Dijkstra on reduced costs, indexed binary heap,
-  // lazy reset of only what each search touched).
-  const searchedRows = nFree;
-
-  if (nFree > 0) {
-    const search = new SparseSearch(rowsOf(inst), nCols, delta, u, v, rowToCol, colToRow);
-    try {
-      for (let f = 0; f < nFree; f++) {
-        augmentations++;
-        scannedPairs += search.run(freeRows[f]!);
-      }
-    } finally {
-      search.flush();
-    }
-  }
-
-  // ---- warm only: free columns left below 0 (warm.ts, step 3)
-  if (usedWarm) {
-    const rev = releaseFreeColumns(inst, u, v, rowToCol, colToRow);
-    reverseSearches += rev.searches;
-    augmentations += rev.searches;
-    scannedPairs += rev.scanned;
-  }
+  // ---- shortest augmenting paths
+  const searched = searchFreeRows(inst, delta, u, v, rowToCol, colToRow, reduced.freeRows, reduced.nFree);
+  scannedPairs += searched.scanned;
   if (perfect) shiftToNonPositive(v);
-  // exact row duals from the final prices: matched pairs tight, unmatched rows at δ
+  return finishSolve(inst, delta, u, v, rowToCol, colToRow, {
+    augmentations: reduced.nFree,
+    scannedPairs,
+    ms: 0,
+    warm: false,
+    warmPairsKept: 0,
+    reverseSearches: 0,
+    searchedRows: reduced.nFree,
+  }, now, t0);
+}
+
+/**
+ * A warm solve (warm.ts): kept pairs and repriced free columns, a search from every
+ * row left free, then reverse searches from free columns left below price 0. Null
+ * when no previous pair could be kept (the caller solves cold).
+ *
+ * No greedy pass runs between the warm start and the searches: the rows left free
+ * are few and their best columns mostly held, so a pass that takes only free columns
+ * settled little; measured on the engine's "due" solves of the demo day, the searches
+ * alone took the same time, and skipping it leaves one less code path to compile.
+ */
+function solveWarm(inst: SparseInstance, warm: WarmStart, now: () => number, t0: number): SolveResult | null {
+  const { nRows, nCols } = inst;
+  const delta = inst.unmatchedCost ?? null;
+  const v = new Float64Array(nCols);
+  const u = new Float64Array(nRows);
+  const rowToCol = new Int32Array(nRows).fill(NONE);
+  const colToRow = new Int32Array(nCols).fill(NONE);
+  const w = applyWarmStart(inst, delta, warm, u, v, rowToCol, colToRow);
+  if (!w.used) return null;
+  // A row whose own unmatched option is its best is settled there (u = δ) without a
+  // search: a warm start from an optimum then searches nothing.
+  const free = new Int32Array(nRows - w.pairsKept);
+  let nFree = 0;
+  const rows = rowsOf(inst);
+  const two = new Float64Array(4);
+  let scanned = w.scanned;
+  for (let r = 0; r < nRows; r++) {
+    if (rowToCol[r] !== NONE) continue;
+    scanned += cheapestTwoSparse(rows, delta, v, r, two);
+    if (two[2] === PRIVATE) u[r] = two[0]!;
+    else free[nFree++] = r;
+  }
+  const searched = searchFreeRows(inst, delta, u, v, rowToCol, colToRow, free, nFree);
+  const rev = releaseFreeColumns(inst, u, v, rowToCol, colToRow);
+  return finishSolve(inst, delta, u, v, rowToCol, colToRow, {
+    augmentations: nFree + rev.searches,
+    scannedPairs: scanned + searched.scanned + rev.scanned,
+    ms: 0,
+    warm: true,
+    warmPairsKept: w.pairsKept,
+    reverseSearches: rev.searches,
+    searchedRows: nFree,
+  }, now, t0);
+}
+
+/**
+ * Shortest augmenting paths (Dijkstra on reduced costs, indexed binary heap, lazy
+ * reset of only what each search touched) from each of `freeRows[0 .. nFree)`.
+ */
+function searchFreeRows(
+  inst: SparseInstance, delta: Float64Array | null, u: Float64Array, v: Float64Array,
+  rowToCol: Int32Array, colToRow: Int32Array, freeRows: Int32Array, nFree: number,
+): { scanned: number } {
+  let scanned = 0;
+  if (nFree === 0) return { scanned };
+  const search = new SparseSearch(rowsOf(inst), inst.nCols, delta, u, v, rowToCol, colToRow);
+  try {
+    for (let f = 0; f < nFree; f++) scanned += search.run(freeRows[f]!);
+  } finally {
+    search.flush();
+  }
+  return { scanned };
+}
+
+/** Exact row duals from the final prices (matched pairs tight, unmatched rows at δ), the cost, the result. */
+function finishSolve(
+  inst: SparseInstance, delta: Float64Array | null, u: Float64Array, v: Float64Array,
+  rowToCol: Int32Array, colToRow: Int32Array, stats: SolveStats, now: () => number, t0: number,
+): SolveResult {
+  const { nRows, rowPtr, colIdx, cost } = inst;
   const primal = new Sum();
-  for (r = 0; r < nRows; r++) {
-    j = rowToCol[r]!;
+  for (let r = 0; r < nRows; r++) {
+    const j = rowToCol[r]!;
     if (j === NONE) {
       u[r] = delta![r]!;
       primal.add(u[r]!);
       continue;
     }
-    end = rowPtr[r + 1]!;
-    for (e = rowPtr[r]!; e < end; e++) {
+    const end = rowPtr[r + 1]!;
+    for (let e = rowPtr[r]!; e < end; e++) {
       if (colIdx[e] === j) {
         u[r] = cost[e]! - v[j]!;
         primal.add(cost[e]!);
@@ -209,15 +275,8 @@ function solveSparseFull(inst: SparseInstance, opts: SolveOptions, now: () => nu
       }
     }
   }
-  return finishResult(primal.value, rowToCol, colToRow, u, v, {
-    augmentations,
-    scannedPairs,
-    ms: now() - t0,
-    warm: usedWarm,
-    warmPairsKept,
-    reverseSearches,
-    searchedRows,
-  });
+  stats.ms = now() - t0;
+  return finishResult(primal.value, rowToCol, colToRow, u, v, stats);
 }
 
 /** Whether every row must be matched (no δ, or δ = +Infinity throughout). */

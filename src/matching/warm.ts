@@ -1,4 +1,4 @@
-import { heapPopRoot, heapUp } from './heap.js';
+import { SparseSearch, type RowsView } from './sparse.js';
 import type { SparseInstance, WarmStart } from './types.js';
 
 /*
@@ -36,7 +36,7 @@ const NONE = -1;
 export const TIE_TOL = 1e-12;
 
 export interface WarmOutcome {
-  /** Whether any previous pair could be kept (otherwise nothing was changed). */
+  /** Whether any previous pair could be kept (otherwise the state is to be discarded). */
   used: boolean;
   /** Pairs kept after step 1. */
   pairsKept: number;
@@ -46,7 +46,8 @@ export interface WarmOutcome {
 
 /**
  * Steps 1 and 2: applies `warm` to the solver state (u, v, rowToCol, colToRow: all
- * fresh, unmatched, v = 0). Leaves rows without a pair for the caller's searches.
+ * fresh, unmatched, v = 0). Leaves rows without a pair for the caller's searches;
+ * when no pair could be kept (`used` false) the caller discards the state.
  */
 export function applyWarmStart(
   inst: SparseInstance,
@@ -136,13 +137,10 @@ export function applyWarmStart(
     }
   }
   scanned += keptEdges;
-  if (kept === 0) {
-    v.fill(0);
-    rowToCol.fill(NONE);
-    colToRow.fill(NONE);
-    return { used: false, pairsKept: 0, scanned };
-  }
-  return { used: true, pairsKept: kept, scanned };
+  // With no pair kept the state is left as it is: the caller then solves cold on
+  // arrays of its own (resetting these here was a branch V8 had never run, and
+  // meeting it cost a recompile of this function).
+  return { used: kept > 0, pairsKept: kept, scanned };
 }
 
 /** The pairs of an instance by column, as ranges (see RowsView in sparse.ts). */
@@ -179,6 +177,20 @@ export function columnsOf(inst: SparseInstance): ColumnsView {
  * Step 3, once every row is matched or settled unmatched (u = δ): a reverse search
  * from every free column priced below 0. `cols` (the pairs by column) is built only
  * when such a column exists. Returns the searches run and pairs scanned.
+ *
+ * The reverse search is the forward search of sparse.ts ({@link SparseSearch}) run on
+ * the transposed instance: columns as rows, rows as columns, prices swapped (a
+ * column's price v is the transposed row's price, a row's price u the transposed
+ * column's), and every column free to go unmatched at cost 0 (its "private" option:
+ * the column goes free at price 0). A search from free column j0 then reaches a row
+ * i at c − u_i − v_c along a tight chain, ends at an unmatched row (a transposed free
+ * column, which joins) or at a column whose price may rise to 0 (a transposed
+ * private option), and its dual update raises the settled columns and lowers their
+ * rows by as much: exactly the re-optimisation step described above. Sharing the
+ * search's code, rather than a reverse Dijkstra of its own, matters in short runs:
+ * the forward search is already compiled and optimised by the time a warm start
+ * needs it (a day of small markets: ~100 warm solves, too few to pay for compiling a
+ * search of their own).
  */
 export function releaseFreeColumns(
   inst: SparseInstance | { nRows: number; nCols: number; columns: () => ColumnsView },
@@ -192,139 +204,19 @@ export function releaseFreeColumns(
   for (let j = 0; j < nCols && first === NONE; j++) if (colToRow[j] === NONE && v[j]! < 0) first = j;
   if (first === NONE) return { searches: 0, scanned: 0 };
   const cols = 'columns' in inst ? inst.columns() : columnsOf(inst);
-  const search = new ReverseSearch(cols, inst.nRows, u, v, rowToCol, colToRow);
+  const transposed: RowsView = { rowStart: cols.colStart, rowEnd: cols.colEnd, colIdx: cols.colRow, cost: cols.colCost };
+  // transposed: u and v swap, so do rowToCol and colToRow; each column may go free at 0
+  const search = new SparseSearch(transposed, inst.nRows, new Float64Array(nCols), v, u, colToRow, rowToCol);
   let scanned = 'rowPtr' in inst ? inst.rowPtr[inst.nRows]! : 0;
   let searches = 0;
-  for (let j = first; j < nCols; j++) {
-    if (colToRow[j] !== NONE || !(v[j]! < 0)) continue;
-    searches++;
-    scanned += search.run(j);
+  try {
+    for (let j = first; j < nCols; j++) {
+      if (colToRow[j] !== NONE || !(v[j]! < 0)) continue;
+      searches++;
+      scanned += search.run(j);
+    }
+  } finally {
+    search.flush();
   }
   return { searches, scanned };
-}
-
-/**
- * Dijkstra from one free column backwards over kept rows: a row is reached from a
- * column it could move into, at the reduced cost of that pair; a row's own column is
- * reached at the row's distance (the pair is tight). Terminal options: a reached
- * column goes free at price 0, costing its distance − v.
- */
-class ReverseSearch {
-  private readonly dist: Float64Array;
-  private readonly predCol: Int32Array;
-  private readonly hpos: Int32Array;
-  private readonly hrow: Int32Array;
-  private readonly hkey: Float64Array;
-  private readonly touched: Int32Array;
-  private readonly settledRow: Int32Array;
-  private readonly settledRowDist: Float64Array;
-
-  constructor(
-    private readonly cols: ColumnsView,
-    nRows: number,
-    private readonly u: Float64Array,
-    private readonly v: Float64Array,
-    private readonly rowToCol: Int32Array,
-    private readonly colToRow: Int32Array,
-  ) {
-    this.dist = new Float64Array(nRows).fill(Infinity);
-    this.predCol = new Int32Array(nRows);
-    this.hpos = new Int32Array(nRows);
-    this.hrow = new Int32Array(nRows);
-    this.hkey = new Float64Array(nRows);
-    this.touched = new Int32Array(nRows);
-    this.settledRow = new Int32Array(nRows);
-    this.settledRowDist = new Float64Array(nRows);
-  }
-
-  /** Fixes free column j0 (price < 0): matches it or raises it to 0. Returns pairs scanned. */
-  run(j0: number): number {
-    const { dist, predCol, hpos, hrow, hkey, touched, settledRow, settledRowDist, u, v, rowToCol, colToRow } = this;
-    const { colStart, colEnd, colRow, colCost } = this.cols;
-    let best = -v[j0]!;
-    let bestCol = j0;
-    let bestRow = NONE;
-    let nTouched = 0;
-    let nSettled = 0;
-    let hsize = 0;
-    let scanned = 0;
-    let c = j0;
-    let dc = 0;
-    let p = 0;
-    for (;;) {
-      // expand column c, reached at distance dc
-      const off = dc - v[c]!;
-      const stop = colEnd[c]!;
-      for (let t = colStart[c]!; t < stop; t++) {
-        const i = colRow[t]!;
-        const di = dist[i]!;
-        const x = off + colCost[t]! - u[i]!;
-        if (!(x < di) || x >= best) continue; // also skips settled rows (di = -Infinity)
-        if (di === Infinity) touched[nTouched++] = i;
-        dist[i] = x;
-        predCol[i] = c;
-        // Terminals count as soon as they are reached, so `best` falls early and
-        // prunes the heap (the rows settled stay the same: the search still stops
-        // once no heap entry is below best). An unmatched row is only ever a
-        // terminal; a matched row's column could go free at x − v.
-        const k = rowToCol[i]!;
-        if (k === NONE) {
-          best = x;
-          bestCol = NONE;
-          bestRow = i;
-          continue;
-        }
-        p = di === Infinity ? hsize++ : hpos[i]!;
-        heapUp(hkey, hrow, hpos, p, x, i);
-        const term = x - v[k]!;
-        if (term < best) {
-          best = term;
-          bestCol = k;
-        }
-      }
-      scanned += stop - colStart[c]!;
-      if (hsize === 0 || hkey[0]! >= best) break;
-      // pop the nearest row
-      const i = hrow[0]!;
-      const d = hkey[0]!;
-      heapPopRoot(hkey, hrow, hpos, hsize--);
-      dist[i] = -Infinity;
-      // (only matched rows enter the heap; their terminal was counted when reached)
-      c = rowToCol[i]!;
-      settledRow[nSettled] = i;
-      settledRowDist[nSettled++] = d;
-      dc = d;
-    }
-
-    // dual update: settled columns (j0 and the settled rows' columns) rise, their rows fall
-    v[j0] = v[j0]! + best;
-    for (let t = 0; t < nSettled; t++) {
-      const i = settledRow[t]!;
-      const g = best - settledRowDist[t]!;
-      const k = rowToCol[i]!;
-      v[k] = v[k]! + g;
-      u[i] = u[i]! - g;
-    }
-    if (bestCol !== NONE) v[bestCol] = 0; // exactly: distance − v was the terminal cost
-
-    // shift the chain: the terminal column's row (or the unmatched row) moves to the
-    // column it was reached from, and so on back to j0
-    if (bestCol !== j0) {
-      let i = bestRow;
-      if (bestCol !== NONE) {
-        i = colToRow[bestCol]!;
-        colToRow[bestCol] = NONE;
-      }
-      for (;;) {
-        const to = predCol[i]!;
-        const next = colToRow[to]!;
-        colToRow[to] = i;
-        rowToCol[i] = to;
-        if (to === j0) break;
-        i = next;
-      }
-    }
-    for (let t = 0; t < nTouched; t++) dist[touched[t]!] = Infinity;
-    return scanned;
-  }
 }

@@ -1052,12 +1052,12 @@ export class WindowEngine {
   /** One epoch's solve: pack the pools into arrays, solve, unpack the decisions. */
   private solve(m: MarketState, tau: number): void {
     const inst = this.pack(m, tau);
+    // Only "due" keeps tentative pairs between epochs: under "all" every pair is
+    // executed, and prices without pairs are no hint the solver uses, so none is passed.
     let warm: WarmStart | undefined;
-    if (this.warmOn) {
+    if (this.warmOn && this.due) {
       const nRows = this.nRows, nCols = this.nCols;
-      warm = this.due
-        ? { colPrices: this.colPrices.subarray(0, nCols), rowPrices: this.rowPrices.subarray(0, nRows), rowToCol: this.warmPairs.subarray(0, nRows) }
-        : { colPrices: this.colPrices.subarray(0, nCols), rowPrices: this.rowPrices.subarray(0, nRows) };
+      warm = { colPrices: this.colPrices.subarray(0, nCols), rowPrices: this.rowPrices.subarray(0, nRows), rowToCol: this.warmPairs.subarray(0, nRows) };
     }
     const res: SolveResult = this.solver(inst, this.now !== undefined ? { warm, now: this.now } : { warm });
     if (this.verify) {

@@ -239,6 +239,32 @@ describe('warm start: free columns left below price 0', () => {
     expect(checkCertificate(inst, res).problems).toEqual([]);
   });
 
+  it('an unmatched row joins a column left below 0 when that is cheaper than raising the column to 0 (hand-worked)', () => {
+    // Row 1 held column 1 at price −1 but may no longer take it (its pair is gone), so
+    // column 1 stays free at −1. Row 0 (δ = 1.5) sees column 1 at 1 − (−1) = 2 and stays
+    // unmatched; row 1 takes column 0 (cost 3). The reverse search from column 1 then
+    // has two ways out: raise it to 0 (costs 1) or let row 0 join at
+    // 1 − 1.5 − (−1) = 0.5. Row 0 joins: cost 1 + 3 = 4 (unmatched it would be 1.5 + 3).
+    // Row 2 keeps its pair (cost 1) on a column of its own, so the warm start is used.
+    const inst: SparseInstance = {
+      nRows: 3,
+      nCols: 3,
+      rowPtr: Int32Array.of(0, 1, 2, 3),
+      colIdx: Int32Array.of(1, 0, 2),
+      cost: Float64Array.of(1, 3, 1),
+      unmatchedCost: Float64Array.of(1.5, 10, 10),
+    };
+    const res = solveSparse(inst, { warmWhen: 'always', warm: { colPrices: Float64Array.of(NaN, -1, 0), rowToCol: Int32Array.of(-1, 1, 2) } });
+    expect(res.stats.warm).toBe(true);
+    expect(res.stats.warmPairsKept).toBe(1);
+    expect(res.stats.reverseSearches).toBe(1);
+    expect([...res.rowToCol]).toEqual([1, 0, 2]);
+    expect(res.cost).toBe(5);
+    expect(res.colDuals[1]).toBe(-0.5);
+    expect(checkCertificate(inst, res).problems).toEqual([]);
+    expect(res.cost).toBe(solveSparse(inst).cost);
+  });
+
   it('rows leave and columns arrive: the warm solve equals exhaustive search, 400 seeded cases', () => {
     // Reference: exhaustive enumeration (common practice). Each case solves an instance,
     // drops some rows (their columns keep negative prices) and adds new columns (priced
@@ -281,7 +307,7 @@ describe('warm start: free columns left below price 0', () => {
 });
 
 describe('solveSparse(): when a warm hint is used', () => {
-  it('ignores it below 128 pairs or when it offers a pair to under a quarter of the rows, and the optimum is the same either way', () => {
+  it('ignores it below 256 pairs or when it offers a pair to under a quarter of the rows, and the optimum is the same either way', () => {
     const build = (n: number, perRow: number, seed: number): SparseInstance => {
       const rand = mulberry32(seed);
       const rowPtr = new Int32Array(n + 1);
@@ -305,8 +331,11 @@ describe('solveSparse(): when a warm hint is used', () => {
     };
     const tiny = build(5, 5, 1); // 25 pairs
     const small = build(12, 10, 3); // 120 pairs
+    const below = build(51, 5, 4); // 255 pairs
+    const at = build(64, 4, 5); // 256 pairs
     const big = build(60, 6, 2); // 360 pairs
-    for (const [inst, share, used] of [[tiny, 1, false], [small, 1, false], [big, 1, true], [big, 0.2, false], [big, 0.5, true]] as const) {
+    const cases = [[tiny, 1, false], [small, 1, false], [below, 1, false], [at, 1, true], [big, 1, true], [big, 0.2, false], [big, 0.5, true]] as const;
+    for (const [inst, share, used] of cases) {
       const warm = hintOf(inst, share);
       const r = solveSparse(inst, { warm });
       expect(r.stats.warm, `${inst.rowPtr[inst.nRows]} pairs, share ${share}`).toBe(used);
