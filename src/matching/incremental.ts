@@ -27,7 +27,7 @@ import { releaseFreeColumns, type ColumnsView } from './warm.js';
 /**
  * Pair storage by rows (or by columns): each line a slice of one pool, lines back to
  * back in line order. Pairs added are held aside and merged in one pass when the
- * lines are next read (a round of column generation adds a dozen pairs to most rows
+ * lines are next read (a round of column generation adds a few pairs to most rows
  * at once), in place, from the last line to the first: every line moves up by the
  * pairs added to the lines before it, so nothing is overwritten before it is moved.
  * The pool is reallocated only when the pairs outgrow it, a quarter larger. Growing
