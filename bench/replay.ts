@@ -249,6 +249,8 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   const daysList = opts.days ?? (quick ? [1] : [1, 2, 4, 7]);
   const sizes: SizeRow[] = [];
   const loadStart = loadavg()[0]!;
+  // The commit measured is the one built when the run starts (a commit made while it runs is not in dist/).
+  const label = opts.label ?? headOf(target);
   for (const days of daysList) {
     log(`bench:replay: ${days} day(s): generating`);
     const file = ensureLog(outDir, days, scale);
@@ -325,7 +327,7 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
     hindsightAlone: true,
   });
 
-  const growth = opts.growth ?? true ? measureGrowth(quick, outDir, log, opts.label ?? headOf(target), num(sweep.json, 'timings.hindsightMs'), opts.growthCapS ?? 900) : null;
+  const growth = opts.growth ?? true ? measureGrowth(quick, outDir, log, label, num(sweep.json, 'timings.hindsightMs'), opts.growthCapS ?? 900) : null;
 
   const machine = {
     cpu: cpus()[0]?.model.trim() ?? 'unknown',
