@@ -29,7 +29,7 @@ import { startBroker, stopBroker } from '../scripts/kafka.mjs';
 import { createKafka } from '../src/kafka/index.js';
 import { PALETTE, THEME } from '../src/report/charts.js';
 import { renderSvg } from '../src/report/svg.js';
-import { machineInfo, writeSection } from './lib/report.js';
+import { machineInfo, splitParts, writeSection } from './lib/report.js';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
 const CHART = join(ROOT, 'docs', 'bench-live-paced.svg');
@@ -224,12 +224,6 @@ async function timed<T>(times: Partial<Record<'throughput' | 'paced' | 'restore'
   const out = await run();
   times[part] = { at, loadStart, loadEnd: loadavg()[0] ?? 0 };
   return out;
-}
-
-/** Markdown split at its `###` subsections: what precedes the first, then each (title line first). */
-function splitParts(text: string): { head: string; parts: string[] } {
-  const [head, ...parts] = text.split(/\n(?=### )/);
-  return { head: head ?? '', parts };
 }
 
 /**

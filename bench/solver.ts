@@ -14,7 +14,7 @@
  * docs/benchmarks.md; --json prints the raw results instead of the table.
  */
 
-import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, rmSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
@@ -47,7 +47,7 @@ import {
   type TurnoverPolicy,
 } from './lib/instances.js';
 import { engineDueSequence, type RecordedSolve } from './lib/engine-sequence.js';
-import { fmtMs, fmtRatio, machineInfo, median, writeSection } from './lib/report.js';
+import { fmtMs, fmtRatio, machineInfo, median, writePart, writeSection } from './lib/report.js';
 
 // ---------------------------------------------------------------- cases
 
@@ -639,15 +639,7 @@ function spliceFamilies(doc: string, res: Results, command: string): boolean {
     `Measured in a run of its own (\`${command}\`; the other tables of this section are from the run above): ` +
     `run ${res.date.slice(0, 16).replace('T', ' ')} UTC, ${res.mode} mode, on ${m.cpu} (${m.cores} cores, ${m.memoryGb} GB), ` +
     `Node ${m.node}, Python ${m.python ?? '—'}, scipy ${m.scipy ?? '—'}, numpy ${m.numpy ?? '—'}; 1-minute load at start ${m.loadAtStart.toFixed(2)}, at end ${res.loadAtEnd.toFixed(2)}.`;
-  const text = existsSync(doc) ? readFileSync(doc, 'utf8') : '';
-  const start = text.indexOf('<!-- bench:solver:start -->');
-  const end = text.indexOf('<!-- bench:solver:end -->');
-  const at = text.indexOf(FAMILIES_HEADING, start);
-  if (start < 0 || end < start || at < 0 || at > end) return false;
-  const next = text.indexOf('\n### ', at + FAMILIES_HEADING.length);
-  const stop = next >= 0 && next < end ? next + 1 : end;
-  writeFileSync(doc, `${text.slice(0, at)}${renderFamilies(res, runLine).join('\n')}\n\n${text.slice(stop)}`);
-  return true;
+  return writePart(doc, 'solver', FAMILIES_HEADING, renderFamilies(res, runLine).join('\n'));
 }
 
 function render(res: Results, note: string | null): string {

@@ -53,6 +53,32 @@ numbers into this file. Rerun one with its npm script (e.g. \`npm run bench:solv
 each bench rewrites only its own marked section.
 `;
 
+/** Markdown split at its `###` subsections: what precedes the first, then each (title line first). */
+export function splitParts(text: string): { head: string; parts: string[] } {
+  const [head, ...parts] = text.split(/\n(?=### )/);
+  return { head: head ?? '', parts };
+}
+
+/**
+ * Replaces one `###` subsection (the one whose title line is `title`) of section
+ * `name` in `file` with `body`, leaving the rest of the section as the last run wrote
+ * it. Returns false, writing nothing, when the section or the subsection is missing.
+ */
+export function writePart(file: string, name: string, title: string, body: string): boolean {
+  const start = `<!-- bench:${name}:start -->`;
+  const end = `<!-- bench:${name}:end -->`;
+  const text = existsSync(file) ? readFileSync(file, 'utf8') : '';
+  const a = text.indexOf(start);
+  const b = text.indexOf(end);
+  if (a < 0 || b < a) return false;
+  const { head, parts } = splitParts(text.slice(a + start.length, b));
+  const at = parts.findIndex((p) => p.slice(0, p.indexOf('\n')) === title);
+  if (at < 0) return false;
+  parts[at] = `${body.trimEnd()}\n`;
+  writeFileSync(file, `${text.slice(0, a + start.length)}${[head, ...parts].join('\n')}${text.slice(b)}`);
+  return true;
+}
+
 /**
  * Replaces the text between `<!-- bench:NAME:start -->` and `<!-- bench:NAME:end -->`
  * in `file` (creating the file with a short header, or appending the section, when
