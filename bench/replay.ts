@@ -22,13 +22,16 @@
  * change); `--json-out FILE` keeps the figures; `--before FILE` (figures of an earlier
  * run) adds that run's growth tables above this one's, for comparison;
  * `--growth-cap SECONDS` (default 900) stops a growth row's replay there and reports
- * its time and memory as lower bounds.
+ * its time and memory as lower bounds; `--no-growth` skips the growth runs (about 30 of
+ * the 36 minutes) and keeps the growth tables already in docs/benchmarks.md as their
+ * run wrote them.
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { cpus, loadavg, totalmem } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { splitParts } from './lib/report.js';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
 /** The checkout whose CLI is measured (`--root`). */
@@ -440,8 +443,8 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   if (opts.before) md.push(...renderGrowth(opts.before, `Before: ${opts.before.label}`, null));
   if (growth !== null) md.push(...renderGrowth(growth, opts.before ? `After: ${growth.label}` : null, quick ? null : targetsOf(growth)));
   md.push(END);
-  const markdown = md.join('\n');
-  if (opts.write ?? true) writeSection(markdown);
+  let markdown = md.join('\n');
+  if (opts.write ?? true) markdown = writeSection(markdown, DOC, growth === null && !opts.before);
   return { machine, quick, sizes, largest, growth, markdown };
 }
 
@@ -514,7 +517,7 @@ const phaseLine = (ph: Phases): string =>
 /** The two growth tables (and where the hindsight's time went) of one run. */
 function renderGrowth(g: GrowthResult, title: string | null, targets: string[] | null): string[] {
   const md: string[] = [];
-  md.push(`### Growth with density and with length${title ? ` — ${title}` : ''}`);
+  md.push(`${GROWTH_TITLE}${title ? ` — ${title}` : ''}`);
   md.push('');
   md.push(`Run ${g.date} of ${g.label}; 1-minute load average ${g.loadStart.toFixed(1)} at the start, ${g.loadEnd.toFixed(1)} at the end (each row gives its own). ` +
     '"wall s" and "peak MB" are the whole `pairflow replay LOG --window 10s --json` process (parsing, online replay and the hindsight on 2 worker threads alongside); ' +
@@ -572,14 +575,29 @@ function targetsOf(g: GrowthResult): string[] {
   ];
 }
 
-/** Replaces the bench:replay section of docs/benchmarks.md (creating the file or the section). */
-export function writeSection(markdown: string, doc = DOC): void {
+/** Title line that starts each growth part of the section (`### …`, with a suffix when a run is compared with another). */
+const GROWTH_TITLE = '### Growth with density and with length';
+
+/**
+ * Replaces the bench:replay section of docs/benchmarks.md (creating the file or the
+ * section) and returns what was written. With `keepGrowth` (a run without the growth
+ * tables, `--no-growth`), the growth parts already in the section are kept as that
+ * earlier run wrote them, each still carrying its own run line, after the new tables.
+ */
+export function writeSection(markdown: string, doc = DOC, keepGrowth = false): string {
   let text = existsSync(doc) ? readFileSync(doc, 'utf8') : '# Benchmarks\n\nTables below are written by the benchmarks themselves (`npm run bench:*`); nobody types them in.\n';
   const a = text.indexOf(START);
   const b = text.indexOf(END);
+  if (keepGrowth && a >= 0 && b > a) {
+    const kept = splitParts(text.slice(a + START.length, b)).parts.filter((p) => p.startsWith(GROWTH_TITLE));
+    if (kept.length > 0 && markdown.endsWith(END)) {
+      markdown = `${markdown.slice(0, markdown.length - END.length).trimEnd()}\n\n${kept.map((p) => p.trimEnd()).join('\n\n')}\n${END}`;
+    }
+  }
   if (a >= 0 && b > a) text = text.slice(0, a) + markdown + text.slice(b + END.length);
   else text = `${text.trimEnd()}\n\n<!-- bench:replay -->\n${markdown}\n`;
   writeFileSync(doc, text);
+  return markdown;
 }
 
 const isMain = process.argv[1] !== undefined && fileURLToPath(import.meta.url) === process.argv[1];

@@ -42,4 +42,22 @@ describe('bench/replay.ts', () => {
     expect(text).not.toContain('first');
     expect(text.match(/bench:replay:start/g)).toHaveLength(1);
   });
+
+  it('writeSection() keeps the growth tables already written when a run has none of its own (--no-growth)', () => {
+    const doc = join(mkdtempSync(join(tmpdir(), 'pairflow-bench-doc-')), 'benchmarks.md');
+    const growth = '### Growth with density and with length\n\nRun 2026-01-01 of abc.\n\n| scale | wall s |\n|---|---|\n| 1 | 6.3 |\n';
+    writeFileSync(doc, `# Benchmarks\n\nabove\n\n<!-- bench:replay:start -->\n## Replay\n\nold days table\n\n### Other part\n\nold other\n\n${growth}<!-- bench:replay:end -->\n\nbelow\n`);
+    const written = writeSection('<!-- bench:replay:start -->\n## Replay\n\nnew days table\n<!-- bench:replay:end -->', doc, true);
+    const text = readFileSync(doc, 'utf8');
+    expect(written).toContain('new days table');
+    expect(text).toContain(growth.trimEnd());
+    expect(text).not.toContain('old days table');
+    expect(text).not.toContain('old other');
+    expect(text.startsWith('# Benchmarks\n\nabove\n\n')).toBe(true);
+    expect(text.endsWith('<!-- bench:replay:end -->\n\nbelow\n')).toBe(true);
+    expect(text.indexOf('new days table')).toBeLessThan(text.indexOf('### Growth'));
+    // Without keepGrowth (a run that measured its own growth, or none wanted) the old tables go.
+    writeSection('<!-- bench:replay:start -->\n## Replay\n\nnewer\n<!-- bench:replay:end -->', doc);
+    expect(readFileSync(doc, 'utf8')).not.toContain('### Growth');
+  });
 });
