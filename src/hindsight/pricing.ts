@@ -164,49 +164,71 @@ export class Pricer {
       let rowViolators = 0;
       // The least lo − v of the pairs left out (violators are all added when the row ends clean).
       let least = Infinity;
-      for (let e = start; e < end; e++) {
-        const w = words[e]!;
-        // Candidates (the top bit makes the code ≥ 0x8000) and pairs of P or more
-        // (the top code) never price out.
-        const code = w >>> 16;
-        if (code >= CODE_TOP) continue;
-        const col = wideCols === undefined ? base + (w & 0xffff) : wideCols[e - start]!;
-        const v = colDuals[col]!;
-        const lo = code * step;
-        if (lo - v >= bar) {
-          if (lo - v < least) least = lo - v;
-          continue;
+      let e = start;
+      for (;;) {
+        if (wideCols === undefined) {
+          // Most pairs stand clear of pricing out (or are candidates, code ≥
+          // CODE_TOP) and only lower the row's floor: a tight loop for them, without
+          // the wide-row lookup; a pair that does not goes through the full handling
+          // below, alone, and the tight loop resumes after it (measured on a busy
+          // district's exhaustive pass, 114 M pairs: 2.3–2.6 ns a pair against
+          // 3.0–3.4 with the full handling for every pair).
+          for (; e < end; e++) {
+            const w = words[e]!;
+            const code = w >>> 16;
+            if (code >= CODE_TOP) continue;
+            const t = code * step - colDuals[base + (w & 0xffff)]!;
+            if (t < bar) break;
+            if (t < least) least = t;
+          }
         }
-        // Near zero the exact cost decides; the reduced cost kept for ranking may be
-        // the interval's lower end: any choice among true violators is sound.
-        let red = lo - u - v;
-        let c = NaN;
-        if (red + step >= -slack - 2 * PRICE_TOL * (1 + lo + step)) {
-          rechecks++;
-          c = exact(d, col);
-          red = c - u - v;
-          if (red >= -PRICE_TOL * (1 + Math.abs(c))) {
+        if (e === end) break;
+        // One pair (a wide row: all its pairs) through the full handling.
+        const stop = wideCols === undefined ? e + 1 : end;
+        for (; e < stop; e++) {
+          const w = words[e]!;
+          // Candidates (the top bit makes the code ≥ 0x8000) and pairs of P or more
+          // (the top code) never price out.
+          const code = w >>> 16;
+          if (code >= CODE_TOP) continue;
+          const col = wideCols === undefined ? base + (w & 0xffff) : wideCols[e - start]!;
+          const v = colDuals[col]!;
+          const lo = code * step;
+          if (lo - v >= bar) {
             if (lo - v < least) least = lo - v;
             continue;
           }
+          // Near zero the exact cost decides; the reduced cost kept for ranking may be
+          // the interval's lower end: any choice among true violators is sound.
+          let red = lo - u - v;
+          let c = NaN;
+          if (red + step >= -slack - 2 * PRICE_TOL * (1 + lo + step)) {
+            rechecks++;
+            c = exact(d, col);
+            red = c - u - v;
+            if (red >= -PRICE_TOL * (1 + Math.abs(c))) {
+              if (lo - v < least) least = lo - v;
+              continue;
+            }
+          }
+          violators++;
+          rowViolators++;
+          // Keep the addPerRow most negative: adding every violator at once floods
+          // the restricted solve with pairs that the next prices no longer want.
+          if (nb === addPerRow && red >= addRed[nb - 1]!) continue;
+          let p = nb < addPerRow ? nb++ : addPerRow - 1;
+          while (p > 0 && addRed[p - 1]! > red) {
+            addRed[p] = addRed[p - 1]!;
+            addEdge[p] = addEdge[p - 1]!;
+            addCol[p] = addCol[p - 1]!;
+            addCost[p] = addCost[p - 1]!;
+            p--;
+          }
+          addRed[p] = red;
+          addEdge[p] = e;
+          addCol[p] = col;
+          addCost[p] = c;
         }
-        violators++;
-        rowViolators++;
-        // Keep the addPerRow most negative: adding every violator at once floods
-        // the restricted solve with pairs that the next prices no longer want.
-        if (nb === addPerRow && red >= addRed[nb - 1]!) continue;
-        let p = nb < addPerRow ? nb++ : addPerRow - 1;
-        while (p > 0 && addRed[p - 1]! > red) {
-          addRed[p] = addRed[p - 1]!;
-          addEdge[p] = addEdge[p - 1]!;
-          addCol[p] = addCol[p - 1]!;
-          addCost[p] = addCost[p - 1]!;
-          p--;
-        }
-        addRed[p] = red;
-        addEdge[p] = e;
-        addCol[p] = col;
-        addCost[p] = c;
       }
       // Clean when every violator found is added now.
       rowClean[r] = rowViolators > nb ? 0 : 1;
