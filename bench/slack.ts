@@ -34,8 +34,9 @@ import { loadLog } from '../src/consume/index.js';
 import { solveSparse } from '../src/matching/index.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../src/model.js';
 import { packMarket } from '../src/hindsight/graph.js';
+import { occurrencesByMarket } from '../src/hindsight/hindsight.js';
 import { solvePackedMarket } from '../src/hindsight/solve.js';
-import { buildOccurrences, type Occurrence } from '../src/window/occurrences.js';
+import { buildOccurrences } from '../src/window/occurrences.js';
 import { machineInfo, writeSection } from './lib/report.js';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
@@ -135,13 +136,7 @@ export function slackFigures(inp: SlackInput, shrink = 0.99): SlackFigures {
 /** The largest market of a log, solved with its proof, as {@link SlackInput}. */
 async function inputOf(file: string, config: PairflowConfig): Promise<{ market: string; demand: number; input: SlackInput }> {
   const { events } = await loadLog([file], { metric: config.metric });
-  const { occurrences } = buildOccurrences(events, config);
-  const byMarket = new Map<string, Occurrence[]>();
-  for (const o of occurrences) {
-    let list = byMarket.get(o.market);
-    if (list === undefined) byMarket.set(o.market, (list = []));
-    list.push(o);
-  }
+  const byMarket = occurrencesByMarket(buildOccurrences(events, config).occurrences);
   const [market, list] = [...byMarket].sort((a, b) => b[1].length - a[1].length || (a[0] < b[0] ? -1 : 1))[0]!;
   const m = packMarket(list, config);
   const res = solvePackedMarket(market, m, config, solveSparse, {}, true);

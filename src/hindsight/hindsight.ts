@@ -204,15 +204,20 @@ export async function solveHindsight(
   return out;
 }
 
-/** Occurrences (SPEC §1) packed per market, markets in key order; the objects are dropped on return. */
-function packByMarket(events: readonly SourcedEvent[], config: PairflowConfig): { markets: string[]; packed: PackedMarket[] } {
-  const { occurrences } = buildOccurrences(events, config);
+/** Occurrences by market, each market's in their order (the hindsight solves markets apart). */
+export function occurrencesByMarket(occurrences: readonly Occurrence[]): Map<string, Occurrence[]> {
   const byMarket = new Map<string, Occurrence[]>();
   for (const o of occurrences) {
     let list = byMarket.get(o.market);
     if (list === undefined) byMarket.set(o.market, (list = []));
     list.push(o);
   }
+  return byMarket;
+}
+
+/** Occurrences (SPEC §1) packed per market, markets in key order; the objects are dropped on return. */
+function packByMarket(events: readonly SourcedEvent[], config: PairflowConfig): { markets: string[]; packed: PackedMarket[] } {
+  const byMarket = occurrencesByMarket(buildOccurrences(events, config).occurrences);
   const markets = [...byMarket.keys()].sort();
   return { markets, packed: markets.map((mk) => packMarket(byMarket.get(mk)!, config)) };
 }
