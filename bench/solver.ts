@@ -8,8 +8,8 @@
  * --case selects cases by exact name or name prefix (`--case dense-int`, `--case sparse`).
  * A selection of structured families alone (`--case geometric,clustered,few-ints,
  * machol-wien,rank-one`, or some of them) writes only their table (and the target lines
- * under it), in place, with its
- * own run line; any other selection replaces the whole section (use --no-write).
+ * under it), in place, with its own run line; any other selection replaces the whole
+ * section (use --no-write).
  * --quick runs tiny sizes (the unit suite smoke-runs it). The markdown table goes to
  * stdout and, unless --no-write, between the bench:solver markers of
  * docs/benchmarks.md; --json prints the raw results instead of the table.
