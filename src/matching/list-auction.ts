@@ -19,7 +19,10 @@
  * more rows than columns: the prices of the crowded columns rise until rows leave,
  * and the lists of those rows, renewed on the way, hold the pairs that lead out of
  * the cluster (the ones an optimum uses), which the sparse solve then gets as
- * candidates. Rows outside crowded clusters bid from their first list throughout.
+ * candidates. That is what the lists are for there: in that phase most bids come
+ * from crowded rows, whose lists soon fail (clustered n = 400–600: 70–80 % of the
+ * bids read their row; 13–22 % fewer cells read than bidding over whole rows), but
+ * every list ends holding its row's cheapest offers at the final prices.
  */
 
 /**

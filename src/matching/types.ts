@@ -95,7 +95,11 @@ export interface SolveStats {
   reverseSearches?: number;
   /** Rows left for shortest-path search after the warm start and greedy passes. */
   searchedRows?: number;
-  /** Bids of the auction, when the dense solver handed over to it (dense-auction.ts). */
+  /**
+   * Bids of an auction the dense solver ran: the auction it handed over to
+   * (dense-auction.ts), or the list auction that gathers the pairs out of a crowded
+   * cluster for the candidates strategy (list-auction.ts).
+   */
   auctionBids?: number;
 }
 
