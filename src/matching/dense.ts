@@ -884,10 +884,12 @@ const CROWDED = -2;
 const CROWDED_MAX_SHORT = 4;
 /**
  * From this many rows, `auto` meets a crowded cluster by the list auction; below, the
- * full search is faster on a first solve (measured on clustered costs, n = 1000,
- * fresh processes: full search 110–120 ms, list auction and pricing rounds 180–230 ms).
+ * full search is faster on a first solve (measured in fresh processes on clustered
+ * costs, medians of 4–6 alternating runs, full search against list auction and
+ * pricing rounds: n = 600 55 against 67 ms, n = 800 88 against 82 ms, n = 1000
+ * 123–143 against 102–112 ms over three seeds).
  */
-const CROWDED_MIN_ROWS = 1500;
+const CROWDED_MIN_ROWS = 1000;
 /**
  * The list auction's one phase runs at ε = (largest cost) / crowdEpsDivisor(rows):
  * coarse prices suffice to gather the pairs out of crowded clusters, and the exact

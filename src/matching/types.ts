@@ -68,7 +68,7 @@ export interface SolveOptions {
    * and where the candidates cannot match every row (a crowded cluster) one coarse
    * phase of an auction bidding from each row's candidates finds the pairs that lead
    * out of the cluster, which join the candidates — always under `'candidates'`,
-   * under `'auto'` from 1500 rows (dense.ts, list-auction.ts). @default 'auto'
+   * under `'auto'` from 1000 rows (dense.ts, list-auction.ts). @default 'auto'
    */
   readonly strategy?: 'auto' | 'full' | 'candidates';
   /**

@@ -64,7 +64,7 @@ describe('the candidates strategy on costs with many ties', () => {
     // geometric n = 600, seed 31: among each row's 24 nearest columns a full matching
     // is one row short (a corner with more rows than columns). Before widening, the
     // full search ran: 28 matrix reads, 371 searches and the auction. `auto` widens
-    // below 1500 rows; `candidates` (and `auto` from 1500 rows) runs the list auction.
+    // below 1000 rows; `candidates` (and `auto` from 1000 rows) runs the list auction.
     const n = 600;
     const inst = denseFamily(31, n, 'geometric');
     const full = solveDense(inst, { strategy: 'full' }).cost;
@@ -83,7 +83,7 @@ describe('the candidates strategy on costs with many ties', () => {
     // clustered seed 5, n = 400: 19 rows short among their 22 cheapest (over 1 %);
     // their own nearest columns never suffice. Under `candidates` one coarse phase of
     // the list auction (list-auction.ts) adds the pairs out of the crowded clusters;
-    // `auto` gives such matrices below 1500 rows to the full search.
+    // `auto` gives such matrices below 1000 rows to the full search.
     const square = [[5, 400], [6, 400], [7, 600]].map(([seed, n]) => ({ label: `clustered n=${n} seed ${seed}`, inst: denseFamily(seed!, n!, 'clustered') }));
     // 380 rows of the 400: still crowded, and the auction bids over 400 columns
     const wide = (() => {
