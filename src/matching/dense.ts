@@ -887,7 +887,9 @@ const CROWDED_MAX_SHORT = 4;
  * full search is faster on a first solve (measured in fresh processes on clustered
  * costs, medians of 4–6 alternating runs, full search against list auction and
  * pricing rounds: n = 600 55 against 67 ms, n = 800 88 against 82 ms, n = 1000
- * 123–143 against 102–112 ms over three seeds).
+ * 123–143 against 102–112 ms over three seeds, the instance built in the process;
+ * in bench:solver's child, which reads it from a file, n = 1000 was even: medians of
+ * 10, 159 against 160 ms, at a load of 2.5; n = 2000 440 against 286 ms).
  */
 const CROWDED_MIN_ROWS = 1000;
 /**
