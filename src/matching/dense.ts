@@ -627,8 +627,14 @@ function candidateCount(nCols: number): number {
  *
  * Most rows are priced without reading them again: a pair left out of row r costs at
  * least floor[r] (its dearest candidate), and every column price is at most vTop
- * (≤ 0), so floor[r] − u[r] − vTop ≥ 0 proves the whole row. Only rows where that
- * bound fails are read pair by pair.
+ * (≤ 0), so floor[r] − u[r] − vTop ≥ 0 proves the whole row. Where prices differ
+ * much from one part of the matrix to another (a distance's dual prices follow the
+ * map) that bound fails on most rows, so a row read in one round keeps the lowest
+ * c − v off its candidates, and in the next round, lowered by the most any column's
+ * price rose since, it proves the row again unless that row's own price fell below
+ * it. Only rows where both bounds fail are read pair by pair (geometric n = 2000
+ * and 4000: 6.2 and 6.4 matrices read in all, now 3.8 and 4.2; clustered n = 2000:
+ * 9.0, now 6.5).
  *
  * Where a crowded cluster holds more rows than columns, the rows' cheapest pairs
  * cannot all be matched and the pairs that lead out of the cluster are far down
@@ -713,6 +719,10 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   let augmentations = 0;
   const extra = new Int32Array(nRows);
   let stamp: Int32Array | null = null;
+  let mark = 0;
+  const outMin = new Float64Array(nRows);
+  const rowMin = new Float64Array(1);
+  let vPrev: Float64Array | null = null;
   for (let round = 0; round < 20; round++) {
     const sub = packCandidates(nRows, nCols, slots, slotCost, cap, count, inst.unmatchedCost ?? null);
     let res: SolveResult;
@@ -738,27 +748,50 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
       if (v[j]! > vTop) vTop = v[j]!;
     }
     const slack = -1e-11 * (scale > 0 ? scale : 1);
+    // Rows read in an earlier round keep outMin[r], a lower bound on c − v over the
+    // columns off their candidates at that round's prices; no column's price rose by
+    // more than `rise` since, so outMin[r] − rise bounds c − v at these prices.
+    let rise = Infinity;
+    if (vPrev !== null) {
+      rise = -Infinity;
+      for (let j = 0; j < nCols; j++) if (v[j]! - vPrev[j]! > rise) rise = v[j]! - vPrev[j]!;
+    }
+    stamp ??= new Int32Array(nCols);
     let violations = 0;
     for (let r = 0; r < nRows; r++) {
       const ur = u[r]!;
       // The bound is computed in the same order as the per-pair test and rounding is
       // monotone, so when it holds no pair of the row can fail that test.
-      const proven = floor[r]! - ur - vTop >= slack;
-      const miss = proven ? 0 : countPricedOut(cost, r * nCols, nCols, ur, v, slack);
-      if (!proven) scanned += nCols;
+      let proven = floor[r]! - ur - vTop >= slack;
+      if (proven) {
+        outMin[r] = floor[r]! - vTop;
+      } else if (rise < Infinity) {
+        // Not the per-pair test's terms: it must hold by a rounding allowance.
+        const m = outMin[r]! - rise;
+        proven = m - ur >= 1e-14 * (Math.abs(outMin[r]!) + Math.abs(rise) + Math.abs(ur) + scale);
+        if (proven) outMin[r] = m;
+      }
+      let miss = 0;
+      if (!proven) {
+        mark++;
+        for (let t = r * cap; t < r * cap + count[r]!; t++) stamp[slots[t]!] = mark;
+        miss = priceRow(cost, r * nCols, nCols, ur, v, slack, stamp, mark, rowMin);
+        outMin[r] = rowMin[0]!;
+        scanned += nCols;
+      }
       extra[r] = miss;
       violations += miss;
     }
+    vPrev = v;
     if (violations === 0) return certified(res, augmentations, scanned, opts, bids);
     // grow the lists and add the pairs that priced out and are not candidates yet
     let need = 0;
     for (let r = 0; r < nRows; r++) need = Math.max(need, count[r]! + extra[r]!);
     ensureCap(need);
-    stamp ??= new Int32Array(nCols);
     let added = 0;
     for (let r = 0; r < nRows; r++) {
       if (extra[r] === 0) continue;
-      const n = addPricedOut(cost, r * nCols, nCols, u[r]!, v, slack, stamp, r + 1, r * cap, count[r]!, slots, slotCost);
+      const n = addPricedOut(cost, r * nCols, nCols, u[r]!, v, slack, stamp, ++mark, r * cap, count[r]!, slots, slotCost);
       added += n - count[r]!;
       count[r] = n;
       scanned += nCols;
@@ -1136,10 +1169,22 @@ function gatherBelow(cost: Float64Array, base: number, nCols: number, keep: numb
   return n;
 }
 
-/** Pairs of one row whose reduced cost is below `slack` (negative: they price out). */
-function countPricedOut(cost: Float64Array, base: number, nCols: number, ur: number, v: Float64Array, slack: number): number {
+/**
+ * One row's pricing: returns how many of its pairs have reduced cost below `slack`
+ * (negative: they price out), and writes to out[0] the lowest c − v over the columns
+ * not stamped with `mark` (the row's candidates are).
+ */
+function priceRow(cost: Float64Array, base: number, nCols: number, ur: number, v: Float64Array, slack: number, stamp: Int32Array, mark: number, out: Float64Array): number {
   let n = 0;
-  for (let j = 0; j < nCols; j++) if (cost[base + j]! - ur - v[j]! < slack) n++;
+  let low = Infinity;
+  for (let j = 0; j < nCols; j++) {
+    const c = cost[base + j]!;
+    // the same expression as addPricedOut's test, which the count sizes the lists for
+    if (c - ur - v[j]! < slack) n++;
+    const x = c - v[j]!;
+    if (x < low && stamp[j] !== mark) low = x;
+  }
+  out[0] = low;
   return n;
 }
 
