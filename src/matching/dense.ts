@@ -717,11 +717,15 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
 
   let warm: WarmStart | undefined = opts.warm ?? auctionWarm;
   let augmentations = 0;
-  const extra = new Int32Array(nRows);
   let stamp: Int32Array | null = null;
   let mark = 0;
   const outMin = new Float64Array(nRows);
-  const rowMin = new Float64Array(1);
+  const rowMin = new Float64Array(2);
+  // the pairs that price out, by row (row r's from pendFrom[r]), added once a round is priced
+  const pendFrom = new Int32Array(nRows + 1);
+  let pendCol = new Int32Array(4 * nCols);
+  let pendCost = new Float64Array(4 * nCols);
+  let pendLen = 0;
   let vPrev: Float64Array | null = null;
   for (let round = 0; round < 20; round++) {
     const sub = packCandidates(nRows, nCols, slots, slotCost, cap, count, inst.unmatchedCost ?? null);
@@ -758,6 +762,7 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
     }
     stamp ??= new Int32Array(nCols);
     let violations = 0;
+    pendLen = 0;
     for (let r = 0; r < nRows; r++) {
       const ur = u[r]!;
       // The bound is computed in the same order as the per-pair test and rounding is
@@ -771,33 +776,42 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
         proven = m - ur >= 1e-14 * (Math.abs(outMin[r]!) + Math.abs(rise) + Math.abs(ur) + scale);
         if (proven) outMin[r] = m;
       }
-      let miss = 0;
+      pendFrom[r] = pendLen;
       if (!proven) {
         mark++;
         for (let t = r * cap; t < r * cap + count[r]!; t++) stamp[slots[t]!] = mark;
-        miss = priceRow(cost, r * nCols, nCols, ur, v, slack, stamp, mark, rowMin);
+        if (pendCol.length < pendLen + nCols) {
+          const size = Math.max(2 * pendCol.length, pendLen + nCols);
+          const grownCol = new Int32Array(size);
+          grownCol.set(pendCol.subarray(0, pendLen));
+          const grownCost = new Float64Array(size);
+          grownCost.set(pendCost.subarray(0, pendLen));
+          pendCol = grownCol;
+          pendCost = grownCost;
+        }
+        violations += priceRow(cost, r * nCols, nCols, ur, v, slack, stamp, mark, pendCol, pendCost, pendLen, rowMin);
+        pendLen = rowMin[1]!;
         outMin[r] = rowMin[0]!;
         scanned += nCols;
       }
-      extra[r] = miss;
-      violations += miss;
     }
+    pendFrom[nRows] = pendLen;
     vPrev = v;
     if (violations === 0) return certified(res, augmentations, scanned, opts, bids);
+    // only candidates missed, by rounding within the sparse solve's own certificate
+    if (pendLen === 0) return certified(res, augmentations, scanned, opts, bids);
     // grow the lists and add the pairs that priced out and are not candidates yet
     let need = 0;
-    for (let r = 0; r < nRows; r++) need = Math.max(need, count[r]! + extra[r]!);
+    for (let r = 0; r < nRows; r++) need = Math.max(need, count[r]! + pendFrom[r + 1]! - pendFrom[r]!);
     ensureCap(need);
-    let added = 0;
     for (let r = 0; r < nRows; r++) {
-      if (extra[r] === 0) continue;
-      const n = addPricedOut(cost, r * nCols, nCols, u[r]!, v, slack, stamp, ++mark, r * cap, count[r]!, slots, slotCost);
-      added += n - count[r]!;
+      let n = count[r]!;
+      for (let t = pendFrom[r]!; t < pendFrom[r + 1]!; t++) {
+        slots[r * cap + n] = pendCol[t]!;
+        slotCost[r * cap + n++] = pendCost[t]!;
+      }
       count[r] = n;
-      scanned += nCols;
     }
-    // only candidates missed, by rounding within the sparse solve's own certificate
-    if (added === 0) return certified(res, augmentations, scanned, opts, bids);
     warm = { colPrices: v, rowPrices: u, rowToCol: res.rowToCol };
   }
   return null;
@@ -1062,36 +1076,6 @@ function addWarmPair(cost: Float64Array, base: number, nCols: number, wj: number
   return n + 1;
 }
 
-/**
- * Appends to the row's n candidates (from `at`) each pair that prices out and is not
- * a candidate yet; returns the new count.
- */
-function addPricedOut(
-  cost: Float64Array,
-  base: number,
-  nCols: number,
-  ur: number,
-  v: Float64Array,
-  slack: number,
-  stamp: Int32Array,
-  mark: number,
-  at: number,
-  n: number,
-  slots: Int32Array,
-  slotCost: Float64Array,
-): number {
-  for (let t = 0; t < n; t++) stamp[slots[at + t]!] = mark;
-  let m = n;
-  for (let j = 0; j < nCols; j++) {
-    const c = cost[base + j]!;
-    if (c - ur - v[j]! < slack && stamp[j] !== mark) {
-      slots[at + m] = j;
-      slotCost[at + m++] = c;
-    }
-  }
-  return m;
-}
-
 function certified(res: SolveResult, augmentations: number, scanned: number, opts: SolveOptions, bids: number): SolveResult {
   return {
     ...res,
@@ -1171,20 +1155,42 @@ function gatherBelow(cost: Float64Array, base: number, nCols: number, keep: numb
 
 /**
  * One row's pricing: returns how many of its pairs have reduced cost below `slack`
- * (negative: they price out), and writes to out[0] the lowest c − v over the columns
- * not stamped with `mark` (the row's candidates are).
+ * (negative: they price out), appends those off its candidates (the columns stamped
+ * with `mark`) to col/val from `at`, and writes to out[0] the lowest c − v over the
+ * columns off its candidates, to out[1] where the appended pairs end.
  */
-function priceRow(cost: Float64Array, base: number, nCols: number, ur: number, v: Float64Array, slack: number, stamp: Int32Array, mark: number, out: Float64Array): number {
+function priceRow(
+  cost: Float64Array,
+  base: number,
+  nCols: number,
+  ur: number,
+  v: Float64Array,
+  slack: number,
+  stamp: Int32Array,
+  mark: number,
+  col: Int32Array,
+  val: Float64Array,
+  at: number,
+  out: Float64Array,
+): number {
   let n = 0;
   let low = Infinity;
   for (let j = 0; j < nCols; j++) {
     const c = cost[base + j]!;
-    // the same expression as addPricedOut's test, which the count sizes the lists for
-    if (c - ur - v[j]! < slack) n++;
     const x = c - v[j]!;
-    if (x < low && stamp[j] !== mark) low = x;
+    if (stamp[j] === mark) {
+      if (c - ur - v[j]! < slack) n++;
+      continue;
+    }
+    if (x < low) low = x;
+    if (c - ur - v[j]! < slack) {
+      n++;
+      col[at] = j;
+      val[at++] = c;
+    }
   }
   out[0] = low;
+  out[1] = at;
   return n;
 }
 
