@@ -633,8 +633,8 @@ function candidateCount(nCols: number): number {
  * c − v off its candidates, and in the next round, lowered by the most any column's
  * price rose since, it proves the row again unless that row's own price fell below
  * it. Only rows where both bounds fail are read pair by pair (geometric n = 2000
- * and 4000: 6.2 and 6.4 matrices read in all, now 3.8 and 4.2; clustered n = 2000:
- * 9.0, now 6.5).
+ * and 4000: 6.2 and 6.4 matrices read in all, now 3.5 and 3.9 with the pairs that
+ * price out gathered on the same read; clustered n = 2000: 9.0, now 6.4).
  *
  * Where a crowded cluster holds more rows than columns, the rows' cheapest pairs
  * cannot all be matched and the pairs that lead out of the cluster are far down
