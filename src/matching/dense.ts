@@ -5,6 +5,7 @@ import { infeasibleRow, mustMatchAll, shiftToNonPositive, solveSparseChecked, so
 import { PairflowError } from '../errors.js';
 import { NONE, PRIVATE, reduceRows, shiftAlongPath, type Reduced } from './reduction.js';
 import { denseAuction } from './dense-auction.js';
+import { keepCheapest, listAuction, type AuctionLists } from './list-auction.js';
 import { maxCardinalityMatching } from './cardinality.js';
 import type { SparseInstance, WarmStart } from './types.js';
 
@@ -626,8 +627,25 @@ function candidateCount(nCols: number): number {
  *
  * Most rows are priced without reading them again: a pair left out of row r costs at
  * least floor[r] (its dearest candidate), and every column price is at most vTop
- * (≤ 0), so floor[r] − u[r] − vTop ≥ 0 proves the whole row. Only rows where that
- * bound fails are read pair by pair.
+ * (≤ 0), so floor[r] − u[r] − vTop ≥ 0 proves the whole row. Where prices differ
+ * much from one part of the matrix to another (a distance's dual prices follow the
+ * map) that bound fails on most rows, so a row read in one round keeps the lowest
+ * c − v off its candidates; in the next round that minimum, lowered by the most any
+ * column's price rose since, still bounds c − v off the candidates, and proves the
+ * row again while the row's price u stays below it. Only rows where both bounds fail
+ * are read pair by pair (geometric n = 2000
+ * and 4000: 6.2 and 6.4 matrices read in all, now 3.5 and 3.9 with the pairs that
+ * price out gathered on the same read; clustered n = 2000: 9.0, now 6.4).
+ *
+ * Where a crowded cluster holds more rows than columns, the rows' cheapest pairs
+ * cannot all be matched and the pairs that lead out of the cluster are far down
+ * their rows. One coarse phase of the list auction (list-auction.ts) finds them: the
+ * crowded columns' prices rise until rows bid elsewhere, and each row's list at the
+ * end, with its auction column, joins its candidates. Before, short rows were
+ * "bridged" to the nearest columns outside the rows reachable from the shortage, in
+ * waves; the sparse optimum on those pairs priced whole blocks of pairs out
+ * (clustered n = 4000: 976 k after the first solve, 446 M pairs scanned by the next;
+ * 3.4–3.9 s in all, against 1.0–1.1 s with the auction's pairs).
  */
 function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): SolveResult | null {
   const { nRows, nCols, cost } = inst;
@@ -671,17 +689,45 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   // with more rows than columns among their nearest). Checked before solving, as a
   // maximum matching of the candidates costs far less than a solve that fails late
   // (geometric n = 4000: 1.1 s against 1.8 s when widened after the failed solve).
+  let bids = 0;
+  let auctionWarm: WarmStart | undefined;
   if (nRows <= nCols && mustMatchAll(inst.unmatchedCost ?? null)) {
-    const bridge = opts.strategy === 'candidates' || nRows >= BRIDGE_MIN_ROWS;
-    const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }), bridge);
-    if (w < 0) return null;
-    scanned += w;
+    const crowd = opts.strategy === 'candidates' || nRows >= CROWDED_MIN_ROWS;
+    const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }), crowd);
+    if (w === CROWDED) {
+      const lists = auctionLists(slots, slotCost, cap, count, floor);
+      const price = new Float64Array(nCols);
+      const assigned = new Int32Array(nRows);
+      const eps = sampledScale(cost, nRows, nCols) / crowdEpsDivisor(nRows);
+      const a = listAuction(cost, nRows, nCols, lists, price, assigned, eps, eps, 2, CROWD_BUDGET * nRows * nCols);
+      scanned += a.scanned;
+      bids = a.bids;
+      if (!a.finished) return null;
+      ensureCap(maxCount(count) + lists.k + 1);
+      addAuctionPairs(cost, nCols, lists, assigned, slots, slotCost, cap, count, maxAbs);
+      // the sparse solve starts warm from the auction's prices and assignment
+      const colPrices = new Float64Array(nCols);
+      for (let j = 0; j < nCols; j++) colPrices[j] = -price[j]!;
+      auctionWarm = { rowToCol: assigned, colPrices };
+    } else if (w < 0) {
+      return null;
+    } else {
+      scanned += w;
+    }
   }
 
-  let warm: WarmStart | undefined = opts.warm;
+  let warm: WarmStart | undefined = opts.warm ?? auctionWarm;
   let augmentations = 0;
-  const extra = new Int32Array(nRows);
   let stamp: Int32Array | null = null;
+  let mark = 0;
+  const outMin = new Float64Array(nRows);
+  const rowMin = new Float64Array(2);
+  // the pairs that price out, by row (row r's from pendFrom[r]), added once a round is priced
+  const pendFrom = new Int32Array(nRows + 1);
+  let pendCol = new Int32Array(4 * nCols);
+  let pendCost = new Float64Array(4 * nCols);
+  let pendLen = 0;
+  let vPrev: Float64Array | null = null;
   for (let round = 0; round < 20; round++) {
     const sub = packCandidates(nRows, nCols, slots, slotCost, cap, count, inst.unmatchedCost ?? null);
     let res: SolveResult;
@@ -707,33 +753,66 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
       if (v[j]! > vTop) vTop = v[j]!;
     }
     const slack = -1e-11 * (scale > 0 ? scale : 1);
+    // Rows read in an earlier round keep outMin[r], a lower bound on c − v over the
+    // columns off their candidates at that round's prices; no column's price rose by
+    // more than `rise` since, so outMin[r] − rise bounds c − v at these prices.
+    let rise = Infinity;
+    if (vPrev !== null) {
+      rise = -Infinity;
+      for (let j = 0; j < nCols; j++) if (v[j]! - vPrev[j]! > rise) rise = v[j]! - vPrev[j]!;
+    }
+    stamp ??= new Int32Array(nCols);
     let violations = 0;
+    pendLen = 0;
     for (let r = 0; r < nRows; r++) {
       const ur = u[r]!;
       // The bound is computed in the same order as the per-pair test and rounding is
       // monotone, so when it holds no pair of the row can fail that test.
-      const proven = floor[r]! - ur - vTop >= slack;
-      const miss = proven ? 0 : countPricedOut(cost, r * nCols, nCols, ur, v, slack);
-      if (!proven) scanned += nCols;
-      extra[r] = miss;
-      violations += miss;
+      let proven = floor[r]! - ur - vTop >= slack;
+      if (proven) {
+        outMin[r] = floor[r]! - vTop;
+      } else if (rise < Infinity) {
+        // Not the per-pair test's terms: it must hold by a rounding allowance.
+        const m = outMin[r]! - rise;
+        proven = m - ur >= 1e-14 * (Math.abs(outMin[r]!) + Math.abs(rise) + Math.abs(ur) + scale);
+        if (proven) outMin[r] = m;
+      }
+      pendFrom[r] = pendLen;
+      if (!proven) {
+        mark++;
+        for (let t = r * cap; t < r * cap + count[r]!; t++) stamp[slots[t]!] = mark;
+        if (pendCol.length < pendLen + nCols) {
+          const size = Math.max(2 * pendCol.length, pendLen + nCols);
+          const grownCol = new Int32Array(size);
+          grownCol.set(pendCol.subarray(0, pendLen));
+          const grownCost = new Float64Array(size);
+          grownCost.set(pendCost.subarray(0, pendLen));
+          pendCol = grownCol;
+          pendCost = grownCost;
+        }
+        violations += priceRow(cost, r * nCols, nCols, ur, v, slack, stamp, mark, pendCol, pendCost, pendLen, rowMin);
+        pendLen = rowMin[1]!;
+        outMin[r] = rowMin[0]!;
+        scanned += nCols;
+      }
     }
-    if (violations === 0) return certified(res, augmentations, scanned, opts);
+    pendFrom[nRows] = pendLen;
+    vPrev = v;
+    if (violations === 0) return certified(res, augmentations, scanned, opts, bids);
+    // only candidates missed, by rounding within the sparse solve's own certificate
+    if (pendLen === 0) return certified(res, augmentations, scanned, opts, bids);
     // grow the lists and add the pairs that priced out and are not candidates yet
     let need = 0;
-    for (let r = 0; r < nRows; r++) need = Math.max(need, count[r]! + extra[r]!);
+    for (let r = 0; r < nRows; r++) need = Math.max(need, count[r]! + pendFrom[r + 1]! - pendFrom[r]!);
     ensureCap(need);
-    stamp ??= new Int32Array(nCols);
-    let added = 0;
     for (let r = 0; r < nRows; r++) {
-      if (extra[r] === 0) continue;
-      const n = addPricedOut(cost, r * nCols, nCols, u[r]!, v, slack, stamp, r + 1, r * cap, count[r]!, slots, slotCost);
-      added += n - count[r]!;
+      let n = count[r]!;
+      for (let t = pendFrom[r]!; t < pendFrom[r + 1]!; t++) {
+        slots[r * cap + n] = pendCol[t]!;
+        slotCost[r * cap + n++] = pendCost[t]!;
+      }
       count[r] = n;
-      scanned += nCols;
     }
-    // only candidates missed, by rounding within the sparse solve's own certificate
-    if (added === 0) return certified(res, augmentations, scanned, opts);
     warm = { colPrices: v, rowPrices: u, rowToCol: res.rowToCol };
   }
   return null;
@@ -745,10 +824,10 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
  * cluster with more rows than columns: 1–6 % of the rows short, the shortage not
  * shrinking as the lists double) are not helped by more of their own nearest
  * columns (measured: clustered n = 4000 took 35 s widened, 5 s by the full search);
- * they are bridged instead (see widenUntilMatchable), on matrices of BRIDGE_MIN_ROWS
- * rows or more (where bridging also takes the place of doubling: about as fast on a
- * corner's shortage), and given up on below that. Give up when a doubling did not
- * shrink the shortage, at 4× the first count, or after BRIDGE_MAX bridgings.
+ * on matrices of CROWDED_MIN_ROWS rows or more they go to the list auction instead
+ * (see solveByCandidates; it also takes the place of doubling there), and below that
+ * to the full search. Give up when a doubling did not shrink the shortage, or at 4×
+ * the first count.
  */
 const WIDEN_MAX = 4;
 const WIDEN_MAX_SHORT = 100;
@@ -766,13 +845,11 @@ interface Lists {
  * alternating path from an unmatched row (the rows that compete for too few columns,
  * Hall's condition) takes twice its cheapest pairs, and again. The pairs added are
  * each row's next cheapest, so the lists stay "the row's cheapest" and `floor` stays
- * a bound on every pair left out. When `bridge` is set, each reachable row instead
- * gets its k0 cheapest pairs to the columns no alternating path reaches (outside its
- * cluster): the pairs an optimum must use to move rows out of a crowded cluster,
- * which no number of the row's own nearest columns provides. Those pairs are not among the row's cheapest, so `floor`
- * stays a bound too. Returns the cells read, or -1 when it gives up (see WIDEN_MAX)
- * or no row can grow (then the rows cannot all be matched, which the full search
- * reports). A row's warm pair, if any, is added back after its list is picked again.
+ * a bound on every pair left out. Returns the cells read; CROWDED when `crowd` is
+ * set and the candidates leave rows short, at most a CROWDED_MAX_SHORT share (the
+ * caller gathers the pairs out of the crowded cluster); -1 when it gives up (see
+ * WIDEN_MAX; the full search then runs and reports rows that cannot all be
+ * matched). A row's warm pair, if any, is added back after its list is picked again.
  */
 function widenUntilMatchable(
   inst: DenseInstance,
@@ -783,7 +860,7 @@ function widenUntilMatchable(
   wPair: Int32Array | undefined,
   ensureCap: (need: number) => void,
   lists: () => Lists,
-  bridge: boolean,
+  crowd: boolean,
 ): number {
   const { nRows, nCols, cost } = inst;
   let scanned = 0;
@@ -792,9 +869,6 @@ function widenUntilMatchable(
   const queue = new Int32Array(nRows);
   const guess = Float64Array.of(Infinity);
   let lastDeficit = Infinity;
-  let bridges = 0;
-  let bridgeKey: Float64Array | null = null;
-  let bridgeCol: Int32Array | null = null;
   for (let k = k0; ; ) {
     let cur = lists();
     const { rowPtr, colIdx } = packCandidates(nRows, nCols, cur.slots, cur.slotCost, cur.cap, count, null);
@@ -825,25 +899,8 @@ function widenUntilMatchable(
       }
     }
     const deficit = nRows - m.size;
-    if (bridge || deficit > nRows / WIDEN_MAX_SHORT) {
-      if (!bridge || bridges >= BRIDGE_MAX || deficit > nRows / BRIDGE_MAX_SHORT) return -1;
-      bridges++;
-      ensureCap(maxCount(count) + k0);
-      cur = lists();
-      bridgeKey ??= new Float64Array(nCols);
-      bridgeCol ??= new Int32Array(nCols);
-      let grown = 0;
-      for (let t = 0; t < tail; t++) {
-        const r = queue[t]!;
-        const was = count[r]!;
-        count[r] = addOutside(cost, r * nCols, nCols, colSeen, k0, bridgeKey, bridgeCol, r * cur.cap, was, cur.slots, cur.slotCost, maxAbs);
-        grown += count[r]! - was;
-        scanned += nCols;
-      }
-      // no allowed pair leads out: the rows cannot all be matched (the full search says which)
-      if (grown === 0) return -1;
-      continue;
-    }
+    if (crowd && deficit <= nRows / CROWDED_MAX_SHORT) return CROWDED;
+    if (deficit > nRows / WIDEN_MAX_SHORT) return -1;
     if (deficit >= lastDeficit || k >= WIDEN_MAX * k0 || k >= nCols) return -1;
     lastDeficit = deficit;
     k = Math.min(nCols, 2 * k);
@@ -864,73 +921,112 @@ function widenUntilMatchable(
   }
 }
 
-/** Times the candidates of short rows are bridged to columns outside their cluster before giving up. */
-const BRIDGE_MAX = 8;
+/** What widenUntilMatchable returns for a crowded cluster (see CROWDED_MAX_SHORT). */
+const CROWDED = -2;
 /**
- * A shortage of more than this share of the rows is no crowded cluster, and bridging
- * is not tried: where every row wants the same few columns (rank one, Machol–Wien:
- * 98 % of the rows short of a match among the candidates, against 2–7 % on clustered
- * costs) eight bridgings met a few dozen rows each and cost 0.4 s at n = 2000 and
- * 1.2–2.4 s at n = 4000 before the full search took over anyway.
+ * A shortage of more than this share of the rows is no crowded cluster: where every
+ * row wants the same few columns (rank one, Machol–Wien: 98 % of the rows short of a
+ * match among the candidates, against 2–7 % on clustered costs) the full search takes
+ * over at once.
  */
-const BRIDGE_MAX_SHORT = 4;
+const CROWDED_MAX_SHORT = 4;
 /**
- * Below this many rows, `auto` gives a candidate graph with many rows short to the
- * full search rather than bridging it: the bridged candidates' pricing rounds cost
- * more there (measured, process CPU time of a first solve on clustered costs:
- * n = 1000 bridged 375 ms, full search 242 ms; n = 2000 553 ms against 779 ms;
- * n = 4000 1.40 s against 2.62 s).
+ * From this many rows, `auto` meets a crowded cluster by the list auction; below, the
+ * full search is faster on a first solve (measured in fresh processes on clustered
+ * costs, medians of 4–6 alternating runs, full search against list auction and
+ * pricing rounds: n = 600 55 against 67 ms, n = 800 88 against 82 ms, n = 1000
+ * 123–143 against 102–112 ms over three seeds, the instance built in the process;
+ * in bench:solver's child, which reads it from a file, n = 1000 was even: medians of
+ * 10, 159 against 160 ms, at a load of 2.5; n = 2000 440 against 286 ms).
  */
-const BRIDGE_MIN_ROWS = 1500;
+const CROWDED_MIN_ROWS = 1000;
+/**
+ * The list auction's one phase runs at ε = (largest cost) / crowdEpsDivisor(rows):
+ * coarse prices suffice to gather the pairs out of crowded clusters, and the exact
+ * prices come from the sparse solves after it, which start warm from the auction's
+ * prices and assignment (first solves in fresh processes, clustered n = 2000 and
+ * 4000: 10–15 % faster than starting cold). Measured the same way, whole solve in ms:
+ * n = 2000, divisor 4 / 8 / 16 / 32: 340 / 290–300 / 330 / 340–390 (two seeds);
+ * n = 4000, divisor 4 / 8 / 16: 1960 / 1170–1230 / 1020–1060 (two seeds; a third
+ * about even). Fewer phases pay: six phases down to a divisor of 300 took 326 ms at
+ * n = 2000 and 1534 ms at n = 4000 where one phase at 16 took 246 and 1110 (steady
+ * state).
+ */
+function crowdEpsDivisor(nRows: number): number {
+  return Math.min(16, Math.max(8, nRows / 250));
+}
+/** Matrices' worth of cells the list auction may read before the full search takes over. */
+const CROWD_BUDGET = 16;
+
+/** Largest finite |cost| over every 64th row: the scale of ε. */
+function sampledScale(cost: Float64Array, nRows: number, nCols: number): number {
+  let scale = 0;
+  for (let r = 0; r < nRows; r += 64) {
+    for (let j = r * nCols; j < (r + 1) * nCols; j++) {
+      const a = Math.abs(cost[j]!);
+      if (a < Infinity && a > scale) scale = a;
+    }
+  }
+  return scale > 0 ? scale : 1;
+}
+
+/** The candidates as the list auction's lists: each row's pairs, its floor as the bound (prices start at 0). */
+function auctionLists(slots: Int32Array, slotCost: Float64Array, cap: number, count: Int32Array, floor: Float64Array): AuctionLists {
+  const nRows = count.length;
+  const k = maxCount(count);
+  const col = new Int32Array(nRows * k);
+  const val = new Float64Array(nRows * k);
+  for (let r = 0; r < nRows; r++) {
+    col.set(slots.subarray(r * cap, r * cap + count[r]!), r * k);
+    val.set(slotCost.subarray(r * cap, r * cap + count[r]!), r * k);
+  }
+  return { k, stride: k, col, val, len: Int32Array.from(count), bound: Float64Array.from(floor) };
+}
+
+/**
+ * Appends to each row's candidates the columns of its auction list and its auction
+ * column, where not candidates yet. They are not among the row's cheapest, so
+ * floor[r] stays a bound on every pair left out; the auction's assignment is a full
+ * matching inside the lists, so the sparse solve of the candidates is feasible.
+ */
+function addAuctionPairs(
+  cost: Float64Array,
+  nCols: number,
+  lists: AuctionLists,
+  assigned: Int32Array,
+  slots: Int32Array,
+  slotCost: Float64Array,
+  cap: number,
+  count: Int32Array,
+  maxAbs: Float64Array,
+): void {
+  const stamp = new Int32Array(nCols).fill(-1);
+  let big = maxAbs[0]!;
+  for (let r = 0; r < count.length; r++) {
+    const at = r * cap;
+    let n = count[r]!;
+    for (let t = 0; t < n; t++) stamp[slots[at + t]!] = r;
+    const from = r * lists.stride;
+    const len = lists.len[r]!;
+    for (let t = 0; t <= len; t++) {
+      const j = t < len ? lists.col[from + t]! : assigned[r]!;
+      if (j < 0 || stamp[j] === r) continue;
+      stamp[j] = r;
+      const c = cost[r * nCols + j]!;
+      slots[at + n] = j;
+      slotCost[at + n++] = c;
+      if (c > big) big = c;
+      else if (-c > big) big = -c;
+    }
+    count[r] = n;
+  }
+  maxAbs[0] = big;
+}
 
 function maxCount(count: Int32Array): number {
   let m = 0;
   for (let r = 0; r < count.length; r++) if (count[r]! > m) m = count[r]!;
   return m;
-}
-
-/**
- * Appends to the row's n candidates (from `at`) its k cheapest allowed pairs to
- * columns with `inside[j] === 0`; returns the new count. These columns are not among
- * the row's candidates, so they cost at least its dearest candidate and floor[r]
- * stays a bound on the pairs left out.
- */
-function addOutside(
-  cost: Float64Array,
-  base: number,
-  nCols: number,
-  inside: Uint8Array,
-  k: number,
-  key: Float64Array,
-  col: Int32Array,
-  at: number,
-  n: number,
-  slots: Int32Array,
-  slotCost: Float64Array,
-  maxAbs: Float64Array,
-): number {
-  let g = 0;
-  for (let j = 0; j < nCols; j++) {
-    const c = cost[base + j]!;
-    if (inside[j] === 0 && c < Infinity) {
-      key[g] = c;
-      col[g++] = j;
-    }
-  }
-  if (g > k) {
-    keepCheapest(key, col, g, k);
-    g = k;
-  }
-  let big = maxAbs[0]!;
-  for (let t = 0; t < g; t++) {
-    const c = key[t]!;
-    if (c > big) big = c;
-    else if (-c > big) big = -c;
-    slots[at + n + t] = col[t]!;
-    slotCost[at + n + t] = c;
-  }
-  maxAbs[0] = big;
-  return n + g;
 }
 
 /**
@@ -981,40 +1077,10 @@ function addWarmPair(cost: Float64Array, base: number, nCols: number, wj: number
   return n + 1;
 }
 
-/**
- * Appends to the row's n candidates (from `at`) each pair that prices out and is not
- * a candidate yet; returns the new count.
- */
-function addPricedOut(
-  cost: Float64Array,
-  base: number,
-  nCols: number,
-  ur: number,
-  v: Float64Array,
-  slack: number,
-  stamp: Int32Array,
-  mark: number,
-  at: number,
-  n: number,
-  slots: Int32Array,
-  slotCost: Float64Array,
-): number {
-  for (let t = 0; t < n; t++) stamp[slots[at + t]!] = mark;
-  let m = n;
-  for (let j = 0; j < nCols; j++) {
-    const c = cost[base + j]!;
-    if (c - ur - v[j]! < slack && stamp[j] !== mark) {
-      slots[at + m] = j;
-      slotCost[at + m++] = c;
-    }
-  }
-  return m;
-}
-
-function certified(res: SolveResult, augmentations: number, scanned: number, opts: SolveOptions): SolveResult {
+function certified(res: SolveResult, augmentations: number, scanned: number, opts: SolveOptions, bids: number): SolveResult {
   return {
     ...res,
-    stats: { ...res.stats, augmentations, scannedPairs: scanned, warm: opts.warm !== undefined && res.stats.warm, ms: 0 },
+    stats: { ...res.stats, augmentations, scannedPairs: scanned, warm: opts.warm !== undefined && res.stats.warm, ms: 0, ...(bids > 0 ? { auctionBids: bids } : {}) },
   };
 }
 
@@ -1089,47 +1155,43 @@ function gatherBelow(cost: Float64Array, base: number, nCols: number, keep: numb
 }
 
 /**
- * Selection (Hoare partition around a median of three) that leaves the k smallest
- * of key[0 .. n) in key[0 .. k), columns alongside; returns the largest of them.
+ * One row's pricing: returns how many of its pairs have reduced cost below `slack`
+ * (negative: they price out), appends those off its candidates (the columns stamped
+ * with `mark`) to col/val from `at`, and writes to out[0] the lowest c − v over the
+ * columns off its candidates, to out[1] where the appended pairs end.
  */
-function keepCheapest(key: Float64Array, col: Int32Array, n: number, k: number): number {
-  const want = k - 1;
-  let lo = 0;
-  let hi = n - 1;
-  while (lo < hi) {
-    const a = key[lo]!;
-    const b = key[(lo + hi) >> 1]!;
-    const c = key[hi]!;
-    const pivot = a < b ? (b < c ? b : a < c ? c : a) : a < c ? a : b < c ? c : b;
-    let i = lo;
-    let j = hi;
-    while (i <= j) {
-      while (key[i]! < pivot) i++;
-      while (key[j]! > pivot) j--;
-      if (i <= j) {
-        const tk = key[i]!;
-        key[i] = key[j]!;
-        key[j] = tk;
-        const tc = col[i]!;
-        col[i] = col[j]!;
-        col[j] = tc;
-        i++;
-        j--;
-      }
-    }
-    if (want <= j) hi = j;
-    else if (want >= i) lo = i;
-    else break;
-  }
-  let top = -Infinity;
-  for (let t = 0; t < k; t++) if (key[t]! > top) top = key[t]!;
-  return top;
-}
-
-/** Pairs of one row whose reduced cost is below `slack` (negative: they price out). */
-function countPricedOut(cost: Float64Array, base: number, nCols: number, ur: number, v: Float64Array, slack: number): number {
+function priceRow(
+  cost: Float64Array,
+  base: number,
+  nCols: number,
+  ur: number,
+  v: Float64Array,
+  slack: number,
+  stamp: Int32Array,
+  mark: number,
+  col: Int32Array,
+  val: Float64Array,
+  at: number,
+  out: Float64Array,
+): number {
   let n = 0;
-  for (let j = 0; j < nCols; j++) if (cost[base + j]! - ur - v[j]! < slack) n++;
+  let low = Infinity;
+  for (let j = 0; j < nCols; j++) {
+    const c = cost[base + j]!;
+    const x = c - v[j]!;
+    if (stamp[j] === mark) {
+      if (c - ur - v[j]! < slack) n++;
+      continue;
+    }
+    if (x < low) low = x;
+    if (c - ur - v[j]! < slack) {
+      n++;
+      col[at] = j;
+      val[at++] = c;
+    }
+  }
+  out[0] = low;
+  out[1] = at;
   return n;
 }
 

@@ -65,9 +65,10 @@ export interface SolveOptions {
    * square matrix whose rows must all be matched first tries the row-minima start
    * (row reduction and a greedy pass on tied minima: costs with few distinct values
    * are solved in about one read of the matrix; it gives up at once on unique minima),
-   * and where the candidates cannot match every row (a crowded cluster) their short
-   * rows are bridged to columns outside the cluster — always under `'candidates'`,
-   * under `'auto'` from 1500 rows (dense.ts). @default 'auto'
+   * and where the candidates cannot match every row (a crowded cluster) one coarse
+   * phase of an auction bidding from each row's candidates finds the pairs that lead
+   * out of the cluster, which join the candidates — always under `'candidates'`,
+   * under `'auto'` from 1000 rows (dense.ts, list-auction.ts). @default 'auto'
    */
   readonly strategy?: 'auto' | 'full' | 'candidates';
   /**
@@ -94,7 +95,11 @@ export interface SolveStats {
   reverseSearches?: number;
   /** Rows left for shortest-path search after the warm start and greedy passes. */
   searchedRows?: number;
-  /** Bids of the auction, when the dense solver handed over to it (dense-auction.ts). */
+  /**
+   * Bids of an auction the dense solver ran: the auction it handed over to
+   * (dense-auction.ts), or the list auction that gathers the pairs out of a crowded
+   * cluster for the candidates strategy (list-auction.ts).
+   */
   auctionBids?: number;
 }
 
