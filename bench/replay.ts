@@ -401,7 +401,7 @@ export function runReplayBench(opts: ReplayBenchOptions = {}): ReplayBenchResult
   const sm = largest.small;
   const smw = both(sm.warm);
   const smc = both(sm.cold);
-  md.push(`Commit "due" on small markets (\`pairflow gen --days 1 --seed 3 --scale ${quick ? '0.01' : '0.03'} --markets 3\`: a few units per pool, where a warm start's fixed cost weighs most; the solver ignores a hint below 256 pairs or offered to under a quarter of the rows): ` +
+  md.push(`Commit "due" on small markets (\`pairflow gen --days 1 --seed 3 --scale ${quick ? '0.01' : '0.03'} --markets 3\`: a few units per pool, where a warm start's fixed cost weighs most; the solver ignores a hint below 512 pairs or offered to under a quarter of the rows): ` +
     `warm run ${describe(sm.warm, sm.warmOnlineMs)}; \`--no-warm\` ${describe(sm.cold, sm.coldOnlineMs)}; cold/warm solve time ${f2(smc.totalMs / smw.totalMs)}×; online cost warm ${f2(sm.warmCost)}, cold ${f2(sm.coldCost)}.`);
   md.push('');
   if (!quick) {

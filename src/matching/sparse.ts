@@ -42,16 +42,21 @@ export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): Solve
  * Below this many pairs a warm hint is ignored. After JIT warm-up a warm start pays on
  * almost any pool (measured on the engine's `commit: "due"` solves of generated
  * markets at scale 0.03–0.1: warm/cold 0.85 below 32 pairs, 0.55–0.65 at 64–256,
- * 0.45–0.25 above), but below 256 pairs it saves at most ~15 µs a solve, while the
+ * 0.45–0.25 above), but below 512 pairs it saves at most ~40 µs a solve, while the
  * first warm starts of a process cost a fixed ~15 ms of CPU (V8 compiling and
- * optimising the warm-only code, applyWarmStart and the pairs by column): a day of
- * small markets (a few units per pool, ~100 hinted solves of 128–272 pairs) never
- * earned that back and ran 1.2× slower warm than cold, where at 256 it takes no warm
- * start at all. From 256 pairs a warm solve saves 20–40 µs, from 512 pairs 90 µs and
- * more, so a process with such pools recovers the fixed cost within a few hundred
- * solves.
+ * optimising the warm-only code, applyWarmStart and the pairs by column; one warm
+ * solve of a small-markets run took 12.6 ms where its cold twin takes 0.03 ms): a
+ * process that meets a few pools of that size never earns it back. A day of small
+ * markets (a few units per pool) took ~100 hinted solves of 128–272 pairs at a bound
+ * of 128 and ran 1.2× slower warm than cold; at 256 it still took three (of 1,171),
+ * and its warm and cold runs were even within the run-to-run noise of its 30 ms of
+ * solves (medians of six alternating runs, 17–42 ms each); at 512 it takes none. On
+ * the demo day under `"due"` (pools of hundreds of units) the warm starts taken go
+ * from 17,275 to 17,204 of 18,022 and the solve total stays 11.5–12 s. From 512
+ * pairs a warm solve saves 90 µs and more, so a process with such pools recovers the
+ * fixed cost within a couple of hundred solves.
  */
-const WARM_MIN_PAIRS = 256;
+const WARM_MIN_PAIRS = 512;
 /** A hint that offers a previous pair to fewer rows than this share is ignored too: too little survives to pay. */
 const WARM_MIN_HINTED = 0.25;
 

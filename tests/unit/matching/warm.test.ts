@@ -307,7 +307,7 @@ describe('warm start: free columns left below price 0', () => {
 });
 
 describe('solveSparse(): when a warm hint is used', () => {
-  it('ignores it below 256 pairs or when it offers a pair to under a quarter of the rows, and the optimum is the same either way', () => {
+  it('ignores it below 512 pairs or when it offers a pair to under a quarter of the rows, and the optimum is the same either way', () => {
     const build = (n: number, perRow: number, seed: number): SparseInstance => {
       const rand = mulberry32(seed);
       const rowPtr = new Int32Array(n + 1);
@@ -331,10 +331,11 @@ describe('solveSparse(): when a warm hint is used', () => {
     };
     const tiny = build(5, 5, 1); // 25 pairs
     const small = build(12, 10, 3); // 120 pairs
-    const below = build(51, 5, 4); // 255 pairs
-    const at = build(64, 4, 5); // 256 pairs
-    const big = build(60, 6, 2); // 360 pairs
-    const cases = [[tiny, 1, false], [small, 1, false], [below, 1, false], [at, 1, true], [big, 1, true], [big, 0.2, false], [big, 0.5, true]] as const;
+    const mid = build(60, 6, 2); // 360 pairs
+    const below = build(73, 7, 4); // 511 pairs
+    const at = build(64, 8, 5); // 512 pairs
+    const big = build(80, 8, 2); // 640 pairs
+    const cases = [[tiny, 1, false], [small, 1, false], [mid, 1, false], [below, 1, false], [at, 1, true], [big, 1, true], [big, 0.2, false], [big, 0.5, true]] as const;
     for (const [inst, share, used] of cases) {
       const warm = hintOf(inst, share);
       const r = solveSparse(inst, { warm });
