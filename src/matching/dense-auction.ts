@@ -61,13 +61,8 @@ export function denseAuction(
       if (j1 < 0) continue;
       const w1 = best[0]!;
       const w2 = best[1]!;
-      // A row with one allowed column still has to outbid later rows: a wide step.
-      price[j1] = price[j1]! + (w2 < Infinity ? w2 - w1 : Math.abs(w1) + 1) + eps;
-      const old = colToRow[j1]!;
-      colToRow[j1] = i;
-      rowToCol[i] = j1;
+      const old = placeBid(price, colToRow, rowToCol, i, j1, w1, w2, eps);
       if (old >= 0) {
-        rowToCol[old] = -1;
         queue[tail] = old;
         tail = tail === n ? 0 : tail + 1;
         pending++;
@@ -77,6 +72,21 @@ export function denseAuction(
     eps = Math.max(epsFinal, eps / theta);
   }
   return { bids, scanned, finished: true };
+}
+
+/**
+ * Row i's bid for column j1, its best offer w1 (cost + price) ahead of its second w2:
+ * j1's price rises by w2 − w1 + ε and j1 changes hands. Returns the row displaced
+ * (now unassigned), or -1. Shared by the list auction (list-auction.ts).
+ */
+export function placeBid(price: Float64Array, colToRow: Int32Array, rowToCol: Int32Array, i: number, j1: number, w1: number, w2: number, eps: number): number {
+  // A row with one allowed column still has to outbid later rows: a wide step.
+  price[j1] = price[j1]! + (w2 < Infinity ? w2 - w1 : Math.abs(w1) + 1) + eps;
+  const old = colToRow[j1]!;
+  colToRow[j1] = i;
+  rowToCol[i] = j1;
+  if (old >= 0) rowToCol[old] = -1;
+  return old;
 }
 
 /** The row's lowest and second-lowest c + price and the column of the lowest, into `out` as [w1, w2, j1]. */

@@ -25,6 +25,8 @@
  * every list ends holding its row's cheapest offers at the final prices.
  */
 
+import { placeBid } from './dense-auction.js';
+
 /**
  * Row r's candidates are `col`/`val`[r * stride, r * stride + len[r]): columns and
  * their costs. `bound[r]` is a lower bound on cost + price of every column left out of
@@ -113,13 +115,8 @@ export function listAuction(
         w2 = b;
       }
       if (j1 < 0) return { bids, rowReads, scanned, finished: false };
-      // A row with one allowed column still has to outbid later rows: a wide step.
-      price[j1] = price[j1]! + (w2 < Infinity ? w2 - w1 : Math.abs(w1) + 1) + eps;
-      const old = colToRow[j1]!;
-      colToRow[j1] = i;
-      rowToCol[i] = j1;
+      const old = placeBid(price, colToRow, rowToCol, i, j1, w1, w2, eps);
       if (old >= 0) {
-        rowToCol[old] = -1;
         queue[tail] = old;
         tail = tail === n ? 0 : tail + 1;
         pending++;
