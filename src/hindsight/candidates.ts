@@ -30,7 +30,7 @@ export function unmarkCandidate(words: Uint32Array, e: number): void {
  *
  * The cheapest pairs alone cannot match enough rows: near each other in time and
  * place, demands want the same few supplies. On a busy day (`gen --scale 4`, 58,050
- * demands of one district) the k = 12 cheapest of every row and column held a
+ * demands of one district) the k = 12 cheapest of every row and column (the default then) held a
  * matching of 35,647 pairs where the allowed graph holds 52,792; the rows left over
  * priced at u = P, so half of all allowed pairs priced out in the first round and the
  * rounds dragged on. So each row, as it is completed, also picks one free column by

@@ -109,8 +109,14 @@ export interface HindsightDemandCosts {
 export interface HindsightMarketOptions {
   /**
    * Candidate pairs per demand in the first restricted solve (its k cheapest). Any
-   * k ≥ 1 gives the same optimum; a small k means more pricing rounds.
-   * @default 12
+   * k ≥ 1 gives the same optimum; a small k means more pricing rounds. Measured on
+   * the busiest district of a generated day, one thread, alternating runs: at scale 4
+   * (114 M allowed pairs) k = 8 took 15.3–16.2 s against 15.8–16.7 s at 12 (16 rounds
+   * either way; 6: 15.3–15.7 s, 17 rounds; 16: 16.3–17.0 s, 15 rounds), at scale 1
+   * 1.28–1.29 s against 1.32–1.35 s, on the demo week's largest 8.55–8.57 s against
+   * 8.83–8.86 s; at scale 8 (one run each) 74.6 s against 72.8 s, 21 rounds against
+   * 19 — fewer first candidates cost rounds once the market is that dense.
+   * @default 8
    */
   candidatesPerDemand?: number;
   /**
@@ -152,7 +158,7 @@ export interface HindsightMarketDetail {
 }
 
 /** @default candidatesPerDemand */
-export const DEFAULT_CANDIDATES_PER_DEMAND = 12;
+export const DEFAULT_CANDIDATES_PER_DEMAND = 8;
 /** @default addPerRow */
 export const DEFAULT_ADD_PER_ROW = 4;
 
