@@ -194,28 +194,15 @@ function renewList(
     b = keepCheapest(key, keyCol, g, k);
     g = k;
   }
-  let w1 = Infinity;
-  let w2 = Infinity;
-  let j1 = -1;
   for (let t = 0; t < g; t++) {
     const j = keyCol[t]!;
-    const x = key[t]!;
     col[at + t] = j;
     val[at + t] = cost[base + j]!;
-    if (x < w2) {
-      if (x < w1) {
-        w2 = w1;
-        w1 = x;
-        j1 = j;
-      } else {
-        w2 = x;
-      }
-    }
   }
+  // The new list's best two (the same sums gatherOffers ranked), the second capped at the bound.
+  listBestTwo(col, val, at, g, price, out);
   bound[r] = b;
-  out[0] = w1;
-  out[1] = w2 < b ? w2 : b;
-  out[2] = j1;
+  if (out[1]! > b) out[1] = b;
   return g;
 }
 
