@@ -316,10 +316,19 @@ export const codeOf = (w: number): number => (w >>> 16) & CODE_TOP;
 /** Whether a word's pair is marked a candidate. */
 export const isMarked = (w: number): boolean => w >>> 31 === 1;
 
-/** The cost code of cost c, P being the unmatched cost and `step` = P / 32767. */
-export function costCode(c: number, P: number, step: number): number {
-  // Below P a code never reaches the top one, whatever the rounding of c / step.
-  return c < P ? Math.min(CODE_TOP - 1, Math.floor(c / step)) : CODE_TOP;
+/**
+ * The cost code of cost c ≥ 0, P being the unmatched cost and `perStep` = 1 / step
+ * (32767 / P). A multiplication by the reciprocal, truncated, instead of a division
+ * and a floor (the graph build computes one for each of its hundred million pairs):
+ * c · perStep is within an ulp or two of c / step, so the code can differ from
+ * ⌊c / step⌋ only for a cost within about 2^-51 (relative) of a step's edge, far
+ * inside the allowance the pricing passes give a code (BOUND_SLACK in pricing.ts).
+ */
+export function costCode(c: number, P: number, perStep: number): number {
+  // Below P a code never reaches the top one, whatever the rounding of c · perStep.
+  if (!(c < P)) return CODE_TOP;
+  const q = (c * perStep) | 0;
+  return q < CODE_TOP ? q : CODE_TOP - 1;
 }
 
 /** The code step of a segment whose unmatched cost is P. */
@@ -442,6 +451,7 @@ function termsOf(lat: Float64Array, lon: Float64Array, t: Float64Array, end: Flo
 // Above this h (pairs farther than ~127 km) the short-distance series below is not
 // used: every accepted pair then takes the exact formula.
 const SERIES_MAX_H = 1e-4;
+const SIXTH = 1 / 6;
 // A fast distance this close (relative) to the limit is decided by the exact formula.
 const EDGE = 1e-9;
 
@@ -511,7 +521,12 @@ export function buildCompactGraph(
   // (No prefilter on the sphere once the limit reaches half way round it.)
   const limit = euclid ? maxKm * maxKm : maxKm >= Math.PI * EARTH_RADIUS_KM ? Infinity : Math.sin(maxKm / EARTH_RADIUS_KM / 2) ** 2;
   const useSeries = !euclid && limit <= SERIES_MAX_H;
-  const kmPerMin = speed / 60;
+  // Reciprocals, so the pair loop multiplies: a division there cost about a tenth of
+  // the build (measured on a busy district's 114 M pairs). Each changes a cost by an
+  // ulp or so, far inside the fast distance's own error; the allowed set is still
+  // decided by the exact formula near the limit.
+  const minPerKm = 60 / speed;
+  const waitMinPerMs = waitWeight / 60_000;
   const cut = limit * SLACK_SQ;
 
   const rowDemand = new Int32Array(nDemand);
@@ -521,6 +536,7 @@ export function buildCompactGraph(
   const wide = new Map<number, Int32Array>();
   const P = config.abandonPenalty;
   const step = codeStep(P);
+  const perStep = 1 / step;
   let nnz = 0;
   store.ensure(reserve > 0 ? reserve : Math.max(1024, Math.min(RESERVE_PAIRS, nDemand * nSupply)), 0);
   // One row's pairs while it is scanned (its lowest column, the words' base, is known only after).
@@ -597,7 +613,7 @@ export function buildCompactGraph(
             const y = sTerms[o + 2]! * u3 - sTerms[o + 3]! * u2;
             const h = x * x + sTerms[o + 4]! * u4 * y * y;
             if (!(h <= cut)) continue;
-            km = useSeries ? 2 * EARTH_RADIUS_KM * Math.sqrt(h) * (1 + h / 6 + 0.075 * h * h) : haversineCosKm(supplyA[j]!, supplyB[j]!, sTerms[o + 4]!, demandA[d]!, demandB[d]!, u4);
+            km = useSeries ? 2 * EARTH_RADIUS_KM * Math.sqrt(h) * (1 + h * SIXTH + 0.075 * h * h) : haversineCosKm(supplyA[j]!, supplyB[j]!, sTerms[o + 4]!, demandA[d]!, demandB[d]!, u4);
           }
           if (capWords === 1) {
             if ((needs1 & ~sTerms[o + T_CAPS]!) !== 0) continue;
@@ -611,7 +627,7 @@ export function buildCompactGraph(
             }
             if (!ok) continue;
           }
-          const travel = km / kmPerMin;
+          const travel = km * minPerKm;
           let c: number;
           if (Math.abs(travel - maxTravel) <= EDGE * (maxTravel + travel) || travel !== travel) {
             // Near the limit the exact formula decides (and gives the cost).
@@ -620,7 +636,7 @@ export function buildCompactGraph(
           } else {
             if (!(travel <= maxTravel)) continue;
             const wait = sTerms[o + T_T]! - t;
-            c = travel + (wait > 0 ? (waitWeight * wait) / 60_000 : 0);
+            c = travel + (wait > 0 ? waitMinPerMs * wait : 0);
           }
           if (len === rowCols.length) {
             const cols = new Int32Array(2 * len);
@@ -631,7 +647,7 @@ export function buildCompactGraph(
             rowCodes = codes;
           }
           rowCols[len] = j;
-          rowCodes[len++] = costCode(c, P, step);
+          rowCodes[len++] = costCode(c, P, perStep);
         }
         bucket.length = keep;
       }
