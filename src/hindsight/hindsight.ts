@@ -136,6 +136,7 @@ export async function solveHindsight(
   const marketOpts: HindsightMarketOptions = {};
   if (opts.candidatesPerDemand !== undefined) marketOpts.candidatesPerDemand = opts.candidatesPerDemand;
   if (opts.addPerRow !== undefined) marketOpts.addPerRow = opts.addPerRow;
+  if (opts.addPerColumn !== undefined) marketOpts.addPerColumn = opts.addPerColumn;
   if (opts.cover) marketOpts.cover = true;
   if (threads > 1 && !hindsightWorkerAvailable()) {
     const warn = opts.onWarning ?? ((msg: string) => process.emitWarning(msg, 'PairflowWarning'));

@@ -132,6 +132,12 @@ export interface HindsightMarketOptions {
    * @default 4
    */
   addPerRow?: number;
+  /**
+   * Pairs added per supply in each pricing round besides: its most negative reduced
+   * costs among those its demands left out (see pricing.ts). 0 adds by rows alone.
+   * @default 1
+   */
+  addPerColumn?: number;
   /** Clock for `ms`. @default performance.now */
   now?: () => number;
   /** Also return the minimum vertex cover behind the match ceiling (one more pass over the pairs). @default false */
@@ -161,6 +167,8 @@ export interface HindsightMarketDetail {
 export const DEFAULT_CANDIDATES_PER_DEMAND = 8;
 /** @default addPerRow */
 export const DEFAULT_ADD_PER_ROW = 4;
+/** @default addPerColumn */
+export const DEFAULT_ADD_PER_COLUMN = 1;
 
 /** What one time segment of a market yields. */
 interface SegmentResult {
@@ -289,6 +297,7 @@ function solveSegment(
 ): SegmentResult {
   const k = Math.max(1, Math.floor(opts.candidatesPerDemand ?? DEFAULT_CANDIDATES_PER_DEMAND));
   const addPerRow = Math.max(1, Math.floor(opts.addPerRow ?? DEFAULT_ADD_PER_ROW));
+  const addPerColumn = Math.max(0, Math.floor(opts.addPerColumn ?? DEFAULT_ADD_PER_COLUMN));
   const P = config.abandonPenalty;
   const phases = zeroPhases();
   let tPhase = now();
@@ -317,7 +326,7 @@ function solveSegment(
       else unmarkCandidate(words, e);
     }
   }
-  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P);
+  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn);
   lap('setupMs');
 
   let pricingRounds = 0;

@@ -40,6 +40,61 @@ describe('Pricer.pass()', () => {
   });
 });
 
+describe('Pricer.pass() adding by columns', () => {
+  // Three demands at one spot and two supplies, 1 and 2 km away (3 and 6 min at 20
+  // km/h), all present together: under u = P and v = 0 all six pairs price out, and
+  // each row's most negative is the near supply.
+  const units: HindsightUnit[] = [
+    { side: 'supply', t: 0, end: 5000, x: 1, y: 0 },
+    { side: 'supply', t: 0, end: 5000, x: 2, y: 0 },
+    { side: 'demand', t: 100, end: 1000, x: 0, y: 0 },
+    { side: 'demand', t: 100, end: 2000, x: 0, y: 0 },
+    { side: 'demand', t: 100, end: 3000, x: 0, y: 0 },
+  ];
+  const setup = (perColumn: number) => {
+    const m = packMarket(units, config);
+    const g = buildCompactGraph(m, config);
+    const colLo = new Int32Array(g.nRows);
+    const colHi = new Int32Array(g.nRows).fill(m.nSupply - 1);
+    const pricer = new Pricer(g, pairCostOf(m, config), colLo, colHi, 1, config.abandonPenalty, perColumn);
+    return { m, g, pricer, u: new Float64Array(g.nRows).fill(config.abandonPenalty), v: new Float64Array(g.nCols) };
+  };
+
+  it('adds by rows alone when asked for none a column: every row takes the near supply', () => {
+    const { pricer, u, v } = setup(0);
+    const found = pricer.pass(u, v);
+    expect(found.violators).toBe(6);
+    expect(Array.from(found.cols.subarray(0, found.n))).toEqual([0, 0, 0]);
+  });
+
+  it('adds the far supply by its own most negative pair, which no row took, once', () => {
+    const { m, g, pricer, u, v } = setup(1);
+    const found = pricer.pass(u, v);
+    expect(found.violators).toBe(6);
+    // The rows' three first (rows ascending), then the far column's: a three-way tie
+    // at 6 min, kept by the first row that found it.
+    expect(Array.from(found.rows.subarray(0, found.n))).toEqual([0, 1, 2, 0]);
+    expect(Array.from(found.cols.subarray(0, found.n))).toEqual([0, 0, 0, 1]);
+    expect(found.costs[3]).toBe(pairCostOf(m, config)(g.rowDemand[0]!, 1));
+    expect(found.costs[3]).toBeCloseTo(6, 9);
+    // All four are candidates now: the same prices find the two pairs left.
+    const again = pricer.pass(u, v);
+    expect(again.violators).toBe(2);
+    expect(Array.from(again.rows.subarray(0, again.n))).toEqual([1, 2]);
+    expect(Array.from(again.cols.subarray(0, again.n))).toEqual([1, 1]);
+  });
+
+  it('adds nothing by a column whose most negative pair its row already took', () => {
+    // One demand, two supplies: addPerRow 1 takes the near one; the far one is the
+    // only violator left and its column adds it.
+    const m = packMarket([units[0]!, units[1]!, units[2]!], config);
+    const g = buildCompactGraph(m, config);
+    const pricer = new Pricer(g, pairCostOf(m, config), new Int32Array(1), new Int32Array(1).fill(1), 1, config.abandonPenalty, 2);
+    const found = pricer.pass(new Float64Array(1).fill(config.abandonPenalty), new Float64Array(2));
+    expect(Array.from(found.cols.subarray(0, found.n))).toEqual([0, 1]);
+  });
+});
+
 describe('Pricer.pass() skipping rows by their bounds', () => {
   /** The compact graph of `units`, each row's column range and the cost of its cheapest pair (P when none). */
   function graphWithRanges(units: readonly HindsightUnit[], cfg: PairflowConfig) {
