@@ -109,20 +109,21 @@ export interface HindsightDemandCosts {
 export interface HindsightMarketOptions {
   /**
    * Candidate pairs per demand in the first restricted solve (its k cheapest). Any
-   * k ≥ 1 gives the same optimum; a small k means more pricing rounds. Measured on
-   * the busiest district of a generated day, one thread, alternating runs: at scale 4
-   * (114 M allowed pairs) k = 8 took 15.3–16.2 s against 15.8–16.7 s at 12 (16 rounds
-   * either way; 6: 15.3–15.7 s, 17 rounds; 16: 16.3–17.0 s, 15 rounds), at scale 1
-   * 1.28–1.29 s against 1.32–1.35 s, on the demo week's largest 8.55–8.57 s against
-   * 8.83–8.86 s; at scale 8 (one run each) 74.6 s against 72.8 s, 21 rounds against
-   * 19 — fewer first candidates cost rounds once the market is that dense.
-   * @default 8
+   * k ≥ 1 gives the same optimum; a small k means more pricing rounds. Measured with
+   * one pair a column added per round (`addPerColumn`) on the busiest district of a
+   * generated day, one thread, alternating runs: at scale 4 (114 M allowed pairs)
+   * k = 4 took 13.4–13.7 s in 13 rounds against 14.3 s in 12 at 8 (2: 13.9–14.5 s,
+   * 14 rounds; 3: 13.8–14.1 s; 6: 13.6 s; 12: 15.1 s), at scale 1 1.21–1.24 s
+   * against 1.29–1.30 s, on the demo week's largest 7.95–8.10 s against 8.85–9.09 s,
+   * at scale 8 (one run each) 61.9 s against 64.6 s, 15 rounds either way. (By rows
+   * alone, before that rule, 8 was best and fewer cost rounds at scale 8.)
+   * @default 4
    */
   candidatesPerDemand?: number;
   /**
    * Pairs added per demand in each pricing round: its most negative reduced costs.
    * Each pair added makes the re-solves' searches wider, each one left out may cost
-   * a round: counted on a busy district's day (`gen --scale 4`, 114 M allowed pairs),
+   * a round: counted (by rows alone, before `addPerColumn`) on a busy district's day (`gen --scale 4`, 114 M allowed pairs),
    * 12 a row took 12 rounds, 912 M pairs scanned by the re-solves and 930 M read by
    * the pricing passes; 4 a row 16 rounds, 540 M and 1,267 M (6: 14, 622 M, 1,124 M;
    * 2: 22, 432 M, 1,670 M). A pair scanned in a search costs about twice a pair read
@@ -164,7 +165,7 @@ export interface HindsightMarketDetail {
 }
 
 /** @default candidatesPerDemand */
-export const DEFAULT_CANDIDATES_PER_DEMAND = 8;
+export const DEFAULT_CANDIDATES_PER_DEMAND = 4;
 /** @default addPerRow */
 export const DEFAULT_ADD_PER_ROW = 4;
 /** @default addPerColumn */
