@@ -1,14 +1,15 @@
 /**
  * The pricing pass of the hindsight optimum (SPEC §4): under the restricted solves'
  * prices, the reduced cost `c − u_d − v_s` of every allowed pair that is not a
- * candidate yet; the most negative few of each row become candidates, and the most
- * negative of each column that its rows left out. An exhaustive pass that finds none
- * proves the prices feasible for the LP over all allowed pairs. Pure.
+ * candidate yet; the most negative few of each row become candidates, and so does
+ * each column's most negative pair where its row did not take it. An exhaustive pass
+ * that finds none proves the prices feasible for the LP over all allowed pairs. Pure.
  *
  * Why columns too: while prices are far from the end, many rows price out against the
  * same few cheap columns and each adds those; a column just beyond them, which the
  * next prices will want, is in no row's few and waits a round. Its own most negative
- * pair brings it in at once. Measured on a busy district's day (`gen --scale 4`, 114 M
+ * pair brings it in at once (a column whose most negative pair its row took adds
+ * nothing more: it is in already). Measured on a busy district's day (`gen --scale 4`, 114 M
  * allowed pairs, 4 a row, one thread, alternating runs): 16 rounds by rows alone, 12
  * with one a column, 11 with two; pricing passes and re-solves 9.9–10.0 s, 8.2–8.3 s
  * and 8.6–8.8 s (at scale 8: 21 rounds by rows alone, 15 with one a column). Which
@@ -49,7 +50,7 @@ const BOUND_SLACK = 2 ** -22;
 
 /**
  * The pairs one pass adds: each row's, rows ascending (each row's in the order found),
- * then each column's not added by its rows, columns ascending.
+ * then each column's most negative where its row did not take it, columns ascending.
  */
 export interface PricedOut {
   /** Pairs that price out, added or not. */
@@ -98,8 +99,8 @@ export class Pricer {
    * @param colHi per row, its highest column
    * @param addPerRow pairs added per row and pass: its most negative reduced costs
    * @param P the unmatched cost: a violator costs less (its c < u + v ≤ P)
-   * @param addPerColumn pairs added per column and pass besides: its most negative
-   *   reduced costs among the violators its rows left out
+   * @param addPerColumn the most negative reduced costs kept per column and pass;
+   *   those their rows did not take are added besides
    */
   constructor(
     private readonly g: CompactGraph,
@@ -297,8 +298,8 @@ export class Pricer {
         nNew++;
       }
     }
-    // Then each column's own, where its rows left them out (a pair its row added is
-    // marked by now). The row was not clean if it left out a violator.
+    // Then each column's own, where its row did not take it (a pair its row added is
+    // marked by now). Such a row was not clean: it left out a violator.
     for (let col = 0; perCol > 0 && col < nCols; col++) {
       const n = colCount[col]!;
       for (let q = col * perCol; q < col * perCol + n; q++) {

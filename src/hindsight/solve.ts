@@ -123,19 +123,21 @@ export interface HindsightMarketOptions {
   /**
    * Pairs added per demand in each pricing round: its most negative reduced costs.
    * Each pair added makes the re-solves' searches wider, each one left out may cost
-   * a round: counted (by rows alone, before `addPerColumn`) on a busy district's day (`gen --scale 4`, 114 M allowed pairs),
-   * 12 a row took 12 rounds, 912 M pairs scanned by the re-solves and 930 M read by
-   * the pricing passes; 4 a row 16 rounds, 540 M and 1,267 M (6: 14, 622 M, 1,124 M;
-   * 2: 22, 432 M, 1,670 M). A pair scanned in a search costs about twice a pair read
-   * in a pricing pass (15 against 7.5 ns there), so 4 and 6 come out even and about a
-   * seventh under 12; on the demo week's largest district 4 came out ahead of 6
-   * (re-solves 9.8 s at 12, 7.4 s at 6, 6.6 s at 4), and holds a quarter fewer pairs.
+   * a round: counted (by rows alone, before `addPerColumn`) on a busy district's day
+   * (`gen --scale 4`, 114 M allowed pairs), 12 a row took 12 rounds, 912 M pairs
+   * scanned by the re-solves and 930 M read by the pricing passes; 4 a row 16 rounds,
+   * 540 M and 1,267 M (6: 14, 622 M, 1,124 M; 2: 22, 432 M, 1,670 M). A pair scanned
+   * in a search costs about twice a pair read in a pricing pass (15 against 7.5 ns
+   * there), so 4 and 6 come out even and about a seventh under 12; on the demo week's
+   * largest district 4 came out ahead of 6 (re-solves 9.8 s at 12, 7.4 s at 6, 6.6 s
+   * at 4), and holds a quarter fewer pairs. With the column rule (4 first candidates),
+   * 3 and 5 a row measured within noise of 4 (13.3–13.9 s), 6 slower (14.7 s).
    * @default 4
    */
   addPerRow?: number;
   /**
-   * Pairs added per supply in each pricing round besides: its most negative reduced
-   * costs among those its demands left out (see pricing.ts). 0 adds by rows alone.
+   * Pairs kept per supply in each pricing round: its most negative reduced costs,
+   * added where their demand did not take them (see pricing.ts). 0 adds by rows alone.
    * @default 1
    */
   addPerColumn?: number;

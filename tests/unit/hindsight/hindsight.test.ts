@@ -9,6 +9,7 @@ import {
   solveHindsight,
   solveHindsightMarket,
   solveHindsightMarketDetailed,
+  type HindsightMarketDetail,
   type HindsightResult,
 } from '../../../src/hindsight/hindsight.js';
 import { buildOccurrences, type Occurrence } from '../../../src/window/occurrences.js';
@@ -123,6 +124,17 @@ function close(a: number, b: number, rel = 1e-9): boolean {
   return Math.abs(a - b) <= rel * Math.max(1, Math.abs(a), Math.abs(b));
 }
 
+/** SPEC §5's certificate of a market's detailed result over its whole allowed graph, every demand free to go unmatched at P. */
+function certificateOf(r: { cost: number; detail: HindsightMarketDetail }, P: number): ReturnType<typeof checkCertificate> {
+  const { graph, rowDuals, colDuals, rowToCol } = r.detail;
+  const colToRow = new Int32Array(graph.nCols).fill(-1);
+  rowToCol.forEach((c, row) => {
+    if (c >= 0) colToRow[c] = row;
+  });
+  const inst = { ...graph, unmatchedCost: new Float64Array(graph.nRows).fill(P) };
+  return checkCertificate(inst, { cost: r.cost, rowToCol, colToRow, rowDuals, colDuals, stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false } });
+}
+
 const SEEDS = Array.from({ length: 60 }, (_, i) => 1000 + i);
 const hasScipy = scipyVersion() !== null;
 
@@ -189,13 +201,7 @@ describe('solveHindsightMarket()', () => {
           const r = solveHindsightMarketDetailed(occ, log.config, { candidatesPerDemand: 1, addPerRow: 1, addPerColumn });
           expect(close(r.cost, byRows.cost), `seed ${seed}, ${addPerColumn} a column: ${r.cost} vs ${byRows.cost}`).toBe(true);
           expect(r.matched, `seed ${seed}`).toBe(byRows.matched);
-          const { graph, rowDuals, colDuals, rowToCol } = r.detail;
-          const colToRow = new Int32Array(graph.nCols).fill(-1);
-          rowToCol.forEach((c, row) => {
-            if (c >= 0) colToRow[c] = row;
-          });
-          const inst = { ...graph, unmatchedCost: new Float64Array(graph.nRows).fill(log.config.abandonPenalty) };
-          const rep = checkCertificate(inst, { cost: r.cost, rowToCol, colToRow, rowDuals, colDuals, stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false } });
+          const rep = certificateOf(r, log.config.abandonPenalty);
           expect(rep.ok, `seed ${seed}: ${rep.problems.join('; ')}`).toBe(true);
           if (r.pricingRounds < byRows.pricingRounds) fewerRounds++;
         }
@@ -212,16 +218,7 @@ describe('solveHindsightMarket()', () => {
       for (const occ of byMarket(occurrences).values()) {
         for (const k of [1, 3]) {
           const r = solveHindsightMarketDetailed(occ, log.config, { candidatesPerDemand: k });
-          const { graph, rowDuals, colDuals, rowToCol } = r.detail;
-          const colToRow = new Int32Array(graph.nCols).fill(-1);
-          rowToCol.forEach((c, row) => {
-            if (c >= 0) colToRow[c] = row;
-          });
-          const inst = { ...graph, unmatchedCost: new Float64Array(graph.nRows).fill(log.config.abandonPenalty) };
-          const rep = checkCertificate(inst, {
-            cost: r.cost, rowToCol, colToRow, rowDuals, colDuals,
-            stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false },
-          });
+          const rep = certificateOf(r, log.config.abandonPenalty);
           expect(rep.ok, `seed ${seed} k=${k}: ${rep.problems.join('; ')}`).toBe(true);
           expect(close(rep.primalCost, r.cost), `seed ${seed}`).toBe(true);
         }
@@ -241,13 +238,7 @@ describe('solveHindsightMarket()', () => {
         const r = solveHindsightMarketDetailed(occ, config, { candidatesPerDemand: 1 });
         const full = solveHindsightMarket(occ, config, { candidatesPerDemand: 1_000_000 });
         expect(close(r.cost, full.cost), `seed ${seed}: ${r.cost} vs all pairs ${full.cost}`).toBe(true);
-        const { graph, rowDuals, colDuals, rowToCol } = r.detail;
-        const colToRow = new Int32Array(graph.nCols).fill(-1);
-        rowToCol.forEach((c, row) => {
-          if (c >= 0) colToRow[c] = row;
-        });
-        const inst = { ...graph, unmatchedCost: new Float64Array(graph.nRows).fill(config.abandonPenalty) };
-        const rep = checkCertificate(inst, { cost: r.cost, rowToCol, colToRow, rowDuals, colDuals, stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false } });
+        const rep = certificateOf(r, config.abandonPenalty);
         expect(rep.ok, `seed ${seed}: ${rep.problems.join('; ')}`).toBe(true);
         rechecks += r.detail.rechecks;
       }
@@ -263,13 +254,7 @@ describe('solveHindsightMarket()', () => {
       const { occurrences } = buildOccurrences(sorted(log.events), log.config);
       for (const occ of byMarket(occurrences).values()) {
         const r = solveHindsightMarketDetailed(occ, log.config, { candidatesPerDemand: 1, addPerRow: 1 });
-        const { graph, rowDuals, colDuals, rowToCol } = r.detail;
-        const colToRow = new Int32Array(graph.nCols).fill(-1);
-        rowToCol.forEach((c, row) => {
-          if (c >= 0) colToRow[c] = row;
-        });
-        const inst = { ...graph, unmatchedCost: new Float64Array(graph.nRows).fill(log.config.abandonPenalty) };
-        const rep = checkCertificate(inst, { cost: r.cost, rowToCol, colToRow, rowDuals, colDuals, stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false } });
+        const rep = certificateOf(r, log.config.abandonPenalty);
         expect(rep.ok, `seed ${seed}: ${rep.problems.join('; ')}`).toBe(true);
         // Without skipping, every round prices every row.
         full += r.pricingRounds * r.demandUnits;
@@ -314,13 +299,7 @@ describe('solveHindsightMarket()', () => {
     const pairs = Array.from(part.demandCost);
     expect(Array.from(whole.demandCost)).toEqual(pairs.flatMap((c) => [c, c]));
     // The merged prices still certify the whole market.
-    const { graph, rowDuals, colDuals, rowToCol } = whole.detail;
-    const colToRow = new Int32Array(graph.nCols).fill(-1);
-    rowToCol.forEach((c, row) => {
-      if (c >= 0) colToRow[c] = row;
-    });
-    const inst = { ...graph, unmatchedCost: new Float64Array(graph.nRows).fill(log.config.abandonPenalty) };
-    const rep = checkCertificate(inst, { cost: whole.cost, rowToCol, colToRow, rowDuals, colDuals, stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false } });
+    const rep = certificateOf(whole, log.config.abandonPenalty);
     expect(rep.ok, rep.problems.join('; ')).toBe(true);
   });
 
