@@ -9,12 +9,12 @@
  * same few cheap columns and each adds those; a column just beyond them, which the
  * next prices will want, is in no row's few and waits a round. Its own most negative
  * pair brings it in at once (a column whose most negative pair its row took adds
- * nothing more: it is in already). Measured on a busy district's day (`gen --scale 4`, 114 M
- * allowed pairs, 4 a row, one thread, alternating runs): 16 rounds by rows alone, 12
- * with one a column, 11 with two; pricing passes and re-solves 9.9–10.0 s, 8.2–8.3 s
- * and 8.6–8.8 s (at scale 8: 21 rounds by rows alone, 15 with one a column). Which
- * pairs are added changes the work, never the optimum: only a pass that finds no
- * violator ends the rounds.
+ * nothing more: it is in already). Measured on a busy district's day (`gen --scale
+ * 4`, 114 M allowed pairs, 8 first candidates and 4 a row, one thread, alternating
+ * runs): 16 rounds by rows alone, 12 with one a column, 11 with two; pricing passes
+ * and re-solves 9.9–10.0 s, 8.2–8.3 s and 8.6–8.8 s (at scale 8: 21 rounds by rows
+ * alone, 15 with one a column). Which pairs are added changes the work, never the
+ * optimum: only a pass that finds no violator ends the rounds.
  *
  * Incremental: a row whose last pricing found it clean (no violator left out) needs
  * no new pass while its price and the prices of all its columns stand still, as its
