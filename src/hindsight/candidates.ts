@@ -3,29 +3,27 @@
  * {@link RowVisitor}: each row is seen once, in cache, instead of in a pass of its
  * own over every pair). Pure.
  *
- * In the graph a candidate is marked by the top bit of its word (graph.ts): no array
- * of its own, and one bit the pricing passes read with the cost code anyway.
+ * In the graph a candidate is marked by its code byte (graph.ts): no array of its
+ * own, and a byte the pricing passes read anyway.
  */
 
-import { CODE_TOP, type RowVisitor } from './graph.js';
+import { CODE_TOP, isMarked, MARK, type RowVisitor } from './graph.js';
 
-const MARK = 0x80000000;
-
-/** Marks pair (word) `e` a candidate. */
-export function markCandidate(words: Uint32Array, e: number): void {
-  words[e] = (words[e]! | MARK) >>> 0;
+/** Marks pair `e` a candidate in the graph's `codes` (its code is gone). */
+export function markCandidate(codes: Uint8Array, e: number): void {
+  codes[e] = MARK;
 }
 
-/** Undoes {@link markCandidate}. */
-export function unmarkCandidate(words: Uint32Array, e: number): void {
-  words[e] = (words[e]! & ~MARK) >>> 0;
+/** Undoes {@link markCandidate} for a candidate found to cost P or more: its code is the top one. */
+export function dropCandidate(codes: Uint8Array, e: number): void {
+  codes[e] = CODE_TOP;
 }
 
 /**
  * Picks, row by row as the graph is built, the k cheapest pairs of every row and of
  * every column (cost below P): a supply that is nobody's favourite still gets its
  * best demands, so the first prices are not blind to it. Costs are compared by their
- * codes (ties, a thousandth of a minute apart at most, fall either way: any choice
+ * codes (ties, an eighth of a minute apart at most, fall either way: any choice
  * of candidates gives the same optimum). Also notes each row's column range.
  *
  * The cheapest pairs alone cannot match enough rows: near each other in time and
@@ -56,9 +54,12 @@ export class FirstCandidates implements RowVisitor {
 
   /** Rows the earliest-deadline greedy matched (see {@link row}). */
   greedy = 0;
-  /** The greedy's pairs (words), rows ascending, for the caller to add (not marked here). */
+  /** The greedy's pairs, rows ascending, for the caller to add (not marked here). */
   readonly greedyEdges: Int32Array;
   private readonly taken: Uint8Array | null;
+  /** The pairs marked so far, in the order marked (each once). */
+  private marked = new Int32Array(1024);
+  private nMarked = 0;
   /**
    * @param k candidates per row and per column
    * @param supplyEnd per column, when its unit leaves: with it, each row also picks the
@@ -82,7 +83,7 @@ export class FirstCandidates implements RowVisitor {
     this.bestEdge = new Int32Array(k);
   }
 
-  row(r: number, _demand: number, cols: Int32Array, codes: Uint16Array, len: number, start: number, words: Uint32Array): void {
+  row(r: number, _demand: number, cols: Int32Array, codes: Uint8Array, len: number, start: number, marks: Uint8Array): void {
     const { k, colCode, colEdge, colBar, bestCode, bestEdge, taken, supplyEnd } = this;
     let lo = this.nCols;
     let hi = -1;
@@ -141,12 +142,28 @@ export class FirstCandidates implements RowVisitor {
       taken![cols[bestI]!] = 1;
       this.greedyEdges[this.greedy++] = start + bestI;
     }
-    for (let q = 0; q < n; q++) markCandidate(words, bestEdge[q]!);
+    for (let q = 0; q < n; q++) this.mark(marks, bestEdge[q]!);
   }
 
-  /** Once the graph is built: marks the columns' picks as candidates too. */
-  markColumns(words: Uint32Array): void {
+  /**
+   * Once the graph is built: marks the columns' picks as candidates too (in the
+   * graph's `codes`), and returns every pair marked, ascending: the first restricted
+   * solve's pairs, without a pass over the graph to find them.
+   */
+  markColumns(marks: Uint8Array): Int32Array {
     const colEdge = this.colEdge;
-    for (let q = 0; q < colEdge.length; q++) if (colEdge[q]! >= 0) markCandidate(words, colEdge[q]!);
+    for (let q = 0; q < colEdge.length; q++) if (colEdge[q]! >= 0) this.mark(marks, colEdge[q]!);
+    return this.marked.subarray(0, this.nMarked).sort();
+  }
+
+  private mark(marks: Uint8Array, e: number): void {
+    if (isMarked(marks[e]!)) return;
+    markCandidate(marks, e);
+    if (this.nMarked === this.marked.length) {
+      const grown = new Int32Array(2 * this.nMarked);
+      grown.set(this.marked);
+      this.marked = grown;
+    }
+    this.marked[this.nMarked++] = e;
   }
 }

@@ -3,15 +3,17 @@
  * graph (no policy can match more pairs), seeded with the optimum's own pairs. Pure.
  */
 
-import { maxCardinalityMatching, minVertexCover, type VertexCover } from '../matching/cardinality.js';
-import { columnsInPlace, type CompactGraph } from './graph.js';
+import { maxCardinalityMatching, minVertexCover, type BipartiteGraph, type VertexCover } from '../matching/cardinality.js';
+import { plainColumns, type CompactGraph } from './graph.js';
 
 /**
- * Size of a maximum-cardinality matching of `g`. The graph's words become plain
- * columns in place first (graph.ts), so the ceiling needs no memory of its own per
- * pair; `g` is spent afterwards. Hopcroft–Karp seeds itself greedily with each row's
- * first free pair: with the optimum's pair moved first in each row, that seed is the
- * optimum's matching, and only the few rows it leaves short need augmenting.
+ * Size of a maximum-cardinality matching of `g`, read straight from the graph's
+ * 16-bit columns and row bases (graph.ts), so the ceiling needs no memory of its own
+ * per pair; only a graph with wide rows is copied to plain columns first (4 bytes a
+ * pair). Hopcroft–Karp seeds itself greedily with each row's first free pair: with
+ * the optimum's pair moved first in each row, that seed is the optimum's matching,
+ * and only the few rows it leaves short need augmenting. `g`'s columns are moved
+ * within their rows and its codes are not: `g` is spent afterwards.
  *
  * With `wantCover`, also a minimum vertex cover of the graph (König: as many units as
  * the ceiling), in graph rows and columns.
@@ -20,20 +22,22 @@ import { columnsInPlace, type CompactGraph } from './graph.js';
  */
 export function matchCeiling(g: CompactGraph, rowToCol: Int32Array, wantCover = false): { size: number; cover: VertexCover | null } {
   const { nRows, nCols, rowPtr } = g;
-  const colIdx = columnsInPlace(g);
+  const plain: BipartiteGraph = g.wide.size === 0 ? { nRows, nCols, rowPtr, colIdx: g.cols, rowBase: g.rowBase } : { nRows, nCols, rowPtr, colIdx: plainColumns(g) };
+  const { colIdx } = plain;
+  const rowBase = plain.rowBase;
   for (let r = 0; r < nRows; r++) {
     const c = rowToCol[r]!;
     if (c < 0) continue;
+    const at = c - (rowBase?.[r] ?? 0);
     const first = rowPtr[r]!;
     const end = rowPtr[r + 1]!;
     for (let e = first; e < end; e++) {
-      if (colIdx[e] !== c) continue;
+      if (colIdx[e] !== at) continue;
       colIdx[e] = colIdx[first]!;
-      colIdx[first] = c;
+      colIdx[first] = at;
       break;
     }
   }
-  const plain = { nRows, nCols, rowPtr, colIdx };
   const matching = maxCardinalityMatching(plain);
   return { size: matching.size, cover: wantCover ? minVertexCover(plain, matching) : null };
 }

@@ -13,8 +13,8 @@
  * from the grid cells around it (see {@link buildCompactGraph}). Each pair is found
  * exactly once, and never by comparing all pairs.
  *
- * A week of a busy market has tens of millions of pairs, so the solve keeps them
- * compact (see {@link CompactGraph}): one 32-bit word a pair, written once, in place.
+ * A week of a busy market has hundreds of millions of pairs, so the solve keeps them
+ * compact (see {@link CompactGraph}): three bytes a pair, written once, in place.
  */
 
 import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
@@ -267,20 +267,26 @@ export function pairCostOf(m: PackedMarket, config: PairflowConfig): PairCost {
 }
 
 /**
- * The allowed pairs of one market in CSR form, stored for size: one 32-bit word per
- * pair (see {@link pairWord}). Rows are graph rows, one per demand, numbered in the
- * order their demands leave (by `end`, then index), so no row's pairs ever need
- * moving. A word holds the pair's column less its row's lowest column (16 bits), a
- * code of its cost (15 bits: a cost step of P/32767, so the code bounds the cost
- * within about a thousandth of a minute at P = 30, and the top code says "≥ P"), and
- * the candidate mark. Whatever must be exact (the restricted solves, the
- * certificate, a pricing decision within a step of zero) recomputes the cost with
- * {@link pairCostOf}. A row whose columns span more than 65 535 keeps its columns
- * apart (`wide`); a week of a busy city has none.
+ * The allowed pairs of one market in CSR form, stored for size: three bytes a pair.
+ * Rows are graph rows, one per demand, numbered in the order their demands leave (by
+ * `end`, then index), so no row's pairs ever need moving. A pair holds its column
+ * less its row's lowest column (`cols`, 16 bits) and a byte (`codes`): a code of its
+ * cost (a cost step of P/254, so the code bounds the cost within about an eighth of
+ * a minute at P = 30, and the top code says "≥ P"), or the candidate mark, which
+ * takes the code's place (a candidate's cost is exact in the restricted solve, and
+ * no pass over the graph needs its code again). A decision the code cannot make (a pricing decision within a
+ * step of zero) takes the cost the graph build computed ({@link quickPairCostOf}),
+ * and whatever must be exact (the restricted solves, the certificate, a decision
+ * within rounding of zero) recomputes it with {@link pairCostOf}. A row whose
+ * columns span more than 65 535 keeps its columns apart (`wide`); a week of a busy
+ * city has none.
  *
  * Why so small: the graph is most of the hindsight's memory (a busy district's day
- * holds a hundred million pairs), two markets are solved at once, and a pricing pass
- * streams through all of it; half the bytes of a column and a float32 cost.
+ * holds a hundred million pairs, a week's eight hundred million), two markets are
+ * solved at once, and a pricing pass streams through all of it. A 15-bit code in a
+ * 32-bit word (the layout before) needed no second look at 99.9 % of the pairs a
+ * pricing pass reads in full; the byte sends about 1 in 100 of them to the build's
+ * cost, which the pass can afford (measured below, at {@link CODE_TOP}).
  */
 export interface CompactGraph {
   readonly nRows: number;
@@ -289,36 +295,41 @@ export interface CompactGraph {
   readonly rowDemand: Int32Array;
   /** Graph row of each demand. */
   readonly demandRow: Int32Array;
-  /** Length nRows + 1: graph row r's pairs are `words[rowPtr[r] .. rowPtr[r + 1])`, in sweep order. */
+  /** Length nRows + 1: graph row r's pairs are `rowPtr[r] .. rowPtr[r + 1]` of `cols` and `codes`, in sweep order. */
   readonly rowPtr: Int32Array;
-  /** The lowest column of each row's pairs (what the words' column bits add to). */
+  /** The lowest column of each row's pairs (what `cols` adds to). */
   readonly rowBase: Int32Array;
-  /** One word per pair (see {@link pairWord}). */
-  readonly words: Uint32Array;
-  /** The columns of each wide row (span over 65 535), by row; its words' column bits are 0. */
+  /** Per pair, its column less its row's base (0 in a wide row). */
+  readonly cols: Uint16Array;
+  /** Per pair, its cost code under the candidate mark (see {@link codeOf}, {@link isMarked}). */
+  readonly codes: Uint8Array;
+  /** The columns of each wide row (span over 65 535), by row. */
   readonly wide: ReadonlyMap<number, Int32Array>;
   /** Cost of one code step: code q means a cost in [q·step, (q + 1)·step); {@link CODE_TOP} means ≥ P. */
   readonly step: number;
 }
 
-/** The code of a cost of P or more (a pair that can never price out or be worth matching). */
-export const CODE_TOP = 0x7fff;
+/**
+ * The code of a cost of P or more (a pair that can never price out or be worth
+ * matching). Measured on a busy district's day (`gen --scale 4`, 114 M pairs, one
+ * thread): with codes of 7 bits the pricing passes took the build's cost 21 M times
+ * over 12 rounds and took 5.2 s against 4.0 s with 15 bits (13 rounds, 0.17 M);
+ * 8 bits halve those second looks.
+ */
+export const CODE_TOP = 0xfe;
+/** A candidate's byte in place of its code: above every code, so a pass skips it with the top code. */
+export const MARK = 0xff;
 /** Largest column span a row's 16 column bits can hold. */
 const SPAN = 0xffff;
 
-/** A pair's word: column bits (column − row base), then the cost code, the candidate mark on top. */
-export function pairWord(delta: number, code: number): number {
-  return ((code << 16) | delta) >>> 0;
-}
-
-/** The cost code of a word (15 bits; the mark dropped). */
-export const codeOf = (w: number): number => (w >>> 16) & CODE_TOP;
-/** Whether a word's pair is marked a candidate. */
-export const isMarked = (w: number): boolean => w >>> 31 === 1;
+/** The cost code of an unmarked pair's byte. */
+export const codeOf = (b: number): number => b;
+/** Whether a pair's byte is the candidate mark. */
+export const isMarked = (b: number): boolean => b === MARK;
 
 /**
  * The cost code of cost c ≥ 0, P being the unmatched cost and `perStep` = 1 / step
- * (32767 / P). A multiplication by the reciprocal, truncated, instead of a division
+ * (254 / P). A multiplication by the reciprocal, truncated, instead of a division
  * and a floor (the graph build computes one for each of its hundred million pairs):
  * c · perStep is within an ulp or two of c / step, so the code can differ from
  * ⌊c / step⌋ only for a cost within about 2^-51 (relative) of a step's edge, far
@@ -339,35 +350,33 @@ export function codeStep(P: number): number {
 /** The column of pair e of row r (any row, wide or not). */
 export function columnOf(g: CompactGraph, r: number, e: number): number {
   const wide = g.wide.get(r);
-  return wide === undefined ? g.rowBase[r]! + (g.words[e]! & SPAN) : wide[e - g.rowPtr[r]!]!;
+  return wide === undefined ? g.rowBase[r]! + g.cols[e]! : wide[e - g.rowPtr[r]!]!;
 }
 
 /**
- * Turns the words into plain columns, in place: the graph's pairs as an Int32Array of
- * columns over the same memory (for the match ceiling, which needs nothing else).
- * The graph's words are gone afterwards.
+ * The graph's pairs as plain columns, in a new array (4 bytes a pair): for a match
+ * ceiling over a graph with wide rows, and for tests.
  */
-export function columnsInPlace(g: CompactGraph): Int32Array {
-  const cols = new Int32Array(g.words.buffer, g.words.byteOffset, g.words.length);
+export function plainColumns(g: CompactGraph): Int32Array {
+  const out = new Int32Array(g.cols.length);
   for (let r = 0; r < g.nRows; r++) {
     const wide = g.wide.get(r);
     const start = g.rowPtr[r]!;
-    const end = g.rowPtr[r + 1]!;
     if (wide !== undefined) {
-      cols.set(wide, start);
+      out.set(wide, start);
       continue;
     }
     const base = g.rowBase[r]!;
-    for (let e = start; e < end; e++) cols[e] = base + (g.words[e]! & SPAN);
+    for (let e = start; e < g.rowPtr[r + 1]!; e++) out[e] = base + g.cols[e]!;
   }
-  return cols;
+  return out;
 }
 
 // Pairs the first buffers are sized for. Pages of a typed array that are never
 // written are never made resident (the zeroed memory comes from the system as it is
 // touched), so a roomy first reservation costs address space, not memory, and spares
 // the copies of growing: growing a week's graph of a busy district (800 M pairs) from
-// 2^27 took three copies, the last holding 2 GB of old words beside the new ones.
+// 2^27 took three copies, the last holding 2 GB of old pairs beside the new ones.
 const RESERVE_PAIRS = 1 << 30;
 
 /**
@@ -376,36 +385,42 @@ const RESERVE_PAIRS = 1 << 30;
  * before the next may share a store.
  */
 export class GraphStore {
-  words = new Uint32Array(0);
+  cols = new Uint16Array(0);
+  codes = new Uint8Array(0);
 
   /** Room for at least `n` pairs, keeping the first `keep`. */
   ensure(n: number, keep: number): void {
-    if (n <= this.words.length) return;
-    let cap = Math.max(n, Math.min(RESERVE_PAIRS, 2 * n), 2 * this.words.length);
-    let words: Uint32Array<ArrayBuffer> | null = null;
+    if (n <= this.cols.length) return;
+    let cap = Math.max(n, Math.min(RESERVE_PAIRS, 2 * n), 2 * this.cols.length);
+    let cols: Uint16Array<ArrayBuffer> | null = null;
+    let codes: Uint8Array<ArrayBuffer> | null = null;
     // A system that will not promise that much address space gets a smaller reservation.
-    while (words === null) {
+    while (codes === null) {
       try {
-        words = new Uint32Array(cap);
+        cols = new Uint16Array(cap);
+        codes = new Uint8Array(cap);
       } catch (err) {
+        cols = null;
         if (!(err instanceof RangeError) || cap <= n) throw err;
         cap = Math.max(n, Math.floor(cap / 2));
       }
     }
-    words.set(this.words.subarray(0, keep));
-    this.words = words;
+    cols!.set(this.cols.subarray(0, keep));
+    codes.set(this.codes.subarray(0, keep));
+    this.cols = cols!;
+    this.codes = codes;
   }
 }
 
 /**
  * Sees each graph row once, as its pairs are written: their columns and cost codes
- * are `cols` / `codes` over `[0, n)`, and pair i of them is word
- * `start + i` of `words` (where a candidate is marked). What must look at every pair
- * (the first candidates) does it here, while the row is in cache, instead of in a
- * pass of its own over the whole graph.
+ * are `cols` / `codes` over `[0, n)`, and pair i of them is pair `start + i` of the
+ * graph, whose byte in `marks` (the graph's `codes`) is where a candidate is marked.
+ * What must look at every pair (the first candidates) does it here, while the row is
+ * in cache, instead of in a pass of its own over the whole graph.
  */
 export interface RowVisitor {
-  row(r: number, demand: number, cols: Int32Array, codes: Uint16Array, n: number, start: number, words: Uint32Array): void;
+  row(r: number, demand: number, cols: Int32Array, codes: Uint8Array, n: number, start: number, marks: Uint8Array): void;
 }
 
 /**
@@ -452,6 +467,11 @@ function termsOf(lat: Float64Array, lon: Float64Array, t: Float64Array, end: Flo
 // used: every accepted pair then takes the exact formula.
 const SERIES_MAX_H = 1e-4;
 const SIXTH = 1 / 6;
+
+/** Great-circle km of haversine term h ≤ SERIES_MAX_H: 2R·asin(√h) by its series. */
+function seriesKm(h: number): number {
+  return 2 * EARTH_RADIUS_KM * Math.sqrt(h) * (1 + h * SIXTH + 0.075 * h * h);
+}
 // A fast distance this close (relative) to the limit is decided by the exact formula.
 const EDGE = 1e-9;
 
@@ -463,7 +483,7 @@ const EDGE = 1e-9;
  * demand d leaves, every supply it can ever meet has arrived, so its row is the
  * supplies of the 5×5 half-reach cells around it still present at some instant
  * of d's stay: one scan of the grid, its pairs written in sequence straight into the
- * words. (Building each pair from the side that arrived later, as a first version
+ * graph. (Building each pair from the side that arrived later, as a first version
  * did, wrote the pairs of an arriving supply into a thousand rows at once, each
  * held aside in a pool until its demand left: a cache miss a pair, and the pool's
  * memory besides; measured on a busy district's day, 114 M pairs, the sweep took
@@ -472,13 +492,13 @@ const EDGE = 1e-9;
  * A supply leaves the grid once it ended before the oldest arrival among the
  * demands still to be written: no row after that can meet it.
  *
- * The float32 cost is that of a fast distance: on the plane `√(Δx² + Δy²)`, on the
+ * The cost code is that of a fast distance: on the plane `√(Δx² + Δy²)`, on the
  * sphere `2R·asin(√h)` by its series (h ≤ 1e-4, so the series' error is below 1e-14
- * relative) with h from the half-angle terms above (error ~1e-12 relative). Either is
- * far inside the float32 rounding, so a stored cost is within one float32 step of the
- * rounding of the exact cost ({@link pairCostOf}). Which pairs are allowed is decided
- * exactly: a fast distance within 1e-9 of the limit is recomputed with the exact
- * formula (the same operations as pairCostOf).
+ * relative) with h from the half-angle terms above (error ~1e-12 of a minute). So a
+ * code is that of the exact cost ({@link pairCostOf}) but for a cost within about
+ * that of a step's edge, which the pricing passes allow for. Which pairs are allowed
+ * is decided exactly: a fast distance within 1e-9 of the limit is recomputed with
+ * the exact formula (the same operations as pairCostOf).
  *
  * @param reserve expected pairs, to size the buffers (a hint; they grow if needed)
  * @param visitor sees each row once its pairs are written
@@ -539,9 +559,9 @@ export function buildCompactGraph(
   const perStep = 1 / step;
   let nnz = 0;
   store.ensure(reserve > 0 ? reserve : Math.max(1024, Math.min(RESERVE_PAIRS, nDemand * nSupply)), 0);
-  // One row's pairs while it is scanned (its lowest column, the words' base, is known only after).
+  // One row's pairs while it is scanned (its lowest column, the row's base, is known only after).
   let rowCols = new Int32Array(1024);
-  let rowCodes = new Uint16Array(1024);
+  let rowCodes = new Uint8Array(1024);
 
   let next = 0;
   for (let r = 0; r < nDemand; r++) {
@@ -613,7 +633,7 @@ export function buildCompactGraph(
             const y = sTerms[o + 2]! * u3 - sTerms[o + 3]! * u2;
             const h = x * x + sTerms[o + 4]! * u4 * y * y;
             if (!(h <= cut)) continue;
-            km = useSeries ? 2 * EARTH_RADIUS_KM * Math.sqrt(h) * (1 + h * SIXTH + 0.075 * h * h) : haversineCosKm(supplyA[j]!, supplyB[j]!, sTerms[o + 4]!, demandA[d]!, demandB[d]!, u4);
+            km = useSeries ? seriesKm(h) : haversineCosKm(supplyA[j]!, supplyB[j]!, sTerms[o + 4]!, demandA[d]!, demandB[d]!, u4);
           }
           if (capWords === 1) {
             if ((needs1 & ~sTerms[o + T_CAPS]!) !== 0) continue;
@@ -642,7 +662,7 @@ export function buildCompactGraph(
             const cols = new Int32Array(2 * len);
             cols.set(rowCols);
             rowCols = cols;
-            const codes = new Uint16Array(2 * len);
+            const codes = new Uint8Array(2 * len);
             codes.set(rowCodes);
             rowCodes = codes;
           }
@@ -652,11 +672,11 @@ export function buildCompactGraph(
         bucket.length = keep;
       }
     }
-    // Write the row: columns less the row's lowest, under the cost codes.
+    // Write the row: columns less the row's lowest, and the cost codes.
     const start = nnz;
     if (len > 0) {
       store.ensure(nnz + len, nnz);
-      const words = store.words;
+      const { cols, codes } = store;
       let lo = rowCols[0]!;
       let hi = lo;
       for (let i = 1; i < len; i++) {
@@ -666,13 +686,14 @@ export function buildCompactGraph(
       }
       rowBase[r] = lo;
       if (hi - lo <= SPAN) {
-        for (let i = 0; i < len; i++) words[start + i] = ((rowCodes[i]! << 16) | (rowCols[i]! - lo)) >>> 0;
+        for (let i = 0; i < len; i++) cols[start + i] = rowCols[i]! - lo;
       } else {
         wide.set(r, rowCols.slice(0, len));
-        for (let i = 0; i < len; i++) words[start + i] = (rowCodes[i]! << 16) >>> 0;
+        cols.fill(0, start, start + len);
       }
+      codes.set(rowCodes.subarray(0, len), start);
     }
-    visitor?.row(r, d, rowCols, rowCodes, len, start, store.words);
+    visitor?.row(r, d, rowCols, rowCodes, len, start, store.codes);
     nnz += len;
     rowDemand[r] = d;
     demandRow[d] = r;
@@ -685,7 +706,8 @@ export function buildCompactGraph(
     demandRow,
     rowPtr,
     rowBase,
-    words: store.words.subarray(0, nnz),
+    cols: store.cols.subarray(0, nnz),
+    codes: store.codes.subarray(0, nnz),
     wide,
     step,
   };
@@ -693,6 +715,53 @@ export function buildCompactGraph(
 
 // The prefilter passes pairs a hair beyond the limit; the travel test then decides.
 const SLACK_SQ = 1 + 4e-9;
+
+/**
+ * How far the cost {@link quickPairCostOf} gives may stand from the exact one, as a
+ * share of `1 + cost`: far above the fast distance's error (about 1e-12 of a minute,
+ * see {@link buildCompactGraph}; the graph tests check every pair within it).
+ */
+export const QUICK_COST_SLACK = 2 ** -22;
+
+/**
+ * The cost of an allowed pair (demand d, supply s) as the graph build computed it:
+ * the fast distance, and the same wait term. Within {@link QUICK_COST_SLACK} of
+ * {@link pairCostOf}'s, at a sixth of its time (no sine per pair on the sphere):
+ * for the many decisions a pair's 7-bit code cannot make and its cost can by far
+ * (pricing.ts). Allowedness is not checked; for a pair off the graph the number is
+ * meaningless. Its per-unit terms take 64 bytes a unit.
+ */
+export function quickPairCostOf(m: PackedMarket, config: PairflowConfig): PairCost {
+  const euclid = config.metric === 'euclidean';
+  const exact = pairCostOf(m, config);
+  const limit = euclid ? Infinity : Math.sin(maxDistanceKm(config) / EARTH_RADIUS_KM / 2) ** 2;
+  // Off the series' range the build took the exact formula too.
+  if (!euclid && !(limit <= SERIES_MAX_H)) return exact;
+  const none = new Uint32Array(0);
+  const dTerms = termsOf(m.demandA, m.demandB, m.demandT, m.demandEnd, none, 0, !euclid);
+  const sTerms = termsOf(m.supplyA, m.supplyB, m.supplyT, m.supplyEnd, none, 0, !euclid);
+  const minPerKm = 60 / config.speedKmh;
+  const waitMinPerMs = config.waitWeight / 60_000;
+  return (d: number, s: number): number => {
+    const uo = d * STRIDE;
+    const o = s * STRIDE;
+    let km: number;
+    if (euclid) {
+      const dx = sTerms[o]! - dTerms[uo]!;
+      const dy = sTerms[o + 1]! - dTerms[uo + 1]!;
+      km = Math.sqrt(dx * dx + dy * dy);
+    } else {
+      const x = sTerms[o]! * dTerms[uo + 1]! - sTerms[o + 1]! * dTerms[uo]!;
+      const y = sTerms[o + 2]! * dTerms[uo + 3]! - sTerms[o + 3]! * dTerms[uo + 2]!;
+      const h = x * x + sTerms[o + 4]! * dTerms[uo + 4]! * y * y;
+      // A pair decided near the limit by the exact formula may lie a hair past the series' range.
+      if (!(h <= SERIES_MAX_H)) return exact(d, s);
+      km = seriesKm(h);
+    }
+    const wait = sTerms[o + T_T]! - dTerms[uo + T_T]!;
+    return km * minPerKm + (wait > 0 ? waitMinPerMs * wait : 0);
+  };
+}
 
 /**
  * Every allowed, time-overlapping pair of one market with its exact hindsight cost,

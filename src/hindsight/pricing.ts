@@ -24,7 +24,8 @@
  *
  * Bounded: prices move every round, but a row priced clean knows how far its pairs
  * stood from pricing out (`floor`: the least `lo − v` over its pairs left out, lo
- * being a pair's cost code's lower end). Its pairs' `lo − v` can fall only as far as
+ * being a pair's cost code's lower end, or a closer lower bound of its cost where
+ * the pass computed one). Its pairs' `lo − v` can fall only as far as
  * its columns' prices rose since, which the pass bounds by the largest rise over
  * blocks of columns covering the row's range (a sparse table over the blocks, one
  * lookup a row), summed over the passes since the row was priced. While the floor
@@ -36,7 +37,7 @@
 
 import { pairflowError } from '../errors.js';
 import { markCandidate } from './candidates.js';
-import { CODE_TOP, type CompactGraph, type PairCost } from './graph.js';
+import { CODE_TOP, MARK, QUICK_COST_SLACK, type CompactGraph, type PairCost } from './graph.js';
 
 // A non-candidate pair prices out below this (relative to its cost): well under the
 // certificate's 1e-9 yet above the rounding of duals built from sums of costs.
@@ -76,7 +77,7 @@ export class Pricer {
   private readonly colRow: Int32Array;
   private readonly colCost: Float64Array;
   private readonly colCount: Int32Array;
-  /** Per row: the least `lo − v` over its pairs left out when last priced (+Infinity when none). */
+  /** Per row: the least `lo − v` over its pairs left out when last priced (+Infinity when none; lo the closest known lower bound of the cost). */
   private readonly floor: Float64Array;
   /** Per row: how far its columns' prices may have risen since it was last priced. */
   private readonly risen: Float64Array;
@@ -91,8 +92,10 @@ export class Pricer {
   private passes = 0;
   /** Row pricings over all passes (a clean row whose prices stood still is skipped). */
   rowsPriced = 0;
-  /** Decisions too close to call on the float32 cost, settled on the exact cost. */
+  /** Decisions too close to call on a pair's code, settled on the build's cost. */
   rechecks = 0;
+  /** Of those, decisions too close to call on the build's cost too, settled on the exact cost. */
+  exactRechecks = 0;
 
   /**
    * @param colLo per row, its lowest column (see FirstCandidates)
@@ -101,6 +104,8 @@ export class Pricer {
    * @param P the unmatched cost: a violator costs less (its c < u + v ≤ P)
    * @param addPerColumn the most negative reduced costs kept per column and pass;
    *   those their rows did not take are added besides
+   * @param quick a pair's cost as the graph build computed it (graph.ts
+   *   quickPairCostOf), for decisions its code cannot make
    */
   constructor(
     private readonly g: CompactGraph,
@@ -110,6 +115,7 @@ export class Pricer {
     private readonly addPerRow: number,
     private readonly P: number,
     private readonly addPerColumn = 0,
+    private readonly quick: PairCost = exact,
   ) {
     this.rowClean = new Uint8Array(g.nRows);
     this.pricedU = new Float64Array(g.nRows);
@@ -139,10 +145,10 @@ export class Pricer {
    * every pair (see the module comment).
    */
   pass(rowDuals: Float64Array, colDuals: Float64Array, exhaustive = false): PricedOut {
-    const { g, exact, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCol, addCost, floor, risen, stale, rise, nBlocks } = this;
+    const { g, exact, quick, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCol, addCost, floor, risen, stale, rise, nBlocks } = this;
     const { addPerColumn: perCol, colRed, colEdge, colRow, colCost, colCount } = this;
     colCount.fill(0);
-    const { nRows, nCols, rowPtr, rowBase, words, wide, step, rowDemand } = g;
+    const { nRows, nCols, rowPtr, rowBase, cols, codes, wide, step, rowDemand } = g;
     const first = this.passes++ === 0;
     // Columns whose price moved since the previous pass (every one, the first time),
     // and the largest rise per block of columns.
@@ -162,6 +168,7 @@ export class Pricer {
     let violators = 0;
     let nNew = 0;
     let rechecks = 0;
+    let exactRechecks = 0;
     let rowsPriced = 0;
     for (let r = 0; r < nRows; r++) {
       const u = rowDuals[r]!;
@@ -205,10 +212,9 @@ export class Pricer {
           // district's exhaustive pass, 114 M pairs: 2.3–2.6 ns a pair against
           // 3.0–3.4 with the full handling for every pair).
           for (; e < end; e++) {
-            const w = words[e]!;
-            const code = w >>> 16;
+            const code = codes[e]!;
             if (code >= CODE_TOP) continue;
-            const t = code * step - colDuals[base + (w & 0xffff)]!;
+            const t = code * step - colDuals[base + cols[e]!]!;
             if (t < bar) break;
             if (t < least) least = t;
           }
@@ -217,29 +223,46 @@ export class Pricer {
         // One pair (a wide row: all its pairs) through the full handling.
         const stop = wideCols === undefined ? e + 1 : end;
         for (; e < stop; e++) {
-          const w = words[e]!;
-          // Candidates (the top bit makes the code ≥ 0x8000) and pairs of P or more
-          // (the top code) never price out.
-          const code = w >>> 16;
+          // Candidates (MARK, above every code) and pairs of P or more (the top
+          // code) never price out.
+          const code = codes[e]!;
           if (code >= CODE_TOP) continue;
-          const col = wideCols === undefined ? base + (w & 0xffff) : wideCols[e - start]!;
+          const col = wideCols === undefined ? base + cols[e]! : wideCols[e - start]!;
           const v = colDuals[col]!;
           const lo = code * step;
           if (lo - v >= bar) {
             if (lo - v < least) least = lo - v;
             continue;
           }
-          // Near zero the exact cost decides; the reduced cost kept for ranking may be
-          // the interval's lower end: any choice among true violators is sound.
+          // Within a step of zero the build's cost decides, and the exact cost where
+          // that is within its own error of the line; the reduced cost kept for
+          // ranking may be the interval's lower end or the build's: any choice among
+          // true violators is sound (an added pair's exact cost is found below).
           let red = lo - u - v;
           let c = NaN;
           if (red + step >= -slack - 2 * PRICE_TOL * (1 + lo + step)) {
             rechecks++;
-            c = exact(d, col);
-            red = c - u - v;
-            if (red >= -PRICE_TOL * (1 + Math.abs(c))) {
-              if (lo - v < least) least = lo - v;
+            const cq = quick(d, col);
+            const rq = cq - u - v;
+            const line = -PRICE_TOL * (1 + Math.abs(cq));
+            const err = QUICK_COST_SLACK * (1 + cq + Math.abs(u) + Math.abs(v));
+            if (rq >= line + err) {
+              // Its cost is known closer than its code says: the row's floor keeps
+              // the closer bound (these pairs are the nearest to pricing out, so
+              // they set the floor most often).
+              const near = Math.max(lo, cq - err) - v;
+              if (near < least) least = near;
               continue;
+            }
+            red = rq;
+            if (rq >= line - err) {
+              exactRechecks++;
+              c = exact(d, col);
+              red = c - u - v;
+              if (red >= -PRICE_TOL * (1 + Math.abs(c))) {
+                if (c - v < least) least = c - v;
+                continue;
+              }
             }
           }
           violators++;
@@ -291,7 +314,7 @@ export class Pricer {
         const c = Number.isNaN(addCost[q]!) ? exact(d, col) : addCost[q]!;
         // A violator has c < u + v ≤ P; anything else is a bug in the prices.
         if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
-        markCandidate(words, addEdge[q]!);
+        markCandidate(codes, addEdge[q]!);
         this.newRow[nNew] = r;
         this.newCol[nNew] = col;
         this.newCost[nNew] = c;
@@ -304,11 +327,11 @@ export class Pricer {
       const n = colCount[col]!;
       for (let q = col * perCol; q < col * perCol + n; q++) {
         const e = colEdge[q]!;
-        if (words[e]! >>> 31 === 1) continue;
+        if (codes[e]! === MARK) continue;
         const r = colRow[q]!;
         const c = Number.isNaN(colCost[q]!) ? exact(rowDemand[r]!, col) : colCost[q]!;
         if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
-        markCandidate(words, e);
+        markCandidate(codes, e);
         if (nNew + 1 > this.newRow.length) this.grow(nNew + 1);
         this.newRow[nNew] = r;
         this.newCol[nNew] = col;
@@ -317,6 +340,7 @@ export class Pricer {
       }
     }
     this.rechecks += rechecks;
+    this.exactRechecks += exactRechecks;
     this.rowsPriced += rowsPriced;
     return { violators, n: nNew, rows: this.newRow, cols: this.newCol, costs: this.newCost };
   }

@@ -29,9 +29,9 @@ import { checkCertificate } from '../matching/certificate.js';
 import { GrowingAssignment } from '../matching/incremental.js';
 import type { SolveOptions, SolveResult, SparseInstance } from '../matching/types.js';
 import type { PairflowConfig } from '../model.js';
-import { FirstCandidates, markCandidate, unmarkCandidate } from './candidates.js';
+import { dropCandidate, FirstCandidates, markCandidate } from './candidates.js';
 import { matchCeiling } from './ceiling.js';
-import { buildCompactGraph, columnOf, expandGraph, GraphStore, isMarked, pairCostOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
+import { buildCompactGraph, columnOf, expandGraph, GraphStore, isMarked, pairCostOf, quickPairCostOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
 import { Pricer } from './pricing.js';
 import { mergeProofs, subMarket, timeSegments, type SegmentProof } from './segments.js';
 
@@ -160,7 +160,7 @@ export interface HindsightMarketDetail {
   solves: number;
   /** Final prices that failed the certificate and were found again by a cold solve. */
   retries: number;
-  /** Pricing decisions too close to call on the float32 cost, settled on the exact cost. */
+  /** Pricing decisions too close to call on a pair's cost code, settled on the build's cost (or the exact one). */
   rechecks: number;
   /** Row pricings over all rounds (a row whose prices stood still is not priced again). */
   rowsPriced: number;
@@ -313,23 +313,21 @@ function solveSegment(
   const g = buildCompactGraph(m, config, store, 0, first);
   const exact = pairCostOf(m, config);
   lap('graphMs');
-  const { nRows, nCols, rowPtr, words, rowDemand } = g;
-  first.markColumns(words);
+  const { nRows, nCols, rowPtr, codes, rowDemand } = g;
+  const picked = first.markColumns(codes);
   // The restricted assignment over graph rows, every row free to stay unmatched at P;
   // its pairs are the marked ones, at their exact costs (a pair whose code could not
-  // tell and is not below P after all is unmarked).
+  // tell and is not below P after all takes the top code).
   const restricted = new GrowingAssignment(nRows, nCols, new Float64Array(nRows).fill(P), now);
-  for (let r = 0; r < nRows; r++) {
-    const d = rowDemand[r]!;
-    for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
-      if (words[e]! >>> 31 === 0) continue;
-      const col = columnOf(g, r, e);
-      const c = exact(d, col);
-      if (c < P) restricted.add(r, col, c);
-      else unmarkCandidate(words, e);
-    }
+  for (let q = 0, r = 0; q < picked.length; q++) {
+    const e = picked[q]!;
+    while (rowPtr[r + 1]! <= e) r++;
+    const col = columnOf(g, r, e);
+    const c = exact(rowDemand[r]!, col);
+    if (c < P) restricted.add(r, col, c);
+    else dropCandidate(codes, e);
   }
-  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn);
+  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config));
   lap('setupMs');
 
   let pricingRounds = 0;
@@ -418,7 +416,7 @@ function solveSegment(
 
   return {
     matched,
-    pairsPriced: words.length,
+    pairsPriced: codes.length,
     pairsSolved: inst.colIdx.length,
     pricingRounds,
     ceiling,
@@ -459,16 +457,16 @@ function addGreedyPairs(g: CompactGraph, first: FirstCandidates, exact: PairCost
   const { greedyEdges: edges } = first;
   const n = first.greedy;
   if (edges.length === 0) return;
-  const { nRows, rowPtr, words, rowDemand } = g;
+  const { nRows, rowPtr, codes, rowDemand } = g;
   let q = 0;
   for (let r = 0; r < nRows && q < n; r++) {
     for (; q < n && edges[q]! < rowPtr[r + 1]!; q++) {
       const e = edges[q]!;
-      if (isMarked(words[e]!)) continue;
+      if (isMarked(codes[e]!)) continue;
       const col = columnOf(g, r, e);
       const c = exact(rowDemand[r]!, col);
       if (!(c < P)) continue;
-      markCandidate(words, e);
+      markCandidate(codes, e);
       restricted.add(r, col, c);
     }
   }

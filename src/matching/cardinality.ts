@@ -11,14 +11,26 @@
 
 import { pairflowError } from '../errors.js';
 
-/** The allowed pairs of a bipartite graph in CSR form (rows = demand, columns = supply). */
+/**
+ * The allowed pairs of a bipartite graph in CSR form (rows = demand, columns = supply).
+ * With `rowBase`, a pair's column is its row's base plus its `colIdx` entry, which
+ * lets a graph whose rows each span few columns keep two bytes a pair (the hindsight's
+ * graphs, src/hindsight/graph.ts).
+ */
 export interface BipartiteGraph {
   readonly nRows: number;
   readonly nCols: number;
-  /** Length nRows + 1: row r's columns are `colIdx[rowPtr[r] .. rowPtr[r+1])`. */
+  /** Length nRows + 1: row r's columns are `colIdx[rowPtr[r] .. rowPtr[r+1])` (plus `rowBase[r]`). */
   readonly rowPtr: Int32Array;
-  /** Column of each pair; duplicates are harmless here. */
-  readonly colIdx: Int32Array;
+  /** Column of each pair (less its row's base); duplicates are harmless here. */
+  readonly colIdx: Int32Array | Uint16Array;
+  /** Length nRows: what each row's `colIdx` entries add to. @default all 0 */
+  readonly rowBase?: Int32Array;
+}
+
+/** `g.rowBase`, or zeros. */
+function baseOf(g: BipartiteGraph): Int32Array {
+  return g.rowBase ?? new Int32Array(g.nRows);
 }
 
 /** A matching: `rowToCol[r]` is r's column or -1, `colToRow[c]` the inverse. */
@@ -52,15 +64,21 @@ function checkGraph(g: BipartiteGraph): void {
       detail: `rowPtr must start at 0 and end at colIdx.length = ${colIdx.length}, got ${rowPtr[0]} and ${rowPtr[nRows]}`,
     });
   }
+  if (g.rowBase !== undefined && g.rowBase.length !== nRows) {
+    throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail: `rowBase has length ${g.rowBase.length}, expected nRows = ${nRows}` });
+  }
   for (let r = 0; r < nRows; r++) {
     if (rowPtr[r + 1]! < rowPtr[r]!) {
       throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail: `rowPtr decreases at row ${r}: ${rowPtr[r]} then ${rowPtr[r + 1]}` });
     }
-  }
-  for (let e = 0; e < colIdx.length; e++) {
-    const c = colIdx[e]!;
-    if (c < 0 || c >= nCols) {
-      throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail: `colIdx[${e}] = ${c} is outside 0..${nCols - 1}` });
+    const base = g.rowBase?.[r] ?? 0;
+    for (let e = rowPtr[r]!; e < rowPtr[r + 1]!; e++) {
+      const c = base + colIdx[e]!;
+      if (c < 0 || c >= nCols) {
+        throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', {
+          detail: base === 0 ? `colIdx[${e}] = ${c} is outside 0..${nCols - 1}` : `column ${c} of pair ${e} (row ${r}'s base ${base} + ${colIdx[e]}) is outside 0..${nCols - 1}`,
+        });
+      }
     }
   }
 }
@@ -79,14 +97,16 @@ function checkGraph(g: BipartiteGraph): void {
 export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
   checkGraph(g);
   const { nRows, nCols, rowPtr, colIdx } = g;
+  const rowBase = baseOf(g);
   const rowToCol = new Int32Array(nRows).fill(-1);
   const colToRow = new Int32Array(nCols).fill(-1);
   let size = 0;
 
   // Greedy seed: cheap, and usually leaves few augmentations for the phases.
   for (let r = 0; r < nRows; r++) {
+    const base = rowBase[r]!;
     for (let e = rowPtr[r]!, end = rowPtr[r + 1]!; e < end; e++) {
-      const c = colIdx[e]!;
+      const c = base + colIdx[e]!;
       if (colToRow[c] === -1) {
         colToRow[c] = r;
         rowToCol[r] = c;
@@ -100,12 +120,12 @@ export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
   const queue = new Int32Array(nRows);
   const next = new Int32Array(nRows); // per-row cursor into its pairs, kept across DFS restarts
   const stack = new Int32Array(nRows);
-  let r = 0, r2 = 0, c = 0, e = 0, end = 0, head = 0, tail = 0, sp = 0, limit = 0, lr = 0;
+  let r = 0, r2 = 0, c = 0, e = 0, end = 0, head = 0, tail = 0, sp = 0, limit = 0, lr = 0, base = 0;
   let phaseAugments = Infinity;
 
   for (;;) {
     if (phaseAugments < DEPTH_FIRST_BELOW) {
-      size += depthFirstPasses(g, rowToCol, colToRow);
+      size += depthFirstPasses(g, rowBase, rowToCol, colToRow);
       break;
     }
     phaseAugments = 0;
@@ -126,8 +146,9 @@ export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
       r = queue[head++]!;
       lr = layer[r]!;
       if (lr >= limit) break; // BFS order: every later row is at least as deep
+      base = rowBase[r]!;
       for (e = rowPtr[r]!, end = rowPtr[r + 1]!; e < end; e++) {
-        r2 = colToRow[colIdx[e]!]!;
+        r2 = colToRow[base + colIdx[e]!]!;
         if (r2 === -1) {
           if (limit === UNREACHED) limit = lr + 1;
         } else if (layer[r2] === UNREACHED) {
@@ -155,14 +176,14 @@ export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
           if (sp > 0) next[stack[sp - 1]!]!++;
           continue;
         }
-        c = colIdx[e]!;
+        c = rowBase[r]! + colIdx[e]!;
         r2 = colToRow[c]!;
         if (r2 === -1) {
           if (layer[r]! + 1 === limit) {
             // Augment: every row on the stack takes the column its cursor points at.
             for (let i = sp - 1; i >= 0; i--) {
               const row = stack[i]!;
-              const col = colIdx[next[row]!]!;
+              const col = rowBase[row]! + colIdx[next[row]!]!;
               rowToCol[row] = col;
               colToRow[col] = row;
             }
@@ -203,7 +224,7 @@ const DEPTH_FIRST_BELOW = 64;
  * cursor of a row only moves forward: a matched column never becomes free again.
  * Iterative, so paths of any length fit. Returns the number of augmentations.
  */
-function depthFirstPasses(g: BipartiteGraph, rowToCol: Int32Array, colToRow: Int32Array): number {
+function depthFirstPasses(g: BipartiteGraph, rowBase: Int32Array, rowToCol: Int32Array, colToRow: Int32Array): number {
   const { nRows, nCols, rowPtr, colIdx } = g;
   const look = rowPtr.slice(0, nRows);
   const next = new Int32Array(nRows);
@@ -223,11 +244,12 @@ function depthFirstPasses(g: BipartiteGraph, rowToCol: Int32Array, colToRow: Int
       while (sp > 0) {
         const r = stack[sp - 1]!;
         const end = rowPtr[r + 1]!;
+        const base = rowBase[r]!;
         // Lookahead: a free column of r ends the path at once.
         let e = look[r]!;
         let free = -1;
         while (e < end) {
-          const c = colIdx[e++]!;
+          const c = base + colIdx[e++]!;
           if (colToRow[c] === -1) {
             free = c;
             break;
@@ -248,7 +270,7 @@ function depthFirstPasses(g: BipartiteGraph, rowToCol: Int32Array, colToRow: Int
         let child = -1;
         if (forward) {
           for (let f = next[r]!; f < end; f++) {
-            const c = colIdx[f]!;
+            const c = base + colIdx[f]!;
             if (seen[c] === pass) continue;
             seen[c] = pass;
             next[r] = f + 1;
@@ -259,7 +281,7 @@ function depthFirstPasses(g: BipartiteGraph, rowToCol: Int32Array, colToRow: Int
         } else {
           const start = rowPtr[r]!;
           for (let f = next[r]!; f >= start; f--) {
-            const c = colIdx[f]!;
+            const c = base + colIdx[f]!;
             if (seen[c] === pass) continue;
             seen[c] = pass;
             next[r] = f - 1;
@@ -298,6 +320,7 @@ function depthFirstPasses(g: BipartiteGraph, rowToCol: Int32Array, colToRow: Int
 export function minVertexCover(g: BipartiteGraph, matching: CardinalityMatching): VertexCover {
   checkGraph(g);
   const { nRows, nCols, rowPtr, colIdx } = g;
+  const rowBase = baseOf(g);
   const { rowToCol, colToRow } = matching;
   if (rowToCol.length !== nRows || colToRow.length !== nCols) {
     throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', {
@@ -312,7 +335,7 @@ export function minVertexCover(g: BipartiteGraph, matching: CardinalityMatching)
       throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail: `matching is inconsistent at row ${r} (column ${c})` });
     }
     let isPair = false;
-    for (let e = rowPtr[r]!, end = rowPtr[r + 1]!; e < end; e++) if (colIdx[e] === c) { isPair = true; break; }
+    for (let e = rowPtr[r]!, end = rowPtr[r + 1]!; e < end; e++) if (rowBase[r]! + colIdx[e]! === c) { isPair = true; break; }
     if (!isPair) throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail: `matched pair (${r}, ${c}) is not a pair of the graph` });
     size++;
   }
@@ -335,8 +358,9 @@ export function minVertexCover(g: BipartiteGraph, matching: CardinalityMatching)
   }
   while (head < tail) {
     r = queue[head++]!;
+    const base = rowBase[r]!;
     for (e = rowPtr[r]!, end = rowPtr[r + 1]!; e < end; e++) {
-      c = colIdx[e]!;
+      c = base + colIdx[e]!;
       if (colSeen[c]) continue;
       colSeen[c] = 1;
       const r2 = colToRow[c]!;

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 
 import { FirstCandidates } from '../../../src/hindsight/candidates.js';
-import { buildCompactGraph, columnsInPlace, packMarket, type HindsightUnit } from '../../../src/hindsight/graph.js';
+import { buildCompactGraph, plainColumns, packMarket, type HindsightUnit } from '../../../src/hindsight/graph.js';
 import { maxCardinalityMatching } from '../../../src/matching/cardinality.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
@@ -29,7 +29,7 @@ describe('FirstCandidates: the earliest-deadline greedy', () => {
       const m = packMarket(units, config);
       const first = new FirstCandidates(m.nDemand, m.nSupply, 1, m.supplyEnd);
       const g = buildCompactGraph(m, config, undefined, 0, first);
-      const max = maxCardinalityMatching({ nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, colIdx: columnsInPlace(g) }).size;
+      const max = maxCardinalityMatching({ nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, colIdx: plainColumns(g) }).size;
       expect(first.greedy, `seed ${seed}`).toBe(max);
       expect(max, `seed ${seed}: the case is not trivial`).toBeGreaterThan(0);
     }
@@ -46,7 +46,7 @@ describe('FirstCandidates: the earliest-deadline greedy', () => {
     const m = packMarket(units, config);
     const first = new FirstCandidates(m.nDemand, m.nSupply, 1, m.supplyEnd);
     const g = buildCompactGraph(m, config, undefined, 0, first);
-    const max = maxCardinalityMatching({ nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, colIdx: columnsInPlace(g) }).size;
+    const max = maxCardinalityMatching({ nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, colIdx: plainColumns(g) }).size;
     // A greedy matching is maximal, so at least half a maximum one, and never more.
     expect(first.greedy).toBeLessThanOrEqual(max);
     expect(2 * first.greedy).toBeGreaterThanOrEqual(max);

@@ -7,10 +7,12 @@ import {
   CODE_TOP,
   codeOf,
   columnOf,
-  columnsInPlace,
+  plainColumns,
   GraphStore,
   packMarket,
   pairCostOf,
+  QUICK_COST_SLACK,
+  quickPairCostOf,
   type CompactGraph,
   type HindsightUnit,
 } from '../../../src/hindsight/graph.js';
@@ -172,7 +174,7 @@ describe('buildAllowedGraph()', () => {
 function compactPairs(g: CompactGraph): Map<string, number> {
   const out = new Map<string, number>();
   for (let r = 0; r < g.nRows; r++) {
-    for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) out.set(`${g.rowDemand[r]},${columnOf(g, r, e)}`, codeOf(g.words[e]!));
+    for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) out.set(`${g.rowDemand[r]},${columnOf(g, r, e)}`, codeOf(g.codes[e]!));
   }
   return out;
 }
@@ -213,6 +215,43 @@ describe('buildCompactGraph()', () => {
         expect(exact(d, s)).toBe(c);
       }
     }
+  });
+
+  it("gives each pair the build's cost within QUICK_COST_SLACK of the exact one, and a code that bounds it (haversine, seeded)", () => {
+    const cfg: PairflowConfig = { ...DEFAULT_CONFIG, maxTravelMin: 20, speedKmh: 30, waitWeight: 1.5 };
+    let pairs = 0;
+    for (let seed = 1; seed <= 12; seed++) {
+      // Cities at random latitudes, one near a pole; a fifth of the units share one
+      // spot, so distances of 0 and a few metres (where the half-angle terms cancel) occur.
+      const rand0 = mulberry32(seed * 104_729);
+      const lat0 = seed % 6 === 0 ? 88.5 : -70 + rand0() * 140;
+      const lon0 = -180 + rand0() * 360;
+      const units = randomUnits(seed, (rand) =>
+        rand() < 0.2 ? { lat: lat0, lon: lon0 + rand() * 1e-5 } : { lat: Math.min(90, lat0 + (rand() - 0.5) * 0.2), lon: lon0 + (rand() - 0.5) * 0.3 },
+      120);
+      const m = packMarket(units, cfg);
+      const g = buildCompactGraph(m, cfg);
+      const exact = pairCostOf(m, cfg);
+      const quick = quickPairCostOf(m, cfg);
+      const P = cfg.abandonPenalty;
+      for (let r = 0; r < g.nRows; r++) {
+        for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+          const d = g.rowDemand[r]!;
+          const j = columnOf(g, r, e);
+          const c = exact(d, j);
+          const at = `seed ${seed} pair ${d},${j}`;
+          expect(Math.abs(quick(d, j) - c), at).toBeLessThanOrEqual(QUICK_COST_SLACK * (1 + c));
+          const q = codeOf(g.codes[e]!);
+          if (q === CODE_TOP) expect(c, at).toBeGreaterThanOrEqual(P - c * 2 ** -22);
+          else {
+            expect(c, at).toBeGreaterThanOrEqual(q * g.step - c * 2 ** -22);
+            expect(c, at).toBeLessThan((q + 1) * g.step + c * 2 ** -22);
+          }
+          pairs++;
+        }
+      }
+    }
+    expect(pairs).toBeGreaterThan(2000);
   });
 
   it('writes the rows of demands that ended earlier first', () => {
@@ -259,6 +298,6 @@ describe('buildCompactGraph()', () => {
       const row = e < g.rowPtr[1]! ? 0 : 1;
       return columnOf(g, row, e);
     });
-    expect(Array.from(columnsInPlace(g))).toEqual(want);
+    expect(Array.from(plainColumns(g))).toEqual(want);
   });
 });

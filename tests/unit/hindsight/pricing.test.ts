@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
-import { buildCompactGraph, columnOf, isMarked, packMarket, pairCostOf, type HindsightUnit } from '../../../src/hindsight/graph.js';
+import { buildCompactGraph, columnOf, isMarked, packMarket, pairCostOf, quickPairCostOf, type HindsightUnit } from '../../../src/hindsight/graph.js';
 import { Pricer } from '../../../src/hindsight/pricing.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
@@ -101,6 +101,7 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
     const m = packMarket(units, cfg);
     const g = buildCompactGraph(m, cfg);
     const exact = pairCostOf(m, cfg);
+    const quick = quickPairCostOf(m, cfg);
     const colLo = new Int32Array(g.nRows).fill(g.nCols);
     const colHi = new Int32Array(g.nRows).fill(-1);
     const rowMin = new Float64Array(g.nRows).fill(cfg.abandonPenalty);
@@ -112,7 +113,7 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
         rowMin[r] = Math.min(rowMin[r]!, exact(g.rowDemand[r]!, j));
       }
     }
-    return { g, exact, colLo, colHi, rowMin };
+    return { g, exact, quick, colLo, colHi, rowMin };
   }
 
   it('never skips a row that holds a violator, while prices rise and fall between passes (seeded)', () => {
@@ -125,8 +126,8 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
         const t = randInt(rnd, 0, 7_200_000);
         units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 60_000, 2_400_000), x: rnd() * 8, y: rnd() * 8 });
       }
-      const { g, exact, colLo, colHi, rowMin } = graphWithRanges(units, euclid);
-      const pricer = new Pricer(g, exact, colLo, colHi, 3, P);
+      const { g, exact, quick, colLo, colHi, rowMin } = graphWithRanges(units, euclid);
+      const pricer = new Pricer(g, exact, colLo, colHi, 3, P, 0, quick);
       // Prices near each row's cheapest pair, so a few pairs price out in each pass.
       const u = Float64Array.from(rowMin, (c) => Math.min(P, c + rnd() * 2));
       const v = new Float64Array(g.nCols);
@@ -138,7 +139,7 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
         for (let r = 0; r < g.nRows; r++) {
           if (reported.has(r)) continue;
           for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
-            if (isMarked(g.words[e]!)) continue;
+            if (isMarked(g.codes[e]!)) continue;
             const j = columnOf(g, r, e);
             const c = exact(g.rowDemand[r]!, j);
             if (!(c < P)) continue;
@@ -163,14 +164,14 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
       const t = randInt(rnd, 0, 3_600_000);
       units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 60_000, 1_800_000), x: rnd() * 6, y: rnd() * 6 });
     }
-    const { g, exact, colLo, colHi, rowMin } = graphWithRanges(units, euclid);
+    const { g, exact, quick, colLo, colHi, rowMin } = graphWithRanges(units, euclid);
     const withPairs = Array.from(colHi).filter((hi, r) => hi >= colLo[r]!).length;
     expect(withPairs).toBeGreaterThan(20);
     // Every pair 3 above pricing out; then every column's price rises by half: the
     // bound still covers each row, so the next pass reads none of them.
     const u = Float64Array.from(rowMin, (c) => c - 2);
     const v = new Float64Array(g.nCols).fill(-1);
-    const pricer = new Pricer(g, exact, colLo, colHi, 3, P);
+    const pricer = new Pricer(g, exact, colLo, colHi, 3, P, 0, quick);
     expect(pricer.pass(u, v).violators).toBe(0);
     const afterFirst = pricer.rowsPriced;
     v.fill(-0.5);
@@ -180,4 +181,66 @@ describe('Pricer.pass() skipping rows by their bounds', () => {
     expect(pricer.pass(u, v, true).violators).toBe(0);
     expect(pricer.rowsPriced - afterFirst).toBe(withPairs);
   });
+});
+
+describe('Pricer.pass() deciding within a step of zero', () => {
+  // A 7-bit code places a cost within a quarter of a minute only, so prices a hair
+  // from a pair's cost leave the code unable to tell; the build's cost (and, within
+  // its own error, the exact one) must then decide exactly as the exact cost does.
+  for (const metric of ['euclidean', 'haversine'] as const) {
+    it(`counts as violators exactly the pairs whose exact reduced cost is below zero (${metric}, seeded)`, () => {
+      const cfg: PairflowConfig = { ...DEFAULT_CONFIG, metric, abandonPenalty: 30 };
+      const rnd = mulberry32(metric === 'euclidean' ? 5 : 6);
+      const units: HindsightUnit[] = [];
+      for (let i = 0; i < 240; i++) {
+        const t = randInt(rnd, 0, 3_600_000);
+        const place = metric === 'euclidean' ? { x: rnd() * 6, y: rnd() * 6 } : { lat: 52.3 + rnd() * 0.05, lon: 4.85 + rnd() * 0.08 };
+        units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 60_000, 1_800_000), ...place });
+      }
+      const m = packMarket(units, cfg);
+      const g = buildCompactGraph(m, cfg);
+      const exact = pairCostOf(m, cfg);
+      const P = cfg.abandonPenalty;
+      // Each row's price a hair (1e-3 to 1e-7 of a minute, either side) from the exact
+      // cost of one of its pairs; columns at 0.
+      const u = new Float64Array(g.nRows);
+      const v = new Float64Array(g.nCols);
+      let rowsWithPairs = 0;
+      for (let r = 0; r < g.nRows; r++) {
+        const n = g.rowPtr[r + 1]! - g.rowPtr[r]!;
+        if (n === 0) continue;
+        rowsWithPairs++;
+        const e = g.rowPtr[r]! + randInt(rnd, 0, n - 1);
+        const c = exact(g.rowDemand[r]!, columnOf(g, r, e));
+        const hair = 10 ** -randInt(rnd, 3, 8) * (rnd() < 0.5 ? -1 : 1);
+        u[r] = Math.min(P, c + hair);
+      }
+      expect(rowsWithPairs).toBeGreaterThan(60);
+      let want = 0;
+      for (let r = 0; r < g.nRows; r++) {
+        for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+          const c = exact(g.rowDemand[r]!, columnOf(g, r, e));
+          if (c < P && c - u[r]! < 0) want++;
+        }
+      }
+      const colLo = new Int32Array(g.nRows);
+      const colHi = new Int32Array(g.nRows).fill(g.nCols - 1);
+      const pricer = new Pricer(g, exact, colLo, colHi, 1000, P, 0, quickPairCostOf(m, cfg));
+      const found = pricer.pass(u, v, true);
+      expect(found.violators).toBe(want);
+      expect(found.n).toBe(want);
+      // The code could not tell for each row's chosen pair at least; the build's cost
+      // settled most, and those within its error of the line (hairs of 1e-7, 1e-8)
+      // went on to the exact cost.
+      expect(pricer.rechecks).toBeGreaterThanOrEqual(rowsWithPairs);
+      expect(pricer.exactRechecks).toBeGreaterThan(0);
+      expect(pricer.exactRechecks).toBeLessThan(pricer.rechecks / 2);
+      // Every pair added is a true violator, at its exact cost.
+      for (let q = 0; q < found.n; q++) {
+        const c = exact(g.rowDemand[found.rows[q]!]!, found.cols[q]!);
+        expect(found.costs[q]).toBe(c);
+        expect(c - u[found.rows[q]!]!).toBeLessThan(0);
+      }
+    });
+  }
 });
