@@ -16,6 +16,8 @@ import {
   type CompactGraph,
   type HindsightUnit,
 } from '../../../src/hindsight/graph.js';
+import { matchCeiling } from '../../../src/hindsight/ceiling.js';
+import { maxCardinalityMatching } from '../../../src/matching/cardinality.js';
 import { euclideanKm, haversineKm, travelMin } from '../../../src/window/geo.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
@@ -299,5 +301,30 @@ describe('buildCompactGraph()', () => {
       return columnOf(g, row, e);
     });
     expect(Array.from(plainColumns(g))).toEqual(want);
+  });
+
+  it('gives the match ceiling of plain columns, from the 16-bit columns and from a graph with a wide row', () => {
+    const rnd = mulberry32(17);
+    // More demands than supplies, spread out: rows compete and not all are matched.
+    const narrow: HindsightUnit[] = Array.from({ length: 400 }, () => {
+      const t = randInt(rnd, 0, 3_600_000);
+      return { side: rnd() < 0.6 ? 'demand' : 'supply', t, end: t + randInt(rnd, 0, 600_000), x: rnd() * 20, y: rnd() * 20 } as HindsightUnit;
+    });
+    const wideToo: HindsightUnit[] = [
+      ...Array.from({ length: 70_000 }, (_, i) => ({ side: 'supply', t: 0, end: i < 69_990 ? 500 : 2000, x: 1, y: 1 }) as HindsightUnit),
+      ...Array.from({ length: 12 }, (_, i) => ({ side: 'demand', t: 1000 + i, end: 1500, x: 1.2, y: 1 }) as HindsightUnit),
+      { side: 'demand', t: 100, end: 400, x: 1, y: 1.5 },
+    ];
+    for (const units of [narrow, wideToo]) {
+      const m = packMarket(units, config);
+      const g = buildCompactGraph(m, config);
+      const want = maxCardinalityMatching({ nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, colIdx: plainColumns(g) }).size;
+      // Wide: ten supplies for the twelve late demands, and the early one's own;
+      // narrow: rows left unmatched, so the rows' bases decide which pairs compete.
+      if (units === wideToo) expect(want).toBe(11);
+      else expect(want).toBeLessThan(g.nRows - 20);
+      // Seeded with nothing (no optimum's pairs), the ceiling still finds a maximum matching.
+      expect(matchCeiling(g, new Int32Array(g.nRows).fill(-1)).size).toBe(want);
+    }
   });
 });

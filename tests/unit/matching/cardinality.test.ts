@@ -190,6 +190,9 @@ print(json.dumps(out))
       { nRows: 1, nCols: 2, rowPtr: Int32Array.of(0, 1), colIdx: Int32Array.of(2) },
       { nRows: 2, nCols: 2, rowPtr: Int32Array.of(0, 2, 1), colIdx: Int32Array.of(0) },
       { nRows: -1, nCols: 2, rowPtr: new Int32Array(0), colIdx: new Int32Array(0) },
+      // A row base of the wrong length, and one that puts a pair past the last column.
+      { nRows: 1, nCols: 2, rowPtr: Int32Array.of(0, 1), colIdx: Uint16Array.of(0), rowBase: Int32Array.of(0, 0) },
+      { nRows: 1, nCols: 2, rowPtr: Int32Array.of(0, 1), colIdx: Uint16Array.of(1), rowBase: Int32Array.of(1) },
     ];
     for (const g of bad) expect(() => maxCardinalityMatching(g)).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' }));
   });
@@ -214,5 +217,40 @@ describe('minVertexCover()', () => {
     expect(() => minVertexCover(g, notPair)).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' }));
     const torn: CardinalityMatching = { size: 1, rowToCol: Int32Array.of(1, -1), colToRow: Int32Array.of(-1, 0) };
     expect(() => minVertexCover(g, torn)).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' }));
+  });
+});
+
+describe('rows given as a base plus 16-bit offsets', () => {
+  /** The same graph with each row's columns less its lowest, in two bytes each. */
+  function offsetForm(g: BipartiteGraph): BipartiteGraph {
+    const rowBase = new Int32Array(g.nRows);
+    const colIdx = new Uint16Array(g.colIdx.length);
+    for (let r = 0; r < g.nRows; r++) {
+      let lo = Infinity;
+      for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) lo = Math.min(lo, g.colIdx[e]!);
+      rowBase[r] = lo === Infinity ? 0 : lo;
+      for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) colIdx[e] = g.colIdx[e]! - rowBase[r]!;
+    }
+    return { nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, colIdx, rowBase };
+  }
+
+  it('give matchings of the same size and covers that certify them (40 seeded graphs)', () => {
+    for (let seed = 1; seed <= 40; seed++) {
+      const plain = randomGraph(seed, 30 + seed * 3, 25 + seed * 2, 1 + (seed % 6));
+      const g = offsetForm(plain);
+      const m = maxCardinalityMatching(g);
+      expect(m.size, `seed ${seed}`).toBe(maxCardinalityMatching(plain).size);
+      // The matching is one of the plain graph's, and the cover, as large, covers its every pair.
+      expectValidMatching(plain, m, seed);
+      const cover = minVertexCover(g, m);
+      expect(cover.rows.length + cover.cols.length, `seed ${seed}`).toBe(m.size);
+      const rows = new Set(cover.rows);
+      const cols = new Set(cover.cols);
+      for (let r = 0; r < plain.nRows; r++) {
+        for (let e = plain.rowPtr[r]!; e < plain.rowPtr[r + 1]!; e++) {
+          expect(rows.has(r) || cols.has(plain.colIdx[e]!), `seed ${seed} pair (${r}, ${plain.colIdx[e]})`).toBe(true);
+        }
+      }
+    }
   });
 });
