@@ -8,6 +8,7 @@ import { denseAuction } from './dense-auction.js';
 import { keepCheapest, listAuction, type AuctionLists } from './list-auction.js';
 import { maxCardinalityMatching } from './cardinality.js';
 import type { SparseInstance, WarmStart } from './types.js';
+import { WASM_BAD_CELL, wasmDenseJv } from './wasm/dense-jv.js';
 
 /*
  * The dense twin of sparse.ts: the same invariants (see there), but each search
@@ -43,7 +44,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   const strategy = opts.strategy ?? 'auto';
   if (strategy === 'candidates' || (strategy === 'auto' && preferCandidates(inst.nRows, inst.nCols, k))) {
     if (inst.nRows === inst.nCols && opts.warm === undefined && mustMatchAll(inst.unmatchedCost ?? null)) {
-      const res = solveFromRowMinima(inst);
+      const res = solveFromRowMinima(inst) ?? (strategy === 'auto' && inst.nRows <= KERNEL_MAX_N ? solveByKernel(inst) : null);
       if (res !== null) {
         res.stats.ms = now() - t0;
         return res;
@@ -56,6 +57,47 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
     }
   }
   return solveDenseFull(inst, opts, now, t0);
+}
+
+/**
+ * Square matrices up to this size, where the row-minima start gives up, are solved by
+ * the WebAssembly kernel (wasm/dense-jv.wat) before the candidates strategy is tried.
+ * Measured on a process's first solve, in fresh processes (bench/wasm/first-solve.ts):
+ * see docs/benchmarks.md.
+ */
+const KERNEL_MAX_N = 2000;
+/** Matrices' worth of pairs the kernel may read before it gives up (geometric and clustered n = 1000: 37–44). */
+const KERNEL_BUDGET = 80;
+/**
+ * The kernel gives up when more than n / KERNEL_FREE_SHARE rows are left for its
+ * searches after the reductions: each search then scans long (c_ij = i·j and rank-one
+ * costs leave 96–98 % of the rows, the n³ behaviour the auction is there for; geometric
+ * and clustered costs 16–21 %).
+ */
+const KERNEL_FREE_SHARE = 3;
+
+/**
+ * The full search of a square instance where every row is matched, in the wasm
+ * kernel: column reduction, reduction transfer, two passes of augmenting row
+ * reduction, then a shortest augmenting path per free row over whole rows. Returns
+ * null where the kernel gives up (see KERNEL_BUDGET and KERNEL_FREE_SHARE, or
+ * `maxScan` and `maxFree`), meets an infeasible instance (the JS paths report it) or
+ * cannot run; a -Infinity cell is reported here.
+ */
+export function solveByKernel(inst: DenseInstance, maxScan?: number, maxFree?: number): SolveResult | null {
+  const n = inst.nRows;
+  const out = wasmDenseJv(inst.cost, n, maxScan ?? KERNEL_BUDGET * n * n, maxFree ?? Math.floor(n / KERNEL_FREE_SHARE));
+  if (out.status === WASM_BAD_CELL) checkDenseCells(inst);
+  if (out.status < 0) return null;
+  return finishDense(inst, true, out.u, out.v, out.rowToCol, out.colToRow, {
+    augmentations: out.status,
+    scannedPairs: out.scanned,
+    ms: 0,
+    warm: false,
+    warmPairsKept: 0,
+    searchedRows: out.status,
+    wasmKernel: true,
+  });
 }
 
 /**
