@@ -37,32 +37,36 @@
       (local.set $p (i32.add (local.get $p) (i32.const 16)))
       (br $l))))
 
-  ;; Column reduction: V[j] = min over rows of C[r][j], ARG[j] (i64) = first such row.
+  ;; Column reduction: V[j] = min over rows of C[r][j], ARG[j] (i64) = first such row;
+  ;; a call of $foldRow per row, so the engine optimises it while this runs.
   (func $colReduce (param $n i32) (param $np i32) (param $C i32) (param $V i32) (param $ARG i32)
-    (local $r i32) (local $pc i32) (local $pv i32) (local $pa i32) (local $e i32)
-    (local $rs v128) (local $c v128) (local $v v128) (local $m v128)
+    (local $r i32) (local $rowBytes i32)
     (call $fill (local.get $V) (local.get $np) (f64.const inf))
     (memory.fill (local.get $ARG) (i32.const 255) (i32.shl (local.get $np) (i32.const 3)))
-    (local.set $e (i32.add (local.get $V) (i32.shl (local.get $np) (i32.const 3))))
+    (local.set $rowBytes (i32.shl (local.get $n) (i32.const 3)))
     (block $rd (loop $rl
       (br_if $rd (i32.ge_u (local.get $r) (local.get $n)))
-      (local.set $pc (i32.add (local.get $C) (i32.shl (i32.mul (local.get $r) (local.get $n)) (i32.const 3))))
-      (local.set $pv (local.get $V))
-      (local.set $pa (local.get $ARG))
-      (local.set $rs (i64x2.splat (i64.extend_i32_u (local.get $r))))
-      (block $cd (loop $cl
-        (br_if $cd (i32.ge_u (local.get $pv) (local.get $e)))
-        (local.set $c (v128.load (local.get $pc)))
-        (local.set $v (v128.load (local.get $pv)))
-        (local.set $m (f64x2.lt (local.get $c) (local.get $v)))
-        (v128.store (local.get $pv) (v128.bitselect (local.get $c) (local.get $v) (local.get $m)))
-        (v128.store (local.get $pa) (v128.bitselect (local.get $rs) (v128.load (local.get $pa)) (local.get $m)))
-        (local.set $pc (i32.add (local.get $pc) (i32.const 16)))
-        (local.set $pv (i32.add (local.get $pv) (i32.const 16)))
-        (local.set $pa (i32.add (local.get $pa) (i32.const 16)))
-        (br $cl)))
+      (call $foldRow (i32.add (local.get $C) (i32.mul (local.get $r) (local.get $rowBytes)))
+        (local.get $V) (local.get $ARG) (local.get $np) (local.get $r))
       (local.set $r (i32.add (local.get $r) (i32.const 1)))
       (br $rl))))
+
+  ;; One row of the column reduction: V[j] = min(V[j], C[j]), ARG[j] = r where lowered.
+  (func $foldRow (param $pc i32) (param $pv i32) (param $pa i32) (param $np i32) (param $r i32)
+    (local $e i32) (local $rs v128) (local $c v128) (local $v v128) (local $m v128)
+    (local.set $e (i32.add (local.get $pv) (i32.shl (local.get $np) (i32.const 3))))
+    (local.set $rs (i64x2.splat (i64.extend_i32_u (local.get $r))))
+    (block $cd (loop $cl
+      (br_if $cd (i32.ge_u (local.get $pv) (local.get $e)))
+      (local.set $c (v128.load (local.get $pc)))
+      (local.set $v (v128.load (local.get $pv)))
+      (local.set $m (f64x2.lt (local.get $c) (local.get $v)))
+      (v128.store (local.get $pv) (v128.bitselect (local.get $c) (local.get $v) (local.get $m)))
+      (v128.store (local.get $pa) (v128.bitselect (local.get $rs) (v128.load (local.get $pa)) (local.get $m)))
+      (local.set $pc (i32.add (local.get $pc) (i32.const 16)))
+      (local.set $pv (i32.add (local.get $pv) (i32.const 16)))
+      (local.set $pa (i32.add (local.get $pa) (i32.const 16)))
+      (br $cl))))
 
   ;; min over j < np of (C[j] - V[j]), NaN skipped (pmin keeps the accumulator).
   (func $rowMin (param $pc i32) (param $V i32) (param $np i32) (result f64)
@@ -88,7 +92,7 @@
   (func $twoCheapest (param $pc i32) (param $V i32) (param $n i32) (param $np i32)
     (local $pv i32) (local $e i32) (local $x v128) (local $a v128) (local $b v128)
     (local $a1 f64) (local $a2 f64) (local $b1 f64) (local $b2 f64) (local $u1 f64) (local $u2 f64)
-    (local $j i32) (local $xs f64) (local $j1 i32) (local $j2 i32)
+    (local $j i32) (local $xs f64) (local $j1 i32) (local $j2 i32) (local $k i32) (local $uv1 v128) (local $uv2 v128)
     (local.set $a (f64x2.splat (f64.const inf)))
     (local.set $b (local.get $a))
     (local.set $pv (local.get $V))
@@ -112,20 +116,33 @@
     (local.set $j1 (i32.const -1))
     (local.set $j2 (i32.const -1))
     (if (f64.lt (local.get $u1) (f64.const inf)) (then
+      ;; the columns: two at a time, looked at one by one only where a lane holds u1 or u2
+      (local.set $uv1 (f64x2.splat (local.get $u1)))
+      (local.set $uv2 (f64x2.splat (local.get $u2)))
       (local.set $j (i32.const 0))
       (block $done (loop $s
         (br_if $done (i32.ge_u (local.get $j) (local.get $n)))
-        (local.set $xs (f64.sub
-          (f64.load (i32.add (local.get $pc) (i32.shl (local.get $j) (i32.const 3))))
-          (f64.load (i32.add (local.get $V) (i32.shl (local.get $j) (i32.const 3))))))
-        (if (i32.and (i32.lt_s (local.get $j1) (i32.const 0)) (f64.eq (local.get $xs) (local.get $u1)))
-          (then (local.set $j1 (local.get $j)))
-          (else
-            (if (i32.and (i32.lt_s (local.get $j2) (i32.const 0)) (f64.eq (local.get $xs) (local.get $u2)))
-              (then (local.set $j2 (local.get $j))))))
-        (br_if $done (i32.and (i32.ge_s (local.get $j1) (i32.const 0))
-          (i32.or (i32.ge_s (local.get $j2) (i32.const 0)) (f64.eq (local.get $u2) (f64.const inf)))))
-        (local.set $j (i32.add (local.get $j) (i32.const 1)))
+        (local.set $x (f64x2.sub
+          (v128.load (i32.add (local.get $pc) (i32.shl (local.get $j) (i32.const 3))))
+          (v128.load (i32.add (local.get $V) (i32.shl (local.get $j) (i32.const 3))))))
+        (if (v128.any_true (v128.or (f64x2.eq (local.get $x) (local.get $uv1)) (f64x2.eq (local.get $x) (local.get $uv2)))) (then
+          (local.set $k (local.get $j))
+          (local.set $e (i32.add (local.get $j) (i32.const 2)))
+          (block $lanesDone (loop $lane
+            (br_if $lanesDone (i32.ge_u (local.get $k) (select (local.get $n) (local.get $e) (i32.lt_u (local.get $n) (local.get $e)))))
+            (local.set $xs (f64.sub
+              (f64.load (i32.add (local.get $pc) (i32.shl (local.get $k) (i32.const 3))))
+              (f64.load (i32.add (local.get $V) (i32.shl (local.get $k) (i32.const 3))))))
+            (if (i32.and (i32.lt_s (local.get $j1) (i32.const 0)) (f64.eq (local.get $xs) (local.get $u1)))
+              (then (local.set $j1 (local.get $k)))
+              (else
+                (if (i32.and (i32.lt_s (local.get $j2) (i32.const 0)) (f64.eq (local.get $xs) (local.get $u2)))
+                  (then (local.set $j2 (local.get $k))))))
+            (local.set $k (i32.add (local.get $k) (i32.const 1)))
+            (br $lane)))
+          (br_if $done (i32.and (i32.ge_s (local.get $j1) (i32.const 0))
+            (i32.or (i32.ge_s (local.get $j2) (i32.const 0)) (f64.eq (local.get $u2) (f64.const inf)))))))
+        (local.set $j (i32.add (local.get $j) (i32.const 2)))
         (br $s)))))
     (global.set $u1 (local.get $u1))
     (global.set $u2 (local.get $u2))
