@@ -16,36 +16,53 @@ import { WASM_BASE64 } from './dense-jv.wasm.js';
  * 35.0 against 36.5 ms; before the searches were split out of one long call, 25 against 17.5 ms of
  * kernel time.
  *
- * One instance is kept per process; its memory holds a copy of the matrix and grows
- * to the largest one solved (the caller keeps n small enough, see dense.ts).
+ * One instance is kept per process; its memory holds a copy of the matrix, and a
+ * larger matrix gets a new instance (see kernelFor; the caller keeps n small enough,
+ * see dense.ts).
  */
 
 /** The part of the WebAssembly API used here (the project's TS libs do not declare it). */
 interface WasmApi {
   readonly Module: new (bytes: Uint8Array) => object;
   readonly Instance: new (mod: object, imports: object) => { readonly exports: unknown };
+  readonly Memory: new (desc: { initial: number }) => WasmMemory;
+}
+interface WasmMemory {
+  readonly buffer: ArrayBuffer;
 }
 const wasmApi = (globalThis as unknown as { WebAssembly?: WasmApi }).WebAssembly;
 
 interface Kernel {
-  readonly memory: { readonly buffer: ArrayBuffer; grow(pages: number): number };
+  readonly memory: WasmMemory;
   readonly scanned: { readonly value: number };
   readonly solve: (n: number, c: number, v: number, u: number, r2c: number, c2r: number, w: number, maxScan: number, maxFree: number) => number;
 }
 
-let kernel: Kernel | null | undefined;
+/** The compiled module (null where WebAssembly with SIMD is not available), and the instance of the last solve. */
+let compiled: object | null | undefined;
+let kernel: Kernel | null = null;
 
-/** The kernel, compiled on first use; null where WebAssembly (with SIMD) is not available. */
-function loadKernel(): Kernel | null {
-  if (kernel !== undefined) return kernel;
-  if (wasmApi === undefined) return (kernel = null);
-  try {
-    const bytes = Uint8Array.from(atob(WASM_BASE64), (ch) => ch.charCodeAt(0));
-    const exp = new wasmApi.Instance(new wasmApi.Module(bytes), {}).exports as Kernel;
-    kernel = { memory: exp.memory, scanned: exp.scanned, solve: exp.solve };
-  } catch {
-    kernel = null;
+/**
+ * An instance whose memory holds `bytes`: the last one if it is large enough, else a
+ * new one with a memory of its own. A memory is never grown: growing detaches its
+ * old buffer, and once any buffer has been detached V8 adds a check to every
+ * typed-array access of optimised JS code in the process (measured: the JS solve of
+ * c_ij = i·j costs at n = 1000 run 25–35 % slower after a kernel call that had
+ * grown its memory). Null where the kernel cannot run.
+ */
+function kernelFor(bytes: number): Kernel | null {
+  if (kernel !== null && kernel.memory.buffer.byteLength >= bytes) return kernel;
+  if (compiled === undefined) {
+    try {
+      compiled = wasmApi === undefined ? null : new wasmApi.Module(Uint8Array.from(atob(WASM_BASE64), (ch) => ch.charCodeAt(0)));
+    } catch {
+      compiled = null;
+    }
   }
+  if (compiled === null || wasmApi === undefined) return null;
+  const memory = new wasmApi.Memory({ initial: Math.ceil(bytes / 65536) });
+  const exp = new wasmApi.Instance(compiled, { env: { memory } }).exports as Omit<Kernel, 'memory'>;
+  kernel = { memory, scanned: exp.scanned, solve: exp.solve };
   return kernel;
 }
 
@@ -76,8 +93,6 @@ const align = (x: number): number => (x + 15) & ~15;
  */
 export function wasmDenseJv(cost: Float64Array, n: number, maxScan: number, maxFree: number): WasmJvOut {
   const none = { rowToCol: new Int32Array(0), colToRow: new Int32Array(0), u: new Float64Array(0), v: new Float64Array(0) };
-  const k = loadKernel();
-  if (k === null) return { status: WASM_NO_KERNEL, ...none, scanned: 0 };
   const np = (n + 15) & ~15;
   const C = 0;
   const V = align(C + n * n * 8 + 128);
@@ -85,9 +100,8 @@ export function wasmDenseJv(cost: Float64Array, n: number, maxScan: number, maxF
   const R2C = U + np * 8;
   const C2R = R2C + np * 4;
   const W = align(C2R + np * 4);
-  const end = W + 64 * np;
-  const have = k.memory.buffer.byteLength;
-  if (end > have) k.memory.grow(Math.ceil((end - have) / 65536));
+  const k = kernelFor(W + 64 * np);
+  if (k === null) return { status: WASM_NO_KERNEL, ...none, scanned: 0 };
   const buf = k.memory.buffer;
   new Float64Array(buf, C, n * n).set(cost);
   new Float64Array(buf, C + n * n * 8, 16).fill(0);

@@ -13,13 +13,16 @@
 ;;   W    scratch, 8 * np * 8 bytes (see $solve)
 ;; Returns the number of searches run, or
 ;;   -1 a cell is -Infinity (the caller names it), -2 infeasible (a column or row with
-;;   no allowed pair: the caller's JS path reports it), -3 gave up (more than maxFree
-;;   rows left for the searches, or the kernel read more than maxScan pairs; the
+;;   no allowed pair: the caller's JS path reports it), -3 gave up (more than 1.5 maxFree
+;;   rows without a column after column reduction, more than maxFree rows left for the
+;;   searches, or more than maxScan pairs read; the
 ;;   caller solves by its JS path), -4 no predecessor
 ;;   found for a column of the path (cannot happen: the caller falls back all the same).
 ;; The pairs read are left in the global "scanned".
 (module
-  (memory (export "memory") 1)
+  ;; The caller's memory, created at the size each solve needs: growing a memory detaches
+  ;; its old buffer, and after any detach V8 checks every typed-array access in JS.
+  (import "env" "memory" (memory 1))
   (global $scanned (export "scanned") (mut f64) (f64.const 0))
   (global $u1 (mut f64) (f64.const 0))
   (global $u2 (mut f64) (f64.const 0))
@@ -273,6 +276,18 @@
               (i32.store (i32.add (local.get $R2C) (i32.shl (local.get $i) (i32.const 2))) (local.get $j))
               (i32.store (i32.add (local.get $C2R) (i32.shl (local.get $j) (i32.const 2))) (local.get $i))))))
       (br $l)))
+    ;; more than 1.5 maxFree rows left without a column (every column cheapest in the same
+    ;; few rows: c_ij = i·j, rank-one costs): the searches would be long, give up now
+    (local.set $k (i32.const 0))
+    (local.set $r (i32.const 0))
+    (block $d (loop $l
+      (br_if $d (i32.ge_u (local.get $r) (local.get $n)))
+      (if (i32.lt_s (i32.load (i32.add (local.get $R2C) (i32.shl (local.get $r) (i32.const 2)))) (i32.const 0))
+        (then (local.set $k (i32.add (local.get $k) (i32.const 1)))))
+      (local.set $r (i32.add (local.get $r) (i32.const 1)))
+      (br $l)))
+    (if (f64.gt (f64.convert_i32_u (local.get $k)) (f64.mul (f64.const 1.5) (f64.convert_i32_u (local.get $maxFree))))
+      (then (return (i32.const -3))))
     ;; reduction transfer: a row holding one column moves its slack onto that column's price
     (local.set $r (i32.const 0))
     (block $d (loop $l
