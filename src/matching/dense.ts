@@ -62,10 +62,21 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
 /**
  * Square matrices up to this size, where the row-minima start gives up, are solved by
  * the WebAssembly kernel (wasm/dense-jv.wat) before the candidates strategy is tried.
- * Measured on a process's first solve, in fresh processes (bench/wasm/first-solve.ts):
- * see docs/benchmarks.md.
+ * Measured on a process's first solve, fresh processes (bench/wasm/first-solve.ts,
+ * medians of 5–7 alternated runs, load 1–3.5), the JS paths against the kernel:
+ * geometric n = 600 71 / 15 ms, n = 1000 74–107 / 25–27 ms, n = 1250 100 / 41 ms,
+ * n = 1500 105 / 56 ms, n = 2000 116 / 150 ms; clustered n = 600 80 / 10 ms, n = 1000
+ * 103–151 / 27–31 ms, n = 1500 164 / 63 ms; uniform n = 1000 42 / 12–15 ms.
  */
-const KERNEL_MAX_N = 2000;
+const KERNEL_MAX_N = 1600;
+/**
+ * Up to this size the kernel also takes over the candidates strategy's crowded
+ * clusters (clustered costs), where the list auction and its pricing rounds cost most.
+ * Between KERNEL_MAX_N and this, geometric costs stay with the candidates, faster
+ * there: geometric n = 2000 116 ms in JS against 150 ms in the kernel; clustered n =
+ * 2000 216 against 120 ms (first solves, medians of 5–8 alternated fresh processes).
+ */
+const KERNEL_CROWDED_MAX_N = 2000;
 /** Matrices' worth of pairs the kernel may read before it gives up (geometric and clustered n = 1000: 37–44). */
 const KERNEL_BUDGET = 80;
 /**
@@ -770,6 +781,14 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   if (nRows <= nCols && mustMatchAll(inst.unmatchedCost ?? null)) {
     const crowd = opts.strategy === 'candidates' || nRows >= CROWDED_MIN_ROWS;
     const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }), crowd);
+    if (w === CROWDED && (opts.strategy ?? 'auto') === 'auto' && wPair === undefined && nRows === nCols && nRows <= KERNEL_CROWDED_MAX_N) {
+      // a crowded cluster: the kernel's full search beats the list auction up to here
+      const res = solveByKernel(inst);
+      if (res !== null) {
+        res.stats.scannedPairs += scanned;
+        return res;
+      }
+    }
     if (w === CROWDED) {
       const lists = auctionLists(slots, slotCost, cap, count, floor);
       const price = new Float64Array(nCols);

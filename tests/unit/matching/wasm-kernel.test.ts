@@ -139,6 +139,18 @@ describe('solveDense() auto and the kernel', () => {
     expect(checkCertificate(mw, c).problems).toEqual([]);
   });
 
+  it('gives the crowded clusters of a clustered matrix of 1700 rows to the kernel after the candidates are picked; geometric costs of that size stay with the candidates', () => {
+    const clu = denseFamily(45_030, 1700, 'clustered');
+    const r = solveDense(clu);
+    expect(r.stats.wasmKernel).toBe(true);
+    expect(r.stats.auctionBids).toBeUndefined();
+    expect(checkCertificate(clu, r).problems).toEqual([]);
+    const geo = denseFamily(45_031, 1700, 'geometric');
+    const g = solveDense(geo);
+    expect(g.stats.wasmKernel).toBeUndefined();
+    expect(checkCertificate(geo, g).problems).toEqual([]);
+  });
+
   it('names a -Infinity cell in the last row as an input error on the kernel\'s path', () => {
     const geo = denseFamily(45_050, 600, 'geometric');
     geo.cost[600 * 600 - 2] = -Infinity;
