@@ -274,7 +274,7 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
   // A first look at TIES_PEEK rows: costs with few ties at their rows' minima give up
   // here, before the greedy pass has read TIES_SAMPLE rows (in a process's first
   // solve, unoptimised: 2.7–4.4 ms at n = 1000, where this look costs about 0.2 ms).
-  if (n >= TIES_SAMPLE && tiesAtRowMinima(cost, n, TIES_PEEK) < TIES_PEEK_MIN * TIES_PEEK) return null;
+  if (n >= TIES_SAMPLE && !tiesAtRowMinimaReach(cost, n, TIES_PEEK, TIES_PEEK_MIN * TIES_PEEK)) return null;
   const u = new Float64Array(n);
   const v = new Float64Array(n);
   const rowToCol = new Int32Array(n).fill(NONE);
@@ -362,8 +362,14 @@ const TIES_MIN = 32;
 const TIES_PEEK = 4;
 const TIES_PEEK_MIN = 8;
 
-/** Cells equal to their row's minimum, over the first `rows` rows, in one read. */
-function tiesAtRowMinima(cost: Float64Array, n: number, rows: number): number {
+/**
+ * Whether the first `rows` rows hold `need` cells equal to their row's minimum, read
+ * once. It stops as soon as they do (costs with many ties: within the first row), so
+ * a row's count is of the cells at its lowest value so far: a lower value later in
+ * the row can only have been missed when the answer is yes, which sends the matrix
+ * on to the greedy pass and its own count.
+ */
+function tiesAtRowMinimaReach(cost: Float64Array, n: number, rows: number, need: number): boolean {
   let ties = 0;
   for (let r = 0; r < rows; r++) {
     let m = Infinity;
@@ -373,13 +379,13 @@ function tiesAtRowMinima(cost: Float64Array, n: number, rows: number): number {
       if (x < m) {
         m = x;
         c = 1;
-      } else if (x === m) {
-        c++;
+      } else if (x === m && ++c + ties >= need) {
+        return true;
       }
     }
     ties += c;
   }
-  return ties;
+  return ties >= need;
 }
 
 /** Cells equal to their row's minimum u[r], over the first `rows` rows. */
