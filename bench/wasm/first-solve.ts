@@ -1,11 +1,12 @@
 /**
- * First solves in fresh processes, the solvers alternated run by run: pairflow before
- * the kernel (the tree at MAIN_TREE), pairflow with it (this tree), and scipy's
- * linear_sum_assignment (its first call in a fresh Python process). Prints min and
- * median per case and solver.
- * Usage: npx tsx bench/wasm/first-solve.ts DIR REPEATS CASE[,CASE...] [SOLVERS]
+ * First solves in fresh processes, the solvers alternated run by run: pairflow of
+ * another checkout (`main`, at $MAIN_TREE: e.g. the solver before the kernel), pairflow
+ * of this tree (`js`; see probe-child.ts for the others), and scipy's
+ * linear_sum_assignment (`scipy`, its first call in a fresh Python process). Prints
+ * min and median per case and solver.
+ * Usage: [MAIN_TREE=...] npx tsx bench/wasm/first-solve.ts DIR REPEATS CASE[,CASE...] [SOLVERS]
  *   (instances from bench/wasm/make-instances.ts; CASE like geometric-1000;
- *    SOLVERS default main,js,scipy)
+ *    SOLVERS default js,scipy)
  */
 import { spawnSync } from 'node:child_process';
 import { join } from 'node:path';
@@ -13,7 +14,7 @@ import { join } from 'node:path';
 const [dir, repText, caseText, solverText] = process.argv.slice(2);
 const repeats = Number(repText ?? 5);
 const cases = (caseText ?? 'geometric-1000').split(',');
-const solvers = (solverText ?? 'main,js,scipy').split(',');
+const solvers = (solverText ?? 'js,scipy').split(',');
 const here = new URL('.', import.meta.url).pathname;
 
 function runOne(solver: string, name: string): { ms: number; cost: number; certified?: boolean; wasm?: boolean } {

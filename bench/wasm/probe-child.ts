@@ -4,7 +4,7 @@
  * Usage: node --import tsx bench/wasm/probe-child.ts SOLVER DIR N [EXTRA]
  *   SOLVER: js (solveDense of this tree, auto: the kernel where it applies),
  *           jsfull (strategy 'full'), kernel (the wasm kernel alone, no budget),
- *           main (solveDense of the tree at MAIN_TREE, default /work/main: the solver before the kernel)
+ *           main (solveDense of another checkout at $MAIN_TREE, e.g. one of the solver before the kernel)
  */
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -29,7 +29,9 @@ else if (solver === 'kernel') {
     return r;
   };
 } else if (solver === 'main') {
-  const mod = (await import(join(process.env.MAIN_TREE ?? '/work/main', 'src/matching/index.ts'))) as { solveDense: typeof solveDense };
+  const tree = process.env.MAIN_TREE;
+  if (tree === undefined) throw new Error('solver main needs MAIN_TREE, the path of another checkout');
+  const mod = (await import(join(tree, 'src/matching/index.ts'))) as { solveDense: typeof solveDense };
   solve = () => mod.solveDense(inst);
 } else throw new Error(`unknown solver ${solver}`);
 
