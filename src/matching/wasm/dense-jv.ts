@@ -60,10 +60,15 @@ function kernelFor(bytes: number): Kernel | null {
     }
   }
   if (compiled === null || wasmApi === undefined) return null;
-  const memory = new wasmApi.Memory({ initial: Math.ceil(bytes / 65536) });
-  const exp = new wasmApi.Instance(compiled, { env: { memory } }).exports as Omit<Kernel, 'memory'>;
-  kernel = { memory, scanned: exp.scanned, solve: exp.solve };
-  return kernel;
+  try {
+    const memory = new wasmApi.Memory({ initial: Math.ceil(bytes / 65536) });
+    const exp = new wasmApi.Instance(compiled, { env: { memory } }).exports as Omit<Kernel, 'memory'>;
+    kernel = { memory, scanned: exp.scanned, solve: exp.solve };
+    return kernel;
+  } catch {
+    // no memory to be had of that size
+    return null;
+  }
 }
 
 /** The kernel's statuses besides a count of searches: see dense-jv.wat. */
@@ -83,7 +88,9 @@ export interface WasmJvOut {
   readonly scanned: number;
 }
 
-const align = (x: number): number => (x + 15) & ~15;
+const align = (x: number): number => Math.ceil(x / 16) * 16;
+/** The kernel's largest memory: its addresses stay below 2^31 (n up to about 16 000). */
+const MAX_BYTES = 2 ** 31;
 
 /**
  * Solves the square n × n matrix `cost` (every row matched) in the wasm kernel. It
@@ -93,14 +100,14 @@ const align = (x: number): number => (x + 15) & ~15;
  */
 export function wasmDenseJv(cost: Float64Array, n: number, maxScan: number, maxFree: number): WasmJvOut {
   const none = { rowToCol: new Int32Array(0), colToRow: new Int32Array(0), u: new Float64Array(0), v: new Float64Array(0) };
-  const np = (n + 15) & ~15;
+  const np = align(n);
   const C = 0;
   const V = align(C + n * n * 8 + 128);
   const U = V + np * 8;
   const R2C = U + np * 8;
   const C2R = R2C + np * 4;
   const W = align(C2R + np * 4);
-  const k = kernelFor(W + 64 * np);
+  const k = W + 64 * np <= MAX_BYTES ? kernelFor(W + 64 * np) : null;
   if (k === null) return { status: WASM_NO_KERNEL, ...none, scanned: 0 };
   const buf = k.memory.buffer;
   new Float64Array(buf, C, n * n).set(cost);

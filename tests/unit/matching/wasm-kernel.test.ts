@@ -113,6 +113,13 @@ describe('the dense wasm kernel', () => {
     }
   });
 
+  it('leaves a matrix too large for a wasm memory to the JS paths (null), and works again after', () => {
+    // 24 000² cells take 4.6 GB, past a wasm32 memory's 4 GiB; only the length is read
+    const huge = { nRows: 24_000, nCols: 24_000, cost: { length: 24_000 * 24_000 } as unknown as Float64Array };
+    expect(solveByKernel(huge)).toBeNull();
+    expectSameOptimum(build(44_150, 40, 'uniform', 0), 'after the huge one');
+  });
+
   it('gives up (null) past its budgets: more free rows than allowed, or more pairs read', () => {
     const inst = denseFamily(44_200, 120, 'machol-wien');
     expect(solveByKernel(inst, Infinity, 0)).toBeNull();
