@@ -63,10 +63,10 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
  * Square matrices up to this size, where the row-minima start gives up, are solved by
  * the WebAssembly kernel (wasm/dense-jv.wat) before the candidates strategy is tried.
  * Measured on a process's first solve, fresh processes (bench/wasm/first-solve.ts,
- * medians of 5–7 alternated runs, load 1–3.5), the JS paths against the kernel:
- * geometric n = 600 71 / 15 ms, n = 1000 74–107 / 25–27 ms, n = 1250 100 / 41 ms,
+ * medians of 5–7 alternated runs, load 1–4), the JS paths against the kernel:
+ * geometric n = 600 71 / 15 ms, n = 1000 74–126 / 25–28 ms, n = 1250 100 / 41 ms,
  * n = 1500 105 / 56 ms, n = 2000 116 / 150 ms; clustered n = 600 80 / 10 ms, n = 1000
- * 103–151 / 27–31 ms, n = 1500 164 / 63 ms; uniform n = 1000 42 / 12–15 ms.
+ * 103–180 / 27–31 ms, n = 1500 164 / 63 ms; uniform n = 1000 42–71 / 12–15 ms.
  */
 const KERNEL_MAX_N = 1600;
 /**
