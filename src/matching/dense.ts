@@ -8,6 +8,7 @@ import { denseAuction } from './dense-auction.js';
 import { keepCheapest, listAuction, type AuctionLists } from './list-auction.js';
 import { maxCardinalityMatching } from './cardinality.js';
 import type { SparseInstance, WarmStart } from './types.js';
+import { WASM_BAD_CELL, wasmDenseJv } from './wasm/dense-jv.js';
 
 /*
  * The dense twin of sparse.ts: the same invariants (see there), but each search
@@ -43,7 +44,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   const strategy = opts.strategy ?? 'auto';
   if (strategy === 'candidates' || (strategy === 'auto' && preferCandidates(inst.nRows, inst.nCols, k))) {
     if (inst.nRows === inst.nCols && opts.warm === undefined && mustMatchAll(inst.unmatchedCost ?? null)) {
-      const res = solveFromRowMinima(inst);
+      const res = solveFromRowMinima(inst) ?? (strategy === 'auto' && inst.nRows <= KERNEL_MAX_N && cheapestRowsSpread(inst) ? solveByKernel(inst) : null);
       if (res !== null) {
         res.stats.ms = now() - t0;
         return res;
@@ -56,6 +57,92 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
     }
   }
   return solveDenseFull(inst, opts, now, t0);
+}
+
+/**
+ * Square matrices up to this size, where the row-minima start gives up, are solved by
+ * the WebAssembly kernel (wasm/dense-jv.wat) before the candidates strategy is tried.
+ * Measured on a process's first solve, fresh processes (bench/wasm/first-solve.ts,
+ * medians of 5–7 alternated runs, load 1–4), the JS paths against the kernel:
+ * geometric n = 600 71 / 15 ms, n = 1000 74–126 / 25–28 ms, n = 1250 100 / 41 ms,
+ * n = 1500 105 / 56 ms, n = 2000 116 / 150 ms; clustered n = 600 80 / 10 ms, n = 1000
+ * 103–180 / 27–31 ms, n = 1500 164 / 63 ms; uniform n = 1000 42–71 / 12–15 ms.
+ */
+const KERNEL_MAX_N = 1600;
+/**
+ * Up to this size the kernel also takes over the candidates strategy's crowded
+ * clusters (clustered costs), where the list auction and its pricing rounds cost most.
+ * Between KERNEL_MAX_N and this, geometric costs stay with the candidates, faster
+ * there: geometric n = 2000 116 ms in JS against 150 ms in the kernel; clustered n =
+ * 2000 216 against 120 ms (first solves, medians of 5–8 alternated fresh processes).
+ */
+const KERNEL_CROWDED_MAX_N = 2000;
+/** Matrices' worth of pairs the kernel may read before it gives up (geometric and clustered n = 1000: 37–44). */
+const KERNEL_BUDGET = 80;
+/**
+ * The kernel gives up when more than n / KERNEL_FREE_SHARE rows are left for its
+ * searches after the reductions: each search then scans long (c_ij = i·j and rank-one
+ * costs leave 96–98 % of the rows, the n³ behaviour the auction is there for; geometric
+ * and clustered costs 16–21 %).
+ */
+const KERNEL_FREE_SHARE = 3;
+
+/** Columns whose cheapest row {@link cheapestRowsSpread} looks up. */
+const KERNEL_SAMPLE_COLS = 8;
+
+/**
+ * Whether the cheapest rows of KERNEL_SAMPLE_COLS columns spread over the matrix are
+ * at least half of them distinct. Where every column is cheapest in the same few rows
+ * (c_ij = i·j: all in row 0; rank-one costs: the row of the smallest a_i), column
+ * reduction leaves nearly every row free and the kernel would give up after copying
+ * and reducing the matrix (4–5 ms at n = 1000); this look at 8 columns costs 8n
+ * reads. Distances, clusters and uniform costs have distinct cheapest rows.
+ */
+function cheapestRowsSpread(inst: DenseInstance): boolean {
+  const { nRows: n, cost } = inst;
+  const rows = new Int32Array(KERNEL_SAMPLE_COLS);
+  let distinct = 0;
+  for (let s = 0; s < KERNEL_SAMPLE_COLS; s++) {
+    const j = Math.floor(((s + 0.5) * n) / KERNEL_SAMPLE_COLS);
+    let best = Infinity;
+    let arg = NONE;
+    for (let r = 0, k = j; r < n; r++, k += n) {
+      const c = cost[k]!;
+      if (c < best) {
+        best = c;
+        arg = r;
+      }
+    }
+    let seen = false;
+    for (let t = 0; t < s; t++) if (rows[t] === arg) seen = true;
+    rows[s] = arg;
+    if (!seen) distinct++;
+  }
+  return 2 * distinct >= KERNEL_SAMPLE_COLS;
+}
+
+/**
+ * The full search of a square instance where every row is matched, in the wasm
+ * kernel: column reduction, reduction transfer, two passes of augmenting row
+ * reduction, then a shortest augmenting path per free row over whole rows. Returns
+ * null where the kernel gives up (see KERNEL_BUDGET and KERNEL_FREE_SHARE, or
+ * `maxScan` and `maxFree`), meets an infeasible instance (the JS paths report it) or
+ * cannot run; a -Infinity cell is reported here.
+ */
+export function solveByKernel(inst: DenseInstance, maxScan?: number, maxFree?: number): SolveResult | null {
+  const n = inst.nRows;
+  const out = wasmDenseJv(inst.cost, n, maxScan ?? KERNEL_BUDGET * n * n, maxFree ?? Math.floor(n / KERNEL_FREE_SHARE));
+  if (out.status === WASM_BAD_CELL) checkDenseCells(inst);
+  if (out.status < 0) return null;
+  return finishDense(inst, true, out.u, out.v, out.rowToCol, out.colToRow, {
+    augmentations: out.status,
+    scannedPairs: out.scanned,
+    ms: 0,
+    warm: false,
+    warmPairsKept: 0,
+    searchedRows: out.status,
+    wasmKernel: true,
+  });
 }
 
 /**
@@ -184,6 +271,10 @@ function finishDense(
  */
 function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
   const { nRows: n, cost } = inst;
+  // A first look at TIES_PEEK rows: costs with few ties at their rows' minima give up
+  // here, before the greedy pass has read TIES_SAMPLE rows (in a process's first
+  // solve, unoptimised: 2.7–4.4 ms at n = 1000, where this look costs about 0.2 ms).
+  if (n >= TIES_SAMPLE && !tiesAtRowMinimaReach(cost, n, TIES_PEEK, TIES_PEEK_MIN * TIES_PEEK)) return null;
   const u = new Float64Array(n);
   const v = new Float64Array(n);
   const rowToCol = new Int32Array(n).fill(NONE);
@@ -262,6 +353,40 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
  */
 const TIES_SAMPLE = 32;
 const TIES_MIN = 32;
+
+/**
+ * The first look: TIES_PEEK rows holding fewer than TIES_PEEK_MIN ties at their
+ * minima on average, far below TIES_MIN, are taken as a sample the greedy pass would
+ * give up on (integers 0..9 hold n/10 ties per row; distances and uniform costs one or two).
+ */
+const TIES_PEEK = 4;
+const TIES_PEEK_MIN = 8;
+
+/**
+ * Whether the first `rows` rows hold `need` cells equal to their row's minimum, read
+ * once. It stops as soon as they do (costs with many ties: within the first row), so
+ * a row's count is of the cells at its lowest value so far: a lower value later in
+ * the row can only have been missed when the answer is yes, which sends the matrix
+ * on to the greedy pass and its own count.
+ */
+function tiesAtRowMinimaReach(cost: Float64Array, n: number, rows: number, need: number): boolean {
+  let ties = 0;
+  for (let r = 0; r < rows; r++) {
+    let m = Infinity;
+    let c = 0;
+    for (let k = r * n; k < (r + 1) * n; k++) {
+      const x = cost[k]!;
+      if (x < m) {
+        m = x;
+        c = 1;
+      } else if (x === m && ++c + ties >= need) {
+        return true;
+      }
+    }
+    ties += c;
+  }
+  return ties >= need;
+}
 
 /** Cells equal to their row's minimum u[r], over the first `rows` rows. */
 function tiesAtMinimum(cost: Float64Array, n: number, u: Float64Array, rows: number): number {
@@ -694,6 +819,14 @@ function solveByCandidates(inst: DenseInstance, opts: SolveOptions, k: number): 
   if (nRows <= nCols && mustMatchAll(inst.unmatchedCost ?? null)) {
     const crowd = opts.strategy === 'candidates' || nRows >= CROWDED_MIN_ROWS;
     const w = widenUntilMatchable(inst, k, count, floor, maxAbs, wPair, ensureCap, () => ({ slots, slotCost, cap }), crowd);
+    if (w === CROWDED && (opts.strategy ?? 'auto') === 'auto' && wPair === undefined && nRows === nCols && nRows <= KERNEL_CROWDED_MAX_N) {
+      // a crowded cluster: the kernel's full search beats the list auction up to here
+      const res = solveByKernel(inst);
+      if (res !== null) {
+        res.stats.scannedPairs += scanned;
+        return res;
+      }
+    }
     if (w === CROWDED) {
       const lists = auctionLists(slots, slotCost, cap, count, floor);
       const price = new Float64Array(nCols);

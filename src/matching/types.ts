@@ -101,6 +101,8 @@ export interface SolveStats {
    * cluster for the candidates strategy (list-auction.ts).
    */
   auctionBids?: number;
+  /** True when the dense solve ran in the WebAssembly kernel (wasm/dense-jv.wat). */
+  wasmKernel?: boolean;
 }
 
 export interface SolveResult {

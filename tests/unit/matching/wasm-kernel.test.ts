@@ -1,0 +1,215 @@
+import { describe, expect, it } from 'vitest';
+import { checkCertificate, solveDense } from '../../../src/matching/index.js';
+import { solveByKernel } from '../../../src/matching/dense.js';
+import { denseFamily } from '../../../bench/lib/instances.js';
+import { scipyDenseCosts, scipyVersion } from '../../helpers/python.js';
+import { bruteForce, mulberry32, randInt } from './gen.js';
+import { readFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
+import type { DenseInstance } from '../../../src/matching/types.js';
+
+/*
+ * The WebAssembly kernel of the dense solver (src/matching/wasm/dense-jv.wat), called
+ * directly with no budget so that it runs on small matrices too, and through
+ * solveDense() where `auto` picks it. References: the JS full search of the same
+ * solver (strategy 'full'), exhaustive search over every assignment (common practice
+ * for tiny instances) and scipy.optimize.linear_sum_assignment (version in the test
+ * name); every result must also carry a certificate (checkCertificate).
+ */
+
+const version = scipyVersion();
+const INPUT = expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' });
+const INFEASIBLE = expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INFEASIBLE' });
+
+type Kind = 'uniform' | 'ties' | 'negative' | 'allSame' | 'wideRange';
+
+/** n × n costs of one kind; a share `forbidden` of the cells +Infinity, or NaN (also not allowed) when `nan`. */
+function build(seed: number, n: number, kind: Kind, forbidden: number, nan = false): DenseInstance {
+  const rand = mulberry32(seed);
+  const cost = new Float64Array(n * n);
+  for (let k = 0; k < cost.length; k++) {
+    let c: number;
+    if (kind === 'uniform') c = rand() * 100;
+    else if (kind === 'ties') c = randInt(rand, 0, 3);
+    else if (kind === 'negative') c = rand() * 200 - 100;
+    else if (kind === 'allSame') c = 7;
+    else c = (rand() - 0.5) * 10 ** randInt(rand, -3, 12);
+    cost[k] = rand() < forbidden ? (nan ? NaN : Infinity) : c;
+  }
+  return { nRows: n, nCols: n, cost };
+}
+
+const noBudget = (inst: DenseInstance) => solveByKernel(inst, Infinity, inst.nRows);
+
+function expectSameOptimum(inst: DenseInstance, label: string): void {
+  const js = solveDense(inst, { strategy: 'full' });
+  const res = noBudget(inst);
+  expect(res, label).not.toBeNull();
+  expect(res!.stats.wasmKernel, label).toBe(true);
+  expect(checkCertificate(inst, res!).problems, label).toEqual([]);
+  expect(Math.abs(res!.cost - js.cost), `${label}: ${res!.cost} vs ${js.cost}`).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(js.cost)));
+}
+
+describe('the dense wasm kernel', () => {
+  it('matches exhaustive search on 200 tiny matrices (1–7 rows), ties and forbidden pairs included', () => {
+    let feasible = 0;
+    for (let seed = 0; seed < 200; seed++) {
+      const rand = mulberry32(41_000 + seed);
+      const n = randInt(rand, 1, 7);
+      const kind = (['uniform', 'ties', 'negative', 'allSame', 'wideRange'] as const)[seed % 5]!;
+      const inst = build(41_000 + seed, n, kind, seed % 3 === 0 ? 0.3 : 0, seed % 6 === 0);
+      const want = bruteForce(inst);
+      const label = `seed ${seed} n=${n} ${kind}`;
+      const res = noBudget(inst);
+      if (!(want < Infinity)) {
+        // infeasible: the kernel leaves it to the JS paths, which report it
+        expect(res, label).toBeNull();
+        expect(() => solveDense(inst), label).toThrow(INFEASIBLE);
+        continue;
+      }
+      feasible++;
+      expect(res, label).not.toBeNull();
+      expect(checkCertificate(inst, res!).problems, label).toEqual([]);
+      expect(Math.abs(res!.cost - want), `${label}: ${res!.cost} vs ${want}`).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(want)));
+    }
+    expect(feasible).toBeGreaterThan(150);
+  });
+
+  it('matches the JS full search on 60 seeded matrices of 8–150 rows, sizes in any order (the memory is reused)', () => {
+    for (let seed = 0; seed < 60; seed++) {
+      const rand = mulberry32(42_000 + seed);
+      // sizes on and off the kernel's multiple of 16, larger and smaller than the one before
+      const n = randInt(rand, 8, 150);
+      const kind = (['uniform', 'ties', 'negative', 'allSame', 'wideRange'] as const)[seed % 5]!;
+      expectSameOptimum(build(42_000 + seed, n, kind, seed % 4 === 1 ? 0.2 : 0, seed % 8 === 1), `seed ${seed} n=${n} ${kind}`);
+    }
+  });
+
+  it('matches the JS full search on the structured families (distances, clusters, few integers, i·j, rank one)', () => {
+    for (const family of ['geometric', 'clustered', 'few-ints', 'machol-wien', 'rank-one'] as const) {
+      for (const n of [50, 201]) expectSameOptimum(denseFamily(43_000 + n, n, family), `${family} n=${n}`);
+    }
+  });
+
+  it('leaves an infeasible matrix to the JS paths: a column or a row with no allowed pair', () => {
+    const col = build(44_001, 20, 'uniform', 0);
+    for (let r = 0; r < 20; r++) col.cost[r * 20 + 13] = Infinity;
+    const row = build(44_002, 33, 'uniform', 0);
+    for (let j = 0; j < 33; j++) row.cost[17 * 33 + j] = NaN;
+    // Hall's condition fails: rows 0–2 allow only columns 0–1
+    const hall = build(44_003, 24, 'uniform', 0);
+    for (let r = 0; r < 3; r++) for (let j = 2; j < 24; j++) hall.cost[r * 24 + j] = Infinity;
+    for (const inst of [col, row, hall]) {
+      expect(noBudget(inst)).toBeNull();
+      expect(() => solveDense(inst)).toThrow(INFEASIBLE);
+    }
+  });
+
+  it('names a -Infinity cell as an input error, wherever it is', () => {
+    for (const at of [0, 37 * 37 - 1, 5 * 37 + 36]) {
+      const inst = build(44_100 + at, 37, 'uniform', 0);
+      inst.cost[at] = -Infinity;
+      expect(() => noBudget(inst)).toThrow(INPUT);
+    }
+  });
+
+  it('leaves a matrix too large for a wasm memory to the JS paths (null), and works again after', () => {
+    // 24 000² cells take 4.6 GB, past a wasm32 memory's 4 GiB; only the length is read
+    const huge = { nRows: 24_000, nCols: 24_000, cost: { length: 24_000 * 24_000 } as unknown as Float64Array };
+    expect(solveByKernel(huge)).toBeNull();
+    expectSameOptimum(build(44_150, 40, 'uniform', 0), 'after the huge one');
+  });
+
+  it('gives up (null) past its budgets: more free rows than allowed, or more pairs read', () => {
+    const inst = denseFamily(44_200, 120, 'machol-wien');
+    expect(solveByKernel(inst, Infinity, 0)).toBeNull();
+    expect(solveByKernel(inst, 3 * 120 * 120, 120)).toBeNull();
+    expect(noBudget(inst)).not.toBeNull();
+  });
+});
+
+describe('solveDense() auto and the kernel', () => {
+  it('uses the kernel on square geometric costs of 600 rows and on uniform ones; gives i·j costs back to the JS paths', () => {
+    const geo = denseFamily(45_000, 600, 'geometric');
+    const a = solveDense(geo);
+    expect(a.stats.wasmKernel).toBe(true);
+    expect(checkCertificate(geo, a).problems).toEqual([]);
+    expect(a.cost).toBeCloseTo(solveDense(geo, { strategy: 'full' }).cost, 6);
+    const uni = build(45_001, 700, 'uniform', 0);
+    const b = solveDense(uni);
+    expect(b.stats.wasmKernel).toBe(true);
+    expect(checkCertificate(uni, b).problems).toEqual([]);
+    // c_ij = i·j leaves nearly every row free after the reductions: the kernel gives up
+    const mw = denseFamily(45_002, 600, 'machol-wien');
+    const c = solveDense(mw);
+    expect(c.stats.wasmKernel).toBeUndefined();
+    expect(checkCertificate(mw, c).problems).toEqual([]);
+  });
+
+  it('gives the crowded clusters of a clustered matrix of 1700 rows to the kernel after the candidates are picked; geometric costs of that size stay with the candidates', () => {
+    const clu = denseFamily(45_030, 1700, 'clustered');
+    const r = solveDense(clu);
+    expect(r.stats.wasmKernel).toBe(true);
+    expect(r.stats.auctionBids).toBeUndefined();
+    expect(checkCertificate(clu, r).problems).toEqual([]);
+    const geo = denseFamily(45_031, 1700, 'geometric');
+    const g = solveDense(geo);
+    expect(g.stats.wasmKernel).toBeUndefined();
+    expect(checkCertificate(geo, g).problems).toEqual([]);
+  });
+
+  it('names a -Infinity cell in the last row as an input error on the kernel\'s path', () => {
+    const geo = denseFamily(45_050, 600, 'geometric');
+    geo.cost[600 * 600 - 2] = -Infinity;
+    expect(() => solveDense(geo)).toThrow(INPUT);
+  });
+
+  it('keeps the JS paths for few distinct costs (the row-minima start), wide matrices, unmatched costs and warm starts', () => {
+    const few = denseFamily(45_100, 600, 'few-ints');
+    expect(solveDense(few).stats.wasmKernel).toBeUndefined();
+    const geo = denseFamily(45_101, 600, 'geometric');
+    const withDelta = { ...geo, unmatchedCost: new Float64Array(600).fill(50) };
+    expect(solveDense(withDelta).stats.wasmKernel).toBeUndefined();
+    const first = solveDense(geo);
+    const warm = { colPrices: first.colDuals, rowPrices: first.rowDuals, rowToCol: first.rowToCol };
+    expect(solveDense(geo, { warm }).stats.wasmKernel).toBeUndefined();
+    expect(solveDense(geo, { strategy: 'full' }).stats.wasmKernel).toBeUndefined();
+  });
+});
+
+describe.skipIf(version === null)(`the dense wasm kernel against scipy ${version}`, () => {
+  it('reaches linear_sum_assignment’s optimum on the structured families and uniform costs, n = 257 and 640', () => {
+    const cases = (['geometric', 'clustered', 'rank-one'] as const).flatMap((family, f) =>
+      [257, 640].map((n) => ({ label: `${family} n=${n}`, inst: denseFamily(46_000 + 10 * f + n, n, family) })),
+    );
+    cases.push({ label: 'ties n=300', inst: build(46_500, 300, 'ties', 0) });
+    cases.push({ label: 'uniform with forbidden pairs n=400', inst: build(46_501, 400, 'uniform', 0.1) });
+    const want = scipyDenseCosts(cases.map((c) => c.inst));
+    cases.forEach(({ label, inst }, k) => {
+      const ref = want[k]!;
+      expect(ref, label).not.toBeNull();
+      const res = noBudget(inst);
+      expect(res, label).not.toBeNull();
+      expect(checkCertificate(inst, res!).problems, label).toEqual([]);
+      expect(Math.abs(res!.cost - ref), `${label}: ${res!.cost} vs ${ref}`).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(ref)));
+    });
+  });
+});
+
+/** Whether the `wabt` dev dependency is installed (it is after `npm install` / `npm ci`). */
+const wabtFound = ((): boolean => {
+  try {
+    createRequire(new URL('../../../scripts/', import.meta.url)).resolve('wabt');
+    return true;
+  } catch {
+    return false;
+  }
+})();
+
+describe.skipIf(!wabtFound)('the committed kernel bytes', () => {
+  it('are the assembly of dense-jv.wat (wabt\'s wat2wasm, via scripts/build-wasm.mjs)', async () => {
+    const { assembledModuleText } = (await import('../../../scripts/build-wasm.mjs')) as { assembledModuleText: (dir: string, name: string) => Promise<string> };
+    const dir = new URL('../../../src/matching/wasm/', import.meta.url).pathname;
+    expect(await assembledModuleText(dir, 'dense-jv')).toBe(readFileSync(`${dir}dense-jv.wasm.ts`, 'utf8'));
+  });
+});
