@@ -181,6 +181,20 @@ function compactPairs(g: CompactGraph): Map<string, number> {
   return out;
 }
 
+/**
+ * A code q says the cost lies in [q·step, (q + 1)·step), up to float rounding of a
+ * fast distance (2^-24 + 1e-12 relative); the top code says ≥ P.
+ */
+function expectCodeBounds(c: number, q: number, step: number, P: number, at: string): void {
+  const tol = (x: number) => x * 2 ** -22;
+  if (q === CODE_TOP) {
+    expect(c, at).toBeGreaterThanOrEqual(P - tol(P));
+  } else {
+    expect(c, at).toBeGreaterThanOrEqual(q * step - tol(c));
+    expect(c, at).toBeLessThan((q + 1) * step + tol(c));
+  }
+}
+
 describe('buildCompactGraph()', () => {
   const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', maxTravelMin: 12, waitWeight: 1.3 };
   const plane = (rand: () => number): Partial<HindsightUnit> => ({ x: rand() * 8, y: rand() * 8 });
@@ -193,19 +207,7 @@ describe('buildCompactGraph()', () => {
       const want = allPairs(units, config);
       const got = compactPairs(g);
       expect([...got.keys()].sort(), `seed ${seed}`).toEqual([...want.keys()].sort());
-      // A code q says the cost lies in [q·step, (q + 1)·step), up to float rounding of
-      // a fast distance (2^-24 + 1e-12 relative); the top code says ≥ P.
-      const P = config.abandonPenalty;
-      const tol = (c: number) => c * (2 ** -22);
-      for (const [k, c] of want) {
-        const q = got.get(k)!;
-        if (q === CODE_TOP) {
-          expect(c, `seed ${seed} pair ${k}`).toBeGreaterThanOrEqual(P - tol(P));
-        } else {
-          expect(c, `seed ${seed} pair ${k}`).toBeGreaterThanOrEqual(q * g.step - tol(c));
-          expect(c, `seed ${seed} pair ${k}`).toBeLessThan((q + 1) * g.step + tol(c));
-        }
-      }
+      for (const [k, c] of want) expectCodeBounds(c, got.get(k)!, g.step, config.abandonPenalty, `seed ${seed} pair ${k}`);
       // rowDemand and demandRow are inverse permutations of the demand.
       expect(g.nRows).toBe(m.nDemand);
       expect([...g.rowDemand].sort((a, b) => a - b)).toEqual(Array.from({ length: m.nDemand }, (_, i) => i));
@@ -243,12 +245,7 @@ describe('buildCompactGraph()', () => {
           const c = exact(d, j);
           const at = `seed ${seed} pair ${d},${j}`;
           expect(Math.abs(quick(d, j) - c), at).toBeLessThanOrEqual(QUICK_COST_SLACK * (1 + c));
-          const q = codeOf(g.codes[e]!);
-          if (q === CODE_TOP) expect(c, at).toBeGreaterThanOrEqual(P - c * 2 ** -22);
-          else {
-            expect(c, at).toBeGreaterThanOrEqual(q * g.step - c * 2 ** -22);
-            expect(c, at).toBeLessThan((q + 1) * g.step + c * 2 ** -22);
-          }
+          expectCodeBounds(c, codeOf(g.codes[e]!), g.step, P, at);
           pairs++;
         }
       }
