@@ -23,6 +23,7 @@ import {
   type HindsightMarketResult,
   type HindsightPhases,
 } from './solve.js';
+import { BYTES_PER_HELD_PAIR, defaultMemoryBudget, heldPairs, nextMarket } from './schedule.js';
 import type { WorkerReply, WorkerTask } from './worker.js';
 
 export type { HindsightCover, HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail, HindsightPhases };
@@ -67,6 +68,19 @@ export interface HindsightOptions extends HindsightMarketOptions {
    * @default min(markets, available cores)
    */
   threads?: number;
+  /**
+   * Bytes the workers' pairs may take at once (schedule.ts): a market starts beside
+   * running ones only while their estimated pairs fit; the largest runs alone if it
+   * must. Only the order and overlap of the markets depend on it, never a result.
+   * @default an eighth of the machine's memory, at least 3 GiB
+   */
+  memoryBudget?: number;
+  /**
+   * Memory the caller holds beside the workers until `until` settles (the replay's
+   * online pass over a loaded log): counted against `memoryBudget` until then, so
+   * that the largest markets wait for it.
+   */
+  callerHolds?: { bytes: number; until: Promise<unknown> };
   /** Called after each market is solved. */
   onProgress?: (done: number, total: number) => void;
   /** Where a warning goes (e.g. the compiled worker is missing). @default process.emitWarning */
@@ -123,14 +137,31 @@ export function hindsightWorkerAvailable(): boolean {
  * const h = await solveHindsight(events, DEFAULT_CONFIG, { threads: 2 });
  * console.log(h.cost, h.matched, h.ceiling);
  */
-export async function solveHindsight(
+export function solveHindsight(
   events: readonly SourcedEvent[],
   config: PairflowConfig,
   opts: HindsightOptions = {},
 ): Promise<HindsightResult> {
   const t0 = performance.now();
-  const { markets, packed } = packByMarket(events, config);
+  // Packed here, synchronously: the solve below holds the typed arrays only, so the
+  // caller's events can be let go while it runs (the replay drops them once the
+  // online replay has read them).
+  let byMarket: { markets: string[]; packed: PackedMarket[] };
+  try {
+    byMarket = packByMarket(events, config);
+  } catch (err) {
+    return Promise.reject(err);
+  }
+  return solvePacked(byMarket.markets, byMarket.packed, config, opts, t0);
+}
 
+async function solvePacked(
+  markets: string[],
+  packed: Array<PackedMarket | null>,
+  config: PairflowConfig,
+  opts: HindsightOptions,
+  t0: number,
+): Promise<HindsightResult> {
   let threads = opts.threads ?? Math.min(markets.length, availableParallelism());
   threads = Math.max(0, Math.min(Math.floor(threads), markets.length));
   const marketOpts: HindsightMarketOptions = {};
@@ -150,11 +181,12 @@ export async function solveHindsight(
     if (opts.now !== undefined) marketOpts.now = opts.now;
     for (let i = 0; i < markets.length; i++) {
       const { detail: _detail, ...r } = solvePackedMarket(markets[i]!, packed[i]!, config, solveSparse, marketOpts);
+      packed[i] = null;
       results[i] = r;
       opts.onProgress?.(++done, markets.length);
     }
   } else {
-    await runOnWorkers(threads, markets, packed, config, marketOpts, (i, r) => {
+    await runOnWorkers(threads, markets, packed, config, marketOpts, opts.memoryBudget ?? defaultMemoryBudget(), opts.callerHolds, (i, r) => {
       results[i] = r;
       opts.onProgress?.(++done, markets.length);
     });
@@ -237,51 +269,115 @@ function errorFromWorker(reply: Extract<WorkerReply, { ok: false }>): Error {
   return pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight worker failed: ${reply.message}` });
 }
 
-/** Hands markets to `threads` workers, largest first, each taking the next when done. */
+/**
+ * Hands markets to at most `threads` workers, largest first, within the memory
+ * budget (schedule.ts): a free worker takes the first queued market that fits beside
+ * the running ones, or waits. A worker is ended as soon as nothing is left for it,
+ * and after a market that held a large share of the budget (its pair store stays
+ * resident for as long as the worker lives); a fresh one takes the next market.
+ */
 async function runOnWorkers(
   threads: number,
   markets: readonly string[],
-  packed: readonly PackedMarket[],
+  packed: Array<PackedMarket | null>,
   config: PairflowConfig,
   marketOpts: HindsightMarketOptions,
+  budgetBytes: number,
+  callerHolds: HindsightOptions['callerHolds'],
   onResult: (index: number, r: HindsightMarketResult & HindsightDemandCosts) => void,
 ): Promise<void> {
-  // Largest markets first, so no thread is left alone with a big one at the end.
-  const queue = markets.map((_, i) => i).sort((a, b) => packed[b]!.nDemand + packed[b]!.nSupply - (packed[a]!.nDemand + packed[a]!.nSupply) || a - b);
-  const workers: Worker[] = [];
+  const units = (i: number): number => packed[i]!.nDemand + packed[i]!.nSupply;
+  const queue = markets.map((_, i) => i).sort((a, b) => units(b) - units(a) || a - b);
+  const budget = budgetBytes / BYTES_PER_HELD_PAIR;
+  const workers = new Set<Worker>();
+  const idle: Worker[] = [];
+  let pairs: Float64Array | null = null;
+  let held = 0;
+  let running = 0;
+  let caller = callerHolds === undefined ? 0 : callerHolds.bytes / BYTES_PER_HELD_PAIR;
   try {
-    await Promise.all(
-      Array.from({ length: threads }, () => {
+    await new Promise<void>((resolve, reject) => {
+      let settled = false;
+      const fail = (err: unknown): void => {
+        settled = true;
+        reject(err);
+      };
+      const end = (w: Worker): void => {
+        workers.delete(w);
+        void w.terminate();
+      };
+      const spawn = (): Worker => {
         const w = new Worker(WORKER_URL);
-        workers.push(w);
-        return new Promise<void>((resolve, reject) => {
-          const next = (): void => {
-            const i = queue.shift();
-            if (i === undefined) {
-              resolve();
-              return;
-            }
-            const p = packed[i]!;
-            const task: WorkerTask = { index: i, market: markets[i]!, packed: p, config, opts: marketOpts };
-            w.postMessage(task, transferables(p));
-          };
-          w.on('message', (reply: WorkerReply) => {
-            if (!reply.ok) {
-              reject(errorFromWorker(reply));
-              return;
-            }
-            onResult(reply.index, reply.result);
-            next();
-          });
-          w.on('error', (err) => reject(err instanceof PairflowError ? err : pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight worker failed: ${String(err)}` }, err)));
-          w.on('exit', (code) => {
-            if (code !== 0) reject(pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight worker exited with code ${code}` }));
-          });
-          next();
+        workers.add(w);
+        w.on('message', (reply: WorkerReply) => {
+          if (!reply.ok) {
+            fail(errorFromWorker(reply));
+            return;
+          }
+          onResult(reply.index, reply.result);
+          running--;
+          const mine = pairs![reply.index]!;
+          held -= mine;
+          // Its pair store would stay resident for the next market: a fresh worker starts empty.
+          if (queue.length === 0 || mine > budget / 4) end(w);
+          else idle.push(w);
+          dispatch();
         });
-      }),
-    );
+        w.on('error', (err) => fail(err instanceof PairflowError ? err : pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight worker failed: ${String(err)}` }, err)));
+        w.on('exit', (code) => {
+          if (workers.has(w) && code !== 0) fail(pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight worker exited with code ${code}` }));
+        });
+        return w;
+      };
+      const start = (at: number): void => {
+        const i = queue.splice(at, 1)[0]!;
+        const p = packed[i]!;
+        // The buffers move to the worker; nothing here needs them again.
+        packed[i] = null;
+        held += pairs![i]!;
+        running++;
+        const task: WorkerTask = { index: i, market: markets[i]!, packed: p, config, opts: marketOpts };
+        (idle.pop() ?? spawn()).postMessage(task, transferables(p));
+      };
+      const fill = (): void => {
+        while (running < threads) {
+          const at = nextMarket(queue, pairs!, held, running, budget, caller);
+          if (at < 0) break;
+          start(at);
+        }
+      };
+      const dispatch = (): void => {
+        // After a failure nothing more starts (the workers are being ended).
+        if (settled) return;
+        if (pairs === null) {
+          pairs = new Float64Array(markets.length);
+          let bounds = 0;
+          for (const i of queue) bounds += (pairs[i] = packed[i]!.nDemand * packed[i]!.nSupply);
+          if (bounds + caller > budget) {
+            // The largest market may start at once; the others' pairs are estimated
+            // while it builds its graph.
+            const head = queue[0]!;
+            pairs[head] = heldPairs(packed[head]!, config, budget);
+            fill();
+            for (const i of queue) if (i !== head) pairs[i] = heldPairs(packed[i]!, config, budget);
+          }
+        }
+        fill();
+        if (running === 0 && queue.length === 0) {
+          settled = true;
+          resolve();
+        }
+      };
+      if (callerHolds !== undefined) {
+        const release = (): void => {
+          caller = 0;
+          dispatch();
+        };
+        callerHolds.until.then(release, release);
+      }
+      dispatch();
+    });
   } finally {
-    await Promise.all(workers.map((w) => w.terminate()));
+    await Promise.all([...workers].map((w) => w.terminate()));
   }
 }

@@ -334,6 +334,7 @@ function solveSegment(
   let solves = 0;
   let retries = 0;
   let final: SolveResult | null = null;
+  let finalInst: SparseInstance | null = null;
   // First a cold solve by the injected solver, its prices adopted; then each round
   // from where the last one stood.
   restricted.adopt(certified(restricted.instance(), solve(restricted.instance(), { now }), solve, now, () => retries++));
@@ -355,6 +356,7 @@ function solveSegment(
       const res = restricted.result({ augmentations: 0, scannedPairs: 0, ms: 0, warm: true });
       if (checkCertificate(inst, res).ok) {
         final = res;
+        finalInst = inst;
         break;
       }
       retries++;
@@ -367,7 +369,8 @@ function solveSegment(
   lap('resolveMs');
 
   const { rowDuals, colDuals, rowToCol } = final;
-  const inst = restricted.instance();
+  // The instance the certificate was checked on (a second copy would be 12 bytes a pair).
+  const inst = finalInst!;
   const demandCost = new Float64Array(nRows).fill(P);
   const demandWait = new Float64Array(nRows).fill(NaN);
   let matched = 0;

@@ -36,6 +36,9 @@ import { releaseFreeColumns, type ColumnsView } from './warm.js';
  * 3.3 M pairs, by rows and again by columns); a new exact pool per merge left the
  * old ones to the garbage collector, and the peak did not fall.
  */
+/** Room for pending pairs kept after a merge (more is let go: a later round grows it again). */
+const PENDING_KEPT = 1 << 16;
+
 class Lines {
   /** Line l's pairs are `index`/`cost` over `[start[l], end[l])`. */
   readonly start: Int32Array;
@@ -129,6 +132,13 @@ class Lines {
     }
     this.used = total;
     this.pending = 0;
+    // A round that added millions of pairs would otherwise keep 16 bytes of room for
+    // each of them, idle, for the rest of the solve.
+    if (this.pendLine.length > PENDING_KEPT) {
+      this.pendLine = new Int32Array(PENDING_KEPT);
+      this.pendIndex = new Int32Array(PENDING_KEPT);
+      this.pendCost = new Float64Array(PENDING_KEPT);
+    }
   }
 
   /** Pairs held in all lines (merged or not). */

@@ -169,14 +169,28 @@ export async function drivePartitioned(
 
 /**
  * A source over a loaded log: its rejects first (they were found while reading), then
- * its events in event-time order, stable by file order.
+ * its events in event-time order, stable by file order. With `drain`, each event's
+ * slot in `loaded.events` (which must then be the caller's own, mutable array) is
+ * emptied as it is read, and the array is left empty: a log replayed once (the
+ * `replay` command) is let go as the replay goes instead of held whole until it ends.
  */
-export function fileSource(loaded: { events: readonly SourcedEvent[]; rejects: readonly Reject[] }): EventSource {
+export function fileSource(loaded: { events: readonly SourcedEvent[]; rejects: readonly Reject[] }, opts: { drain?: boolean } = {}): EventSource {
   return {
     expected: loaded.events.length + loaded.rejects.length,
     async *items() {
       for (const reject of loaded.rejects) yield { kind: 'reject', reject };
-      for (const ev of loaded.events) yield { kind: 'event', ev };
+      const { events } = loaded;
+      if (opts.drain !== true) {
+        for (const ev of events) yield { kind: 'event', ev };
+        return;
+      }
+      const slots = events as Array<SourcedEvent | undefined>;
+      for (let i = 0; i < slots.length; i++) {
+        const ev = slots[i]!;
+        slots[i] = undefined;
+        yield { kind: 'event', ev };
+      }
+      slots.length = 0;
     },
     close: async () => {},
   };

@@ -17,6 +17,7 @@ import { teeSink, type EventSource, type OutputSink } from '../ports.js';
 import type { BucketPlan } from './buckets.js';
 import { ReplayStats, type OnlineRun } from './stats.js';
 import { solveHindsight, type HindsightResult } from '../hindsight/hindsight.js';
+import { collectGarbage } from '../ops/heap.js';
 import { booksErrors, regretAndRatio, type Books, type FileSummary, type HindsightStats, type MarketSummary, type ReplaySummary } from './summary.js';
 import { DIGEST_FILE, gridForEvents, RunTally, withHindsight, type RunDigest } from './digest.js';
 
@@ -283,7 +284,7 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
     checkLoadedLog(loaded, opts.maxRejects);
     const loadMs = now() - start;
     const { summary, digest } = await replayLoadedFull(loaded, config, {
-      ...opts, now, ...(out ? { sink: out } : {}), loadMs, start, digest: opts.digest ?? runDir !== null,
+      ...opts, now, ...(out ? { sink: out } : {}), loadMs, start, digest: opts.digest ?? runDir !== null, releaseEvents: true,
     });
     sink = null;
     // Close every output even when one fails, then report the first failure.
@@ -331,7 +332,7 @@ export async function replayLoaded(
 export async function replayLoadedFull(
   loaded: LoadedLog,
   config: PairflowConfig,
-  opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number } = {},
+  opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number; releaseEvents?: boolean } = {},
 ): Promise<{ summary: ReplaySummary; digest: RunDigest | null }> {
   const now = opts.now ?? defaultNow;
   const start = opts.start ?? now();
@@ -339,10 +340,17 @@ export async function replayLoadedFull(
   // The hindsight runs on worker threads: start it first so it overlaps the online replay.
   let hindsightPromise: Promise<HindsightResult | null>;
   const reused = typeof opts.hindsight === 'object';
+  let onlineDone = (): void => {};
   if (opts.hindsight === false) hindsightPromise = Promise.resolve(null);
   else if (opts.hindsight && opts.hindsight !== true) hindsightPromise = Promise.resolve(opts.hindsight);
   else {
+    // While the online replay runs, this thread holds the log and what the replay
+    // makes of it: V8 lets that grow to about twice what was live after its last
+    // full collection (here, the loaded log) before collecting again. The largest
+    // markets wait for it (hindsight/schedule.ts).
+    const until = new Promise<void>((resolve) => (onlineDone = resolve));
     hindsightPromise = solveHindsight(loaded.events, config, {
+      callerHolds: { bytes: 2 * process.memoryUsage().heapUsed, until },
       ...(opts.threads !== undefined ? { threads: opts.threads } : {}),
       ...(opts.digest ? { cover: true } : {}),
       onProgress: (done: number, total: number) => opts.onProgress?.({ phase: 'hindsight', done, total }),
@@ -351,14 +359,25 @@ export async function replayLoadedFull(
   // Without a handler now, a hindsight failure during the online replay would be "unhandled".
   hindsightPromise.catch(() => {});
   const tally = opts.digest ? new RunTally(config, gridForEvents(loaded.events, config.metric)) : null;
-  const run = await replaySource(fileSource(loaded), config, {
-    ...(opts.sink ? { sink: opts.sink } : {}),
-    ...(tally ? { tally } : {}),
-    warm,
-    now,
-    verify: opts.verify ?? false,
-    ...(opts.onProgress ? { onProgress: opts.onProgress } : {}),
-  });
+  // A log loaded for this run alone (runReplay) is not read again: its events are let
+  // go as the online replay reads them, while the hindsight's largest markets are
+  // still being solved (the hindsight packed its own typed arrays before this).
+  let run: Awaited<ReturnType<typeof replaySource>>;
+  try {
+    run = await replaySource(fileSource(loaded, { drain: opts.releaseEvents === true }), config, {
+      ...(opts.sink ? { sink: opts.sink } : {}),
+      ...(tally ? { tally } : {}),
+      warm,
+      now,
+      verify: opts.verify ?? false,
+      ...(opts.onProgress ? { onProgress: opts.onProgress } : {}),
+    });
+  } finally {
+    // The log and the replay's garbage go back to the system before the largest
+    // markets start (nothing here would allocate enough to set off a collection).
+    if (opts.releaseEvents === true) collectGarbage();
+    onlineDone();
+  }
   const hindsight = await hindsightPromise;
   const summary = buildSummary({
     config,

@@ -362,4 +362,16 @@ describe('solveHindsight() threads', () => {
     expect(strip(threaded)).toEqual(strip(inThread));
     expect(progress).toEqual(threaded.markets.map((_, i) => i + 1));
   });
+
+  it.skipIf(!available)('gives the same results when the memory budget lets only one market run at a time', async () => {
+    const log = smallLog(4243, 12);
+    const events = sorted(log.events.flatMap((e) => [e, { ...e, market: `${e.market}x` }, { ...e, market: `${e.market}y` }]));
+    const zero = { graphMs: 0, setupMs: 0, firstSolveMs: 0, pricingMs: 0, resolveMs: 0, ceilingMs: 0 };
+    const strip = (h: HindsightResult): unknown => ({ ...h, ms: 0, phases: zero, markets: h.markets.map((m) => ({ ...m, ms: 0, phases: zero })) });
+    const inThread = await solveHindsight(events, log.config, { threads: 0 });
+    // One byte: every market is over budget, so each runs alone and its worker is ended after it.
+    const oneByOne = await solveHindsight(events, log.config, { threads: 3, memoryBudget: 1 });
+    expect(oneByOne.markets.length).toBeGreaterThanOrEqual(3);
+    expect(strip(oneByOne)).toEqual(strip(inThread));
+  });
 });

@@ -1,0 +1,106 @@
+/**
+ * Which market a hindsight worker takes next, within a memory budget. A market's
+ * solve holds its largest time segment's allowed pairs (three bytes each, plus the
+ * restricted solve and the match ceiling's arrays); on a long log of a dense city
+ * one district alone holds gigabytes, so two big ones side by side can double what
+ * the process needs. Markets run largest first, a second one beside those running
+ * only while their estimated pairs together fit the budget. Results never depend on
+ * the schedule: each market is solved exactly on its own.
+ */
+
+import { totalmem } from 'node:os';
+
+import type { PairflowConfig } from '../model.js';
+import { buildCompactGraph, GraphStore, type PackedMarket } from './graph.js';
+import { subMarket, timeSegments } from './segments.js';
+
+/**
+ * Bytes a held pair costs in a worker, all told: three in the graph (16-bit column,
+ * 8-bit code), the rest the restricted solve and the match ceiling's arrays. Measured
+ * on the busiest district of a week at `gen --scale 4` (797 M pairs, one thread): the
+ * process grew by 2.7–3.0 GB from the market's start to its peak (in the ceiling).
+ */
+export const BYTES_PER_HELD_PAIR = 3.75;
+
+/** Budget bytes at least this many: 3 GiB. */
+const MIN_BUDGET_BYTES = 3 * 2 ** 30;
+
+/**
+ * The default budget for the pairs held at once over all workers: an eighth of the
+ * machine's memory, and never under 3 GiB (so a week of a dense city, whose largest
+ * district alone needs about that, still runs with the rest waiting).
+ */
+export function defaultMemoryBudget(machineBytes = totalmem()): number {
+  return Math.max(MIN_BUDGET_BYTES, Math.floor(machineBytes / 8));
+}
+
+/** Rows a pair estimate builds (spread evenly over the market's demands). */
+export const SAMPLE_ROWS = 1024;
+
+/**
+ * The allowed pairs a market's largest time segment holds, estimated from the
+ * graph of a sample of its demands (every k-th, so rush hours and nights are both
+ * seen) against all its supplies: each segment's sampled pairs scaled by its demands
+ * over its sampled ones. Exact when the sample is every demand.
+ */
+export function estimatePeakPairs(m: PackedMarket, config: PairflowConfig, sampleRows = SAMPLE_ROWS): number {
+  if (m.nDemand === 0 || m.nSupply === 0) return 0;
+  const stride = Math.max(1, Math.ceil(m.nDemand / Math.max(1, sampleRows)));
+  const dIdx = new Int32Array(Math.ceil(m.nDemand / stride));
+  for (let i = 0; i < dIdx.length; i++) dIdx[i] = i * stride;
+  const sIdx = new Int32Array(m.nSupply);
+  for (let j = 0; j < sIdx.length; j++) sIdx[j] = j;
+  const sample = subMarket(m, dIdx, sIdx);
+  const g = buildCompactGraph(sample, config, new GraphStore(), Math.min(dIdx.length * m.nSupply, 1 << 22));
+
+  const seg = timeSegments(m);
+  const segOf = new Int32Array(m.nDemand);
+  for (let q = 0; q < seg.count; q++) {
+    for (let e = seg.demand.start[q]!; e < seg.demand.start[q + 1]!; e++) segOf[seg.demand.idx[e]!] = q;
+  }
+  const sampledPairs = new Float64Array(seg.count);
+  const sampledRows = new Float64Array(seg.count);
+  for (let r = 0; r < g.nRows; r++) {
+    const q = segOf[dIdx[g.rowDemand[r]!]!]!;
+    sampledPairs[q]! += g.rowPtr[r + 1]! - g.rowPtr[r]!;
+    sampledRows[q]!++;
+  }
+  let peak = 0;
+  for (let q = 0; q < seg.count; q++) {
+    if (sampledRows[q] === 0) continue;
+    const rows = seg.demand.start[q + 1]! - seg.demand.start[q]!;
+    peak = Math.max(peak, Math.round((sampledPairs[q]! * rows) / sampledRows[q]!));
+  }
+  return peak;
+}
+
+/**
+ * Position in `queue` of the market a free worker takes now, or -1 to wait for a
+ * running one to end (or the caller to let go of what it holds). The queue is in
+ * the order markets should start (largest first); the first that fits beside the
+ * `held` pairs of the `running` markets and the `caller`'s share is taken. With
+ * nothing running and nothing held by the caller the first is taken whatever its
+ * size (a market larger than the budget still runs, alone).
+ *
+ * @param pairs estimated pairs held by each market, by market index
+ * @param budget pairs that may be held at once
+ * @param caller pairs' worth of memory the caller holds for now (see HindsightOptions.callerHolds)
+ */
+export function nextMarket(queue: readonly number[], pairs: ArrayLike<number>, held: number, running: number, budget: number, caller = 0): number {
+  if (queue.length === 0) return -1;
+  if (running === 0 && caller <= 0) return 0;
+  for (let at = 0; at < queue.length; at++) {
+    if (held + caller + pairs[queue[at]!]! <= budget) return at;
+  }
+  return -1;
+}
+
+/**
+ * The pairs a market is counted for in the budget: its upper bound nDemand·nSupply
+ * where that is under a thousandth of the budget (nothing built), else
+ * {@link estimatePeakPairs}.
+ */
+export function heldPairs(m: PackedMarket, config: PairflowConfig, budget: number): number {
+  const bound = m.nDemand * m.nSupply;
+  return bound < budget / 1000 ? bound : estimatePeakPairs(m, config);
+}
