@@ -374,4 +374,26 @@ describe('solveHindsight() threads', () => {
     expect(oneByOne.markets.length).toBeGreaterThanOrEqual(3);
     expect(strip(oneByOne)).toEqual(strip(inThread));
   });
+
+  it.skipIf(!available)('starts no market while the caller holds more than the budget, then solves them all', async () => {
+    const log = smallLog(4244, 8);
+    const events = sorted(log.events.flatMap((e) => [e, { ...e, market: `${e.market}x` }]));
+    let released = false;
+    let release = (): void => {};
+    const until = new Promise<void>((resolve) => (release = resolve));
+    const doneAt: boolean[] = [];
+    const pending = solveHindsight(events, log.config, {
+      threads: 2,
+      memoryBudget: 2 ** 30,
+      callerHolds: { bytes: 2 ** 31, until },
+      onProgress: () => doneAt.push(released),
+    });
+    await new Promise((resolve) => setTimeout(resolve, 300));
+    released = true;
+    release();
+    const h = await pending;
+    expect(doneAt.length).toBe(h.markets.length);
+    expect(doneAt.every((after) => after)).toBe(true);
+    expect(h.cost).toBeCloseTo((await solveHindsight(events, log.config, { threads: 0 })).cost, 9);
+  });
 });

@@ -84,6 +84,14 @@ describe('nextMarket()', () => {
     expect(nextMarket([], pairs, 0, 0, 860)).toBe(-1);
   });
 
+  it('counts what the caller holds: with it, even the first market waits unless it fits beside it', () => {
+    const pairs = [800, 440, 350, 250];
+    expect(nextMarket([0, 1, 2, 3], pairs, 0, 0, 860, 450)).toBe(2);
+    expect(nextMarket([0, 1, 3], pairs, 350, 1, 860, 450)).toBe(-1);
+    expect(nextMarket([0], pairs, 0, 0, 860, 100)).toBe(-1);
+    expect(nextMarket([0], pairs, 0, 0, 860, 0)).toBe(0);
+  });
+
   it('keeps the pairs held within the budget whenever two or more run, and runs every market', () => {
     // A schedule simulated with random market sizes and durations on 2–4 workers.
     for (let seed = 1; seed <= 200; seed++) {
