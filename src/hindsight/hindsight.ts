@@ -314,7 +314,12 @@ async function runOnWorkers(
             fail(errorFromWorker(reply));
             return;
           }
-          onResult(reply.index, reply.result);
+          try {
+            onResult(reply.index, reply.result);
+          } catch (err) {
+            fail(err);
+            return;
+          }
           running--;
           const mine = pairs![reply.index]!;
           held -= mine;
@@ -349,6 +354,13 @@ async function runOnWorkers(
       const dispatch = (): void => {
         // After a failure nothing more starts (the workers are being ended).
         if (settled) return;
+        try {
+          schedule();
+        } catch (err) {
+          fail(err);
+        }
+      };
+      const schedule = (): void => {
         if (pairs === null) {
           pairs = new Float64Array(markets.length);
           let bounds = 0;
@@ -363,6 +375,8 @@ async function runOnWorkers(
           }
         }
         fill();
+        // Nothing left to hand out: idle workers go now, with their pair stores.
+        if (queue.length === 0) for (const w of idle.splice(0)) end(w);
         if (running === 0 && queue.length === 0) {
           settled = true;
           resolve();
