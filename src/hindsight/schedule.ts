@@ -35,7 +35,7 @@ export function defaultMemoryBudget(machineBytes = totalmem()): number {
 }
 
 /** Rows a pair estimate builds (spread evenly over the market's demands). */
-export const SAMPLE_ROWS = 1024;
+export const SAMPLE_ROWS = 512;
 
 /**
  * The allowed pairs a market's largest time segment holds, estimated from the
