@@ -8,7 +8,7 @@ import { denseAuction } from './dense-auction.js';
 import { keepCheapest, listAuction, type AuctionLists } from './list-auction.js';
 import { maxCardinalityMatching } from './cardinality.js';
 import type { SparseInstance, WarmStart } from './types.js';
-import { WASM_BAD_CELL, wasmDenseJv } from './wasm/dense-jv.js';
+import { spreadStart, WASM_BAD_CELL, WASM_NO_KERNEL, wasmDenseJv, wasmRowMinima } from './wasm/dense-jv.js';
 
 /*
  * The dense twin of sparse.ts: the same invariants (see there), but each search
@@ -275,64 +275,19 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
   // here, before the greedy pass has read TIES_SAMPLE rows (in a process's first
   // solve, unoptimised: 2.7–4.4 ms at n = 1000, where this look costs about 0.2 ms).
   if (n >= TIES_SAMPLE && !tiesAtRowMinimaReach(cost, n, TIES_PEEK, TIES_PEEK_MIN * TIES_PEEK)) return null;
-  const u = new Float64Array(n);
+  const pass = greedyOnRowMinima(inst, true);
+  if (pass === null) return null;
+  const { u, rowToCol, colToRow, freeRows, nFree } = pass;
   const v = new Float64Array(n);
-  const rowToCol = new Int32Array(n).fill(NONE);
-  const colToRow = new Int32Array(n).fill(NONE);
-  const out = new Float64Array(2);
-  const freeRows = new Int32Array(n);
-  let nFree = 0;
-  for (let r = 0; r < n; r++) {
-    rowMinFree(cost, r * n, n, colToRow, out);
-    const m = out[0]!;
-    if (m === -Infinity) checkDenseCells(inst);
-    if (!(m < Infinity)) return null;
-    u[r] = m;
-    const j = out[1]!;
-    if (j === NONE) {
-      freeRows[nFree++] = r;
-      if (nFree > 2 + (r >> 6)) return null;
-    } else {
-      rowToCol[r] = j;
-      colToRow[j] = r;
-    }
-    if (r + 1 === TIES_SAMPLE && tiesAtMinimum(cost, n, u, TIES_SAMPLE) < TIES_MIN * TIES_SAMPLE) return null;
-  }
-  if (nFree > n >> 5) return null;
-  let scanned = n * n;
-  let searched = 0;
+  let scanned = pass.scanned;
   let search: DenseSearch | null = null;
   const budget = scanned + SEARCH_BUDGET_MIN * n * n;
   for (let f = 0; f < nFree; f++) {
-    const r = freeRows[f]!;
-    // First a path of length two through tight pairs: r takes a column at its minimum
-    // whose row moves to a free column at that row's minimum (all prices unchanged).
-    // It reuses the greedy pass's kernel, already optimised, where a search would run
-    // code the engine has not compiled yet.
-    const base = r * n;
-    const ur = u[r]!;
-    let done = false;
-    for (let j = 0; j < n && !done; j++) {
-      if (cost[base + j] !== ur) continue;
-      const i = colToRow[j]!;
-      rowMinFree(cost, i * n, n, colToRow, out);
-      scanned += n;
-      const to = out[1]!;
-      if (to === NONE) continue;
-      rowToCol[i] = to;
-      colToRow[to] = i;
-      rowToCol[r] = j;
-      colToRow[j] = r;
-      done = true;
-    }
-    scanned += n;
-    if (!done) {
-      search ??= new DenseSearch(inst, null, u, v, rowToCol, colToRow);
-      searched++;
-      scanned += search.run(r);
-    }
+    search ??= new DenseSearch(inst, null, u, v, rowToCol, colToRow);
+    scanned += search.run(freeRows[f]!);
     if (scanned > budget) return null;
   }
+  const searched = nFree;
   return finishDense(inst, true, u, v, rowToCol, colToRow, {
     augmentations: searched,
     scannedPairs: scanned,
@@ -341,6 +296,97 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
     warmPairsKept: 0,
     searchedRows: searched,
   });
+}
+
+/** The row-minima start's pass: see {@link greedyOnRowMinima}. */
+export interface RowMinimaPass {
+  readonly u: Float64Array;
+  readonly rowToCol: Int32Array;
+  readonly colToRow: Int32Array;
+  /** The rows left without a column, in order, in the first nFree entries. */
+  readonly freeRows: Int32Array;
+  readonly nFree: number;
+  /** Pairs read. */
+  readonly scanned: number;
+}
+
+/**
+ * The row-minima start's pass, every column's price 0: u[r] = row r's minimum cost,
+ * and row r takes the first column still free at that minimum, scanning from
+ * spreadStart(r) round (a greedy pass on tight pairs). Then each row left over tries
+ * a path of two tight pairs: it takes a column j at its minimum (in column order)
+ * whose row moves to a free column at that row's minimum, found the same way; no
+ * price changes. Gives up (null) once more than 2 + r/64 of the first r rows are left
+ * free, after TIES_SAMPLE rows holding fewer than TIES_MIN ties on average at their
+ * minima, when more than n/32 rows are left after the greedy pass, or at a row with
+ * no allowed pair; a -Infinity cell is reported. Run in the wasm kernel where
+ * `kernel` is set and it can run (wasmRowMinima: the same steps and result, a few
+ * rows at a time; a process's first solve of few-ints n = 1000 spends about 1.5 ms
+ * there, where the JS pass, not yet optimised, took 4–5 ms), else in JS. Exported
+ * for the tests.
+ */
+export function greedyOnRowMinima(inst: DenseInstance, kernel: boolean): RowMinimaPass | null {
+  const { nRows: n, cost } = inst;
+  let tiesChecked = false;
+  // `ties()`: the cells at their row's minimum over the first TIES_SAMPLE rows
+  const stop = (rowsDone: number, nFree: number, ties: () => number): boolean => {
+    if (nFree > 2 + ((rowsDone - 1) >> 6)) return true;
+    if (tiesChecked || rowsDone < TIES_SAMPLE) return false;
+    tiesChecked = true;
+    return ties() < TIES_MIN * TIES_SAMPLE;
+  };
+  const maxLeft = n >> 5;
+  if (kernel) {
+    const w = wasmRowMinima(cost, n, TIES_SAMPLE, maxLeft, (rowsDone, nFree, ties) => stop(rowsDone, nFree, () => ties));
+    if (w.status === WASM_BAD_CELL) checkDenseCells(inst);
+    if (w.status >= 0) return { u: w.u, rowToCol: w.rowToCol, colToRow: w.colToRow, freeRows: w.freeRows, nFree: w.status, scanned: w.scanned };
+    if (w.status !== WASM_NO_KERNEL) return null;
+  }
+  const u = new Float64Array(n);
+  const rowToCol = new Int32Array(n).fill(NONE);
+  const colToRow = new Int32Array(n).fill(NONE);
+  const out = new Float64Array(2);
+  const freeRows = new Int32Array(n);
+  let nFree = 0;
+  for (let r = 0; r < n; r++) {
+    rowMinFree(cost, r * n, n, colToRow, spreadStart(r, n), out);
+    const m = out[0]!;
+    if (m === -Infinity) checkDenseCells(inst);
+    if (!(m < Infinity)) return null;
+    u[r] = m;
+    const j = out[1]!;
+    if (j === NONE) {
+      freeRows[nFree++] = r;
+    } else {
+      rowToCol[r] = j;
+      colToRow[j] = r;
+    }
+    if (stop(r + 1, nFree, () => tiesAtMinimum(cost, n, u, TIES_SAMPLE))) return null;
+  }
+  if (nFree > maxLeft) return null;
+  let scanned = n * n;
+  let left = 0;
+  for (let f = 0; f < nFree; f++) {
+    const r = freeRows[f]!;
+    const base = r * n;
+    const ur = u[r]!;
+    scanned += n;
+    let done = false;
+    for (let j = 0; j < n && !done; j++) {
+      if (cost[base + j] !== ur) continue;
+      const i = colToRow[j]!;
+      const to = freeAt(cost, i * n, n, colToRow, u[i]!, spreadStart(i, n));
+      scanned += n;
+      if (to === NONE) continue;
+      rowToCol[i] = to;
+      colToRow[to] = i;
+      rowToCol[r] = j;
+      colToRow[j] = r;
+      done = true;
+    }
+    if (!done) freeRows[left++] = r;
+  }
+  return { u, rowToCol, colToRow, freeRows, nFree: left, scanned };
 }
 
 /**
@@ -404,27 +450,24 @@ const SEARCH_BUDGET_MIN = 1;
 
 /**
  * One row of the row-minima start: writes the row's minimum cost to out[0] and to
- * out[1] the first column still free at that minimum (NONE when there is none).
+ * out[1] the first column still free at that minimum, scanning from column `start`
+ * round (NONE when there is none).
  */
-function rowMinFree(cost: Float64Array, base: number, n: number, colToRow: Int32Array, out: Float64Array): void {
+function rowMinFree(cost: Float64Array, base: number, n: number, colToRow: Int32Array, start: number, out: Float64Array): void {
   let m = Infinity;
-  let first = n;
   for (let j = 0; j < n; j++) {
     const x = cost[base + j]!;
-    if (x < m) {
-      m = x;
-      first = j;
-    }
-  }
-  let free = NONE;
-  for (let j = first; j < n; j++) {
-    if (cost[base + j] === m && colToRow[j] === NONE) {
-      free = j;
-      break;
-    }
+    if (x < m) m = x;
   }
   out[0] = m;
-  out[1] = free;
+  out[1] = freeAt(cost, base, n, colToRow, m, start);
+}
+
+/** The first column still free where the row costs `m`, scanning from column `start` round; NONE when there is none. */
+function freeAt(cost: Float64Array, base: number, n: number, colToRow: Int32Array, m: number, start: number): number {
+  for (let j = start; j < n; j++) if (cost[base + j] === m && colToRow[j] === NONE) return j;
+  for (let j = 0; j < start; j++) if (cost[base + j] === m && colToRow[j] === NONE) return j;
+  return NONE;
 }
 
 /** Square instances below this size never switch to the auction (searches are cheap there). */
