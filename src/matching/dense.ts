@@ -386,7 +386,7 @@ export function greedyOnRowMinima(inst: DenseInstance, kernel: boolean): RowMini
     }
     if (!done) freeRows[left++] = r;
   }
-  return { u, rowToCol, colToRow, freeRows, nFree: left, scanned };
+  return { u, rowToCol, colToRow, freeRows: freeRows.slice(0, left), nFree: left, scanned };
 }
 
 /**
