@@ -44,7 +44,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   const strategy = opts.strategy ?? 'auto';
   if (strategy === 'candidates' || (strategy === 'auto' && preferCandidates(inst.nRows, inst.nCols, k))) {
     if (inst.nRows === inst.nCols && opts.warm === undefined && mustMatchAll(inst.unmatchedCost ?? null)) {
-      const res = solveFromRowMinima(inst) ?? (strategy === 'auto' && inst.nRows <= KERNEL_MAX_N && cheapestRowsSpread(inst) ? solveByKernel(inst) : null);
+      const res = solveFromRowMinima(inst) ?? (strategy === 'auto' && kernelFirst(inst) ? solveByKernel(inst) : null);
       if (res !== null) {
         res.stats.ms = now() - t0;
         return res;
@@ -70,6 +70,28 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
  */
 const KERNEL_MAX_N = 1600;
 /**
+ * Between KERNEL_MAX_N and this size, the kernel is tried first on costs whose
+ * columns' cheapest entries grow like distances in the plane (see
+ * {@link growsLikePlaneDistances}), where the candidates strategy's pick, pricing
+ * rounds and crowded clusters cost more than the kernel's full search on a first
+ * solve. Measured at n = 2000 (first solves in fresh processes, medians of 8
+ * alternated runs, load 1.7–2.3), candidates against kernel: geometric 200 / 143 ms,
+ * clustered 226 / 192 ms (the candidates picked before the kernel took the crowded
+ * clusters: 35 ms picking, 15 ms matching). Uniform costs stay with the candidates
+ * there: about one matrix read once compiled (n = 2000: 15–21 ms a solve after the
+ * first), where the kernel reads twelve (31–39 ms).
+ */
+const KERNEL_PLANAR_MAX_N = 2000;
+
+/** Whether `auto` tries the kernel before the candidates strategy (the row-minima start having given up). */
+function kernelFirst(inst: DenseInstance): boolean {
+  const n = inst.nRows;
+  if (n > KERNEL_PLANAR_MAX_N) return false;
+  const sample = sampleColumns(inst, n > KERNEL_MAX_N);
+  return sample.spread && (n <= KERNEL_MAX_N || sample.planar);
+}
+
+/**
  * Up to this size the kernel also takes over the candidates strategy's crowded
  * clusters (clustered costs), where the list auction and its pricing rounds cost most.
  * Between KERNEL_MAX_N and this, geometric costs stay with the candidates, faster
@@ -91,16 +113,19 @@ const KERNEL_FREE_SHARE = 3;
 const KERNEL_SAMPLE_COLS = 8;
 
 /**
- * Whether the cheapest rows of KERNEL_SAMPLE_COLS columns spread over the matrix are
- * at least half of them distinct. Where every column is cheapest in the same few rows
- * (c_ij = i·j: all in row 0; rank-one costs: the row of the smallest a_i), column
- * reduction leaves nearly every row free and the kernel would give up after copying
- * and reducing the matrix (4–5 ms at n = 1000); this look at 8 columns costs 8n
- * reads. Distances, clusters and uniform costs have distinct cheapest rows.
+ * A look at KERNEL_SAMPLE_COLS columns spread over the matrix (KERNEL_SAMPLE_COLS · n
+ * reads). `spread`: whether their cheapest rows are at least half of them distinct.
+ * Where every column is cheapest in the same few rows (c_ij = i·j: all in row 0;
+ * rank-one costs: the row of the smallest a_i), column reduction leaves nearly every
+ * row free and the kernel would give up after copying and reducing the matrix (4–5 ms
+ * at n = 1000). Distances, clusters and uniform costs have distinct cheapest rows.
+ * `planar` (looked at when `growth` is set): see {@link growsLikePlaneDistances}.
  */
-function cheapestRowsSpread(inst: DenseInstance): boolean {
+function sampleColumns(inst: DenseInstance, growth: boolean): { spread: boolean; planar: boolean } {
   const { nRows: n, cost } = inst;
   const rows = new Int32Array(KERNEL_SAMPLE_COLS);
+  const col = new Float64Array(growth ? n : 0);
+  const ratios = new Float64Array(KERNEL_SAMPLE_COLS);
   let distinct = 0;
   for (let s = 0; s < KERNEL_SAMPLE_COLS; s++) {
     const j = Math.floor(((s + 0.5) * n) / KERNEL_SAMPLE_COLS);
@@ -112,13 +137,48 @@ function cheapestRowsSpread(inst: DenseInstance): boolean {
         best = c;
         arg = r;
       }
+      if (growth) col[r] = c;
     }
     let seen = false;
     for (let t = 0; t < s; t++) if (rows[t] === arg) seen = true;
     rows[s] = arg;
     if (!seen) distinct++;
+    if (growth) ratios[s] = cheapestGrowth(col);
   }
-  return 2 * distinct >= KERNEL_SAMPLE_COLS;
+  return { spread: 2 * distinct >= KERNEL_SAMPLE_COLS, planar: growth && growsLikePlaneDistances(ratios) };
+}
+
+/** Ranks of a column's cheapest entries compared by {@link cheapestGrowth}. */
+const GROWTH_LOW = 16;
+const GROWTH_HIGH = 64;
+/** Growth ratios below this are taken as distances in the plane (2 there, 4 for uniform costs). */
+const PLANAR_GROWTH_MAX = 3;
+
+/**
+ * (c_(64) − c_(0)) / (c_(16) − c_(0)) over the column's entries sorted (c_(k) the k-th
+ * cheapest; sorts `col` in place): how fast its cheapest entries grow with their
+ * rank. For distances to points spread in the plane the k-th nearest lies about √k
+ * away, a ratio near √(64/16) = 2; for costs drawn uniformly the k-th cheapest grows
+ * like k, a ratio near 4 (the growth of k-th nearest distances as k^(1/d) in d
+ * dimensions: common practice in estimating a data set's dimension). NaN or +Infinity
+ * where the ranks are tied or not allowed (or the column is too short).
+ */
+function cheapestGrowth(col: Float64Array): number {
+  if (col.length <= GROWTH_HIGH) return NaN;
+  col.sort();
+  return (col[GROWTH_HIGH]! - col[0]!) / (col[GROWTH_LOW]! - col[0]!);
+}
+
+/**
+ * Whether the sampled columns' cheapest entries grow like distances in the plane: at
+ * least half the ratios below PLANAR_GROWTH_MAX. Measured on three seeds each at n =
+ * 1700 and 2000, 8 columns: geometric and clustered costs 1.7–3.6 per column, 5–8 of
+ * them below 3; uniform reals and integers 2.7–8.0, at most 1 below 3.
+ */
+function growsLikePlaneDistances(ratios: Float64Array): boolean {
+  let below = 0;
+  for (let s = 0; s < ratios.length; s++) if (ratios[s]! < PLANAR_GROWTH_MAX) below++;
+  return 2 * below >= ratios.length;
 }
 
 /**

@@ -147,16 +147,30 @@ describe('solveDense() auto and the kernel', () => {
     expect(checkCertificate(mw, c).problems).toEqual([]);
   });
 
-  it('gives the crowded clusters of a clustered matrix of 1700 rows to the kernel after the candidates are picked; geometric costs of that size stay with the candidates', () => {
-    const clu = denseFamily(45_030, 1700, 'clustered');
-    const r = solveDense(clu);
-    expect(r.stats.wasmKernel).toBe(true);
-    expect(r.stats.auctionBids).toBeUndefined();
-    expect(checkCertificate(clu, r).problems).toEqual([]);
-    const geo = denseFamily(45_031, 1700, 'geometric');
-    const g = solveDense(geo);
-    expect(g.stats.wasmKernel).toBeUndefined();
-    expect(checkCertificate(geo, g).problems).toEqual([]);
+  it('above 1600 rows, sends distances in the plane (geometric, clustered) to the kernel first, keeps uniform costs with the candidates, and gives crowded clusters of other costs to the kernel after the candidates are picked', () => {
+    const n = 1700;
+    const kernelAlone = (inst: DenseInstance) => solveByKernel(inst)!.stats.scannedPairs;
+    for (const family of ['clustered', 'geometric'] as const) {
+      const inst = denseFamily(45_030, n, family);
+      const r = solveDense(inst);
+      expect(r.stats.wasmKernel, family).toBe(true);
+      expect(checkCertificate(inst, r).problems, family).toEqual([]);
+      // no candidates picked before: the pairs read are the kernel's alone
+      expect(r.stats.scannedPairs, family).toBe(kernelAlone(inst));
+    }
+    // squared distances grow like uniform costs (the k-th nearest about k away), so the
+    // candidates are picked first; the clusters crowd, and the kernel takes over
+    const clu = denseFamily(45_030, n, 'clustered');
+    const squared = { ...clu, cost: clu.cost.map((c) => c * c) };
+    const q = solveDense(squared);
+    expect(q.stats.wasmKernel).toBe(true);
+    expect(q.stats.auctionBids).toBeUndefined();
+    expect(checkCertificate(squared, q).problems).toEqual([]);
+    expect(q.stats.scannedPairs).toBeGreaterThan(kernelAlone(squared) + n * n - 1);
+    const uni = build(45_032, n, 'uniform', 0);
+    const u = solveDense(uni);
+    expect(u.stats.wasmKernel).toBeUndefined();
+    expect(checkCertificate(uni, u).problems).toEqual([]);
   });
 
   it('names a -Infinity cell in the last row as an input error on the kernel\'s path', () => {
