@@ -93,10 +93,11 @@ function kernelFirst(inst: DenseInstance): boolean {
 
 /**
  * Up to this size the kernel also takes over the candidates strategy's crowded
- * clusters (clustered costs), where the list auction and its pricing rounds cost most.
- * Between KERNEL_MAX_N and this, geometric costs stay with the candidates, faster
- * there: geometric n = 2000 116 ms in JS against 150 ms in the kernel; clustered n =
- * 2000 216 against 120 ms (first solves, medians of 5–8 alternated fresh processes).
+ * clusters, where the list auction and its pricing rounds cost most: costs that are
+ * not sent to the kernel first (above KERNEL_MAX_N, those whose cheapest entries do
+ * not grow like distances in the plane, e.g. squared distances). Measured before the
+ * kernel was tried first on distances (first solves, medians of 5–8 alternated fresh
+ * processes): clustered n = 2000 216 ms by the list auction against 120 ms.
  */
 const KERNEL_CROWDED_MAX_N = 2000;
 /** Matrices' worth of pairs the kernel may read before it gives up (geometric and clustered n = 1000: 37–44). */
@@ -119,16 +120,15 @@ const KERNEL_SAMPLE_COLS = 8;
  * rank-one costs: the row of the smallest a_i), column reduction leaves nearly every
  * row free and the kernel would give up after copying and reducing the matrix (4–5 ms
  * at n = 1000). Distances, clusters and uniform costs have distinct cheapest rows.
- * `planar` (looked at when `growth` is set): see {@link growsLikePlaneDistances}.
+ * `planar` (looked at when `growth` is set and the rows spread): see
+ * {@link growsLikePlaneDistances}.
  */
 function sampleColumns(inst: DenseInstance, growth: boolean): { spread: boolean; planar: boolean } {
   const { nRows: n, cost } = inst;
   const rows = new Int32Array(KERNEL_SAMPLE_COLS);
-  const col = new Float64Array(growth ? n : 0);
-  const ratios = new Float64Array(KERNEL_SAMPLE_COLS);
   let distinct = 0;
   for (let s = 0; s < KERNEL_SAMPLE_COLS; s++) {
-    const j = Math.floor(((s + 0.5) * n) / KERNEL_SAMPLE_COLS);
+    const j = sampledColumn(s, n);
     let best = Infinity;
     let arg = NONE;
     for (let r = 0, k = j; r < n; r++, k += n) {
@@ -137,15 +137,27 @@ function sampleColumns(inst: DenseInstance, growth: boolean): { spread: boolean;
         best = c;
         arg = r;
       }
-      if (growth) col[r] = c;
     }
     let seen = false;
     for (let t = 0; t < s; t++) if (rows[t] === arg) seen = true;
     rows[s] = arg;
     if (!seen) distinct++;
-    if (growth) ratios[s] = cheapestGrowth(col);
   }
-  return { spread: 2 * distinct >= KERNEL_SAMPLE_COLS, planar: growth && growsLikePlaneDistances(ratios) };
+  const spread = 2 * distinct >= KERNEL_SAMPLE_COLS;
+  if (!spread || !growth) return { spread, planar: false };
+  // the same columns again (another KERNEL_SAMPLE_COLS · n reads), for their growth
+  const col = new Float64Array(n);
+  const ratios = new Float64Array(KERNEL_SAMPLE_COLS);
+  for (let s = 0; s < KERNEL_SAMPLE_COLS; s++) {
+    for (let r = 0, k = sampledColumn(s, n); r < n; r++, k += n) col[r] = cost[k]!;
+    ratios[s] = cheapestGrowth(col);
+  }
+  return { spread, planar: growsLikePlaneDistances(ratios) };
+}
+
+/** The s-th of the columns {@link sampleColumns} looks at. */
+function sampledColumn(s: number, n: number): number {
+  return Math.floor(((s + 0.5) * n) / KERNEL_SAMPLE_COLS);
 }
 
 /** Ranks of a column's cheapest entries compared by {@link cheapestGrowth}. */
