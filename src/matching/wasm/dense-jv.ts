@@ -16,8 +16,9 @@ import { WASM_BASE64 } from './dense-jv.wasm.js';
  * 35.0 against 36.5 ms; before the searches were split out of one long call, 25 against 17.5 ms of
  * kernel time.
  *
- * One instance is kept per process; its memory holds a copy of the matrix, and a
- * larger matrix gets a new instance (see kernelFor; the caller keeps n small enough,
+ * One instance is kept per process; its memory holds a copy of the matrix (or, for
+ * the row-minima start's pass, wasmRowMinima, a few of its rows at a time), and a
+ * larger need gets a new instance (see kernelFor; the caller keeps n small enough,
  * see dense.ts).
  */
 
