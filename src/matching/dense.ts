@@ -8,7 +8,7 @@ import { denseAuction } from './dense-auction.js';
 import { keepCheapest, listAuction, type AuctionLists } from './list-auction.js';
 import { maxCardinalityMatching } from './cardinality.js';
 import type { SparseInstance, WarmStart } from './types.js';
-import { WASM_BAD_CELL, wasmDenseJv } from './wasm/dense-jv.js';
+import { spreadStart, WASM_BAD_CELL, WASM_NO_KERNEL, wasmDenseJv, wasmRowMinima } from './wasm/dense-jv.js';
 
 /*
  * The dense twin of sparse.ts: the same invariants (see there), but each search
@@ -44,7 +44,7 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
   const strategy = opts.strategy ?? 'auto';
   if (strategy === 'candidates' || (strategy === 'auto' && preferCandidates(inst.nRows, inst.nCols, k))) {
     if (inst.nRows === inst.nCols && opts.warm === undefined && mustMatchAll(inst.unmatchedCost ?? null)) {
-      const res = solveFromRowMinima(inst) ?? (strategy === 'auto' && inst.nRows <= KERNEL_MAX_N && cheapestRowsSpread(inst) ? solveByKernel(inst) : null);
+      const res = solveFromRowMinima(inst) ?? (strategy === 'auto' && kernelFirst(inst) ? solveByKernel(inst) : null);
       if (res !== null) {
         res.stats.ms = now() - t0;
         return res;
@@ -70,11 +70,34 @@ export function solveDenseCore(inst: DenseInstance, opts: SolveOptions): SolveRe
  */
 const KERNEL_MAX_N = 1600;
 /**
+ * Between KERNEL_MAX_N and this size, the kernel is tried first on costs whose
+ * columns' cheapest entries grow like distances in the plane (see
+ * {@link growsLikePlaneDistances}), where the candidates strategy's pick, pricing
+ * rounds and crowded clusters cost more than the kernel's full search on a first
+ * solve. Measured at n = 2000 (first solves in fresh processes, medians of 8
+ * alternated runs, load 1.7–2.3), candidates against kernel: geometric 200 / 143 ms,
+ * clustered 226 / 192 ms (the candidates picked before the kernel took the crowded
+ * clusters: 35 ms picking, 15 ms matching). Uniform costs stay with the candidates
+ * there: about one matrix read once compiled (n = 2000: 15–21 ms a solve after the
+ * first), where the kernel reads twelve (31–39 ms).
+ */
+const KERNEL_PLANAR_MAX_N = 2000;
+
+/** Whether `auto` tries the kernel before the candidates strategy (the row-minima start having given up). */
+function kernelFirst(inst: DenseInstance): boolean {
+  const n = inst.nRows;
+  if (n > KERNEL_PLANAR_MAX_N) return false;
+  const sample = sampleColumns(inst, n > KERNEL_MAX_N);
+  return sample.spread && (n <= KERNEL_MAX_N || sample.planar);
+}
+
+/**
  * Up to this size the kernel also takes over the candidates strategy's crowded
- * clusters (clustered costs), where the list auction and its pricing rounds cost most.
- * Between KERNEL_MAX_N and this, geometric costs stay with the candidates, faster
- * there: geometric n = 2000 116 ms in JS against 150 ms in the kernel; clustered n =
- * 2000 216 against 120 ms (first solves, medians of 5–8 alternated fresh processes).
+ * clusters, where the list auction and its pricing rounds cost most: costs that are
+ * not sent to the kernel first (above KERNEL_MAX_N, those whose cheapest entries do
+ * not grow like distances in the plane, e.g. squared distances). Measured before the
+ * kernel was tried first on distances (first solves, medians of 5–8 alternated fresh
+ * processes): clustered n = 2000 216 ms by the list auction against 120 ms.
  */
 const KERNEL_CROWDED_MAX_N = 2000;
 /** Matrices' worth of pairs the kernel may read before it gives up (geometric and clustered n = 1000: 37–44). */
@@ -91,19 +114,21 @@ const KERNEL_FREE_SHARE = 3;
 const KERNEL_SAMPLE_COLS = 8;
 
 /**
- * Whether the cheapest rows of KERNEL_SAMPLE_COLS columns spread over the matrix are
- * at least half of them distinct. Where every column is cheapest in the same few rows
- * (c_ij = i·j: all in row 0; rank-one costs: the row of the smallest a_i), column
- * reduction leaves nearly every row free and the kernel would give up after copying
- * and reducing the matrix (4–5 ms at n = 1000); this look at 8 columns costs 8n
- * reads. Distances, clusters and uniform costs have distinct cheapest rows.
+ * A look at KERNEL_SAMPLE_COLS columns spread over the matrix (KERNEL_SAMPLE_COLS · n
+ * reads). `spread`: whether their cheapest rows are at least half of them distinct.
+ * Where every column is cheapest in the same few rows (c_ij = i·j: all in row 0;
+ * rank-one costs: the row of the smallest a_i), column reduction leaves nearly every
+ * row free and the kernel would give up after copying and reducing the matrix (4–5 ms
+ * at n = 1000). Distances, clusters and uniform costs have distinct cheapest rows.
+ * `planar` (looked at when `growth` is set and the rows spread): see
+ * {@link growsLikePlaneDistances}.
  */
-function cheapestRowsSpread(inst: DenseInstance): boolean {
+function sampleColumns(inst: DenseInstance, growth: boolean): { spread: boolean; planar: boolean } {
   const { nRows: n, cost } = inst;
   const rows = new Int32Array(KERNEL_SAMPLE_COLS);
   let distinct = 0;
   for (let s = 0; s < KERNEL_SAMPLE_COLS; s++) {
-    const j = Math.floor(((s + 0.5) * n) / KERNEL_SAMPLE_COLS);
+    const j = sampledColumn(s, n);
     let best = Infinity;
     let arg = NONE;
     for (let r = 0, k = j; r < n; r++, k += n) {
@@ -118,7 +143,54 @@ function cheapestRowsSpread(inst: DenseInstance): boolean {
     rows[s] = arg;
     if (!seen) distinct++;
   }
-  return 2 * distinct >= KERNEL_SAMPLE_COLS;
+  const spread = 2 * distinct >= KERNEL_SAMPLE_COLS;
+  if (!spread || !growth) return { spread, planar: false };
+  // the same columns again (another KERNEL_SAMPLE_COLS · n reads), for their growth
+  const col = new Float64Array(n);
+  const ratios = new Float64Array(KERNEL_SAMPLE_COLS);
+  for (let s = 0; s < KERNEL_SAMPLE_COLS; s++) {
+    for (let r = 0, k = sampledColumn(s, n); r < n; r++, k += n) col[r] = cost[k]!;
+    ratios[s] = cheapestGrowth(col);
+  }
+  return { spread, planar: growsLikePlaneDistances(ratios) };
+}
+
+/** The s-th of the columns {@link sampleColumns} looks at. */
+function sampledColumn(s: number, n: number): number {
+  return Math.floor(((s + 0.5) * n) / KERNEL_SAMPLE_COLS);
+}
+
+/** Ranks of a column's cheapest entries compared by {@link cheapestGrowth}. */
+const GROWTH_LOW = 16;
+const GROWTH_HIGH = 64;
+/** Growth ratios below this are taken as distances in the plane (2 there, 4 for uniform costs). */
+const PLANAR_GROWTH_MAX = 3;
+
+/**
+ * (c_(64) − c_(0)) / (c_(16) − c_(0)) over the column's entries sorted (c_(k) the k-th
+ * cheapest; sorts `col` in place): how fast its cheapest entries grow with their
+ * rank. For distances to points spread in the plane the k-th nearest lies about √k
+ * away, a ratio near √(64/16) = 2; for costs drawn uniformly the k-th cheapest grows
+ * like k, a ratio near 4 (the growth of k-th nearest distances as k^(1/d) in d
+ * dimensions: common practice in estimating a data set's dimension). NaN or +Infinity
+ * where the ranks are tied or not allowed (or the column is too short).
+ */
+function cheapestGrowth(col: Float64Array): number {
+  if (col.length <= GROWTH_HIGH) return NaN;
+  col.sort();
+  return (col[GROWTH_HIGH]! - col[0]!) / (col[GROWTH_LOW]! - col[0]!);
+}
+
+/**
+ * Whether the sampled columns' cheapest entries grow like distances in the plane: at
+ * least half the ratios below PLANAR_GROWTH_MAX. Measured on three seeds each at n =
+ * 1700 and 2000, 8 columns: geometric and clustered costs 1.7–3.6 per column, 5–8 of
+ * them below 3; uniform reals and integers 2.7–8.0, at most 1 below 3.
+ */
+function growsLikePlaneDistances(ratios: Float64Array): boolean {
+  let below = 0;
+  for (let s = 0; s < ratios.length; s++) if (ratios[s]! < PLANAR_GROWTH_MAX) below++;
+  return 2 * below >= ratios.length;
 }
 
 /**
@@ -275,64 +347,19 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
   // here, before the greedy pass has read TIES_SAMPLE rows (in a process's first
   // solve, unoptimised: 2.7–4.4 ms at n = 1000, where this look costs about 0.2 ms).
   if (n >= TIES_SAMPLE && !tiesAtRowMinimaReach(cost, n, TIES_PEEK, TIES_PEEK_MIN * TIES_PEEK)) return null;
-  const u = new Float64Array(n);
+  const pass = greedyOnRowMinima(inst, true);
+  if (pass === null) return null;
+  const { u, rowToCol, colToRow, freeRows, nFree } = pass;
   const v = new Float64Array(n);
-  const rowToCol = new Int32Array(n).fill(NONE);
-  const colToRow = new Int32Array(n).fill(NONE);
-  const out = new Float64Array(2);
-  const freeRows = new Int32Array(n);
-  let nFree = 0;
-  for (let r = 0; r < n; r++) {
-    rowMinFree(cost, r * n, n, colToRow, out);
-    const m = out[0]!;
-    if (m === -Infinity) checkDenseCells(inst);
-    if (!(m < Infinity)) return null;
-    u[r] = m;
-    const j = out[1]!;
-    if (j === NONE) {
-      freeRows[nFree++] = r;
-      if (nFree > 2 + (r >> 6)) return null;
-    } else {
-      rowToCol[r] = j;
-      colToRow[j] = r;
-    }
-    if (r + 1 === TIES_SAMPLE && tiesAtMinimum(cost, n, u, TIES_SAMPLE) < TIES_MIN * TIES_SAMPLE) return null;
-  }
-  if (nFree > n >> 5) return null;
-  let scanned = n * n;
-  let searched = 0;
+  let scanned = pass.scanned;
   let search: DenseSearch | null = null;
   const budget = scanned + SEARCH_BUDGET_MIN * n * n;
   for (let f = 0; f < nFree; f++) {
-    const r = freeRows[f]!;
-    // First a path of length two through tight pairs: r takes a column at its minimum
-    // whose row moves to a free column at that row's minimum (all prices unchanged).
-    // It reuses the greedy pass's kernel, already optimised, where a search would run
-    // code the engine has not compiled yet.
-    const base = r * n;
-    const ur = u[r]!;
-    let done = false;
-    for (let j = 0; j < n && !done; j++) {
-      if (cost[base + j] !== ur) continue;
-      const i = colToRow[j]!;
-      rowMinFree(cost, i * n, n, colToRow, out);
-      scanned += n;
-      const to = out[1]!;
-      if (to === NONE) continue;
-      rowToCol[i] = to;
-      colToRow[to] = i;
-      rowToCol[r] = j;
-      colToRow[j] = r;
-      done = true;
-    }
-    scanned += n;
-    if (!done) {
-      search ??= new DenseSearch(inst, null, u, v, rowToCol, colToRow);
-      searched++;
-      scanned += search.run(r);
-    }
+    search ??= new DenseSearch(inst, null, u, v, rowToCol, colToRow);
+    scanned += search.run(freeRows[f]!);
     if (scanned > budget) return null;
   }
+  const searched = nFree;
   return finishDense(inst, true, u, v, rowToCol, colToRow, {
     augmentations: searched,
     scannedPairs: scanned,
@@ -341,6 +368,97 @@ function solveFromRowMinima(inst: DenseInstance): SolveResult | null {
     warmPairsKept: 0,
     searchedRows: searched,
   });
+}
+
+/** The row-minima start's pass: see {@link greedyOnRowMinima}. */
+export interface RowMinimaPass {
+  readonly u: Float64Array;
+  readonly rowToCol: Int32Array;
+  readonly colToRow: Int32Array;
+  /** The rows left without a column, in order, in the first nFree entries. */
+  readonly freeRows: Int32Array;
+  readonly nFree: number;
+  /** Pairs read. */
+  readonly scanned: number;
+}
+
+/**
+ * The row-minima start's pass, every column's price 0: u[r] = row r's minimum cost,
+ * and row r takes the first column still free at that minimum, scanning from
+ * spreadStart(r) round (a greedy pass on tight pairs). Then each row left over tries
+ * a path of two tight pairs: it takes a column j at its minimum (in column order)
+ * whose row moves to a free column at that row's minimum, found the same way; no
+ * price changes. Gives up (null) once more than 2 + r/64 of the first r rows are left
+ * free, after TIES_SAMPLE rows holding fewer than TIES_MIN ties on average at their
+ * minima, when more than n/32 rows are left after the greedy pass, or at a row with
+ * no allowed pair; a -Infinity cell is reported. Run in the wasm kernel where
+ * `kernel` is set and it can run (wasmRowMinima: the same steps and result, a few
+ * rows at a time; a process's first solve of few-ints n = 1000 spends about 1.5 ms
+ * there, where the JS pass, not yet optimised, took 4–5 ms), else in JS. Exported
+ * for the tests.
+ */
+export function greedyOnRowMinima(inst: DenseInstance, kernel: boolean): RowMinimaPass | null {
+  const { nRows: n, cost } = inst;
+  let tiesChecked = false;
+  // `ties()`: the cells at their row's minimum over the first TIES_SAMPLE rows
+  const stop = (rowsDone: number, nFree: number, ties: () => number): boolean => {
+    if (nFree > 2 + ((rowsDone - 1) >> 6)) return true;
+    if (tiesChecked || rowsDone < TIES_SAMPLE) return false;
+    tiesChecked = true;
+    return ties() < TIES_MIN * TIES_SAMPLE;
+  };
+  const maxLeft = n >> 5;
+  if (kernel) {
+    const w = wasmRowMinima(cost, n, TIES_SAMPLE, maxLeft, (rowsDone, nFree, ties) => stop(rowsDone, nFree, () => ties));
+    if (w.status === WASM_BAD_CELL) checkDenseCells(inst);
+    if (w.status >= 0) return { u: w.u, rowToCol: w.rowToCol, colToRow: w.colToRow, freeRows: w.freeRows, nFree: w.status, scanned: w.scanned };
+    if (w.status !== WASM_NO_KERNEL) return null;
+  }
+  const u = new Float64Array(n);
+  const rowToCol = new Int32Array(n).fill(NONE);
+  const colToRow = new Int32Array(n).fill(NONE);
+  const out = new Float64Array(2);
+  const freeRows = new Int32Array(n);
+  let nFree = 0;
+  for (let r = 0; r < n; r++) {
+    rowMinFree(cost, r * n, n, colToRow, spreadStart(r, n), out);
+    const m = out[0]!;
+    if (m === -Infinity) checkDenseCells(inst);
+    if (!(m < Infinity)) return null;
+    u[r] = m;
+    const j = out[1]!;
+    if (j === NONE) {
+      freeRows[nFree++] = r;
+    } else {
+      rowToCol[r] = j;
+      colToRow[j] = r;
+    }
+    if (stop(r + 1, nFree, () => tiesAtMinimum(cost, n, u, TIES_SAMPLE))) return null;
+  }
+  if (nFree > maxLeft) return null;
+  let scanned = n * n;
+  let left = 0;
+  for (let f = 0; f < nFree; f++) {
+    const r = freeRows[f]!;
+    const base = r * n;
+    const ur = u[r]!;
+    scanned += n;
+    let done = false;
+    for (let j = 0; j < n && !done; j++) {
+      if (cost[base + j] !== ur) continue;
+      const i = colToRow[j]!;
+      const to = freeAt(cost, i * n, n, colToRow, u[i]!, spreadStart(i, n));
+      scanned += n;
+      if (to === NONE) continue;
+      rowToCol[i] = to;
+      colToRow[to] = i;
+      rowToCol[r] = j;
+      colToRow[j] = r;
+      done = true;
+    }
+    if (!done) freeRows[left++] = r;
+  }
+  return { u, rowToCol, colToRow, freeRows: freeRows.slice(0, left), nFree: left, scanned };
 }
 
 /**
@@ -404,27 +522,24 @@ const SEARCH_BUDGET_MIN = 1;
 
 /**
  * One row of the row-minima start: writes the row's minimum cost to out[0] and to
- * out[1] the first column still free at that minimum (NONE when there is none).
+ * out[1] the first column still free at that minimum, scanning from column `start`
+ * round (NONE when there is none).
  */
-function rowMinFree(cost: Float64Array, base: number, n: number, colToRow: Int32Array, out: Float64Array): void {
+function rowMinFree(cost: Float64Array, base: number, n: number, colToRow: Int32Array, start: number, out: Float64Array): void {
   let m = Infinity;
-  let first = n;
   for (let j = 0; j < n; j++) {
     const x = cost[base + j]!;
-    if (x < m) {
-      m = x;
-      first = j;
-    }
-  }
-  let free = NONE;
-  for (let j = first; j < n; j++) {
-    if (cost[base + j] === m && colToRow[j] === NONE) {
-      free = j;
-      break;
-    }
+    if (x < m) m = x;
   }
   out[0] = m;
-  out[1] = free;
+  out[1] = freeAt(cost, base, n, colToRow, m, start);
+}
+
+/** The first column still free where the row costs `m`, scanning from column `start` round; NONE when there is none. */
+function freeAt(cost: Float64Array, base: number, n: number, colToRow: Int32Array, m: number, start: number): number {
+  for (let j = start; j < n; j++) if (cost[base + j] === m && colToRow[j] === NONE) return j;
+  for (let j = 0; j < start; j++) if (cost[base + j] === m && colToRow[j] === NONE) return j;
+  return NONE;
 }
 
 /** Square instances below this size never switch to the auction (searches are cheap there). */

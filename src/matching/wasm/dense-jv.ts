@@ -16,8 +16,9 @@ import { WASM_BASE64 } from './dense-jv.wasm.js';
  * 35.0 against 36.5 ms; before the searches were split out of one long call, 25 against 17.5 ms of
  * kernel time.
  *
- * One instance is kept per process; its memory holds a copy of the matrix, and a
- * larger matrix gets a new instance (see kernelFor; the caller keeps n small enough,
+ * One instance is kept per process; its memory holds a copy of the matrix (or, for
+ * the row-minima start's pass, wasmRowMinima, a few of its rows at a time), and a
+ * larger need gets a new instance (see kernelFor; the caller keeps n small enough,
  * see dense.ts).
  */
 
@@ -36,6 +37,10 @@ interface Kernel {
   readonly memory: WasmMemory;
   readonly scanned: { readonly value: number };
   readonly solve: (n: number, c: number, v: number, u: number, r2c: number, c2r: number, w: number, maxScan: number, maxFree: number) => number;
+  readonly ties: { readonly value: number };
+  readonly rowMinima: (cb: number, rows: number, n: number, r0: number, u: number, r2c: number, c2r: number, f: number, nFree: number, countBelow: number) => number;
+  readonly columnsAt: (pc: number, n: number, m: number, out: number) => number;
+  readonly freeAt: (pc: number, n: number, c2r: number, m: number, start: number) => number;
 }
 
 /** The compiled module (null where WebAssembly with SIMD is not available), and the instance of the last solve. */
@@ -54,7 +59,7 @@ function kernelFor(bytes: number): Kernel | null {
   if (kernel !== null && kernel.memory.buffer.byteLength >= bytes) return kernel;
   if (compiled === undefined) {
     try {
-      compiled = wasmApi === undefined ? null : new wasmApi.Module(Uint8Array.from(atob(WASM_BASE64), (ch) => ch.charCodeAt(0)));
+      compiled = wasmApi === undefined ? null : new wasmApi.Module(decodeBase64(WASM_BASE64));
     } catch {
       compiled = null;
     }
@@ -63,12 +68,28 @@ function kernelFor(bytes: number): Kernel | null {
   try {
     const memory = new wasmApi.Memory({ initial: Math.ceil(bytes / 65536) });
     const exp = new wasmApi.Instance(compiled, { env: { memory } }).exports as Omit<Kernel, 'memory'>;
-    kernel = { memory, scanned: exp.scanned, solve: exp.solve };
+    kernel = { memory, ...exp };
     return kernel;
   } catch {
     // no memory to be had of that size
     return null;
   }
+}
+
+/** Node's Buffer where there is one: its base64 decoder is native. */
+const nodeBuffer = (globalThis as unknown as { Buffer?: { from: (text: string, encoding: 'base64') => Uint8Array } }).Buffer;
+
+/**
+ * The bytes of base64 text: by Buffer where there is one, else by atob and a plain
+ * loop (measured in a process's first solve: atob and Uint8Array.from with a mapping
+ * function took 0.5–1.5 ms for the kernel's 4.6 KB, Buffer.from 0.1 ms).
+ */
+function decodeBase64(text: string): Uint8Array {
+  if (nodeBuffer !== undefined) return nodeBuffer.from(text, 'base64');
+  const s = atob(text);
+  const out = new Uint8Array(s.length);
+  for (let i = 0; i < s.length; i++) out[i] = s.charCodeAt(i);
+  return out;
 }
 
 /** The kernel's statuses besides a count of searches: see dense-jv.wat. */
@@ -123,4 +144,101 @@ export function wasmDenseJv(cost: Float64Array, n: number, maxScan: number, maxF
     v: new Float64Array(buf, V, n).slice(),
     scanned,
   };
+}
+
+export interface WasmRowMinimaOut {
+  /**
+   * The count of rows left free (≥ 0), or WASM_BAD_CELL, WASM_INFEASIBLE (a row with
+   * no allowed pair), WASM_GAVE_UP or WASM_NO_KERNEL; the arrays are then empty.
+   */
+  readonly status: number;
+  /** Each row's minimum cost (NaN cells skipped). */
+  readonly u: Float64Array;
+  readonly rowToCol: Int32Array;
+  readonly colToRow: Int32Array;
+  /** The rows left without a column, in order, in the first `status` entries. */
+  readonly freeRows: Int32Array;
+  /** Pairs read. */
+  readonly scanned: number;
+}
+
+/** Bytes of matrix rows copied into the kernel's memory at a time by {@link wasmRowMinima}. */
+const ROW_CHUNK_BYTES = 1 << 18;
+
+/** Row r's start for its scan for a free column at its minimum: floor(frac(r · golden ratio) · n), as in the kernel. */
+export function spreadStart(r: number, n: number): number {
+  return Math.floor(((r * 0.6180339887498949) % 1) * n);
+}
+
+/**
+ * The row-minima start's pass (dense.ts, greedyOnRowMinima, which gives its rules and
+ * runs the same steps in JS) in the kernel. The rows go through the kernel a few at a
+ * time (at most ROW_CHUNK_BYTES), so it never holds the whole matrix and there is no
+ * large fresh memory to fault in (copying n = 1000 into a fresh memory costs about
+ * 3 ms; this whole pass about 1.5 ms). After each batch of the greedy pass,
+ * `stop(rowsDone, nFree, ties)` may end it (WASM_GAVE_UP); `ties` counts the cells at
+ * their row's minimum over the first min(rowsDone, `countRows`) rows. More than
+ * `maxLeft` rows free after the greedy pass also give up.
+ */
+export function wasmRowMinima(
+  cost: Float64Array,
+  n: number,
+  countRows: number,
+  maxLeft: number,
+  stop: (rowsDone: number, nFree: number, ties: number) => boolean,
+): WasmRowMinimaOut {
+  const none = { u: new Float64Array(0), rowToCol: new Int32Array(0), colToRow: new Int32Array(0), freeRows: new Int32Array(0), scanned: 0 };
+  const chunk = Math.max(2, Math.min(n, Math.floor(ROW_CHUNK_BYTES / (8 * n))));
+  const np = align(n);
+  const U = align(chunk * n * 8);
+  const R2C = U + np * 8;
+  const C2R = R2C + np * 4;
+  const F = C2R + np * 4;
+  const AT = F + np * 4;
+  const bytes = AT + np * 4;
+  const k = bytes <= MAX_BYTES ? kernelFor(bytes) : null;
+  if (k === null) return { status: WASM_NO_KERNEL, ...none };
+  const buf = k.memory.buffer;
+  const rows = new Float64Array(buf, 0, chunk * n);
+  const u = new Float64Array(buf, U, n);
+  const rowToCol = new Int32Array(buf, R2C, n);
+  const colToRow = new Int32Array(buf, C2R, n);
+  const freeRows = new Int32Array(buf, F, n);
+  const at = new Int32Array(buf, AT, n);
+  new Int32Array(buf, R2C, 2 * np).fill(-1);
+  let nFree = 0;
+  for (let r0 = 0; r0 < n; r0 += chunk) {
+    const r1 = Math.min(n, r0 + chunk);
+    rows.set(cost.subarray(r0 * n, r1 * n));
+    nFree = k.rowMinima(0, r1 - r0, n, r0, U, R2C, C2R, F, nFree, countRows);
+    if (nFree < 0) return { status: nFree === -1 ? WASM_BAD_CELL : WASM_INFEASIBLE, ...none };
+    if (stop(r1, nFree, k.ties.value)) return { status: WASM_GAVE_UP, ...none };
+  }
+  if (nFree > maxLeft) return { status: WASM_GAVE_UP, ...none };
+  // paths of two tight pairs: row r takes a column j at its minimum, whose row i moves
+  // to a free column at i's minimum (row r in slot 0, row i in slot 1)
+  let scanned = n * n;
+  let left = 0;
+  for (let f = 0; f < nFree; f++) {
+    const r = freeRows[f]!;
+    rows.set(cost.subarray(r * n, r * n + n));
+    const ties = k.columnsAt(0, n, u[r]!, AT);
+    scanned += n;
+    let done = false;
+    for (let t = 0; t < ties && !done; t++) {
+      const j = at[t]!;
+      const i = colToRow[j]!;
+      rows.set(cost.subarray(i * n, i * n + n), n);
+      const to = k.freeAt(8 * n, n, C2R, u[i]!, spreadStart(i, n));
+      scanned += n;
+      if (to < 0) continue;
+      rowToCol[i] = to;
+      colToRow[to] = i;
+      rowToCol[r] = j;
+      colToRow[j] = r;
+      done = true;
+    }
+    if (!done) freeRows[left++] = r;
+  }
+  return { status: left, u: u.slice(), rowToCol: rowToCol.slice(), colToRow: colToRow.slice(), freeRows: freeRows.slice(0, left), scanned };
 }

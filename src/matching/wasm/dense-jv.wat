@@ -19,11 +19,15 @@
 ;;   caller solves by its JS path), -4 no predecessor
 ;;   found for a column of the path (cannot happen: the caller falls back all the same).
 ;; The pairs read are left in the global "scanned".
+;; The exports rowMinima, columnsAt and freeAt run the greedy pass of dense.ts's
+;; row-minima start and its paths of two tight pairs, on rows the caller copies in a
+;; few at a time (see wasmRowMinima in dense-jv.ts).
 (module
   ;; The caller's memory, created at the size each solve needs: growing a memory detaches
   ;; its old buffer, and after any detach V8 checks every typed-array access in JS.
   (import "env" "memory" (memory 1))
   (global $scanned (export "scanned") (mut f64) (f64.const 0))
+  (global $ties (export "ties") (mut f64) (f64.const 0))
   (global $u1 (mut f64) (f64.const 0))
   (global $u2 (mut f64) (f64.const 0))
   (global $j1 (mut i32) (i32.const 0))
@@ -151,6 +155,115 @@
     (global.set $u2 (local.get $u2))
     (global.set $j1 (local.get $j1))
     (global.set $j2 (select (i32.const -1) (local.get $j2) (f64.eq (local.get $u2) (f64.const inf)))))
+
+  ;; The row-minima start's greedy pass (dense.ts, solveFromRowMinima) over `rows` rows
+  ;; copied to CB (row-major, n f64 each; rows r0, r0 + 1, ...): U[r] = the row's
+  ;; minimum (NaN skipped), and the row takes the first column still free at that
+  ;; minimum scanning from column spreadStart(r) round (R2C, C2R; -1 free), else it is
+  ;; appended to the free rows F. Rows r < countBelow add their cells at the minimum to
+  ;; the global "ties" (set to 0 when r0 = 0). Returns the new count of free rows, or -1 (a row's minimum is
+  ;; -Infinity: the caller names the cell) or -2 (a row with no allowed pair).
+  (func (export "rowMinima") (param $CB i32) (param $rows i32) (param $n i32) (param $r0 i32)
+    (param $U i32) (param $R2C i32) (param $C2R i32) (param $F i32) (param $nFree i32) (param $countBelow i32) (result i32)
+    (local $t i32) (local $r i32) (local $pc i32) (local $j i32) (local $s i32)
+    (local $m f64)
+    (if (i32.eqz (local.get $r0)) (then (global.set $ties (f64.const 0))))
+    (block $done (loop $rl
+      (br_if $done (i32.ge_u (local.get $t) (local.get $rows)))
+      (local.set $r (i32.add (local.get $r0) (local.get $t)))
+      (local.set $pc (i32.add (local.get $CB) (i32.mul (local.get $t) (i32.shl (local.get $n) (i32.const 3)))))
+      (local.set $m (call $minOf (local.get $pc) (local.get $n)))
+      (if (f64.eq (local.get $m) (f64.const -inf)) (then (return (i32.const -1))))
+      (if (i32.eqz (f64.lt (local.get $m) (f64.const inf))) (then (return (i32.const -2))))
+      (f64.store (i32.add (local.get $U) (i32.shl (local.get $r) (i32.const 3))) (local.get $m))
+      (if (i32.lt_u (local.get $r) (local.get $countBelow)) (then
+        (global.set $ties (f64.add (global.get $ties) (f64.convert_i32_u (call $countOf (local.get $pc) (local.get $n) (local.get $m)))))))
+      (local.set $j (call $freeAt (local.get $pc) (local.get $n) (local.get $C2R) (local.get $m)
+        (call $spreadStart (local.get $r) (local.get $n))))
+      (if (i32.lt_s (local.get $j) (i32.const 0))
+        (then
+          (i32.store (i32.add (local.get $F) (i32.shl (local.get $nFree) (i32.const 2))) (local.get $r))
+          (local.set $nFree (i32.add (local.get $nFree) (i32.const 1))))
+        (else
+          (i32.store (i32.add (local.get $R2C) (i32.shl (local.get $r) (i32.const 2))) (local.get $j))
+          (i32.store (i32.add (local.get $C2R) (i32.shl (local.get $j) (i32.const 2))) (local.get $r))))
+      (local.set $t (i32.add (local.get $t) (i32.const 1)))
+      (br $rl)))
+    (local.get $nFree))
+
+  ;; floor(frac(r * golden ratio) * n): the column a row's scan for a free tie starts
+  ;; at, the same value as dense.ts's spreadStart (frac exact: x - floor(x) for x >= 0).
+  (func $spreadStart (param $r i32) (param $n i32) (result i32)
+    (local $x f64)
+    (local.set $x (f64.mul (f64.convert_i32_u (local.get $r)) (f64.const 0.6180339887498949)))
+    (i32.trunc_f64_u (f64.floor (f64.mul (f64.sub (local.get $x) (f64.floor (local.get $x))) (f64.convert_i32_u (local.get $n))))))
+
+  ;; min over j < n of C[j] (pc need not be 16-byte aligned), NaN skipped; +Infinity when none.
+  (func $minOf (param $pc i32) (param $n i32) (result f64)
+    (local $e i32) (local $a v128) (local $b v128) (local $m f64) (local $x f64)
+    (local.set $a (f64x2.splat (f64.const inf)))
+    (local.set $b (local.get $a))
+    (local.set $e (i32.add (local.get $pc) (i32.shl (local.get $n) (i32.const 3))))
+    (block $o (loop $l
+      (br_if $o (i32.gt_u (i32.add (local.get $pc) (i32.const 32)) (local.get $e)))
+      (local.set $a (f64x2.pmin (local.get $a) (v128.load (local.get $pc))))
+      (local.set $b (f64x2.pmin (local.get $b) (v128.load offset=16 (local.get $pc))))
+      (local.set $pc (i32.add (local.get $pc) (i32.const 32)))
+      (br $l)))
+    (local.set $a (f64x2.pmin (local.get $a) (local.get $b)))
+    (local.set $m (f64.min (f64x2.extract_lane 0 (local.get $a)) (f64x2.extract_lane 1 (local.get $a))))
+    (block $o (loop $l
+      (br_if $o (i32.ge_u (local.get $pc) (local.get $e)))
+      (local.set $x (f64.load (local.get $pc)))
+      (if (f64.lt (local.get $x) (local.get $m)) (then (local.set $m (local.get $x))))
+      (local.set $pc (i32.add (local.get $pc) (i32.const 8)))
+      (br $l)))
+    (local.get $m))
+
+  ;; The columns j < n with C[j] = m, in order, into OUT (i32); returns how many.
+  (func (export "columnsAt") (param $pc i32) (param $n i32) (param $m f64) (param $OUT i32) (result i32)
+    (local $j i32) (local $c i32)
+    (block $o (loop $l
+      (br_if $o (i32.ge_u (local.get $j) (local.get $n)))
+      (if (f64.eq (f64.load (i32.add (local.get $pc) (i32.shl (local.get $j) (i32.const 3)))) (local.get $m)) (then
+        (i32.store (i32.add (local.get $OUT) (i32.shl (local.get $c) (i32.const 2))) (local.get $j))
+        (local.set $c (i32.add (local.get $c) (i32.const 1)))))
+      (local.set $j (i32.add (local.get $j) (i32.const 1)))
+      (br $l)))
+    (local.get $c))
+
+  ;; How many of C[0 .. n) equal m.
+  (func $countOf (param $pc i32) (param $n i32) (param $m f64) (result i32)
+    (local $e i32) (local $mv v128) (local $acc v128) (local $c i32)
+    (local.set $mv (f64x2.splat (local.get $m)))
+    (local.set $e (i32.add (local.get $pc) (i32.shl (local.get $n) (i32.const 3))))
+    ;; each lane equal to m is all ones (-1): subtracting counts it
+    (block $o (loop $l
+      (br_if $o (i32.gt_u (i32.add (local.get $pc) (i32.const 16)) (local.get $e)))
+      (local.set $acc (i64x2.sub (local.get $acc) (f64x2.eq (v128.load (local.get $pc)) (local.get $mv))))
+      (local.set $pc (i32.add (local.get $pc) (i32.const 16)))
+      (br $l)))
+    (local.set $c (i32.wrap_i64 (i64.add (i64x2.extract_lane 0 (local.get $acc)) (i64x2.extract_lane 1 (local.get $acc)))))
+    (if (i32.lt_u (local.get $pc) (local.get $e)) (then
+      (if (f64.eq (f64.load (local.get $pc)) (local.get $m)) (then (local.set $c (i32.add (local.get $c) (i32.const 1)))))))
+    (local.get $c))
+
+  ;; The first column j, scanning from s to n - 1 then from 0, with C[j] = m and
+  ;; C2R[j] < 0; -1 when there is none.
+  (func $freeAt (export "freeAt") (param $pc i32) (param $n i32) (param $C2R i32) (param $m f64) (param $s i32) (result i32)
+    (local $j i32) (local $left i32)
+    (local.set $j (local.get $s))
+    (local.set $left (local.get $n))
+    (block $o (loop $l
+      (br_if $o (i32.eqz (local.get $left)))
+      (if (i32.ge_u (local.get $j) (local.get $n)) (then (local.set $j (i32.const 0))))
+      (if (f64.eq (f64.load (i32.add (local.get $pc) (i32.shl (local.get $j) (i32.const 3)))) (local.get $m)) (then
+        (if (i32.lt_s (i32.load (i32.add (local.get $C2R) (i32.shl (local.get $j) (i32.const 2)))) (i32.const 0))
+          (then (return (local.get $j))))))
+      (local.set $j (i32.add (local.get $j) (i32.const 1)))
+      (local.set $left (i32.sub (local.get $left) (i32.const 1)))
+      (br $l)))
+    (i32.const -1))
 
   ;; One step of a search: D[j] = min(D[j], (off + C[j]) - VW[j]) over j < np, in
   ;; blocks of 16 columns; returns the lowest D and leaves in $j1 the address of the

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { checkCertificate, solveDense } from '../../../src/matching/index.js';
-import { solveByKernel } from '../../../src/matching/dense.js';
+import { greedyOnRowMinima, solveByKernel } from '../../../src/matching/dense.js';
+import { WASM_NO_KERNEL, wasmRowMinima } from '../../../src/matching/wasm/dense-jv.js';
 import { denseFamily } from '../../../bench/lib/instances.js';
 import { scipyDenseCosts, scipyVersion } from '../../helpers/python.js';
 import { bruteForce, mulberry32, randInt } from './gen.js';
@@ -146,16 +147,30 @@ describe('solveDense() auto and the kernel', () => {
     expect(checkCertificate(mw, c).problems).toEqual([]);
   });
 
-  it('gives the crowded clusters of a clustered matrix of 1700 rows to the kernel after the candidates are picked; geometric costs of that size stay with the candidates', () => {
-    const clu = denseFamily(45_030, 1700, 'clustered');
-    const r = solveDense(clu);
-    expect(r.stats.wasmKernel).toBe(true);
-    expect(r.stats.auctionBids).toBeUndefined();
-    expect(checkCertificate(clu, r).problems).toEqual([]);
-    const geo = denseFamily(45_031, 1700, 'geometric');
-    const g = solveDense(geo);
-    expect(g.stats.wasmKernel).toBeUndefined();
-    expect(checkCertificate(geo, g).problems).toEqual([]);
+  it('above 1600 rows, sends distances in the plane (geometric, clustered) to the kernel first, keeps uniform costs with the candidates, and gives crowded clusters of other costs to the kernel after the candidates are picked', () => {
+    const n = 1700;
+    const kernelAlone = (inst: DenseInstance) => solveByKernel(inst)!.stats.scannedPairs;
+    for (const family of ['clustered', 'geometric'] as const) {
+      const inst = denseFamily(45_030, n, family);
+      const r = solveDense(inst);
+      expect(r.stats.wasmKernel, family).toBe(true);
+      expect(checkCertificate(inst, r).problems, family).toEqual([]);
+      // no candidates picked before: the pairs read are the kernel's alone
+      expect(r.stats.scannedPairs, family).toBe(kernelAlone(inst));
+    }
+    // squared distances grow like uniform costs (the k-th nearest about k away), so the
+    // candidates are picked first; the clusters crowd, and the kernel takes over
+    const clu = denseFamily(45_030, n, 'clustered');
+    const squared = { ...clu, cost: clu.cost.map((c) => c * c) };
+    const q = solveDense(squared);
+    expect(q.stats.wasmKernel).toBe(true);
+    expect(q.stats.auctionBids).toBeUndefined();
+    expect(checkCertificate(squared, q).problems).toEqual([]);
+    expect(q.stats.scannedPairs).toBeGreaterThan(kernelAlone(squared) + n * n - 1);
+    const uni = build(45_032, n, 'uniform', 0);
+    const u = solveDense(uni);
+    expect(u.stats.wasmKernel).toBeUndefined();
+    expect(checkCertificate(uni, u).problems).toEqual([]);
   });
 
   it('names a -Infinity cell in the last row as an input error on the kernel\'s path', () => {
@@ -174,6 +189,104 @@ describe('solveDense() auto and the kernel', () => {
     const warm = { colPrices: first.colDuals, rowPrices: first.rowDuals, rowToCol: first.rowToCol };
     expect(solveDense(geo, { warm }).stats.wasmKernel).toBeUndefined();
     expect(solveDense(geo, { strategy: 'full' }).stats.wasmKernel).toBeUndefined();
+  });
+});
+
+describe('the row-minima start\'s pass in the kernel', () => {
+  /** Few-ints costs (0..9) with a share of the cells +Infinity or NaN, shifted by `shift`. */
+  const fewInts = (seed: number, n: number, forbidden: number, shift = 0): DenseInstance => {
+    const inst = denseFamily(seed, n, 'few-ints');
+    const rand = mulberry32(seed + 1);
+    for (let k = 0; k < inst.cost.length; k++) {
+      const x = rand();
+      inst.cost[k] = x < forbidden / 2 ? Infinity : x < forbidden ? NaN : inst.cost[k]! + shift;
+    }
+    return inst;
+  };
+
+  it('runs in the kernel, a few rows at a time', () => {
+    const inst = fewInts(47_000, 700, 0);
+    const out = wasmRowMinima(inst.cost, 700, 32, 700 >> 5, () => false);
+    expect(out.status).not.toBe(WASM_NO_KERNEL);
+    expect(out.status).toBeGreaterThanOrEqual(0);
+  });
+
+  it('gives the JS pass\'s prices, pairs and rows left over exactly, or gives up where it does', () => {
+    const cases: { label: string; inst: DenseInstance }[] = [];
+    // sizes off the SIMD width and past one batch of rows (n = 700: 46 rows a batch; the
+    // smallest give up: more than 2 + r/64 of the first r rows left free)
+    for (const [k, n] of [33, 257, 600, 700, 1100].entries()) {
+      cases.push({ label: `few-ints n=${n}`, inst: fewInts(47_100 + k, n, 0) });
+      cases.push({ label: `few-ints n=${n}, forbidden, shifted`, inst: fewInts(47_200 + k, n, 0.15, -4.5) });
+      cases.push({ label: `ties 0..3 n=${n}`, inst: build(47_300 + k, n, 'ties', k % 2 === 0 ? 0.1 : 0, k % 2 === 0) });
+    }
+    // a column no row has at its minimum, and a row with a single allowed pair
+    const col = fewInts(47_400, 600, 0);
+    for (let r = 0; r < 600; r++) col.cost[r * 600 + 17] = 9;
+    cases.push({ label: 'column 17 all nines', inst: col });
+    const lone = fewInts(47_401, 600, 0);
+    for (let j = 0; j < 600; j++) lone.cost[250 * 600 + j] = j === 3 ? 5 : Infinity;
+    cases.push({ label: 'row 250 allows one pair', inst: lone });
+    // gives up: few ties (distances), a row with no allowed pair (late, past the first batches)
+    cases.push({ label: 'geometric', inst: denseFamily(47_402, 300, 'geometric') });
+    const dead = fewInts(47_403, 600, 0);
+    for (let j = 0; j < 600; j++) dead.cost[555 * 600 + j] = j % 2 === 0 ? NaN : Infinity;
+    cases.push({ label: 'row 555 allows nothing', inst: dead });
+    let passed = 0;
+    for (const { label, inst } of cases) {
+      const wasm = greedyOnRowMinima(inst, true);
+      const js = greedyOnRowMinima(inst, false);
+      expect(wasm, label).toEqual(js);
+      if (js === null) continue;
+      passed++;
+      // the pass's pairs are tight at its prices (column prices 0) and every price a row minimum
+      for (let r = 0; r < inst.nRows; r++) {
+        let m = Infinity;
+        for (let j = 0; j < inst.nCols; j++) if (inst.cost[r * inst.nCols + j]! < m) m = inst.cost[r * inst.nCols + j]!;
+        expect(js.u[r], `${label} row ${r}`).toBe(m);
+        const j = js.rowToCol[r]!;
+        if (j >= 0) expect(inst.cost[r * inst.nCols + j], `${label} row ${r}`).toBe(m);
+      }
+    }
+    expect(passed).toBe(12);
+    // no row has column 17 at its minimum: a row is left over for the searches
+    expect(greedyOnRowMinima(col, true)!.nFree).toBeGreaterThan(0);
+    expect(greedyOnRowMinima(cases.find((c) => c.label === 'geometric')!.inst, true)).toBeNull();
+    expect(greedyOnRowMinima(dead, true)).toBeNull();
+  });
+
+  it('names a -Infinity cell as an input error, in the first batch or a later one', () => {
+    for (const at of [5, 599 * 600 + 598]) {
+      const inst = fewInts(47_500 + at, 600, 0);
+      inst.cost[at] = -Infinity;
+      expect(() => greedyOnRowMinima(inst, true)).toThrow(INPUT);
+      expect(() => solveDense(inst)).toThrow(INPUT);
+    }
+  });
+
+  it('through solveDense(): exhaustive search\'s optimum on tiny tied matrices, and the JS full search\'s on larger ones, each certified', () => {
+    let viaStart = 0;
+    for (let seed = 0; seed < 120; seed++) {
+      const rand = mulberry32(47_600 + seed);
+      const n = randInt(rand, 1, 7);
+      const inst = build(47_600 + seed, n, 'ties', seed % 4 === 0 ? 0.2 : 0, seed % 8 === 0);
+      const want = bruteForce(inst);
+      if (!(want < Infinity)) continue;
+      const label = `seed ${seed} n=${n}`;
+      // 'candidates' tries the row-minima start first on a square matrix of any size
+      const res = solveDense(inst, { strategy: 'candidates' });
+      if (greedyOnRowMinima(inst, true) !== null) viaStart++;
+      expect(checkCertificate(inst, res).problems, label).toEqual([]);
+      expect(Math.abs(res.cost - want), `${label}: ${res.cost} vs ${want}`).toBeLessThanOrEqual(1e-9);
+    }
+    expect(viaStart).toBeGreaterThan(30);
+    for (const [k, n] of [520, 777].entries()) {
+      const inst = fewInts(47_700 + k, n, 0.1, k === 0 ? -3 : 0.25);
+      const res = solveDense(inst);
+      expect(checkCertificate(inst, res).problems, `n=${n}`).toEqual([]);
+      expect(res.cost).toBeCloseTo(solveDense(inst, { strategy: 'full' }).cost, 6);
+      expect(res.stats.scannedPairs, `n=${n}: the matrix read about once`).toBeLessThan(2 * n * n);
+    }
   });
 });
 
