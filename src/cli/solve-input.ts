@@ -26,6 +26,7 @@
 import { readFileSync, statSync } from 'node:fs';
 import { findDuplicateKey, printable } from '../consume/json-text.js';
 import { pairflowError, PairflowError } from '../errors.js';
+import { denseCosts } from '../matching/index.js';
 import type { DenseInstance, SparseInstance } from '../matching/types.js';
 import { MAX_COST, MAX_COST_TEXT } from '../matching/validate.js';
 
@@ -65,7 +66,8 @@ export function parseCostMatrixCsv(text: string, file: string): DenseInstance {
     throw pairflowError('PAIRFLOW_ERR_INPUT_EMPTY', { file, detail: 'the cost matrix has no rows' });
   }
   const nCols = lines[0]!.split(',').length;
-  const cost = new Float64Array(nLines * nCols);
+  // Written once, where the dense kernel reads it (square matrices of its sizes).
+  const cost = denseCosts(nLines, nCols);
   for (let r = 0; r < nLines; r++) {
     const cells = lines[r]!.split(',');
     if (cells.length !== nCols) {

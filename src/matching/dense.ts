@@ -8,7 +8,7 @@ import { denseAuction } from './dense-auction.js';
 import { keepCheapest, listAuction, type AuctionLists } from './list-auction.js';
 import { maxCardinalityMatching } from './cardinality.js';
 import type { SparseInstance, WarmStart } from './types.js';
-import { spreadStart, WASM_BAD_CELL, WASM_NO_KERNEL, wasmDenseJv, wasmRowMinima } from './wasm/dense-jv.js';
+import { kernelMatrix, spreadStart, WASM_BAD_CELL, WASM_NO_KERNEL, wasmDenseJv, wasmRowMinima } from './wasm/dense-jv.js';
 
 /*
  * The dense twin of sparse.ts: the same invariants (see there), but each search
@@ -100,6 +100,24 @@ function kernelFirst(inst: DenseInstance): boolean {
  * processes): clustered n = 2000 216 ms by the list auction against 120 ms.
  */
 const KERNEL_CROWDED_MAX_N = 2000;
+
+/** Below this a copy into the kernel costs too little to give a matrix a memory of its own (256: half a megabyte). */
+const KERNEL_MATRIX_MIN_N = 256;
+
+/**
+ * A zeroed row-major cost array for a dense instance of nRows × nCols. A square one
+ * of a size the WebAssembly kernel may take lives in the kernel's own memory
+ * (kernelMatrix in wasm/dense-jv.ts), so a caller that fills it (the CLI's parser)
+ * writes the matrix once and the kernel reads it in place; any other is a plain
+ * array. Either solves the same.
+ * @example
+ * const cost = denseCosts(2, 2); cost.set([4, 1, 2, 0]);
+ * solveDense({ nRows: 2, nCols: 2, cost });
+ */
+export function denseCosts(nRows: number, nCols: number): Float64Array {
+  const inKernel = nRows === nCols && nRows >= KERNEL_MATRIX_MIN_N && nRows <= Math.max(KERNEL_MAX_N, KERNEL_PLANAR_MAX_N, KERNEL_CROWDED_MAX_N);
+  return inKernel ? kernelMatrix(nRows) : new Float64Array(nRows * nCols);
+}
 /** Matrices' worth of pairs the kernel may read before it gives up (geometric and clustered n = 1000: 37–44). */
 const KERNEL_BUDGET = 80;
 /**

@@ -50,3 +50,5 @@ export function solveSparse(inst: SparseInstance, opts: SolveOptions = {}): Solv
 export function solveDense(inst: DenseInstance, opts: SolveOptions = {}): SolveResult {
   return solveDenseCore(inst, opts);
 }
+
+export { denseCosts } from './dense.js';

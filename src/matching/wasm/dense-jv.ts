@@ -57,6 +57,13 @@ let kernel: Kernel | null = null;
  */
 function kernelFor(bytes: number): Kernel | null {
   if (kernel !== null && kernel.memory.buffer.byteLength >= bytes) return kernel;
+  const made = newKernel(bytes);
+  if (made !== null) kernel = made;
+  return made;
+}
+
+/** A new instance with a memory of `bytes` of its own; null where the kernel cannot run or no such memory can be had. */
+function newKernel(bytes: number): Kernel | null {
   if (compiled === undefined) {
     try {
       compiled = wasmApi === undefined ? null : new wasmApi.Module(decodeBase64(WASM_BASE64));
@@ -68,8 +75,7 @@ function kernelFor(bytes: number): Kernel | null {
   try {
     const memory = new wasmApi.Memory({ initial: Math.ceil(bytes / 65536) });
     const exp = new wasmApi.Instance(compiled, { env: { memory } }).exports as Omit<Kernel, 'memory'>;
-    kernel = { memory, ...exp };
-    return kernel;
+    return { memory, ...exp };
   } catch {
     // no memory to be had of that size
     return null;
@@ -90,6 +96,51 @@ function decodeBase64(text: string): Uint8Array {
   const out = new Uint8Array(s.length);
   for (let i = 0; i < s.length; i++) out[i] = s.charCodeAt(i);
   return out;
+}
+
+/** Where the kernel's arrays start after an n × n matrix at offset 0 (and the 16 cells of padding its row scans read past the last row). */
+const afterMatrix = (n: number): number => align(n * n * 8 + 128);
+
+/** Bytes of every array of the full search for an n × n matrix (see wasmDenseJv). */
+function fullSearchBytes(n: number): number {
+  const np = align(n);
+  return align(afterMatrix(n) + np * 8 * 2 + np * 4 * 2) + 64 * np;
+}
+
+/**
+ * Instances whose memory holds a caller's matrix at offset 0 ({@link kernelMatrix}),
+ * by that memory: never used to copy another matrix in.
+ */
+const lent = new WeakMap<ArrayBuffer, Kernel>();
+
+/** The instance whose memory holds `cost` in place (an n × n matrix from kernelMatrix), else null. */
+function homeOf(cost: Float64Array, n: number): Kernel | null {
+  const k = lent.get(cost.buffer as ArrayBuffer);
+  if (k === undefined || cost.byteOffset !== 0 || cost.length !== n * n) return null;
+  return k.memory.buffer.byteLength >= fullSearchBytes(n) ? k : null;
+}
+
+/** Whether the kernel reads the n × n matrix `cost` in place (one from {@link kernelMatrix}) rather than a copy. */
+export function readInPlace(cost: Float64Array, n: number): boolean {
+  return homeOf(cost, n) !== null;
+}
+
+/**
+ * An n × n cost matrix (row-major, zeros) that lives where the kernel reads its
+ * matrix: at offset 0 of an instance's memory of its own. A solve by the kernel then
+ * reads it in place instead of copying it into the kernel's memory, which in a
+ * process's first solve costs page faults of fresh memory as well as the copy (n =
+ * 1000: about 3 ms of a 22 ms solve; n = 2000 four times that). A caller that fills
+ * its matrix here (the CLI's parser) writes it once. A plain array where the kernel
+ * cannot run or n is past its size. The kernel only reads the matrix; each call
+ * makes a new instance, so matrices so made never share memory.
+ */
+export function kernelMatrix(n: number): Float64Array {
+  const bytes = fullSearchBytes(n);
+  const k = n > 0 && bytes <= MAX_BYTES ? newKernel(bytes) : null;
+  if (k === null) return new Float64Array(n * n);
+  lent.set(k.memory.buffer, k);
+  return new Float64Array(k.memory.buffer, 0, n * n);
 }
 
 /** The kernel's statuses besides a count of searches: see dense-jv.wat. */
@@ -123,15 +174,16 @@ export function wasmDenseJv(cost: Float64Array, n: number, maxScan: number, maxF
   const none = { rowToCol: new Int32Array(0), colToRow: new Int32Array(0), u: new Float64Array(0), v: new Float64Array(0) };
   const np = align(n);
   const C = 0;
-  const V = align(C + n * n * 8 + 128);
+  const V = afterMatrix(n);
   const U = V + np * 8;
   const R2C = U + np * 8;
   const C2R = R2C + np * 4;
   const W = align(C2R + np * 4);
-  const k = W + 64 * np <= MAX_BYTES ? kernelFor(W + 64 * np) : null;
+  const home = homeOf(cost, n);
+  const k = home ?? (W + 64 * np <= MAX_BYTES ? kernelFor(W + 64 * np) : null);
   if (k === null) return { status: WASM_NO_KERNEL, ...none, scanned: 0 };
   const buf = k.memory.buffer;
-  new Float64Array(buf, C, n * n).set(cost);
+  if (home === null) new Float64Array(buf, C, n * n).set(cost);
   new Float64Array(buf, C + n * n * 8, 16).fill(0);
   const status = k.solve(n, C, V, U, R2C, C2R, W, maxScan, maxFree);
   const scanned = k.scanned.value;
@@ -178,7 +230,8 @@ export function spreadStart(r: number, n: number): number {
  * 3 ms; this whole pass about 1.5 ms). After each batch of the greedy pass,
  * `stop(rowsDone, nFree, ties)` may end it (WASM_GAVE_UP); `ties` counts the cells at
  * their row's minimum over the first min(rowsDone, `countRows`) rows. More than
- * `maxLeft` rows free after the greedy pass also give up.
+ * `maxLeft` rows free after the greedy pass also give up. A matrix from
+ * {@link kernelMatrix} is read in place, nothing copied.
  */
 export function wasmRowMinima(
   cost: Float64Array,
@@ -190,16 +243,25 @@ export function wasmRowMinima(
   const none = { u: new Float64Array(0), rowToCol: new Int32Array(0), colToRow: new Int32Array(0), freeRows: new Int32Array(0), scanned: 0 };
   const chunk = Math.max(2, Math.min(n, Math.floor(ROW_CHUNK_BYTES / (8 * n))));
   const np = align(n);
-  const U = align(chunk * n * 8);
+  // A matrix in the kernel's memory (kernelMatrix) is read in place, its arrays after it.
+  const home = homeOf(cost, n);
+  const U = home !== null ? afterMatrix(n) : align(chunk * n * 8);
   const R2C = U + np * 8;
   const C2R = R2C + np * 4;
   const F = C2R + np * 4;
   const AT = F + np * 4;
   const bytes = AT + np * 4;
-  const k = bytes <= MAX_BYTES ? kernelFor(bytes) : null;
+  const k = home ?? (bytes <= MAX_BYTES ? kernelFor(bytes) : null);
   if (k === null) return { status: WASM_NO_KERNEL, ...none };
   const buf = k.memory.buffer;
-  const rows = new Float64Array(buf, 0, chunk * n);
+  const rows = home !== null ? null : new Float64Array(buf, 0, chunk * n);
+  if (home !== null) new Float64Array(buf, n * n * 8, 16).fill(0);
+  // Byte offset of row r of the matrix (in place), or of slot `at` of the rows copied in.
+  const rowAt = (r: number, at: number): number => {
+    if (rows === null) return r * n * 8;
+    rows.set(cost.subarray(r * n, r * n + n), at * n);
+    return at * n * 8;
+  };
   const u = new Float64Array(buf, U, n);
   const rowToCol = new Int32Array(buf, R2C, n);
   const colToRow = new Int32Array(buf, C2R, n);
@@ -209,8 +271,8 @@ export function wasmRowMinima(
   let nFree = 0;
   for (let r0 = 0; r0 < n; r0 += chunk) {
     const r1 = Math.min(n, r0 + chunk);
-    rows.set(cost.subarray(r0 * n, r1 * n));
-    nFree = k.rowMinima(0, r1 - r0, n, r0, U, R2C, C2R, F, nFree, countRows);
+    if (rows !== null) rows.set(cost.subarray(r0 * n, r1 * n));
+    nFree = k.rowMinima(rows !== null ? 0 : r0 * n * 8, r1 - r0, n, r0, U, R2C, C2R, F, nFree, countRows);
     if (nFree < 0) return { status: nFree === -1 ? WASM_BAD_CELL : WASM_INFEASIBLE, ...none };
     if (stop(r1, nFree, k.ties.value)) return { status: WASM_GAVE_UP, ...none };
   }
@@ -221,15 +283,13 @@ export function wasmRowMinima(
   let left = 0;
   for (let f = 0; f < nFree; f++) {
     const r = freeRows[f]!;
-    rows.set(cost.subarray(r * n, r * n + n));
-    const ties = k.columnsAt(0, n, u[r]!, AT);
+    const ties = k.columnsAt(rowAt(r, 0), n, u[r]!, AT);
     scanned += n;
     let done = false;
     for (let t = 0; t < ties && !done; t++) {
       const j = at[t]!;
       const i = colToRow[j]!;
-      rows.set(cost.subarray(i * n, i * n + n), n);
-      const to = k.freeAt(8 * n, n, C2R, u[i]!, spreadStart(i, n));
+      const to = k.freeAt(rowAt(i, 1), n, C2R, u[i]!, spreadStart(i, n));
       scanned += n;
       if (to < 0) continue;
       rowToCol[i] = to;

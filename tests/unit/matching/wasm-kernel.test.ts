@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { checkCertificate, solveDense } from '../../../src/matching/index.js';
+import { checkCertificate, denseCosts, solveDense } from '../../../src/matching/index.js';
 import { greedyOnRowMinima, solveByKernel } from '../../../src/matching/dense.js';
-import { WASM_NO_KERNEL, wasmRowMinima } from '../../../src/matching/wasm/dense-jv.js';
+import { readInPlace, WASM_NO_KERNEL, wasmRowMinima } from '../../../src/matching/wasm/dense-jv.js';
 import { denseFamily } from '../../../bench/lib/instances.js';
 import { scipyDenseCosts, scipyVersion } from '../../helpers/python.js';
 import { bruteForce, mulberry32, randInt } from './gen.js';
@@ -324,5 +324,59 @@ describe.skipIf(!wabtFound)('the committed kernel bytes', () => {
     const { assembledModuleText } = (await import('../../../scripts/build-wasm.mjs')) as { assembledModuleText: (dir: string, name: string) => Promise<string> };
     const dir = new URL('../../../src/matching/wasm/', import.meta.url).pathname;
     expect(await assembledModuleText(dir, 'dense-jv')).toBe(readFileSync(`${dir}dense-jv.wasm.ts`, 'utf8'));
+  });
+});
+
+describe('denseCosts(): a matrix that lives in the kernel\'s memory', () => {
+  /** The instance's costs written into a matrix from denseCosts, as the CLI's parser writes them. */
+  const placed = (inst: DenseInstance): DenseInstance => {
+    const cost = denseCosts(inst.nRows, inst.nCols);
+    cost.set(inst.cost);
+    return { ...inst, cost };
+  };
+
+  it('solves as the same costs in a plain array do, by the kernel and by the row-minima start, and is only read', () => {
+    const cases: Array<[string, DenseInstance]> = [
+      ['geometric n=400', denseFamily(46_000, 400, 'geometric')],
+      ['clustered n=300', denseFamily(46_001, 300, 'clustered')],
+      ['few-ints n=300', denseFamily(46_002, 300, 'few-ints')],
+      ['ties with forbidden cells n=256', build(46_003, 256, 'ties', 0.1)],
+    ];
+    for (const [label, plain] of cases) {
+      const inKernel = placed(plain);
+      expect(readInPlace(inKernel.cost, inKernel.nRows), label).toBe(true);
+      expect(readInPlace(plain.cost, plain.nRows), label).toBe(false);
+      const before = inKernel.cost.slice();
+      const a = solveDense(plain);
+      const b = solveDense(inKernel);
+      expect(b.stats.wasmKernel ?? false, label).toBe(a.stats.wasmKernel ?? false);
+      expect(Array.from(b.rowToCol), label).toEqual(Array.from(a.rowToCol));
+      expect(b.cost, label).toBe(a.cost);
+      expect(checkCertificate(inKernel, b).problems, label).toEqual([]);
+      expect(inKernel.cost, label).toEqual(before);
+    }
+  });
+
+  it('keeps matrices apart: two alive at once and a plain one between them solve as alone', () => {
+    const one = denseFamily(46_100, 500, 'geometric');
+    const two = denseFamily(46_101, 500, 'clustered');
+    const three = denseFamily(46_102, 500, 'geometric');
+    const alone = [one, two, three].map((inst) => solveDense(inst).cost);
+    const p1 = placed(one);
+    const p2 = placed(two);
+    for (let round = 0; round < 2; round++) {
+      expect(solveDense(p1).cost).toBe(alone[0]);
+      expect(solveDense(three).cost).toBe(alone[2]);
+      expect(solveDense(p2).cost).toBe(alone[1]);
+    }
+    expect(p1.cost).toEqual(one.cost);
+    expect(p2.cost).toEqual(two.cost);
+    expect(readInPlace(p1.cost, 500) && readInPlace(p2.cost, 500)).toBe(true);
+  });
+
+  it('is a plain array where the kernel would not take the matrix (not square, or small)', () => {
+    expect(readInPlace(denseCosts(300, 301), 300)).toBe(false);
+    expect(readInPlace(denseCosts(10, 10), 10)).toBe(false);
+    expect(readInPlace(denseCosts(300, 300), 300)).toBe(true);
   });
 });
