@@ -24,6 +24,9 @@ import { releaseFreeColumns, type ColumnsView } from './warm.js';
  * disturb, not what the instance holds.
  */
 
+/** Room for pending pairs kept after a merge (more is let go: a later round grows it again). */
+const PENDING_KEPT = 1 << 16;
+
 /**
  * Pair storage by rows (or by columns): each line a slice of one pool, lines back to
  * back in line order. Pairs added are held aside and merged in one pass when the
@@ -36,9 +39,6 @@ import { releaseFreeColumns, type ColumnsView } from './warm.js';
  * 3.3 M pairs, by rows and again by columns); a new exact pool per merge left the
  * old ones to the garbage collector, and the peak did not fall.
  */
-/** Room for pending pairs kept after a merge (more is let go: a later round grows it again). */
-const PENDING_KEPT = 1 << 16;
-
 class Lines {
   /** Line l's pairs are `index`/`cost` over `[start[l], end[l])`. */
   readonly start: Int32Array;
