@@ -9,14 +9,18 @@
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { performance } from 'node:perf_hooks';
-import { checkCertificate, solveDense } from '../../src/matching/index.js';
+import { checkCertificate, denseCosts, solveDense } from '../../src/matching/index.js';
 import { solveByKernel } from '../../src/matching/dense.js';
 import type { DenseInstance, SolveResult } from '../../src/matching/types.js';
 
 const [solver, dir, nText, extraText] = process.argv.slice(2);
 const n = Number(nText);
 const extra = Number(extraText ?? 0);
-const cost = new Float64Array(new Uint8Array(readFileSync(join(dir!, 'cost.f64'))).buffer);
+const read = new Float64Array(new Uint8Array(readFileSync(join(dir!, 'cost.f64'))).buffer);
+// This tree's solvers get the matrix where `pairflow solve`'s parser puts it (denseCosts:
+// the kernel reads it in place); another checkout's gets a plain array, as its CLI did.
+const cost = solver === 'main' ? read : denseCosts(n, n);
+if (cost !== read) cost.set(read);
 const inst: DenseInstance = { nRows: n, nCols: n, cost };
 
 let solve: () => SolveResult;

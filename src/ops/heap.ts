@@ -2,7 +2,7 @@
  * A full garbage collection on request, for the few moments a process knows it has
  * just let go of most of what it held (the replay, once the online replay has read
  * the whole log): V8 collects its old generation only when that has grown to about
- * twice what survived the last full collection, and a process that then sits waiting
+ * twice what survived the last full collection (from memory), and a process that then sits waiting
  * for its worker threads allocates too little to get there, so a log's worth of
  * garbage would stay resident beside the workers' pairs.
  *
