@@ -38,6 +38,8 @@ export function matchCeiling(g: CompactGraph, rowToCol: Int32Array, wantCover = 
       break;
     }
   }
-  const matching = maxCardinalityMatching(plain);
+  // The graph is this module's own (columns in range by construction), and the
+  // optimum's pairs seed it: depth-first passes from the start (cardinality.ts).
+  const matching = maxCardinalityMatching(plain, { nearMaximumSeed: true, check: false });
   return { size: matching.size, cover: wantCover ? minVertexCover(plain, matching) : null };
 }

@@ -198,6 +198,9 @@ export class Pricer {
       // and of the reduced cost (a bound for every pair of the row: lo ≤ P).
       const slack = BOUND_SLACK * (P + step + Math.abs(u) + maxAbsV);
       const bar = u + slack;
+      // Below this a violator's reduced cost is not near zero (the full handling's
+      // test, for the largest lo a code below the top one has, with room for rounding).
+      const deep = -(step + slack + 2 * PRICE_TOL * (1 + P + step)) * (1 + 1e-6);
       let nb = 0;
       let rowViolators = 0;
       // The least lo − v of the pairs left out (violators are all added when the row ends clean).
@@ -214,9 +217,24 @@ export class Pricer {
           for (; e < end; e++) {
             const code = codes[e]!;
             if (code >= CODE_TOP) continue;
-            const t = code * step - colDuals[base + cols[e]!]!;
-            if (t < bar) break;
-            if (t < least) least = t;
+            const col = base + cols[e]!;
+            const lo = code * step;
+            const v = colDuals[col]!;
+            const t = lo - v;
+            if (t >= bar) {
+              if (t < least) least = t;
+              continue;
+            }
+            // A violator. Only one the full handling must see leaves the loop: one
+            // that may be near zero, or that enters its column's or its row's few
+            // (the same numbers as there, so the same decisions); the rest, most of
+            // the early passes' tens of millions, are only counted.
+            const red = lo - u - v;
+            if (red >= deep) break;
+            if (perCol > 0 && (colCount[col]! < perCol || red < colRed[col * perCol + perCol - 1]!)) break;
+            if (nb < addPerRow || red < addRed[addPerRow - 1]!) break;
+            violators++;
+            rowViolators++;
           }
         }
         if (e === end) break;

@@ -83,19 +83,40 @@ function checkGraph(g: BipartiteGraph): void {
   }
 }
 
+/** Options of {@link maxCardinalityMatching}. */
+export interface CardinalityOptions {
+  /**
+   * The greedy seed is known to be close to maximum (each row's pair of a good
+   * matching placed first in its row, as the hindsight's match ceiling does with
+   * the optimum's pairs): the depth-first passes start at once, without a
+   * Hopcroft–Karp phase. Measured on a busy district's day (`gen --scale 4`, 114 M
+   * pairs, a seed 67 pairs short of the 52,792 maximum): the one phase cost about
+   * 0.45 s and found 3 paths, the passes after it found the other 64 in 0.35 s;
+   * passes alone found all 67 in 0.45 s. The result is maximum either way.
+   * @default false
+   */
+  nearMaximumSeed?: boolean;
+  /**
+   * Check the graph's shape and every pair's column first (one pass over the pairs).
+   * Only a caller that built the graph itself and knows it sound turns this off.
+   * @default true
+   */
+  check?: boolean;
+}
+
 /**
  * A maximum-cardinality matching by Hopcroft–Karp. A greedy pass seeds it; each
  * phase then layers the graph by BFS from the free rows and augments along a maximal
  * set of vertex-disjoint shortest paths, found by an explicit-stack DFS. Once a phase
  * augments fewer than {@link DEPTH_FIRST_BELOW} paths, depth-first passes finish
- * the job (see depthFirstPasses).
+ * the job (see depthFirstPasses); with `nearMaximumSeed` they start at once.
  *
  * @example
  * const g = { nRows: 2, nCols: 2, rowPtr: Int32Array.of(0, 2, 3), colIdx: Int32Array.of(0, 1, 0) };
  * maxCardinalityMatching(g).size // 2 (row 0 → column 1, row 1 → column 0)
  */
-export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
-  checkGraph(g);
+export function maxCardinalityMatching(g: BipartiteGraph, opts: CardinalityOptions = {}): CardinalityMatching {
+  if (opts.check !== false) checkGraph(g);
   const { nRows, nCols, rowPtr, colIdx } = g;
   const rowBase = baseOf(g);
   const rowToCol = new Int32Array(nRows).fill(-1);
@@ -121,7 +142,7 @@ export function maxCardinalityMatching(g: BipartiteGraph): CardinalityMatching {
   const next = new Int32Array(nRows); // per-row cursor into its pairs, kept across DFS restarts
   const stack = new Int32Array(nRows);
   let r = 0, r2 = 0, c = 0, e = 0, end = 0, head = 0, tail = 0, sp = 0, limit = 0, lr = 0, base = 0;
-  let phaseAugments = Infinity;
+  let phaseAugments = opts.nearMaximumSeed === true ? 0 : Infinity;
 
   for (;;) {
     if (phaseAugments < DEPTH_FIRST_BELOW) {

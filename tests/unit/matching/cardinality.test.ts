@@ -125,6 +125,42 @@ describe('maxCardinalityMatching()', () => {
     }
   });
 
+  it('with nearMaximumSeed (depth-first passes only) finds the same maximum as Hopcroft–Karp, from any seed', () => {
+    // Far-from-maximum seeds too (the option is a hint: the passes run until one finds
+    // no augmenting path, which proves the maximum whatever the seed).
+    for (let seed = 3001; seed <= 3200; seed++) {
+      const rand = mulberry32(seed);
+      const nRows = randInt(rand, 0, 60);
+      const nCols = randInt(rand, 0, 60);
+      const g = randomGraph(seed, nRows, nCols, randInt(rand, 0, 6));
+      const hk = maxCardinalityMatching(g);
+      const df = maxCardinalityMatching(g, { nearMaximumSeed: true });
+      expect(expectValidMatching(g, df, seed), `seed ${seed}`).toBe(hk.size);
+      expectCoverCertifies(g, df, seed);
+    }
+    // A seed that is the maximum matching itself, each row's matched column first.
+    const g = randomGraph(77, 300, 280, 4);
+    const best = maxCardinalityMatching(g);
+    const colIdx = Int32Array.from(g.colIdx);
+    for (let r = 0; r < g.nRows; r++) {
+      const c = best.rowToCol[r]!;
+      if (c < 0) continue;
+      const at = colIdx.indexOf(c, g.rowPtr[r]!);
+      colIdx[at] = colIdx[g.rowPtr[r]!]!;
+      colIdx[g.rowPtr[r]!] = c;
+    }
+    const seeded = { ...g, colIdx };
+    expect(expectValidMatching(seeded, maxCardinalityMatching(seeded, { nearMaximumSeed: true }), 77)).toBe(best.size);
+  });
+
+  it('checks the graph unless told not to', () => {
+    const bad = { nRows: 1, nCols: 1, rowPtr: Int32Array.of(0, 1), colIdx: Int32Array.of(5) };
+    expect(() => maxCardinalityMatching(bad)).toThrow(/outside 0\.\.0/);
+    // Unchecked, the caller vouches for the graph; a sound one gives the same result.
+    const g = randomGraph(5, 50, 50, 3);
+    expect(maxCardinalityMatching(g, { check: false }).size).toBe(maxCardinalityMatching(g).size);
+  });
+
   it('agrees in size with scipy.sparse.csgraph.maximum_bipartite_matching on seeded graphs', (ctx) => {
     // Reference: scipy.sparse.csgraph.maximum_bipartite_matching (scipy ≥ 1.4, Hopcroft–Karp).
     if (scipyVersion() === null) ctx.skip();
