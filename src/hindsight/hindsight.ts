@@ -366,12 +366,14 @@ async function runOnWorkers(
           let bounds = 0;
           for (const i of queue) bounds += (pairs[i] = packed[i]!.nDemand * packed[i]!.nSupply);
           if (bounds + caller > budget) {
-            // The largest market may start at once; the others' pairs are estimated
-            // while it builds its graph.
-            const head = queue[0]!;
-            pairs[head] = heldPairs(packed[head]!, config, budget);
-            fill();
-            for (const i of queue) if (i !== head) pairs[i] = heldPairs(packed[i]!, config, budget);
+            // Estimated largest first, each market free to start as soon as its own
+            // estimate is in: the largest starts at once, the next while the rest are
+            // estimated.
+            for (const i of queue.slice()) {
+              if (packed[i] === null) continue;
+              pairs[i] = heldPairs(packed[i]!, config, budget);
+              fill();
+            }
           }
         }
         fill();
