@@ -27,8 +27,9 @@ import { solveHindsight, type HindsightPhases, type HindsightResult } from '../h
 import { gridForEvents, withHindsight, type OnlineDigest, type RunDigest } from '../replay/digest.js';
 import { hindsightStats, type LoadedLog } from '../replay/run.js';
 import { fileSource } from '../pipeline/drive.js';
+import { collectGarbage } from '../ops/heap.js';
 import { formatWindow, regretAndRatio, type EpochSolveTimes, type HindsightStats, type OnlineStats } from '../replay/summary.js';
-import { packLog } from './packed-log.js';
+import { packedSource, packLog } from './packed-log.js';
 import { runPolicy, type SweepJob, type SweepJobResult, type SweepPolicy, type SweepWorkerData } from './worker.js';
 
 export type { SweepPolicy } from './worker.js';
@@ -70,6 +71,13 @@ export interface SweepOptions {
   outDir?: string;
   /** Gather each policy's digest even without outDir. @default true with outDir */
   digests?: boolean;
+  /**
+   * The log is this sweep's alone (runSweep loads it): once the hindsight has packed
+   * its markets and the log is packed for the policies, the event objects are let go
+   * (`loaded.events` is emptied) and the policies replay the packed log, so the
+   * largest markets are not solved beside the loaded log. @default false
+   */
+  releaseEvents?: boolean;
   /** The command line, recorded in manifest.json. @default ['runSweep'] */
   command?: string[];
   /** Non-fatal notes (e.g. the compiled worker is missing, running in-thread). */
@@ -265,7 +273,7 @@ export async function runSweep(paths: readonly string[], config: PairflowConfig,
   if (opts.outDir !== undefined) await probeWritableDir(opts.outDir);
   opts.onPhase?.('load', `reading ${paths.length === 1 ? paths[0] : `${paths.length} files`}`);
   const loaded = await loadLog([...paths], { metric: config.metric, strict: opts.strict ?? false, onReject: opts.onReject });
-  const { result, digests } = await sweepLoadedFull(loaded, config, { ...opts, now, digests: opts.digests ?? opts.outDir !== undefined }, { loadMs: now() - start, start });
+  const { result, digests } = await sweepLoadedFull(loaded, config, { ...opts, now, digests: opts.digests ?? opts.outDir !== undefined, releaseEvents: true }, { loadMs: now() - start, start });
   if (opts.outDir !== undefined) {
     opts.onPhase?.('write', `writing ${opts.outDir}`);
     await writeSweepDir(opts.outDir, result, digests, loaded, config, opts);
@@ -399,35 +407,59 @@ export async function sweepLoadedFull(
   const wantDigests = opts.digests ?? false;
   const grid = wantDigests ? gridForEvents(events, config.metric) : null;
 
+  const release = opts.releaseEvents === true;
+  let useWorkers = threads > 1 && policies.length > 1;
+  const workerFile = sweepWorkerUrl();
+  if (useWorkers && !existsSync(fileURLToPath(workerFile))) {
+    opts.onWarn?.(`compiled sweep worker not found at ${fileURLToPath(workerFile)} (run npm run build); replaying policies in this thread`);
+    useWorkers = false;
+  }
+  // Workers read one shared copy of the log instead of a structured clone each; a
+  // sweep that lets the events go replays that copy in this thread too.
+  const log = useWorkers || release ? packLog(events) : null;
+
   // One hindsight optimum for every policy: it depends on none of W, R or commit.
   const hStart = now();
   if (!opts.hindsight) opts.onPhase?.('hindsight', 'the hindsight optimum, once for every policy');
-  const hindsight = opts.hindsight ?? (await solveHindsight(events, config, {
+  let letGo = (): void => {};
+  const hindsightPromise = opts.hindsight ? Promise.resolve(opts.hindsight) : solveHindsight(events, config, {
     threads,
     ...(wantDigests ? { cover: true } : {}),
+    // What this thread holds beside the workers until the events are let go (below),
+    // or for the whole solve when they are not.
+    callerHolds: { bytes: process.memoryUsage().heapUsed, until: new Promise<void>((resolve) => (letGo = resolve)) },
     onProgress: (d, t) => opts.onProgress?.(d, t, 'hindsight'),
-  }));
+  });
+  // Without a handler now, a failure while the events are let go would be "unhandled".
+  hindsightPromise.catch(() => {});
+  if (release) {
+    // The hindsight packed its markets when called and the policies have the packed
+    // log: the events are read no more. The largest market is already running; the
+    // next ones start once the memory is back (hindsight/schedule.ts).
+    loaded.events.length = 0;
+    collectGarbage();
+    letGo();
+  }
+  let hindsight: HindsightResult;
+  try {
+    hindsight = await hindsightPromise;
+  } finally {
+    letGo();
+  }
   const hindsightMs = opts.hindsight ? null : now() - hStart;
 
   const wStart = now();
   const jobs = new Array<SweepJobResult>(policies.length);
   let done = 0;
-  const workerFile = sweepWorkerUrl();
-  let useWorkers = threads > 1 && policies.length > 1;
-  if (useWorkers && !existsSync(fileURLToPath(workerFile))) {
-    opts.onWarn?.(`compiled sweep worker not found at ${fileURLToPath(workerFile)} (run npm run build); replaying policies in this thread`);
-    useWorkers = false;
-  }
   const poolSize = useWorkers ? Math.min(threads, policies.length) : 1;
   opts.onPhase?.('policies', `${policies.length} polic${policies.length === 1 ? 'y' : 'ies'} on ${poolSize} thread${poolSize === 1 ? '' : 's'}`);
   opts.onProgress?.(0, policies.length, 'policies');
   const queue = new PQueue({ concurrency: poolSize });
   const jobData = { config, plan, warm, grid };
-  // Workers read one shared copy of the log instead of a structured clone each.
-  const pool = useWorkers ? new WorkerPool(poolSize, { log: packLog(events), ...jobData }) : null;
+  const pool = useWorkers ? new WorkerPool(poolSize, { log: log!, ...jobData }) : null;
   try {
     await Promise.all(policies.map((policy, i) => queue.add(async () => {
-      jobs[i] = pool ? await pool.run(policy) : await runPolicy(fileSource({ events, rejects: [] }), jobData, policy);
+      jobs[i] = pool ? await pool.run(policy) : await runPolicy(log ? packedSource(log) : fileSource({ events, rejects: [] }), jobData, policy);
       done += 1;
       opts.onProgress?.(done, policies.length, 'policies');
     })));

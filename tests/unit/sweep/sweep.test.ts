@@ -88,6 +88,18 @@ describe('runSweep()', () => {
     expect(withoutTimings(two)).toEqual({ ...(withoutTimings(one) as object), timings: null });
   });
 
+  it('lets the loaded events go when told (releaseEvents), with the same result in this thread and on workers', async () => {
+    for (const threads of haveWorker ? [1, 2] : [1]) {
+      const kept = await loadLog([week], { metric: config.metric });
+      const a = await sweepLoaded(kept, config, { windows, threads, bootstrap: 100, seed: 3 });
+      expect(kept.events.length, `threads ${threads}`).toBeGreaterThan(0);
+      const gone = await loadLog([week], { metric: config.metric });
+      const b = await sweepLoaded(gone, config, { windows, threads, bootstrap: 100, seed: 3, releaseEvents: true });
+      expect(gone.events, `threads ${threads}`).toHaveLength(0);
+      expect(withoutTimings(b), `threads ${threads}`).toEqual(withoutTimings(a));
+    }
+  });
+
   it('outDir keeps the result, its CSV and a manifest with the inputs\' checksums and the seed', async () => {
     const out = join(dir, 'sweep-out');
     const r = await runSweep([week], config, { windows: [5000, 30_000], threads: 1, bootstrap: 50, seed: 77, outDir: out, command: ['test'] });
