@@ -95,6 +95,67 @@ describe('Pricer.pass() adding by columns', () => {
   });
 });
 
+describe('Pricer.pass() with many violators a row', () => {
+  // The early passes find tens of millions of violators and keep a few a row and a
+  // column; the pass only counts the rest. Checked against a plain reading of the
+  // rules (pricing.ts): rank by the code's reduced cost lo − u − v, earlier pairs first
+  // on a tie; each row keeps its addPerRow smallest, each column its addPerColumn
+  // smallest over all rows, added where its row did not take them.
+  for (const [addPerRow, addPerColumn] of [[2, 1], [3, 2], [1, 0]] as const) {
+    it(`keeps exactly the reference's pairs and counts every violator (${addPerRow} a row, ${addPerColumn} a column, seeded)`, () => {
+      // Units within 1.4 km of each other (at most 6 min at 20 km/h, no wait cost),
+      // u = P = 25 and v in [−P/2, 0]: every pair prices out by at least P/4, far
+      // from the line where the code cannot decide.
+      const cfg: PairflowConfig = { ...config, waitWeight: 0 };
+      const P = cfg.abandonPenalty;
+      const rnd = mulberry32(40 + addPerRow * 3 + addPerColumn);
+      const units: HindsightUnit[] = [];
+      for (let i = 0; i < 400; i++) {
+        const t = randInt(rnd, 0, 3_600_000);
+        units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 300_000, 1_800_000), x: rnd() * 1.4, y: rnd() * 1.4 });
+      }
+      const m = packMarket(units, cfg);
+      const g = buildCompactGraph(m, cfg);
+      const exact = pairCostOf(m, cfg);
+      const colLo = new Int32Array(g.nRows);
+      const colHi = new Int32Array(g.nRows).fill(g.nCols - 1);
+      const u = new Float64Array(g.nRows).fill(P);
+      const v = Float64Array.from({ length: g.nCols }, () => -rnd() * (P / 2));
+      // The reference, from the graph before the pass marks anything.
+      type Pair = { r: number; j: number; e: number; red: number };
+      const rowsKept: Pair[][] = [];
+      const byColumn: Pair[][] = Array.from({ length: g.nCols }, () => []);
+      let violators = 0;
+      for (let r = 0; r < g.nRows; r++) {
+        const found: Pair[] = [];
+        for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+          const code = g.codes[e]!;
+          const j = columnOf(g, r, e);
+          const red = code * g.step - u[r]! - v[j]!;
+          expect(exact(g.rowDemand[r]!, j) - u[r]! - v[j]!).toBeLessThan(-P / 4 + 1e-9);
+          found.push({ r, j, e, red });
+          byColumn[j]!.push({ r, j, e, red });
+        }
+        violators += found.length;
+        rowsKept.push([...found].sort((a, b) => a.red - b.red).slice(0, addPerRow));
+      }
+      const taken = new Set(rowsKept.flat().map((p) => p.e));
+      const want: Array<[number, number]> = rowsKept.flat().map((p) => [p.r, p.j]);
+      for (let j = 0; j < g.nCols; j++) {
+        for (const p of [...byColumn[j]!].sort((a, b) => a.red - b.red).slice(0, addPerColumn)) if (!taken.has(p.e)) want.push([p.r, p.j]);
+      }
+      expect(violators).toBeGreaterThan(20 * g.nRows);
+
+      const pricer = new Pricer(g, exact, colLo, colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, cfg));
+      const got = pricer.pass(u, v);
+      expect(got.violators).toBe(violators);
+      const pairs = Array.from({ length: got.n }, (_, q) => [got.rows[q]!, got.cols[q]!] as [number, number]);
+      expect(pairs).toEqual(want);
+      for (let q = 0; q < got.n; q++) expect(got.costs[q]).toBe(exact(g.rowDemand[got.rows[q]!]!, got.cols[q]!));
+    });
+  }
+});
+
 describe('Pricer.pass() skipping rows by their bounds', () => {
   /** The compact graph of `units`, each row's column range and the cost of its cheapest pair (P when none). */
   function graphWithRanges(units: readonly HindsightUnit[], cfg: PairflowConfig) {
