@@ -16,9 +16,10 @@ import { checkCertificate, solveSparse } from '../matching/index.js';
 import type { SolveOptions, SolveResult, SparseInstance, WarmStart } from '../matching/index.js';
 import { type PairflowConfig, reserveOf, type Side, type SourcedEvent } from '../model.js';
 import { capabilitiesAllow, travelMin } from './geo.js';
-import { cellKmFor, type GridOptions, SpatialGrid } from './grid.js';
+import { cellKmFor, cosDeg, type GridOptions, planeKm, SpatialGrid, sphereKm } from './grid.js';
 import { KeyedHeap } from './heap.js';
 import { type Occurrence, OccurrenceLedger } from './occurrences.js';
+import { TagBits } from './tags.js';
 
 /** One executed pair (SPEC §3): decided at epoch `decidedAt`, at cost `travelMin + waitWeight·waitMin`. */
 export interface AssignmentRecord {
@@ -265,11 +266,38 @@ const ST_POOL = 2;
 const ST_MATCHED = 3;
 const ST_GONE = 4;
 
-/** One side's pool of a market: slots (reused) hold occurrence indices; the grid indexes the slots. */
+/** An empty candidate list (shared: never written, replaced on the first append). */
+const NO_CAND = new Float64Array(0);
+/** Placeholder for emptied entries of the engine's scratch list of grid cells. */
+const NO_BUCKET: number[] = [];
+
+/**
+ * One side's pool of a market: slots (reused) hold occurrence indices; the grid indexes
+ * the slots. What the candidate scan reads per unit is kept by slot in typed arrays, so
+ * a scan touches no occurrence object.
+ */
 class SidePool {
   slotOcc: Int32Array = new Int32Array(16).fill(-1);
   /** The serial of the occurrence in each slot (0 when free): tells a live candidate entry from a stale one. */
   slotSerial: Float64Array = new Float64Array(16);
+  /** Where the unit in each slot is: (lat, lon) or (x, y), and cos(lat) under haversine. */
+  slotA: Float64Array = new Float64Array(16);
+  slotB: Float64Array = new Float64Array(16);
+  slotCos: Float64Array = new Float64Array(16);
+  /**
+   * Capabilities of the unit in each slot ({@link TagBits}): a demand's needs, the
+   * complement of a supply's has; a pair is allowed when the AND of the two is 0.
+   */
+  slotMask: Int32Array = new Int32Array(16);
+  /**
+   * Supply only: per slot, the allowed demand seen so far as flat
+   * [demand pool slot, travelMin, demand serial] triples in `cand[slot][0 .. candLen[slot])`
+   * (an entry is live while that demand slot holds that serial; stale entries are dropped
+   * at use). Kept on the supply side so a solve can lay out each row's pairs in column
+   * order by counting, without sorting. A slot's array is kept for its next unit.
+   */
+  cand: Float64Array[] = new Array<Float64Array>(16).fill(NO_CAND);
+  candLen: Int32Array = new Int32Array(16);
   /** Slots in use are below `high`; freed ones are reused last-freed first. */
   high = 0;
   size = 0;
@@ -280,9 +308,9 @@ class SidePool {
     this.grid = new SpatialGrid(gridOpts);
   }
 
-  add(occ: number, serial: number, a: number, b: number): number {
+  add(occ: number, serial: number, a: number, b: number, mask: number): number {
     const slot = this.free.length > 0 ? this.free.pop()! : this.high++;
-    this.place(occ, serial, slot, a, b);
+    this.place(occ, serial, slot, a, b, mask);
     return slot;
   }
 
@@ -298,16 +326,25 @@ class SidePool {
     const occ = new Int32Array(size).fill(-1);
     occ.set(this.slotOcc);
     this.slotOcc = occ;
-    const ser = new Float64Array(size);
-    ser.set(this.slotSerial);
-    this.slotSerial = ser;
+    this.slotSerial = growF64(this.slotSerial, size);
+    this.slotA = growF64(this.slotA, size);
+    this.slotB = growF64(this.slotB, size);
+    this.slotCos = growF64(this.slotCos, size);
+    this.slotMask = growI32(this.slotMask, size);
+    this.candLen = growI32(this.candLen, size);
+    while (this.cand.length < this.candLen.length) this.cand.push(NO_CAND);
   }
 
-  /** Puts `occ` (with its serial) at a given slot. */
-  place(occ: number, serial: number, slot: number, a: number, b: number): void {
+  /** Puts `occ` (with its serial, place and capability mask) at a given slot. */
+  place(occ: number, serial: number, slot: number, a: number, b: number, mask: number): void {
     if (slot >= this.slotOcc.length) this.grow(slot + 1);
     this.slotOcc[slot] = occ;
     this.slotSerial[slot] = serial;
+    this.slotA[slot] = a;
+    this.slotB[slot] = b;
+    this.slotCos[slot] = cosDeg(a);
+    this.slotMask[slot] = mask;
+    this.candLen[slot] = 0;
     this.grid.insert(slot, a, b);
     this.size++;
   }
@@ -315,9 +352,25 @@ class SidePool {
   remove(slot: number): void {
     this.slotOcc[slot] = -1;
     this.slotSerial[slot] = 0;
+    this.candLen[slot] = 0;
     this.grid.remove(slot);
     this.free.push(slot);
     this.size--;
+  }
+
+  /** Appends a candidate triple to the list of the (supply) unit at `slot`. */
+  pushCand(slot: number, dSlot: number, travel: number, dSerial: number): void {
+    let list = this.cand[slot]!;
+    const n = this.candLen[slot]!;
+    if (n + 3 > list.length) {
+      const grown = new Float64Array(Math.max(48, list.length * 2));
+      grown.set(list);
+      this.cand[slot] = list = grown;
+    }
+    list[n] = dSlot;
+    list[n + 1] = travel;
+    list[n + 2] = dSerial;
+    this.candLen[slot] = n + 3;
   }
 }
 
@@ -349,8 +402,6 @@ class MarketState {
    * can concern them, so they leave the snapshot, though their index waits in `retire`.
    */
   readonly quiet = new KeyedHeap();
-  /** Reported occurrences out of `quiet` whose index still waits in `retire`. */
-  readonly forgotten = new Set<number>();
   /** Something changed since the last solve that can change the optimum. */
   dirty = false;
   /** Late events since the last epoch record. */
@@ -456,14 +507,10 @@ export class WindowEngine {
   /** The largest trigger key ever pushed for the occurrence: it can be forgotten only after it. */
   private maxKey: Float64Array = new Float64Array(1024).fill(-Infinity);
   private nextSerial = 1;
-  /**
-   * Supply only: allowed demand seen so far, flat [demand pool slot, travelMin, serial, ...]
-   * (an entry is live while that slot holds that serial);
-   * stale entries (left the pool, or the index reused) are dropped at use. Kept on the
-   * supply side so a solve can lay out each row's pairs in column order by counting,
-   * without sorting.
-   */
-  private cand: Array<number[] | undefined> = [];
+  /** 1 for a reported occurrence out of its market's `quiet` heap whose index still waits in `retire`. */
+  private forgotten: Uint8Array = new Uint8Array(1024);
+  /** Capability bits of every tag seen (see {@link SidePool.slotMask}). */
+  private readonly tags = new TagBits();
 
   // Solve buffers, reused across epochs.
   private rowPtr: Int32Array = new Int32Array(64);
@@ -482,8 +529,10 @@ export class WindowEngine {
   private cursor: Int32Array = new Int32Array(64);
   private nRows = 0;
   private nCols = 0;
-  private readonly qIds: number[] = [];
-  private readonly qDist: number[] = [];
+  /** Grid cells of one candidate scan (see {@link scanPairs}). */
+  private readonly qBuckets: number[][] = [];
+  /** Column j's supply pool slot in the last {@link pack}. */
+  private colSlot: Int32Array = new Int32Array(64);
   private readonly batch: number[] = [];
   private readonly bySeq = (x: number, y: number): number => {
     const a = this.ledger.occurrences[x]!, b = this.ledger.occurrences[y]!;
@@ -651,7 +700,7 @@ export class WindowEngine {
       }
       const bySeq = (x: [number, number], y: [number, number]): number => x[0] - y[0] || this.bySeq(x[1], y[1]);
       for (const [key, id] of m.pending.entries().sort(bySeq)) add(id, COL_PENDING, key);
-      for (const [, id] of m.retire.entries().sort(bySeq)) if (!m.forgotten.has(id)) add(id, COL_DONE, 0);
+      for (const [, id] of m.retire.entries().sort(bySeq)) if (this.forgotten[id] === 0) add(id, COL_DONE, 0);
       for (let slot = 0; slot < m.demand.high; slot++) {
         const d = m.demand.slotOcc[slot]!;
         if (d >= 0 && this.partner[d]! >= 0) tentative.push([at.get(d)!, at.get(this.partner[d]!)!]);
@@ -781,6 +830,9 @@ export class WindowEngine {
       this.partner = growI32(this.partner, size, -1);
       this.serial = growF64(this.serial, size, 0);
       this.maxKey = growF64(this.maxKey, size, -Infinity);
+      const fg = new Uint8Array(size);
+      fg.set(this.forgotten);
+      this.forgotten = fg;
     }
     this.state[index] = 0;
     this.slotOf[index] = -1;
@@ -788,7 +840,7 @@ export class WindowEngine {
     this.partner[index] = -1;
     this.serial[index] = this.nextSerial++;
     this.maxKey[index] = -Infinity;
-    this.cand[index] = undefined;
+    this.forgotten[index] = 0;
   }
 
   /** Pushes a trigger for an occurrence and schedules its market. */
@@ -829,13 +881,12 @@ export class WindowEngine {
     while (m.quiet.size > 0 && m.quiet.peekKey() <= m.lastClosed) {
       const id = m.quiet.pop();
       const st = this.state[id];
-      if (st === ST_MATCHED || st === ST_GONE) m.forgotten.add(id);
+      if (st === ST_MATCHED || st === ST_GONE) this.forgotten[id] = 1;
     }
     while (m.retire.size > 0 && m.retire.peekKey() <= m.lastClosed) {
       const id = m.retire.pop();
-      m.forgotten.delete(id);
+      this.forgotten[id] = 0;
       this.state[id] = 0;
-      this.cand[id] = undefined;
       this.ledger.release(id);
     }
   }
@@ -942,39 +993,62 @@ export class WindowEngine {
     this.state[id] = ST_POOL;
     // Under "due" only a unit at its last chance can make a pair executable.
     if (!this.due || o.until < from) m.dirty = true;
-    const [a, b] = this.coords(o);
+    const a = (this.haversine ? o.lat : o.x) ?? NaN;
+    const b = (this.haversine ? o.lon : o.y) ?? NaN;
+    const ser = this.serial[id]!;
+    const demand = o.side === 'demand';
+    // A pair is allowed when (demand needs) AND (supply lacks) is 0: each side keeps its half.
+    const mask = demand ? this.tags.maskOf(o.needs) : ~this.tags.maskOf(o.has);
+    const own = demand ? m.demand : m.supply;
+    if (slot >= 0) own.place(id, ser, slot, a, b, mask);
+    else slot = own.add(id, ser, a, b, mask);
+    this.slotOf[id] = slot;
+    this.scanPairs(m, o, demand, slot, a, b, mask, ser);
+    if (demand ? this.demandLastChanceMatters : this.due) this.pushLastChance(m, o, from);
+    this.push(m, m.expiry, Math.max(this.epochAfter(o.end), from), id);
+  }
+
+  /**
+   * Records the allowed pairs of a unit that just took `slot` of its side's pool (at
+   * (a, b), capability half `mask`, serial `ser`) with every unit of the other side
+   * within the query radius, exactly as a grid query would find them, on the supply
+   * side's candidate lists. The order pairs are found in does not matter: each supply
+   * list gets at most one entry per demand, and a solve orders rows by counting.
+   */
+  private scanPairs(m: MarketState, o: Occurrence, demand: boolean, slot: number, a: number, b: number, mask: number, ser: number): void {
+    const other = demand ? m.supply : m.demand;
+    const buckets = this.qBuckets;
+    const nb = other.grid.bucketsNear(a, b, this.queryKm, buckets);
+    if (nb === 0) return;
+    const sup = m.supply;
+    const r = this.queryKm;
     const speed = this.config.speedKmh;
     const maxTravel = this.config.maxTravelMin;
-    const occs = this.ledger.occurrences;
-    const serial = this.serial;
-    if (o.side === 'demand') {
-      const did = serial[id]!;
-      if (slot >= 0) m.demand.place(id, did, slot, a, b);
-      else slot = m.demand.add(id, did, a, b);
-      this.slotOf[id] = slot;
-      const n = m.supply.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
-      for (let k = 0; k < n; k++) {
-        const s = m.supply.slotOcc[this.qIds[k]!]!;
-        const tr = travelMin(this.qDist[k]!, speed);
-        if (tr <= maxTravel && capabilitiesAllow(o.needs, occs[s]!.has)) this.cand[s]!.push(slot, tr, did);
+    const sphere = this.haversine;
+    const twoR = 2 * other.grid.earthRadiusKm;
+    const cosA = cosDeg(a);
+    const oa = other.slotA, ob = other.slotB, oc = other.slotCos, om = other.slotMask, oSerial = other.slotSerial;
+    // Past 31 distinct tags the masks may leave some out: the lists decide.
+    const byLists = this.tags.overflow;
+    for (let k = 0; k < nb; k++) {
+      const bucket = buckets[k]!;
+      for (let i = 0; i < bucket.length; i++) {
+        const p = bucket[i]!;
+        if (byLists) {
+          const q = this.ledger.occurrences[other.slotOcc[p]!]!;
+          if (!(demand ? capabilitiesAllow(o.needs, q.has) : capabilitiesAllow(q.needs, o.has))) continue;
+        } else if ((om[p]! & mask) !== 0) {
+          continue;
+        }
+        const d = sphere ? sphereKm(a, b, cosA, oa[p]!, ob[p]!, oc[p]!, twoR) : planeKm(a, b, oa[p]!, ob[p]!);
+        if (!(d <= r)) continue;
+        const tr = travelMin(d, speed);
+        if (!(tr <= maxTravel)) continue;
+        if (demand) sup.pushCand(p, slot, tr, ser);
+        else sup.pushCand(slot, p, tr, oSerial[p]!);
       }
-      if (this.demandLastChanceMatters) this.pushLastChance(m, o, from);
-    } else {
-      if (slot >= 0) m.supply.place(id, serial[id]!, slot, a, b);
-      else slot = m.supply.add(id, serial[id]!, a, b);
-      this.slotOf[id] = slot;
-      const list: number[] = [];
-      const n = m.demand.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
-      for (let k = 0; k < n; k++) {
-        const dSlot = this.qIds[k]!;
-        const d = m.demand.slotOcc[dSlot]!;
-        const tr = travelMin(this.qDist[k]!, speed);
-        if (tr <= maxTravel && capabilitiesAllow(occs[d]!.needs, o.has)) list.push(dSlot, tr, serial[d]!);
-      }
-      this.cand[id] = list;
-      if (this.due) this.pushLastChance(m, o, from);
     }
-    this.push(m, m.expiry, Math.max(this.epochAfter(o.end), from), id);
+    buckets.fill(NO_BUCKET, 0, nb);
   }
 
   private pushLastChance(m: MarketState, o: Occurrence, from: number): void {
@@ -988,7 +1062,6 @@ export class WindowEngine {
     this.state[id] = next;
     (o.side === 'demand' ? m.demand : m.supply).remove(this.slotOf[id]!);
     this.slotOf[id] = -1;
-    this.cand[id] = undefined;
     const p = this.partner[id]!;
     if (p >= 0) {
       this.partner[p] = -1;
@@ -1107,9 +1180,11 @@ export class WindowEngine {
     // Columns: the supply pool in slot order; count each row's live pairs, dropping stale ones.
     this.colOfSlot = growI32(this.colOfSlot, sup.high);
     this.colOcc = growI32(this.colOcc, sup.size);
+    this.colSlot = growI32(this.colSlot, sup.size);
     this.colPrices = growF64(this.colPrices, sup.size);
     this.rowPtr.fill(0, 0, nRows + 1);
-    const { colOfSlot, colOcc, colPrices, rowPtr } = this;
+    const { colOfSlot, colOcc, colSlot, colPrices, rowPtr } = this;
+    const cands = sup.cand, candLen = sup.candLen, slotSerial = dem.slotSerial;
     let nCols = 0;
     let nnz = 0;
     for (let slot = 0; slot < sup.high; slot++) {
@@ -1117,21 +1192,25 @@ export class WindowEngine {
       if (s < 0) continue;
       colOfSlot[slot] = nCols;
       colOcc[nCols] = s;
+      colSlot[nCols] = slot;
       colPrices[nCols] = this.price[s]!;
       nCols++;
-      const list = this.cand[s]!;
-      const slotSerial = dem.slotSerial;
+      const list = cands[slot]!;
+      const len = candLen[slot]!;
       let w = 0;
-      for (let k = 0; k < list.length; k += 3) {
+      for (let k = 0; k < len; k += 3) {
         const dSlot = list[k]!;
-        if (slotSerial[dSlot] !== list[k + 2]) continue;
-        list[w] = dSlot;
-        list[w + 1] = list[k + 1]!;
-        list[w + 2] = list[k + 2]!;
+        const dSerial = list[k + 2]!;
+        if (slotSerial[dSlot] !== dSerial) continue;
+        if (w !== k) {
+          list[w] = dSlot;
+          list[w + 1] = list[k + 1]!;
+          list[w + 2] = dSerial;
+        }
         w += 3;
         rowPtr[rowOfSlot[dSlot]! + 1]!++;
       }
-      if (w !== list.length) list.length = w;
+      candLen[slot] = w;
       nnz += w / 3;
     }
     for (let r = 0; r < nRows; r++) rowPtr[r + 1]! += rowPtr[r]!;
@@ -1143,8 +1222,10 @@ export class WindowEngine {
     const { colIdx, cost, travel, cursor } = this;
     for (let r = 0; r < nRows; r++) cursor[r] = rowPtr[r]!;
     for (let j = 0; j < nCols; j++) {
-      const list = this.cand[colOcc[j]!]!;
-      for (let k = 0; k < list.length; k += 3) {
+      const slot = colSlot[j]!;
+      const list = cands[slot]!;
+      const len = candLen[slot]!;
+      for (let k = 0; k < len; k += 3) {
         const r = rowOfSlot[list[k]!]!;
         const e = cursor[r]!++;
         const tr = list[k + 1]!;
