@@ -15,8 +15,8 @@ import { pairflowError } from '../errors.js';
 import { checkCertificate, solveSparse } from '../matching/index.js';
 import type { SolveOptions, SolveResult, SparseInstance, WarmStart } from '../matching/index.js';
 import { type PairflowConfig, reserveOf, type Side, type SourcedEvent } from '../model.js';
-import { capabilitiesAllow, travelMin } from './geo.js';
-import { cellKmFor, cosDeg, type GridOptions, planeKm, SpatialGrid, sphereKm } from './grid.js';
+import { capabilitiesAllow } from './geo.js';
+import { cellKmFor, cosDeg, type GridOptions, SpatialGrid } from './grid.js';
 import { KeyedHeap } from './heap.js';
 import { type Occurrence, OccurrenceLedger } from './occurrences.js';
 import { TagBits } from './tags.js';
@@ -266,10 +266,12 @@ const ST_POOL = 2;
 const ST_MATCHED = 3;
 const ST_GONE = 4;
 
-/** An empty candidate list (shared: never written, replaced on the first append). */
-const NO_CAND = new Float64Array(0);
+/** Empty candidate lists (shared: never written, replaced on the first append). */
+const NO_SLOTS = new Int32Array(0);
+const NO_VALUES = new Float64Array(0);
 /** Placeholder for emptied entries of the engine's scratch list of grid cells. */
 const NO_BUCKET: number[] = [];
+const DEG = Math.PI / 180;
 
 /**
  * One side's pool of a market: slots (reused) hold occurrence indices; the grid indexes
@@ -290,13 +292,16 @@ class SidePool {
    */
   slotMask: Int32Array = new Int32Array(16);
   /**
-   * Supply only: per slot, the allowed demand seen so far as flat
-   * [demand pool slot, travelMin, demand serial] triples in `cand[slot][0 .. candLen[slot])`
-   * (an entry is live while that demand slot holds that serial; stale entries are dropped
-   * at use). Kept on the supply side so a solve can lay out each row's pairs in column
-   * order by counting, without sorting. A slot's array is kept for its next unit.
+   * Supply only: per slot, the allowed demand seen so far, entry k being demand pool slot
+   * `candSlot[slot][k]` at `candTravel[slot][k]` minutes with serial `candSerial[slot][k]`,
+   * for k < candLen[slot] (an entry is live while that demand slot holds that serial;
+   * stale entries are dropped at use). Kept on the supply side so a solve can lay out
+   * each row's pairs in column order by counting, without sorting. A slot's arrays are
+   * kept for its next unit.
    */
-  cand: Float64Array[] = new Array<Float64Array>(16).fill(NO_CAND);
+  candSlot: Int32Array[] = new Array<Int32Array>(16).fill(NO_SLOTS);
+  candTravel: Float64Array[] = new Array<Float64Array>(16).fill(NO_VALUES);
+  candSerial: Float64Array[] = new Array<Float64Array>(16).fill(NO_VALUES);
   candLen: Int32Array = new Int32Array(16);
   /** Slots in use are below `high`; freed ones are reused last-freed first. */
   high = 0;
@@ -332,7 +337,11 @@ class SidePool {
     this.slotCos = growF64(this.slotCos, size);
     this.slotMask = growI32(this.slotMask, size);
     this.candLen = growI32(this.candLen, size);
-    while (this.cand.length < this.candLen.length) this.cand.push(NO_CAND);
+    while (this.candSlot.length < size) {
+      this.candSlot.push(NO_SLOTS);
+      this.candTravel.push(NO_VALUES);
+      this.candSerial.push(NO_VALUES);
+    }
   }
 
   /** Puts `occ` (with its serial, place and capability mask) at a given slot. */
@@ -358,19 +367,18 @@ class SidePool {
     this.size--;
   }
 
-  /** Appends a candidate triple to the list of the (supply) unit at `slot`. */
-  pushCand(slot: number, dSlot: number, travel: number, dSerial: number): void {
-    let list = this.cand[slot]!;
-    const n = this.candLen[slot]!;
-    if (n + 3 > list.length) {
-      const grown = new Float64Array(Math.max(48, list.length * 2));
-      grown.set(list);
-      this.cand[slot] = list = grown;
-    }
-    list[n] = dSlot;
-    list[n + 1] = travel;
-    list[n + 2] = dSerial;
-    this.candLen[slot] = n + 3;
+  /** Makes room for more than `n` candidates at `slot`, keeping the first n. */
+  growCand(slot: number, n: number): void {
+    const size = Math.max(16, n * 2);
+    const ds = new Int32Array(size);
+    ds.set(this.candSlot[slot]!.subarray(0, n));
+    this.candSlot[slot] = ds;
+    const tr = new Float64Array(size);
+    tr.set(this.candTravel[slot]!.subarray(0, n));
+    this.candTravel[slot] = tr;
+    const se = new Float64Array(size);
+    se.set(this.candSerial[slot]!.subarray(0, n));
+    this.candSerial[slot] = se;
   }
 }
 
@@ -946,14 +954,14 @@ export class WindowEngine {
     // events alone.
     batch.length = 0;
     while (m.pending.peekKey() <= tau) batch.push(m.pending.pop());
-    if (batch.length > 1) batch.sort(this.bySeq);
+    if (batch.length > 1) this.sortBySeq(batch);
     for (const id of batch) this.join(m, id, tau);
     batch.length = 0;
     while (m.expiry.peekKey() <= tau) {
       const id = m.expiry.pop();
       if (this.state[id] === ST_POOL && occs[id]!.end < tau) batch.push(id);
     }
-    if (batch.length > 1) batch.sort(this.bySeq);
+    if (batch.length > 1) this.sortBySeq(batch);
     for (let k = 0; k < batch.length; k++) {
       // A unit with two due entries appears twice, side by side after the sort.
       if (k > 0 && batch[k] === batch[k - 1]) continue;
@@ -966,6 +974,32 @@ export class WindowEngine {
     if (m.dirty && m.demand.size > 0 && m.supply.size > 0) this.solve(m, tau);
     m.dirty = false;
     m.lastClosed = tau;
+  }
+
+  /**
+   * Sorts a batch of occurrence indices by (t, seq), stably, as `Array.prototype.sort`
+   * with {@link bySeq} would; a batch of a window is short, and sorting it in place
+   * allocates nothing.
+   */
+  private sortBySeq(batch: number[]): void {
+    const n = batch.length;
+    if (n > 32) {
+      batch.sort(this.bySeq);
+      return;
+    }
+    const occs = this.ledger.occurrences;
+    for (let i = 1; i < n; i++) {
+      const id = batch[i]!;
+      const o = occs[id]!;
+      const t = o.t, seq = o.seq;
+      let j = i - 1;
+      for (; j >= 0; j--) {
+        const p = occs[batch[j]!]!;
+        if (p.t < t || (p.t === t && p.seq <= seq)) break;
+        batch[j + 1] = batch[j]!;
+      }
+      batch[j + 1] = id;
+    }
   }
 
   private coords(o: Occurrence): [number, number] {
@@ -1026,10 +1060,13 @@ export class WindowEngine {
     const maxTravel = this.config.maxTravelMin;
     const sphere = this.haversine;
     const twoR = 2 * other.grid.earthRadiusKm;
-    const cosA = cosDeg(a);
+    const cosA = Math.cos(a * DEG);
     const oa = other.slotA, ob = other.slotB, oc = other.slotCos, om = other.slotMask, oSerial = other.slotSerial;
+    const { candSlot, candTravel, candSerial, candLen } = sup;
     // Past 31 distinct tags the masks may leave some out: the lists decide.
     const byLists = this.tags.overflow;
+    // A joining supply fills its own (emptied) list; a joining demand appends to each supply's.
+    let n = 0;
     for (let k = 0; k < nb; k++) {
       const bucket = buckets[k]!;
       for (let i = 0; i < bucket.length; i++) {
@@ -1040,14 +1077,33 @@ export class WindowEngine {
         } else if ((om[p]! & mask) !== 0) {
           continue;
         }
-        const d = sphere ? sphereKm(a, b, cosA, oa[p]!, ob[p]!, oc[p]!, twoR) : planeKm(a, b, oa[p]!, ob[p]!);
+        // The grid's distance (sphereKm / planeKm) and travelMin, written out so that
+        // they compile into this loop; a test holds the scan to queryInto bit for bit.
+        let d: number;
+        if (sphere) {
+          const sLat = Math.sin(((oa[p]! - a) * DEG) / 2);
+          const sLon = Math.sin(((ob[p]! - b) * DEG) / 2);
+          let h = sLat * sLat + cosA * oc[p]! * sLon * sLon;
+          if (h > 1) h = 1;
+          d = twoR * Math.atan2(Math.sqrt(h), Math.sqrt(1 - h));
+        } else {
+          d = Math.hypot(oa[p]! - a, ob[p]! - b);
+        }
         if (!(d <= r)) continue;
-        const tr = travelMin(d, speed);
+        const tr = (d / speed) * 60;
         if (!(tr <= maxTravel)) continue;
-        if (demand) sup.pushCand(p, slot, tr, ser);
-        else sup.pushCand(slot, p, tr, oSerial[p]!);
+        const at = demand ? p : slot;
+        const dSlot = demand ? slot : p;
+        const len = demand ? candLen[p]! : n;
+        if (len === candSlot[at]!.length) sup.growCand(at, len);
+        candSlot[at]![len] = dSlot;
+        candTravel[at]![len] = tr;
+        candSerial[at]![len] = demand ? ser : oSerial[p]!;
+        if (demand) candLen[p] = len + 1;
+        else n = len + 1;
       }
     }
+    if (!demand) candLen[slot] = n;
     buckets.fill(NO_BUCKET, 0, nb);
   }
 
@@ -1184,7 +1240,8 @@ export class WindowEngine {
     this.colPrices = growF64(this.colPrices, sup.size);
     this.rowPtr.fill(0, 0, nRows + 1);
     const { colOfSlot, colOcc, colSlot, colPrices, rowPtr } = this;
-    const cands = sup.cand, candLen = sup.candLen, slotSerial = dem.slotSerial;
+    const { candSlot, candTravel, candSerial, candLen } = sup;
+    const slotSerial = dem.slotSerial;
     let nCols = 0;
     let nnz = 0;
     for (let slot = 0; slot < sup.high; slot++) {
@@ -1195,23 +1252,23 @@ export class WindowEngine {
       colSlot[nCols] = slot;
       colPrices[nCols] = this.price[s]!;
       nCols++;
-      const list = cands[slot]!;
+      const ds = candSlot[slot]!, tr = candTravel[slot]!, se = candSerial[slot]!;
       const len = candLen[slot]!;
       let w = 0;
-      for (let k = 0; k < len; k += 3) {
-        const dSlot = list[k]!;
-        const dSerial = list[k + 2]!;
+      for (let k = 0; k < len; k++) {
+        const dSlot = ds[k]!;
+        const dSerial = se[k]!;
         if (slotSerial[dSlot] !== dSerial) continue;
         if (w !== k) {
-          list[w] = dSlot;
-          list[w + 1] = list[k + 1]!;
-          list[w + 2] = dSerial;
+          ds[w] = dSlot;
+          tr[w] = tr[k]!;
+          se[w] = dSerial;
         }
-        w += 3;
+        w++;
         rowPtr[rowOfSlot[dSlot]! + 1]!++;
       }
       candLen[slot] = w;
-      nnz += w / 3;
+      nnz += w;
     }
     for (let r = 0; r < nRows; r++) rowPtr[r + 1]! += rowPtr[r]!;
     // Place the pairs column by column: each row receives its columns in increasing order.
@@ -1223,15 +1280,15 @@ export class WindowEngine {
     for (let r = 0; r < nRows; r++) cursor[r] = rowPtr[r]!;
     for (let j = 0; j < nCols; j++) {
       const slot = colSlot[j]!;
-      const list = cands[slot]!;
+      const ds = candSlot[slot]!, tr = candTravel[slot]!;
       const len = candLen[slot]!;
-      for (let k = 0; k < len; k += 3) {
-        const r = rowOfSlot[list[k]!]!;
+      for (let k = 0; k < len; k++) {
+        const r = rowOfSlot[ds[k]!]!;
         const e = cursor[r]!++;
-        const tr = list[k + 1]!;
+        const t = tr[k]!;
         colIdx[e] = j;
-        travel[e] = tr;
-        cost[e] = tr + rowWait[r]!;
+        travel[e] = t;
+        cost[e] = t + rowWait[r]!;
       }
     }
     this.warmPairs = growI32(this.warmPairs, nRows);

@@ -61,7 +61,16 @@ export class SpatialGrid {
   /** Haversine: longitude cells per band, filled lazily. */
   private readonly rowCols: Int32Array;
 
+  /**
+   * Points by cell key. A cell that empties keeps its (empty) array, so points moving
+   * in and out of a cell allocate nothing; empty cells are swept out when they
+   * outnumber the occupied ones (see {@link remove}).
+   */
   private readonly cells = new Map<number, number[]>();
+  /** Cells in `cells` holding at least one point. */
+  private occupied = 0;
+  /** Points without a finite location (held, never found). */
+  private readonly unplaced: number[] = [];
   /** Per id: coordinates, cos(lat) for haversine, cell key (NaN = absent, -1 = no location), slot in its cell. */
   private pa: Float64Array = new Float64Array(0);
   private pb: Float64Array = new Float64Array(0);
@@ -125,11 +134,12 @@ export class SpatialGrid {
       this.pb[id] = b;
       k = Number.isFinite(a) && Number.isFinite(b) ? this.cellKeyKm(a, b) : -1;
     }
-    let bucket = this.cells.get(k);
+    let bucket = k < 0 ? this.unplaced : this.cells.get(k);
     if (bucket === undefined) {
       bucket = [];
       this.cells.set(k, bucket);
     }
+    if (bucket.length === 0 && k >= 0) this.occupied++;
     this.key[id] = k;
     this.slot[id] = bucket.length;
     bucket.push(id);
@@ -140,14 +150,19 @@ export class SpatialGrid {
   remove(id: number): boolean {
     if (!this.has(id)) return false;
     const k = this.key[id]!;
-    const bucket = this.cells.get(k)!;
+    const bucket = k < 0 ? this.unplaced : this.cells.get(k)!;
     const at = this.slot[id]!;
     const last = bucket.pop()!;
     if (last !== id) {
       bucket[at] = last;
       this.slot[last] = at;
     }
-    if (bucket.length === 0) this.cells.delete(k);
+    if (bucket.length === 0 && k >= 0) {
+      this.occupied--;
+      if (this.cells.size > 2 * this.occupied + 64) {
+        for (const [ck, b] of this.cells) if (b.length === 0) this.cells.delete(ck);
+      }
+    }
     this.key[id] = NaN;
     this.count--;
     return true;
@@ -288,10 +303,7 @@ export class SpatialGrid {
     // A huge radius over few points: taking the occupied cells beats walking the range.
     let visits = 0;
     for (let row = r0; row <= r1; row++) visits += this.colRange(row, lon, dLon, 1);
-    if (visits > 4 * this.cells.size) {
-      for (const [k, bucket] of this.cells) if (k >= 0) out[nb++] = bucket;
-      return nb;
-    }
+    if (visits > 4 * this.occupied) return this.occupiedCells(out);
     for (let row = r0; row <= r1; row++) {
       const n = this.colsOf(row);
       const c0 = this.colRange(row, lon, dLon, 0);
@@ -299,7 +311,7 @@ export class SpatialGrid {
       for (let c = c0; c <= c1; c++) {
         const col = ((c % n) + n) % n;
         const bucket = this.cells.get(row * COLS + col);
-        if (bucket !== undefined) out[nb++] = bucket;
+        if (bucket !== undefined && bucket.length > 0) out[nb++] = bucket;
       }
     }
     return nb;
@@ -321,20 +333,24 @@ export class SpatialGrid {
     return what === 0 ? c0 : what === 2 ? c1 : c1 - c0 + 1;
   }
 
+  /** Every occupied cell (a query wider than the points held). */
+  private occupiedCells(out: number[][]): number {
+    let nb = 0;
+    for (const bucket of this.cells.values()) if (bucket.length > 0) out[nb++] = bucket;
+    return nb;
+  }
+
   private cellsOfSquare(x: number, y: number, r: number, out: number[][]): number {
     const ix0 = this.cellIndexKm(x - r), ix1 = this.cellIndexKm(x + r);
     const iy0 = this.cellIndexKm(y - r), iy1 = this.cellIndexKm(y + r);
     let nb = 0;
     // A huge radius over few points: taking every occupied cell beats walking the key range.
-    if ((ix1 - ix0 + 1) * (iy1 - iy0 + 1) > 4 * this.cells.size) {
-      for (const [k, bucket] of this.cells) if (k >= 0) out[nb++] = bucket;
-      return nb;
-    }
+    if ((ix1 - ix0 + 1) * (iy1 - iy0 + 1) > 4 * this.occupied) return this.occupiedCells(out);
     for (let ix = ix0; ix <= ix1; ix++) {
       const base = (ix + HALF) * 2 * HALF + HALF;
       for (let iy = iy0; iy <= iy1; iy++) {
         const bucket = this.cells.get(base + iy);
-        if (bucket !== undefined) out[nb++] = bucket;
+        if (bucket !== undefined && bucket.length > 0) out[nb++] = bucket;
       }
     }
     return nb;
