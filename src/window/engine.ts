@@ -405,11 +405,15 @@ class MarketState {
    */
   readonly retire = new KeyedHeap();
   /**
-   * Reported occurrences keyed by the last-closed epoch past their end plus the
-   * lateness (pushed again when the end moves earlier): from then on no accepted event
-   * can concern them, so they leave the snapshot, though their index waits in `retire`.
+   * A reported occurrence falls quiet at its end plus the lateness (again, earlier, when
+   * its end moves earlier): from the first {@link WindowEngine.retireDue} whose limit
+   * reaches that key, no accepted event can concern it, so it leaves the snapshot,
+   * though its index waits in `retire`. The keys are kept per occurrence (see
+   * `quietOld`/`quietNew`) instead of in a heap, as only this test reads them: calls of
+   * retireDue so far, and the limit of the last one.
    */
-  readonly quiet = new KeyedHeap();
+  retireCalls = 0;
+  retiredThrough = -Infinity;
   /** Something changed since the last solve that can change the optimum. */
   dirty = false;
   /** Late events since the last epoch record. */
@@ -515,8 +519,14 @@ export class WindowEngine {
   /** The largest trigger key ever pushed for the occurrence: it can be forgotten only after it. */
   private maxKey: Float64Array = new Float64Array(1024).fill(-Infinity);
   private nextSerial = 1;
-  /** 1 for a reported occurrence out of its market's `quiet` heap whose index still waits in `retire`. */
-  private forgotten: Uint8Array = new Uint8Array(1024);
+  /**
+   * Quiet keys of a reported occurrence (see {@link MarketState.retireCalls}): the least
+   * pushed before its market's retireDue call number `quietCall`, and the least pushed
+   * since (+Infinity for none).
+   */
+  private quietOld: Float64Array = new Float64Array(1024).fill(Infinity);
+  private quietNew: Float64Array = new Float64Array(1024).fill(Infinity);
+  private quietCall: Float64Array = new Float64Array(1024);
   /** Capability bits of every tag seen (see {@link SidePool.slotMask}). */
   private readonly tags = new TagBits();
 
@@ -708,7 +718,7 @@ export class WindowEngine {
       }
       const bySeq = (x: [number, number], y: [number, number]): number => x[0] - y[0] || this.bySeq(x[1], y[1]);
       for (const [key, id] of m.pending.entries().sort(bySeq)) add(id, COL_PENDING, key);
-      for (const [, id] of m.retire.entries().sort(bySeq)) if (this.forgotten[id] === 0) add(id, COL_DONE, 0);
+      for (const [, id] of m.retire.entries().sort(bySeq)) if (!this.isQuiet(m, id)) add(id, COL_DONE, 0);
       for (let slot = 0; slot < m.demand.high; slot++) {
         const d = m.demand.slotOcc[slot]!;
         if (d >= 0 && this.partner[d]! >= 0) tentative.push([at.get(d)!, at.get(this.partner[d]!)!]);
@@ -838,9 +848,9 @@ export class WindowEngine {
       this.partner = growI32(this.partner, size, -1);
       this.serial = growF64(this.serial, size, 0);
       this.maxKey = growF64(this.maxKey, size, -Infinity);
-      const fg = new Uint8Array(size);
-      fg.set(this.forgotten);
-      this.forgotten = fg;
+      this.quietOld = growF64(this.quietOld, size, Infinity);
+      this.quietNew = growF64(this.quietNew, size, Infinity);
+      this.quietCall = growF64(this.quietCall, size, 0);
     }
     this.state[index] = 0;
     this.slotOf[index] = -1;
@@ -848,7 +858,8 @@ export class WindowEngine {
     this.partner[index] = -1;
     this.serial[index] = this.nextSerial++;
     this.maxKey[index] = -Infinity;
-    this.forgotten[index] = 0;
+    this.quietOld[index] = Infinity;
+    this.quietNew[index] = Infinity;
   }
 
   /** Pushes a trigger for an occurrence and schedules its market. */
@@ -870,30 +881,44 @@ export class WindowEngine {
     } else if (this.bounded && (st === ST_MATCHED || st === ST_GONE)) {
       // A reported occurrence ended earlier (its courier is back after the job): it
       // falls quiet sooner. Its earlier entry stays; it is skipped when it comes up.
-      m.quiet.push(occ.end + this.L + 1, occ.index);
+      this.quietAt(m, occ.index, occ.end + this.L + 1);
     }
+  }
+
+  /** Records a quiet key for a reported occurrence (the heap push it replaces). */
+  private quietAt(m: MarketState, id: number, key: number): void {
+    if (this.quietCall[id] !== m.retireCalls) {
+      // Keys pushed before a retireDue call count from that call on.
+      if (this.quietNew[id]! < this.quietOld[id]!) this.quietOld[id] = this.quietNew[id]!;
+      this.quietNew[id] = key;
+      this.quietCall[id] = m.retireCalls;
+    } else if (key < this.quietNew[id]!) {
+      this.quietNew[id] = key;
+    }
+  }
+
+  /** Whether a retireDue call has already passed a quiet key of reported occurrence `id`. */
+  private isQuiet(m: MarketState, id: number): boolean {
+    const before = this.quietCall[id] !== m.retireCalls ? Math.min(this.quietOld[id]!, this.quietNew[id]!) : this.quietOld[id]!;
+    return before <= m.retiredThrough;
   }
 
   /** A reported occurrence can be forgotten once the horizon and all its triggers have passed. */
   private retireLater(m: MarketState, id: number): void {
     if (!this.bounded) return;
     const o = this.ledger.occurrences[id]!;
-    m.quiet.push(o.end + this.L + 1, id);
+    this.quietAt(m, id, o.end + this.L + 1);
     m.retire.push(Math.max(o.end + this.L + 1, this.maxKey[id]!), id);
   }
 
   /** Forgets the reported occurrences of `m` that no accepted event can concern any more. */
   private retireDue(m: MarketState): void {
-    // Quiet first: a `quiet` key of an occurrence is never above its `retire` key (an
-    // end only moves earlier), so no quiet entry outlives its index.
-    while (m.quiet.size > 0 && m.quiet.peekKey() <= m.lastClosed) {
-      const id = m.quiet.pop();
-      const st = this.state[id];
-      if (st === ST_MATCHED || st === ST_GONE) this.forgotten[id] = 1;
-    }
+    // Quiet keys up to the limit now count (isQuiet): a quiet key of an occurrence is
+    // never above its `retire` key (an end only moves earlier), so none outlives its index.
+    m.retireCalls++;
+    m.retiredThrough = m.lastClosed;
     while (m.retire.size > 0 && m.retire.peekKey() <= m.lastClosed) {
       const id = m.retire.pop();
-      this.forgotten[id] = 0;
       this.state[id] = 0;
       this.ledger.release(id);
     }
