@@ -1110,7 +1110,8 @@ export class WindowEngine {
           const sLon = Math.sin(((ob[p]! - b) * DEG) / 2);
           let h = sLat * sLat + cosA * oc[p]! * sLon * sLon;
           if (h > 1) h = 1;
-          d = twoR * Math.atan2(Math.sqrt(h), Math.sqrt(1 - h));
+          // See sphereKm: atan(y / x) is atan2(y, x) to the last bit while y ≤ x.
+          d = twoR * (h <= 0.5 ? Math.atan(Math.sqrt(h) / Math.sqrt(1 - h)) : Math.atan2(Math.sqrt(h), Math.sqrt(1 - h)));
         } else {
           d = Math.hypot(oa[p]! - a, ob[p]! - b);
         }

@@ -368,7 +368,11 @@ export function sphereKm(lat: number, lon: number, cosLat: number, pLat: number,
   const sLon = Math.sin(((pLon - lon) * DEG) / 2);
   let h = sLat * sLat + cosLat * pCos * sLon * sLon;
   if (h > 1) h = 1;
-  return twoR * Math.atan2(Math.sqrt(h), Math.sqrt(1 - h));
+  // For 0 ≤ y ≤ x (h ≤ 1/2: every distance up to a quarter of the circumference),
+  // fdlibm's atan2 (V8's Math.atan2) reduces to atan(y / x) and returns it unchanged
+  // (from memory of fdlibm's e_atan2.c); calling atan directly gives the same bits at
+  // about half the cost. Tests hold this to haversineKm bit for bit.
+  return twoR * (h <= 0.5 ? Math.atan(Math.sqrt(h) / Math.sqrt(1 - h)) : Math.atan2(Math.sqrt(h), Math.sqrt(1 - h)));
 }
 
 /** Plane distance in km from (x, y) to (px, py), as the grid measures it. */
