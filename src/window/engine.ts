@@ -293,15 +293,14 @@ class SidePool {
   slotMask: Int32Array = new Int32Array(16);
   /**
    * Supply only: per slot, the allowed demand seen so far, entry k being demand pool slot
-   * `candSlot[slot][k]` at `candTravel[slot][k]` minutes with serial `candSerial[slot][k]`,
+   * `candSlot[slot][k]` at `candValue[slot][2k]` minutes with serial `candValue[slot][2k + 1]`,
    * for k < candLen[slot] (an entry is live while that demand slot holds that serial;
    * stale entries are dropped at use). Kept on the supply side so a solve can lay out
    * each row's pairs in column order by counting, without sorting. A slot's arrays are
    * kept for its next unit.
    */
   candSlot: Int32Array[] = new Array<Int32Array>(16).fill(NO_SLOTS);
-  candTravel: Float64Array[] = new Array<Float64Array>(16).fill(NO_VALUES);
-  candSerial: Float64Array[] = new Array<Float64Array>(16).fill(NO_VALUES);
+  candValue: Float64Array[] = new Array<Float64Array>(16).fill(NO_VALUES);
   candLen: Int32Array = new Int32Array(16);
   /** Slots in use are below `high`; freed ones are reused last-freed first. */
   high = 0;
@@ -339,8 +338,7 @@ class SidePool {
     this.candLen = growI32(this.candLen, size);
     while (this.candSlot.length < size) {
       this.candSlot.push(NO_SLOTS);
-      this.candTravel.push(NO_VALUES);
-      this.candSerial.push(NO_VALUES);
+      this.candValue.push(NO_VALUES);
     }
   }
 
@@ -373,12 +371,9 @@ class SidePool {
     const ds = new Int32Array(size);
     ds.set(this.candSlot[slot]!.subarray(0, n));
     this.candSlot[slot] = ds;
-    const tr = new Float64Array(size);
-    tr.set(this.candTravel[slot]!.subarray(0, n));
-    this.candTravel[slot] = tr;
-    const se = new Float64Array(size);
-    se.set(this.candSerial[slot]!.subarray(0, n));
-    this.candSerial[slot] = se;
+    const val = new Float64Array(2 * size);
+    val.set(this.candValue[slot]!.subarray(0, 2 * n));
+    this.candValue[slot] = val;
   }
 }
 
@@ -1087,7 +1082,7 @@ export class WindowEngine {
     const twoR = 2 * other.grid.earthRadiusKm;
     const cosA = Math.cos(a * DEG);
     const oa = other.slotA, ob = other.slotB, oc = other.slotCos, om = other.slotMask, oSerial = other.slotSerial;
-    const { candSlot, candTravel, candSerial, candLen } = sup;
+    const { candSlot, candValue, candLen } = sup;
     // Past 31 distinct tags the masks may leave some out: the lists decide.
     const byLists = this.tags.overflow;
     // A joining supply fills its own (emptied) list; a joining demand appends to each supply's.
@@ -1123,8 +1118,9 @@ export class WindowEngine {
         const len = demand ? candLen[p]! : n;
         if (len === candSlot[at]!.length) sup.growCand(at, len);
         candSlot[at]![len] = dSlot;
-        candTravel[at]![len] = tr;
-        candSerial[at]![len] = demand ? ser : oSerial[p]!;
+        const val = candValue[at]!;
+        val[2 * len] = tr;
+        val[2 * len + 1] = demand ? ser : oSerial[p]!;
         if (demand) candLen[p] = len + 1;
         else n = len + 1;
       }
@@ -1266,7 +1262,7 @@ export class WindowEngine {
     this.colPrices = growF64(this.colPrices, sup.size);
     this.rowPtr.fill(0, 0, nRows + 1);
     const { colOfSlot, colOcc, colSlot, colPrices, rowPtr } = this;
-    const { candSlot, candTravel, candSerial, candLen } = sup;
+    const { candSlot, candValue, candLen } = sup;
     const slotSerial = dem.slotSerial;
     let nCols = 0;
     let nnz = 0;
@@ -1278,17 +1274,17 @@ export class WindowEngine {
       colSlot[nCols] = slot;
       colPrices[nCols] = this.price[s]!;
       nCols++;
-      const ds = candSlot[slot]!, tr = candTravel[slot]!, se = candSerial[slot]!;
+      const ds = candSlot[slot]!, val = candValue[slot]!;
       const len = candLen[slot]!;
       let w = 0;
       for (let k = 0; k < len; k++) {
         const dSlot = ds[k]!;
-        const dSerial = se[k]!;
+        const dSerial = val[2 * k + 1]!;
         if (slotSerial[dSlot] !== dSerial) continue;
         if (w !== k) {
           ds[w] = dSlot;
-          tr[w] = tr[k]!;
-          se[w] = dSerial;
+          val[2 * w] = val[2 * k]!;
+          val[2 * w + 1] = dSerial;
         }
         w++;
         rowPtr[rowOfSlot[dSlot]! + 1]!++;
@@ -1306,12 +1302,12 @@ export class WindowEngine {
     for (let r = 0; r < nRows; r++) cursor[r] = rowPtr[r]!;
     for (let j = 0; j < nCols; j++) {
       const slot = colSlot[j]!;
-      const ds = candSlot[slot]!, tr = candTravel[slot]!;
+      const ds = candSlot[slot]!, val = candValue[slot]!;
       const len = candLen[slot]!;
       for (let k = 0; k < len; k++) {
         const r = rowOfSlot[ds[k]!]!;
         const e = cursor[r]!++;
-        const t = tr[k]!;
+        const t = val[2 * k]!;
         colIdx[e] = j;
         travel[e] = t;
         cost[e] = t + rowWait[r]!;
