@@ -286,6 +286,9 @@ class SidePool {
   slotA: Float64Array = new Float64Array(16);
   slotB: Float64Array = new Float64Array(16);
   slotCos: Float64Array = new Float64Array(16);
+  /** Arrival time and `until` of the unit in each slot (what a solve reads of a row). */
+  slotT: Float64Array = new Float64Array(16);
+  slotUntil: Float64Array = new Float64Array(16);
   /**
    * Capabilities of the unit in each slot ({@link TagBits}): a demand's needs, the
    * complement of a supply's has; a pair is allowed when the AND of the two is 0.
@@ -334,6 +337,8 @@ class SidePool {
     this.slotA = growF64(this.slotA, size);
     this.slotB = growF64(this.slotB, size);
     this.slotCos = growF64(this.slotCos, size);
+    this.slotT = growF64(this.slotT, size);
+    this.slotUntil = growF64(this.slotUntil, size);
     this.slotMask = growI32(this.slotMask, size);
     this.candLen = growI32(this.candLen, size);
     while (this.candSlot.length < size) {
@@ -1057,6 +1062,8 @@ export class WindowEngine {
     if (slot >= 0) own.place(id, ser, slot, a, b, mask);
     else slot = own.add(id, ser, a, b, mask);
     this.slotOf[id] = slot;
+    own.slotT[slot] = o.t;
+    own.slotUntil[slot] = o.until;
     this.scanPairs(m, o, demand, slot, a, b, mask, ser);
     if (demand ? this.demandLastChanceMatters : this.due) this.pushLastChance(m, o, from);
     this.push(m, m.expiry, Math.max(this.epochAfter(o.end), from), id);
@@ -1229,7 +1236,6 @@ export class WindowEngine {
    * and tentative pairs as the warm start.
    */
   private pack(m: MarketState, tau: number): SparseInstance {
-    const occs = this.ledger.occurrences;
     const dem = m.demand;
     const sup = m.supply;
     const st = this.state, slotOf = this.slotOf, partner = this.partner;
@@ -1247,11 +1253,10 @@ export class WindowEngine {
     for (let slot = 0; slot < dem.high; slot++) {
       const d = dem.slotOcc[slot]!;
       if (d < 0) continue;
-      const od = occs[d]!;
       rowOfSlot[slot] = nRows;
       rowOcc[nRows] = d;
-      rowWait[nRows] = waitPerMs * (tau - od.t);
-      delta[nRows] = od.until < lastChanceBefore ? this.P : this.R;
+      rowWait[nRows] = waitPerMs * (tau - dem.slotT[slot]!);
+      delta[nRows] = dem.slotUntil[slot]! < lastChanceBefore ? this.P : this.R;
       rowPrices[nRows] = this.price[d]!;
       nRows++;
     }
