@@ -305,6 +305,11 @@ class SidePool {
   candSlot: Int32Array[] = new Array<Int32Array>(16).fill(NO_SLOTS);
   candValue: Float64Array[] = new Array<Float64Array>(16).fill(NO_VALUES);
   candLen: Int32Array = new Int32Array(16);
+  /**
+   * Demand only: per slot, how many live entries the supply lists hold for the unit
+   * there (one per pooled supply it may pair with): a solve sizes its rows from it.
+   */
+  deg: Int32Array = new Int32Array(16);
   /** Slots in use are below `high`; freed ones are reused last-freed first. */
   high = 0;
   size = 0;
@@ -341,6 +346,7 @@ class SidePool {
     this.slotUntil = growF64(this.slotUntil, size);
     this.slotMask = growI32(this.slotMask, size);
     this.candLen = growI32(this.candLen, size);
+    this.deg = growI32(this.deg, size);
     while (this.candSlot.length < size) {
       this.candSlot.push(NO_SLOTS);
       this.candValue.push(NO_VALUES);
@@ -357,6 +363,7 @@ class SidePool {
     this.slotCos[slot] = cosDeg(a);
     this.slotMask[slot] = mask;
     this.candLen[slot] = 0;
+    this.deg[slot] = 0;
     this.grid.insert(slot, a, b);
     this.size++;
   }
@@ -368,6 +375,21 @@ class SidePool {
     this.grid.remove(slot);
     this.free.push(slot);
     this.size--;
+  }
+
+  /**
+   * The (supply) unit at `slot` is leaving: each demand of `dem` its list holds a live
+   * entry for has one pair fewer. Call before {@link remove}.
+   */
+  dropCands(slot: number, dem: SidePool): void {
+    const ds = this.candSlot[slot]!, val = this.candValue[slot]!;
+    const n = this.candLen[slot]!;
+    const serial = dem.slotSerial, deg = dem.deg;
+    for (let k = 0; k < n; k++) {
+      const d = ds[k]!;
+      if (serial[d] === val[2 * k + 1]) deg[d]!--;
+    }
+    this.candLen[slot] = 0;
   }
 
   /** Makes room for more than `n` candidates at `slot`, keeping the first n. */
@@ -549,8 +571,6 @@ export class WindowEngine {
   private nCols = 0;
   /** Grid cells of one candidate scan (see {@link scanPairs}). */
   private readonly qBuckets: number[][] = [];
-  /** Column j's supply pool slot in the last {@link pack}. */
-  private colSlot: Int32Array = new Int32Array(64);
   private readonly batch: number[] = [];
   private readonly bySeq = (x: number, y: number): number => {
     const a = this.ledger.occurrences[x]!, b = this.ledger.occurrences[y]!;
@@ -1090,6 +1110,7 @@ export class WindowEngine {
     const cosA = Math.cos(a * DEG);
     const oa = other.slotA, ob = other.slotB, oc = other.slotCos, om = other.slotMask, oSerial = other.slotSerial;
     const { candSlot, candValue, candLen } = sup;
+    const deg = m.demand.deg;
     // Past 31 distinct tags the masks may leave some out: the lists decide.
     const byLists = this.tags.overflow;
     // A joining supply fills its own (emptied) list; a joining demand appends to each supply's.
@@ -1128,11 +1149,17 @@ export class WindowEngine {
         const val = candValue[at]!;
         val[2 * len] = tr;
         val[2 * len + 1] = demand ? ser : oSerial[p]!;
-        if (demand) candLen[p] = len + 1;
-        else n = len + 1;
+        if (demand) {
+          candLen[p] = len + 1;
+          n++;
+        } else {
+          n = len + 1;
+          deg[p]!++;
+        }
       }
     }
-    if (!demand) candLen[slot] = n;
+    if (demand) deg[slot]! += n;
+    else candLen[slot] = n;
     buckets.fill(NO_BUCKET, 0, nb);
   }
 
@@ -1145,7 +1172,13 @@ export class WindowEngine {
   private removeFromPool(m: MarketState, o: Occurrence, next: number): void {
     const id = o.index;
     this.state[id] = next;
-    (o.side === 'demand' ? m.demand : m.supply).remove(this.slotOf[id]!);
+    const slot = this.slotOf[id]!;
+    if (o.side === 'demand') {
+      m.demand.remove(slot);
+    } else {
+      m.supply.dropCands(slot, m.demand);
+      m.supply.remove(slot);
+    }
     this.slotOf[id] = -1;
     const p = this.partner[id]!;
     if (p >= 0) {
@@ -1248,7 +1281,7 @@ export class WindowEngine {
     this.delta = growF64(this.delta, dem.size);
     this.rowPrices = growF64(this.rowPrices, dem.size);
     this.rowWait = growF64(this.rowWait, dem.size);
-    const { rowOfSlot, rowOcc, delta, rowPrices, rowWait } = this;
+    const { rowOfSlot, rowOcc, delta, rowPrices, rowWait, rowPtr } = this;
     let nRows = 0;
     for (let slot = 0; slot < dem.high; slot++) {
       const d = dem.slotOcc[slot]!;
@@ -1258,64 +1291,62 @@ export class WindowEngine {
       rowWait[nRows] = waitPerMs * (tau - dem.slotT[slot]!);
       delta[nRows] = dem.slotUntil[slot]! < lastChanceBefore ? this.P : this.R;
       rowPrices[nRows] = this.price[d]!;
+      rowPtr[nRows + 1] = dem.deg[slot]!;
       nRows++;
     }
-    // Columns: the supply pool in slot order; count each row's live pairs, dropping stale ones.
-    this.colOfSlot = growI32(this.colOfSlot, sup.high);
-    this.colOcc = growI32(this.colOcc, sup.size);
-    this.colSlot = growI32(this.colSlot, sup.size);
-    this.colPrices = growF64(this.colPrices, sup.size);
-    this.rowPtr.fill(0, 0, nRows + 1);
-    const { colOfSlot, colOcc, colSlot, colPrices, rowPtr } = this;
-    const { candSlot, candValue, candLen } = sup;
-    const slotSerial = dem.slotSerial;
-    let nCols = 0;
-    let nnz = 0;
-    for (let slot = 0; slot < sup.high; slot++) {
-      const s = sup.slotOcc[slot]!;
-      if (s < 0) continue;
-      colOfSlot[slot] = nCols;
-      colOcc[nCols] = s;
-      colSlot[nCols] = slot;
-      colPrices[nCols] = this.price[s]!;
-      nCols++;
-      const ds = candSlot[slot]!, val = candValue[slot]!;
-      const len = candLen[slot]!;
-      let w = 0;
-      // Without a branch on staleness (about a third of the entries here, at random):
-      // every entry is copied down, and only a live one is counted and kept.
-      for (let k = 0; k < len; k++) {
-        const dSlot = ds[k]!;
-        const dSerial = val[2 * k + 1]!;
-        const live = slotSerial[dSlot] === dSerial ? 1 : 0;
-        ds[w] = dSlot;
-        val[2 * w] = val[2 * k]!;
-        val[2 * w + 1] = dSerial;
-        rowPtr[rowOfSlot[dSlot]! + 1]! += live;
-        w += live;
-      }
-      candLen[slot] = w;
-      nnz += w;
-    }
+    rowPtr[0] = 0;
     for (let r = 0; r < nRows; r++) rowPtr[r + 1]! += rowPtr[r]!;
-    // Place the pairs column by column: each row receives its columns in increasing order.
+    const nnz = rowPtr[nRows]!;
     this.colIdx = growI32(this.colIdx, nnz);
     this.cost = growF64(this.cost, nnz);
     this.travel = growF64(this.travel, nnz);
     this.cursor = growI32(this.cursor, nRows);
     const { colIdx, cost, travel, cursor } = this;
     for (let r = 0; r < nRows; r++) cursor[r] = rowPtr[r]!;
-    for (let j = 0; j < nCols; j++) {
-      const slot = colSlot[j]!;
+    // Columns: the supply pool in slot order. Each live pair goes to the next place of its
+    // row, so each row receives its columns in increasing order; stale entries are dropped.
+    this.colOfSlot = growI32(this.colOfSlot, sup.high);
+    this.colOcc = growI32(this.colOcc, sup.size);
+    this.colPrices = growF64(this.colPrices, sup.size);
+    const { colOfSlot, colOcc, colPrices } = this;
+    const { candSlot, candValue, candLen } = sup;
+    const slotSerial = dem.slotSerial;
+    let nCols = 0;
+    for (let slot = 0; slot < sup.high; slot++) {
+      const s = sup.slotOcc[slot]!;
+      if (s < 0) continue;
+      const j = nCols++;
+      colOfSlot[slot] = j;
+      colOcc[j] = s;
+      colPrices[j] = this.price[s]!;
       const ds = candSlot[slot]!, val = candValue[slot]!;
       const len = candLen[slot]!;
+      let w = 0;
       for (let k = 0; k < len; k++) {
-        const r = rowOfSlot[ds[k]!]!;
-        const e = cursor[r]!++;
+        const dSlot = ds[k]!;
+        const dSerial = val[2 * k + 1]!;
+        if (slotSerial[dSlot] !== dSerial) continue;
         const t = val[2 * k]!;
+        if (w !== k) {
+          ds[w] = dSlot;
+          val[2 * w] = t;
+          val[2 * w + 1] = dSerial;
+        }
+        w++;
+        const r = rowOfSlot[dSlot]!;
+        const e = cursor[r]!++;
         colIdx[e] = j;
         travel[e] = t;
         cost[e] = t + rowWait[r]!;
+      }
+      candLen[slot] = w;
+    }
+    // The counts kept as pairs came and went must be what the lists hold.
+    for (let r = 0; r < nRows; r++) {
+      if (cursor[r] !== rowPtr[r + 1]) {
+        throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', {
+          detail: `market ${m.name} epoch ${tau}: row ${r} holds ${cursor[r]! - rowPtr[r]!} pairs, counted ${rowPtr[r + 1]! - rowPtr[r]!}`,
+        });
       }
     }
     this.warmPairs = growI32(this.warmPairs, nRows);
