@@ -900,7 +900,7 @@ export class WindowEngine {
       this.push(m, m.expiry, Math.max(this.epochAfter(occ.end), m.lastClosed + this.W), occ.index);
     } else if (this.bounded && (st === ST_MATCHED || st === ST_GONE)) {
       // A reported occurrence ended earlier (its courier is back after the job): it
-      // falls quiet sooner. Its earlier entry stays; it is skipped when it comes up.
+      // falls quiet sooner (its retire key stays: an index waits for its last trigger).
       this.quietAt(m, occ.index, occ.end + this.L + 1);
     }
   }
