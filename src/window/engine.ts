@@ -15,10 +15,11 @@ import { pairflowError } from '../errors.js';
 import { checkCertificate, solveSparse } from '../matching/index.js';
 import type { SolveOptions, SolveResult, SparseInstance, WarmStart } from '../matching/index.js';
 import { type PairflowConfig, reserveOf, type Side, type SourcedEvent } from '../model.js';
-import { capabilitiesAllow, travelMin } from './geo.js';
-import { cellKmFor, type GridOptions, SpatialGrid } from './grid.js';
+import { capabilitiesAllow } from './geo.js';
+import { cellKmFor, cosDeg, type GridOptions, SpatialGrid } from './grid.js';
 import { KeyedHeap } from './heap.js';
 import { type Occurrence, OccurrenceLedger } from './occurrences.js';
+import { TagBits } from './tags.js';
 
 /** One executed pair (SPEC §3): decided at epoch `decidedAt`, at cost `travelMin + waitWeight·waitMin`. */
 export interface AssignmentRecord {
@@ -265,11 +266,50 @@ const ST_POOL = 2;
 const ST_MATCHED = 3;
 const ST_GONE = 4;
 
-/** One side's pool of a market: slots (reused) hold occurrence indices; the grid indexes the slots. */
+/** Empty candidate lists (shared: never written, replaced on the first append). */
+const NO_SLOTS = new Int32Array(0);
+const NO_VALUES = new Float64Array(0);
+/** Placeholder for emptied entries of the engine's scratch list of grid cells. */
+const NO_BUCKET: number[] = [];
+const DEG = Math.PI / 180;
+
+/**
+ * One side's pool of a market: slots (reused) hold occurrence indices; the grid indexes
+ * the slots. What the candidate scan reads per unit is kept by slot in typed arrays, so
+ * a scan touches no occurrence object.
+ */
 class SidePool {
   slotOcc: Int32Array = new Int32Array(16).fill(-1);
   /** The serial of the occurrence in each slot (0 when free): tells a live candidate entry from a stale one. */
   slotSerial: Float64Array = new Float64Array(16);
+  /** Where the unit in each slot is: (lat, lon) or (x, y), and cos(lat) under haversine. */
+  slotA: Float64Array = new Float64Array(16);
+  slotB: Float64Array = new Float64Array(16);
+  slotCos: Float64Array = new Float64Array(16);
+  /** Arrival time and `until` of the unit in each slot (what a solve reads of a row). */
+  slotT: Float64Array = new Float64Array(16);
+  slotUntil: Float64Array = new Float64Array(16);
+  /**
+   * Capabilities of the unit in each slot ({@link TagBits}): a demand's needs, the
+   * complement of a supply's has; a pair is allowed when the AND of the two is 0.
+   */
+  slotMask: Int32Array = new Int32Array(16);
+  /**
+   * Supply only: per slot, the allowed demand seen so far, entry k being demand pool slot
+   * `candSlot[slot][k]` at `candValue[slot][2k]` minutes with serial `candValue[slot][2k + 1]`,
+   * for k < candLen[slot] (an entry is live while that demand slot holds that serial;
+   * stale entries are dropped at use). Kept on the supply side so a solve can lay out
+   * each row's pairs in column order by counting, without sorting. A slot's arrays are
+   * kept for its next unit.
+   */
+  candSlot: Int32Array[] = new Array<Int32Array>(16).fill(NO_SLOTS);
+  candValue: Float64Array[] = new Array<Float64Array>(16).fill(NO_VALUES);
+  candLen: Int32Array = new Int32Array(16);
+  /**
+   * Demand only: per slot, how many live entries the supply lists hold for the unit
+   * there (one per pooled supply it may pair with): a solve sizes its rows from it.
+   */
+  deg: Int32Array = new Int32Array(16);
   /** Slots in use are below `high`; freed ones are reused last-freed first. */
   high = 0;
   size = 0;
@@ -280,9 +320,9 @@ class SidePool {
     this.grid = new SpatialGrid(gridOpts);
   }
 
-  add(occ: number, serial: number, a: number, b: number): number {
+  add(occ: number, serial: number, a: number, b: number, mask: number): number {
     const slot = this.free.length > 0 ? this.free.pop()! : this.high++;
-    this.place(occ, serial, slot, a, b);
+    this.place(occ, serial, slot, a, b, mask);
     return slot;
   }
 
@@ -298,16 +338,32 @@ class SidePool {
     const occ = new Int32Array(size).fill(-1);
     occ.set(this.slotOcc);
     this.slotOcc = occ;
-    const ser = new Float64Array(size);
-    ser.set(this.slotSerial);
-    this.slotSerial = ser;
+    this.slotSerial = growF64(this.slotSerial, size);
+    this.slotA = growF64(this.slotA, size);
+    this.slotB = growF64(this.slotB, size);
+    this.slotCos = growF64(this.slotCos, size);
+    this.slotT = growF64(this.slotT, size);
+    this.slotUntil = growF64(this.slotUntil, size);
+    this.slotMask = growI32(this.slotMask, size);
+    this.candLen = growI32(this.candLen, size);
+    this.deg = growI32(this.deg, size);
+    while (this.candSlot.length < size) {
+      this.candSlot.push(NO_SLOTS);
+      this.candValue.push(NO_VALUES);
+    }
   }
 
-  /** Puts `occ` (with its serial) at a given slot. */
-  place(occ: number, serial: number, slot: number, a: number, b: number): void {
+  /** Puts `occ` (with its serial, place and capability mask) at a given slot. */
+  place(occ: number, serial: number, slot: number, a: number, b: number, mask: number): void {
     if (slot >= this.slotOcc.length) this.grow(slot + 1);
     this.slotOcc[slot] = occ;
     this.slotSerial[slot] = serial;
+    this.slotA[slot] = a;
+    this.slotB[slot] = b;
+    this.slotCos[slot] = cosDeg(a);
+    this.slotMask[slot] = mask;
+    this.candLen[slot] = 0;
+    this.deg[slot] = 0;
     this.grid.insert(slot, a, b);
     this.size++;
   }
@@ -315,9 +371,36 @@ class SidePool {
   remove(slot: number): void {
     this.slotOcc[slot] = -1;
     this.slotSerial[slot] = 0;
+    this.candLen[slot] = 0;
     this.grid.remove(slot);
     this.free.push(slot);
     this.size--;
+  }
+
+  /**
+   * The (supply) unit at `slot` is leaving: each demand of `dem` its list holds a live
+   * entry for has one pair fewer. Call before {@link remove}.
+   */
+  dropCands(slot: number, dem: SidePool): void {
+    const ds = this.candSlot[slot]!, val = this.candValue[slot]!;
+    const n = this.candLen[slot]!;
+    const serial = dem.slotSerial, deg = dem.deg;
+    for (let k = 0; k < n; k++) {
+      const d = ds[k]!;
+      if (serial[d] === val[2 * k + 1]) deg[d]!--;
+    }
+    this.candLen[slot] = 0;
+  }
+
+  /** Makes room for more than `n` candidates at `slot`, keeping the first n. */
+  growCand(slot: number, n: number): void {
+    const size = Math.max(16, n * 2);
+    const ds = new Int32Array(size);
+    ds.set(this.candSlot[slot]!.subarray(0, n));
+    this.candSlot[slot] = ds;
+    const val = new Float64Array(2 * size);
+    val.set(this.candValue[slot]!.subarray(0, 2 * n));
+    this.candValue[slot] = val;
   }
 }
 
@@ -344,13 +427,15 @@ class MarketState {
    */
   readonly retire = new KeyedHeap();
   /**
-   * Reported occurrences keyed by the last-closed epoch past their end plus the
-   * lateness (pushed again when the end moves earlier): from then on no accepted event
-   * can concern them, so they leave the snapshot, though their index waits in `retire`.
+   * A reported occurrence falls quiet at its end plus the lateness (again, earlier, when
+   * its end moves earlier): from the first {@link WindowEngine.retireDue} whose limit
+   * reaches that key, no accepted event can concern it, so it leaves the snapshot,
+   * though its index waits in `retire`. The keys are kept per occurrence (see
+   * `quietOld`/`quietNew`) instead of in a heap, as only this test reads them: calls of
+   * retireDue so far, and the limit of the last one.
    */
-  readonly quiet = new KeyedHeap();
-  /** Reported occurrences out of `quiet` whose index still waits in `retire`. */
-  readonly forgotten = new Set<number>();
+  retireCalls = 0;
+  retiredThrough = -Infinity;
   /** Something changed since the last solve that can change the optimum. */
   dirty = false;
   /** Late events since the last epoch record. */
@@ -457,13 +542,15 @@ export class WindowEngine {
   private maxKey: Float64Array = new Float64Array(1024).fill(-Infinity);
   private nextSerial = 1;
   /**
-   * Supply only: allowed demand seen so far, flat [demand pool slot, travelMin, serial, ...]
-   * (an entry is live while that slot holds that serial);
-   * stale entries (left the pool, or the index reused) are dropped at use. Kept on the
-   * supply side so a solve can lay out each row's pairs in column order by counting,
-   * without sorting.
+   * Quiet keys of a reported occurrence (see {@link MarketState.retireCalls}): the least
+   * pushed before its market's retireDue call number `quietCall`, and the least pushed
+   * since (+Infinity for none).
    */
-  private cand: Array<number[] | undefined> = [];
+  private quietOld: Float64Array = new Float64Array(1024).fill(Infinity);
+  private quietNew: Float64Array = new Float64Array(1024).fill(Infinity);
+  private quietCall: Float64Array = new Float64Array(1024);
+  /** Capability bits of every tag seen (see {@link SidePool.slotMask}). */
+  private readonly tags = new TagBits();
 
   // Solve buffers, reused across epochs.
   private rowPtr: Int32Array = new Int32Array(64);
@@ -482,8 +569,8 @@ export class WindowEngine {
   private cursor: Int32Array = new Int32Array(64);
   private nRows = 0;
   private nCols = 0;
-  private readonly qIds: number[] = [];
-  private readonly qDist: number[] = [];
+  /** Grid cells of one candidate scan (see {@link scanPairs}). */
+  private readonly qBuckets: number[][] = [];
   private readonly batch: number[] = [];
   private readonly bySeq = (x: number, y: number): number => {
     const a = this.ledger.occurrences[x]!, b = this.ledger.occurrences[y]!;
@@ -651,7 +738,7 @@ export class WindowEngine {
       }
       const bySeq = (x: [number, number], y: [number, number]): number => x[0] - y[0] || this.bySeq(x[1], y[1]);
       for (const [key, id] of m.pending.entries().sort(bySeq)) add(id, COL_PENDING, key);
-      for (const [, id] of m.retire.entries().sort(bySeq)) if (!m.forgotten.has(id)) add(id, COL_DONE, 0);
+      for (const [, id] of m.retire.entries().sort(bySeq)) if (!this.isQuiet(m, id)) add(id, COL_DONE, 0);
       for (let slot = 0; slot < m.demand.high; slot++) {
         const d = m.demand.slotOcc[slot]!;
         if (d >= 0 && this.partner[d]! >= 0) tentative.push([at.get(d)!, at.get(this.partner[d]!)!]);
@@ -781,6 +868,9 @@ export class WindowEngine {
       this.partner = growI32(this.partner, size, -1);
       this.serial = growF64(this.serial, size, 0);
       this.maxKey = growF64(this.maxKey, size, -Infinity);
+      this.quietOld = growF64(this.quietOld, size, Infinity);
+      this.quietNew = growF64(this.quietNew, size, Infinity);
+      this.quietCall = growF64(this.quietCall, size, 0);
     }
     this.state[index] = 0;
     this.slotOf[index] = -1;
@@ -788,7 +878,8 @@ export class WindowEngine {
     this.partner[index] = -1;
     this.serial[index] = this.nextSerial++;
     this.maxKey[index] = -Infinity;
-    this.cand[index] = undefined;
+    this.quietOld[index] = Infinity;
+    this.quietNew[index] = Infinity;
   }
 
   /** Pushes a trigger for an occurrence and schedules its market. */
@@ -809,33 +900,46 @@ export class WindowEngine {
       this.push(m, m.expiry, Math.max(this.epochAfter(occ.end), m.lastClosed + this.W), occ.index);
     } else if (this.bounded && (st === ST_MATCHED || st === ST_GONE)) {
       // A reported occurrence ended earlier (its courier is back after the job): it
-      // falls quiet sooner. Its earlier entry stays; it is skipped when it comes up.
-      m.quiet.push(occ.end + this.L + 1, occ.index);
+      // falls quiet sooner (its retire key stays: an index waits for its last trigger).
+      this.quietAt(m, occ.index, occ.end + this.L + 1);
     }
+  }
+
+  /** Records a quiet key for a reported occurrence (the heap push it replaces). */
+  private quietAt(m: MarketState, id: number, key: number): void {
+    if (this.quietCall[id] !== m.retireCalls) {
+      // Keys pushed before a retireDue call count from that call on.
+      if (this.quietNew[id]! < this.quietOld[id]!) this.quietOld[id] = this.quietNew[id]!;
+      this.quietNew[id] = key;
+      this.quietCall[id] = m.retireCalls;
+    } else if (key < this.quietNew[id]!) {
+      this.quietNew[id] = key;
+    }
+  }
+
+  /** Whether a retireDue call has already passed a quiet key of reported occurrence `id`. */
+  private isQuiet(m: MarketState, id: number): boolean {
+    const before = this.quietCall[id] !== m.retireCalls ? Math.min(this.quietOld[id]!, this.quietNew[id]!) : this.quietOld[id]!;
+    return before <= m.retiredThrough;
   }
 
   /** A reported occurrence can be forgotten once the horizon and all its triggers have passed. */
   private retireLater(m: MarketState, id: number): void {
     if (!this.bounded) return;
     const o = this.ledger.occurrences[id]!;
-    m.quiet.push(o.end + this.L + 1, id);
+    this.quietAt(m, id, o.end + this.L + 1);
     m.retire.push(Math.max(o.end + this.L + 1, this.maxKey[id]!), id);
   }
 
   /** Forgets the reported occurrences of `m` that no accepted event can concern any more. */
   private retireDue(m: MarketState): void {
-    // Quiet first: a `quiet` key of an occurrence is never above its `retire` key (an
-    // end only moves earlier), so no quiet entry outlives its index.
-    while (m.quiet.size > 0 && m.quiet.peekKey() <= m.lastClosed) {
-      const id = m.quiet.pop();
-      const st = this.state[id];
-      if (st === ST_MATCHED || st === ST_GONE) m.forgotten.add(id);
-    }
+    // Quiet keys up to the limit now count (isQuiet): a quiet key of an occurrence is
+    // never above its `retire` key (an end only moves earlier), so none outlives its index.
+    m.retireCalls++;
+    m.retiredThrough = m.lastClosed;
     while (m.retire.size > 0 && m.retire.peekKey() <= m.lastClosed) {
       const id = m.retire.pop();
-      m.forgotten.delete(id);
       this.state[id] = 0;
-      this.cand[id] = undefined;
       this.ledger.release(id);
     }
   }
@@ -895,14 +999,14 @@ export class WindowEngine {
     // events alone.
     batch.length = 0;
     while (m.pending.peekKey() <= tau) batch.push(m.pending.pop());
-    if (batch.length > 1) batch.sort(this.bySeq);
+    if (batch.length > 1) this.sortBySeq(batch);
     for (const id of batch) this.join(m, id, tau);
     batch.length = 0;
     while (m.expiry.peekKey() <= tau) {
       const id = m.expiry.pop();
       if (this.state[id] === ST_POOL && occs[id]!.end < tau) batch.push(id);
     }
-    if (batch.length > 1) batch.sort(this.bySeq);
+    if (batch.length > 1) this.sortBySeq(batch);
     for (let k = 0; k < batch.length; k++) {
       // A unit with two due entries appears twice, side by side after the sort.
       if (k > 0 && batch[k] === batch[k - 1]) continue;
@@ -915,6 +1019,32 @@ export class WindowEngine {
     if (m.dirty && m.demand.size > 0 && m.supply.size > 0) this.solve(m, tau);
     m.dirty = false;
     m.lastClosed = tau;
+  }
+
+  /**
+   * Sorts a batch of occurrence indices by (t, seq), stably, as `Array.prototype.sort`
+   * with {@link bySeq} would; a batch of a window is short, and sorting it in place
+   * allocates nothing.
+   */
+  private sortBySeq(batch: number[]): void {
+    const n = batch.length;
+    if (n > 32) {
+      batch.sort(this.bySeq);
+      return;
+    }
+    const occs = this.ledger.occurrences;
+    for (let i = 1; i < n; i++) {
+      const id = batch[i]!;
+      const o = occs[id]!;
+      const t = o.t, seq = o.seq;
+      let j = i - 1;
+      for (; j >= 0; j--) {
+        const p = occs[batch[j]!]!;
+        if (p.t < t || (p.t === t && p.seq <= seq)) break;
+        batch[j + 1] = batch[j]!;
+      }
+      batch[j + 1] = id;
+    }
   }
 
   private coords(o: Occurrence): [number, number] {
@@ -942,39 +1072,95 @@ export class WindowEngine {
     this.state[id] = ST_POOL;
     // Under "due" only a unit at its last chance can make a pair executable.
     if (!this.due || o.until < from) m.dirty = true;
-    const [a, b] = this.coords(o);
+    const a = (this.haversine ? o.lat : o.x) ?? NaN;
+    const b = (this.haversine ? o.lon : o.y) ?? NaN;
+    const ser = this.serial[id]!;
+    const demand = o.side === 'demand';
+    // A pair is allowed when (demand needs) AND (supply lacks) is 0: each side keeps its half.
+    const mask = demand ? this.tags.maskOf(o.needs) : ~this.tags.maskOf(o.has);
+    const own = demand ? m.demand : m.supply;
+    if (slot >= 0) own.place(id, ser, slot, a, b, mask);
+    else slot = own.add(id, ser, a, b, mask);
+    this.slotOf[id] = slot;
+    own.slotT[slot] = o.t;
+    own.slotUntil[slot] = o.until;
+    this.scanPairs(m, o, demand, slot, a, b, mask, ser);
+    if (demand ? this.demandLastChanceMatters : this.due) this.pushLastChance(m, o, from);
+    this.push(m, m.expiry, Math.max(this.epochAfter(o.end), from), id);
+  }
+
+  /**
+   * Records the allowed pairs of a unit that just took `slot` of its side's pool (at
+   * (a, b), capability half `mask`, serial `ser`) with every unit of the other side
+   * within the query radius, exactly as a grid query would find them, on the supply
+   * side's candidate lists. The order pairs are found in does not matter: each supply
+   * list gets at most one entry per demand, and a solve orders rows by counting.
+   */
+  private scanPairs(m: MarketState, o: Occurrence, demand: boolean, slot: number, a: number, b: number, mask: number, ser: number): void {
+    const other = demand ? m.supply : m.demand;
+    const buckets = this.qBuckets;
+    const nb = other.grid.bucketsNear(a, b, this.queryKm, buckets);
+    if (nb === 0) return;
+    const sup = m.supply;
+    const r = this.queryKm;
     const speed = this.config.speedKmh;
     const maxTravel = this.config.maxTravelMin;
-    const occs = this.ledger.occurrences;
-    const serial = this.serial;
-    if (o.side === 'demand') {
-      const did = serial[id]!;
-      if (slot >= 0) m.demand.place(id, did, slot, a, b);
-      else slot = m.demand.add(id, did, a, b);
-      this.slotOf[id] = slot;
-      const n = m.supply.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
-      for (let k = 0; k < n; k++) {
-        const s = m.supply.slotOcc[this.qIds[k]!]!;
-        const tr = travelMin(this.qDist[k]!, speed);
-        if (tr <= maxTravel && capabilitiesAllow(o.needs, occs[s]!.has)) this.cand[s]!.push(slot, tr, did);
+    const sphere = this.haversine;
+    const twoR = 2 * other.grid.earthRadiusKm;
+    const cosA = Math.cos(a * DEG);
+    const oa = other.slotA, ob = other.slotB, oc = other.slotCos, om = other.slotMask, oSerial = other.slotSerial;
+    const { candSlot, candValue, candLen } = sup;
+    const deg = m.demand.deg;
+    // Past 31 distinct tags the masks may leave some out: the lists decide.
+    const byLists = this.tags.overflow;
+    // A joining supply fills its own (emptied) list; a joining demand appends to each supply's.
+    let n = 0;
+    for (let k = 0; k < nb; k++) {
+      const bucket = buckets[k]!;
+      for (let i = 0; i < bucket.length; i++) {
+        const p = bucket[i]!;
+        if (byLists) {
+          const q = this.ledger.occurrences[other.slotOcc[p]!]!;
+          if (!(demand ? capabilitiesAllow(o.needs, q.has) : capabilitiesAllow(q.needs, o.has))) continue;
+        } else if ((om[p]! & mask) !== 0) {
+          continue;
+        }
+        // The grid's distance (sphereKm / planeKm) and travelMin, written out so that
+        // they compile into this loop; a test holds the scan to queryInto bit for bit.
+        let d: number;
+        if (sphere) {
+          const sLat = Math.sin(((oa[p]! - a) * DEG) / 2);
+          const sLon = Math.sin(((ob[p]! - b) * DEG) / 2);
+          let h = sLat * sLat + cosA * oc[p]! * sLon * sLon;
+          if (h > 1) h = 1;
+          // See sphereKm: atan(y / x) is atan2(y, x) to the last bit while y ≤ x.
+          d = twoR * (h <= 0.5 ? Math.atan(Math.sqrt(h) / Math.sqrt(1 - h)) : Math.atan2(Math.sqrt(h), Math.sqrt(1 - h)));
+        } else {
+          d = Math.hypot(oa[p]! - a, ob[p]! - b);
+        }
+        if (!(d <= r)) continue;
+        const tr = (d / speed) * 60;
+        if (!(tr <= maxTravel)) continue;
+        const at = demand ? p : slot;
+        const dSlot = demand ? slot : p;
+        const len = demand ? candLen[p]! : n;
+        if (len === candSlot[at]!.length) sup.growCand(at, len);
+        candSlot[at]![len] = dSlot;
+        const val = candValue[at]!;
+        val[2 * len] = tr;
+        val[2 * len + 1] = demand ? ser : oSerial[p]!;
+        if (demand) {
+          candLen[p] = len + 1;
+          n++;
+        } else {
+          n = len + 1;
+          deg[p]!++;
+        }
       }
-      if (this.demandLastChanceMatters) this.pushLastChance(m, o, from);
-    } else {
-      if (slot >= 0) m.supply.place(id, serial[id]!, slot, a, b);
-      else slot = m.supply.add(id, serial[id]!, a, b);
-      this.slotOf[id] = slot;
-      const list: number[] = [];
-      const n = m.demand.grid.queryInto(a, b, this.queryKm, this.qIds, this.qDist);
-      for (let k = 0; k < n; k++) {
-        const dSlot = this.qIds[k]!;
-        const d = m.demand.slotOcc[dSlot]!;
-        const tr = travelMin(this.qDist[k]!, speed);
-        if (tr <= maxTravel && capabilitiesAllow(occs[d]!.needs, o.has)) list.push(dSlot, tr, serial[d]!);
-      }
-      this.cand[id] = list;
-      if (this.due) this.pushLastChance(m, o, from);
     }
-    this.push(m, m.expiry, Math.max(this.epochAfter(o.end), from), id);
+    if (demand) deg[slot]! += n;
+    else candLen[slot] = n;
+    buckets.fill(NO_BUCKET, 0, nb);
   }
 
   private pushLastChance(m: MarketState, o: Occurrence, from: number): void {
@@ -986,9 +1172,14 @@ export class WindowEngine {
   private removeFromPool(m: MarketState, o: Occurrence, next: number): void {
     const id = o.index;
     this.state[id] = next;
-    (o.side === 'demand' ? m.demand : m.supply).remove(this.slotOf[id]!);
+    const slot = this.slotOf[id]!;
+    if (o.side === 'demand') {
+      m.demand.remove(slot);
+    } else {
+      m.supply.dropCands(slot, m.demand);
+      m.supply.remove(slot);
+    }
     this.slotOf[id] = -1;
-    this.cand[id] = undefined;
     const p = this.partner[id]!;
     if (p >= 0) {
       this.partner[p] = -1;
@@ -1078,7 +1269,6 @@ export class WindowEngine {
    * and tentative pairs as the warm start.
    */
   private pack(m: MarketState, tau: number): SparseInstance {
-    const occs = this.ledger.occurrences;
     const dem = m.demand;
     const sup = m.supply;
     const st = this.state, slotOf = this.slotOf, partner = this.partner;
@@ -1091,66 +1281,72 @@ export class WindowEngine {
     this.delta = growF64(this.delta, dem.size);
     this.rowPrices = growF64(this.rowPrices, dem.size);
     this.rowWait = growF64(this.rowWait, dem.size);
-    const { rowOfSlot, rowOcc, delta, rowPrices, rowWait } = this;
+    const { rowOfSlot, rowOcc, delta, rowPrices, rowWait, rowPtr } = this;
     let nRows = 0;
     for (let slot = 0; slot < dem.high; slot++) {
       const d = dem.slotOcc[slot]!;
       if (d < 0) continue;
-      const od = occs[d]!;
       rowOfSlot[slot] = nRows;
       rowOcc[nRows] = d;
-      rowWait[nRows] = waitPerMs * (tau - od.t);
-      delta[nRows] = od.until < lastChanceBefore ? this.P : this.R;
+      rowWait[nRows] = waitPerMs * (tau - dem.slotT[slot]!);
+      delta[nRows] = dem.slotUntil[slot]! < lastChanceBefore ? this.P : this.R;
       rowPrices[nRows] = this.price[d]!;
+      rowPtr[nRows + 1] = dem.deg[slot]!;
       nRows++;
     }
-    // Columns: the supply pool in slot order; count each row's live pairs, dropping stale ones.
-    this.colOfSlot = growI32(this.colOfSlot, sup.high);
-    this.colOcc = growI32(this.colOcc, sup.size);
-    this.colPrices = growF64(this.colPrices, sup.size);
-    this.rowPtr.fill(0, 0, nRows + 1);
-    const { colOfSlot, colOcc, colPrices, rowPtr } = this;
-    let nCols = 0;
-    let nnz = 0;
-    for (let slot = 0; slot < sup.high; slot++) {
-      const s = sup.slotOcc[slot]!;
-      if (s < 0) continue;
-      colOfSlot[slot] = nCols;
-      colOcc[nCols] = s;
-      colPrices[nCols] = this.price[s]!;
-      nCols++;
-      const list = this.cand[s]!;
-      const slotSerial = dem.slotSerial;
-      let w = 0;
-      for (let k = 0; k < list.length; k += 3) {
-        const dSlot = list[k]!;
-        if (slotSerial[dSlot] !== list[k + 2]) continue;
-        list[w] = dSlot;
-        list[w + 1] = list[k + 1]!;
-        list[w + 2] = list[k + 2]!;
-        w += 3;
-        rowPtr[rowOfSlot[dSlot]! + 1]!++;
-      }
-      if (w !== list.length) list.length = w;
-      nnz += w / 3;
-    }
+    rowPtr[0] = 0;
     for (let r = 0; r < nRows; r++) rowPtr[r + 1]! += rowPtr[r]!;
-    // Place the pairs column by column: each row receives its columns in increasing order.
+    const nnz = rowPtr[nRows]!;
     this.colIdx = growI32(this.colIdx, nnz);
     this.cost = growF64(this.cost, nnz);
     this.travel = growF64(this.travel, nnz);
     this.cursor = growI32(this.cursor, nRows);
     const { colIdx, cost, travel, cursor } = this;
     for (let r = 0; r < nRows; r++) cursor[r] = rowPtr[r]!;
-    for (let j = 0; j < nCols; j++) {
-      const list = this.cand[colOcc[j]!]!;
-      for (let k = 0; k < list.length; k += 3) {
-        const r = rowOfSlot[list[k]!]!;
+    // Columns: the supply pool in slot order. Each live pair goes to the next place of its
+    // row, so each row receives its columns in increasing order; stale entries are dropped.
+    this.colOfSlot = growI32(this.colOfSlot, sup.high);
+    this.colOcc = growI32(this.colOcc, sup.size);
+    this.colPrices = growF64(this.colPrices, sup.size);
+    const { colOfSlot, colOcc, colPrices } = this;
+    const { candSlot, candValue, candLen } = sup;
+    const slotSerial = dem.slotSerial;
+    let nCols = 0;
+    for (let slot = 0; slot < sup.high; slot++) {
+      const s = sup.slotOcc[slot]!;
+      if (s < 0) continue;
+      const j = nCols++;
+      colOfSlot[slot] = j;
+      colOcc[j] = s;
+      colPrices[j] = this.price[s]!;
+      const ds = candSlot[slot]!, val = candValue[slot]!;
+      const len = candLen[slot]!;
+      let w = 0;
+      for (let k = 0; k < len; k++) {
+        const dSlot = ds[k]!;
+        const dSerial = val[2 * k + 1]!;
+        if (slotSerial[dSlot] !== dSerial) continue;
+        const t = val[2 * k]!;
+        if (w !== k) {
+          ds[w] = dSlot;
+          val[2 * w] = t;
+          val[2 * w + 1] = dSerial;
+        }
+        w++;
+        const r = rowOfSlot[dSlot]!;
         const e = cursor[r]!++;
-        const tr = list[k + 1]!;
         colIdx[e] = j;
-        travel[e] = tr;
-        cost[e] = tr + rowWait[r]!;
+        travel[e] = t;
+        cost[e] = t + rowWait[r]!;
+      }
+      candLen[slot] = w;
+    }
+    // The counts kept as pairs came and went must be what the lists hold.
+    for (let r = 0; r < nRows; r++) {
+      if (cursor[r] !== rowPtr[r + 1]) {
+        throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', {
+          detail: `market ${m.name} epoch ${tau}: row ${r} holds ${cursor[r]! - rowPtr[r]!} pairs, counted ${rowPtr[r + 1]! - rowPtr[r]!}`,
+        });
       }
     }
     this.warmPairs = growI32(this.warmPairs, nRows);

@@ -41,6 +41,8 @@ const MAX_COLS = 2 ** 21;
 const HALF = 2 ** 25;
 /** Rounding slack on the cell ranges (degrees); the exact distance check follows. */
 const PAD_DEG = 1e-9;
+/** Placeholder for emptied scratch entries. */
+const EMPTY_BUCKET: number[] = [];
 
 /**
  * Points with non-negative integer ids (occurrence indices) in cells.
@@ -59,7 +61,16 @@ export class SpatialGrid {
   /** Haversine: longitude cells per band, filled lazily. */
   private readonly rowCols: Int32Array;
 
+  /**
+   * Points by cell key. A cell that empties keeps its (empty) array, so points moving
+   * in and out of a cell allocate nothing; empty cells are swept out when they
+   * outnumber the occupied ones (see {@link remove}).
+   */
   private readonly cells = new Map<number, number[]>();
+  /** Cells in `cells` holding at least one point. */
+  private occupied = 0;
+  /** Points without a finite location (held, never found). */
+  private readonly unplaced: number[] = [];
   /** Per id: coordinates, cos(lat) for haversine, cell key (NaN = absent, -1 = no location), slot in its cell. */
   private pa: Float64Array = new Float64Array(0);
   private pb: Float64Array = new Float64Array(0);
@@ -90,6 +101,11 @@ export class SpatialGrid {
     return g;
   }
 
+  /** The sphere radius distances are measured on (haversine). */
+  get earthRadiusKm(): number {
+    return this.radius;
+  }
+
   /** Number of points held. */
   get size(): number {
     return this.count;
@@ -111,18 +127,19 @@ export class SpatialGrid {
     if (this.haversine) {
       this.pa[id] = a;
       this.pb[id] = b;
-      this.pc[id] = Math.cos(a * DEG);
+      this.pc[id] = cosDeg(a);
       k = Number.isFinite(a) && Number.isFinite(b) ? this.cellKeyDeg(a, b) : -1;
     } else {
       this.pa[id] = a;
       this.pb[id] = b;
       k = Number.isFinite(a) && Number.isFinite(b) ? this.cellKeyKm(a, b) : -1;
     }
-    let bucket = this.cells.get(k);
+    let bucket = k < 0 ? this.unplaced : this.cells.get(k);
     if (bucket === undefined) {
       bucket = [];
       this.cells.set(k, bucket);
     }
+    if (bucket.length === 0 && k >= 0) this.occupied++;
     this.key[id] = k;
     this.slot[id] = bucket.length;
     bucket.push(id);
@@ -133,14 +150,19 @@ export class SpatialGrid {
   remove(id: number): boolean {
     if (!this.has(id)) return false;
     const k = this.key[id]!;
-    const bucket = this.cells.get(k)!;
+    const bucket = k < 0 ? this.unplaced : this.cells.get(k)!;
     const at = this.slot[id]!;
     const last = bucket.pop()!;
     if (last !== id) {
       bucket[at] = last;
       this.slot[last] = at;
     }
-    if (bucket.length === 0) this.cells.delete(k);
+    if (bucket.length === 0 && k >= 0) {
+      this.occupied--;
+      if (this.cells.size > 2 * this.occupied + 64) {
+        for (const [ck, b] of this.cells) if (b.length === 0) this.cells.delete(ck);
+      }
+    }
     this.key[id] = NaN;
     this.count--;
     return true;
@@ -153,9 +175,59 @@ export class SpatialGrid {
    * and removes.
    */
   queryInto(a: number, b: number, radiusKm: number, outIds: number[], outDist: number[]): number {
-    if (!(radiusKm >= 0) || !Number.isFinite(a) || !Number.isFinite(b)) return 0;
-    return this.haversine ? this.querySphere(a, b, radiusKm, outIds, outDist) : this.queryPlane(a, b, radiusKm, outIds, outDist);
+    const buckets = this.scratch;
+    const nb = this.bucketsNear(a, b, radiusKm, buckets);
+    let found = 0;
+    if (this.haversine) {
+      const cosLat = Math.cos(a * DEG);
+      const twoR = 2 * this.radius;
+      const pa = this.pa, pb = this.pb, pc = this.pc;
+      for (let k = 0; k < nb; k++) {
+        const bucket = buckets[k]!;
+        for (let i = 0; i < bucket.length; i++) {
+          const id = bucket[i]!;
+          const d = sphereKm(a, b, cosLat, pa[id]!, pb[id]!, pc[id]!, twoR);
+          if (d <= radiusKm) {
+            outIds[found] = id;
+            outDist[found] = d;
+            found++;
+          }
+        }
+      }
+    } else {
+      const pa = this.pa, pb = this.pb;
+      for (let k = 0; k < nb; k++) {
+        const bucket = buckets[k]!;
+        for (let i = 0; i < bucket.length; i++) {
+          const id = bucket[i]!;
+          const d = planeKm(a, b, pa[id]!, pb[id]!);
+          if (d <= radiusKm) {
+            outIds[found] = id;
+            outDist[found] = d;
+            found++;
+          }
+        }
+      }
+    }
+    buckets.fill(EMPTY_BUCKET, 0, nb);
+    return found;
   }
+
+  /**
+   * The cells a query of `radiusKm` around (a, b) must look at: writes their id lists
+   * (the grid's own arrays: read them, never change them, and drop them before the next
+   * insert or remove) to `out` from index 0 and returns how many. Every point within the
+   * radius is in one of them, others may be too: a caller that checks each point with
+   * {@link sphereKm} or {@link planeKm} against the radius finds exactly what
+   * {@link queryInto} finds, to the last bit of each distance. Empty cells are left out.
+   */
+  bucketsNear(a: number, b: number, radiusKm: number, out: number[][]): number {
+    if (!(radiusKm >= 0) || !Number.isFinite(a) || !Number.isFinite(b)) return 0;
+    return this.haversine ? this.cellsOfCap(a, b, radiusKm, out) : this.cellsOfSquare(a, b, radiusKm, out);
+  }
+
+  /** Reused by {@link queryInto}; emptied after each query so it keeps no bucket alive. */
+  private readonly scratch: number[][] = [];
 
   private ensure(id: number): void {
     if (id < this.key.length) return;
@@ -214,7 +286,7 @@ export class SpatialGrid {
     return (this.cellIndexKm(x) + HALF) * 2 * HALF + (this.cellIndexKm(y) + HALF);
   }
 
-  private querySphere(lat: number, lon: number, r: number, outIds: number[], outDist: number[]): number {
+  private cellsOfCap(lat: number, lon: number, r: number, out: number[][]): number {
     const rho = r / this.radius;
     const rhoDeg = rho / DEG + PAD_DEG;
     const latLo = lat - rhoDeg;
@@ -227,16 +299,11 @@ export class SpatialGrid {
       const s = Math.sin(rho) / Math.cos(lat * DEG);
       if (s < 1) dLon = Math.asin(s) / DEG * (1 + 1e-9) + PAD_DEG;
     }
-    let found = 0;
-    // A huge radius over few points: scanning the occupied cells beats walking the range.
+    let nb = 0;
+    // A huge radius over few points: taking the occupied cells beats walking the range.
     let visits = 0;
     for (let row = r0; row <= r1; row++) visits += this.colRange(row, lon, dLon, 1);
-    if (visits > 4 * this.cells.size) {
-      for (const [k, bucket] of this.cells) {
-        if (k >= 0) found = this.scanSphere(bucket, lat, lon, r, outIds, outDist, found);
-      }
-      return found;
-    }
+    if (visits > 4 * this.occupied) return this.occupiedCells(out);
     for (let row = r0; row <= r1; row++) {
       const n = this.colsOf(row);
       const c0 = this.colRange(row, lon, dLon, 0);
@@ -244,10 +311,10 @@ export class SpatialGrid {
       for (let c = c0; c <= c1; c++) {
         const col = ((c % n) + n) % n;
         const bucket = this.cells.get(row * COLS + col);
-        if (bucket !== undefined) found = this.scanSphere(bucket, lat, lon, r, outIds, outDist, found);
+        if (bucket !== undefined && bucket.length > 0) out[nb++] = bucket;
       }
     }
-    return found;
+    return nb;
   }
 
   /** For a band: what 0 = first column, 1 = column count, 2 = last column (unwrapped) a query covers. */
@@ -266,66 +333,56 @@ export class SpatialGrid {
     return what === 0 ? c0 : what === 2 ? c1 : c1 - c0 + 1;
   }
 
-  private scanSphere(bucket: number[], lat: number, lon: number, r: number, outIds: number[], outDist: number[], found: number): number {
-    const pa = this.pa, pb = this.pb, pc = this.pc;
-    const twoR = 2 * this.radius;
-    const cosLat = Math.cos(lat * DEG);
-    for (let i = 0; i < bucket.length; i++) {
-      const id = bucket[i]!;
-      // haversineKm(lat, lon, pointLat, pointLon) term by term, so that the grid and a
-      // brute-force scan agree to the last bit at the radius boundary.
-      const sLat = Math.sin(((pa[id]! - lat) * DEG) / 2);
-      const sLon = Math.sin(((pb[id]! - lon) * DEG) / 2);
-      let h = sLat * sLat + cosLat * pc[id]! * sLon * sLon;
-      if (h > 1) h = 1;
-      const d = twoR * Math.atan2(Math.sqrt(h), Math.sqrt(1 - h));
-      if (d <= r) {
-        outIds[found] = id;
-        outDist[found] = d;
-        found++;
-      }
-    }
-    return found;
+  /** Every occupied cell (a query wider than the points held). */
+  private occupiedCells(out: number[][]): number {
+    let nb = 0;
+    for (const bucket of this.cells.values()) if (bucket.length > 0) out[nb++] = bucket;
+    return nb;
   }
 
-  private queryPlane(x: number, y: number, r: number, outIds: number[], outDist: number[]): number {
+  private cellsOfSquare(x: number, y: number, r: number, out: number[][]): number {
     const ix0 = this.cellIndexKm(x - r), ix1 = this.cellIndexKm(x + r);
     const iy0 = this.cellIndexKm(y - r), iy1 = this.cellIndexKm(y + r);
-    const pa = this.pa, pb = this.pb;
-    let found = 0;
-    // A huge radius over few points: scanning every cell beats walking the key range.
-    if ((ix1 - ix0 + 1) * (iy1 - iy0 + 1) > 4 * this.cells.size) {
-      for (const [k, bucket] of this.cells) {
-        if (k < 0) continue;
-        found = this.scanPlane(bucket, x, y, r, pa, pb, outIds, outDist, found);
-      }
-      return found;
-    }
+    let nb = 0;
+    // A huge radius over few points: taking every occupied cell beats walking the key range.
+    if ((ix1 - ix0 + 1) * (iy1 - iy0 + 1) > 4 * this.occupied) return this.occupiedCells(out);
     for (let ix = ix0; ix <= ix1; ix++) {
       const base = (ix + HALF) * 2 * HALF + HALF;
       for (let iy = iy0; iy <= iy1; iy++) {
         const bucket = this.cells.get(base + iy);
-        if (bucket !== undefined) found = this.scanPlane(bucket, x, y, r, pa, pb, outIds, outDist, found);
+        if (bucket !== undefined && bucket.length > 0) out[nb++] = bucket;
       }
     }
-    return found;
+    return nb;
   }
+}
 
-  private scanPlane(
-    bucket: number[], x: number, y: number, r: number, pa: Float64Array, pb: Float64Array,
-    outIds: number[], outDist: number[], found: number,
-  ): number {
-    for (let i = 0; i < bucket.length; i++) {
-      const id = bucket[i]!;
-      const d = Math.hypot(pa[id]! - x, pb[id]! - y);
-      if (d <= r) {
-        outIds[found] = id;
-        outDist[found] = d;
-        found++;
-      }
-    }
-    return found;
-  }
+/**
+ * Great-circle distance in km from a query point (lat, lon) in degrees, with
+ * `cosLat = Math.cos(lat · π/180)`, to a point (pLat, pLon) with `pCos` likewise, on a
+ * sphere of diameter `twoR`: haversineKm(lat, lon, pLat, pLon) term by term, so that
+ * a grid query and a brute-force scan agree to the last bit at the radius boundary.
+ */
+export function sphereKm(lat: number, lon: number, cosLat: number, pLat: number, pLon: number, pCos: number, twoR: number): number {
+  const sLat = Math.sin(((pLat - lat) * DEG) / 2);
+  const sLon = Math.sin(((pLon - lon) * DEG) / 2);
+  let h = sLat * sLat + cosLat * pCos * sLon * sLon;
+  if (h > 1) h = 1;
+  // For 0 ≤ y ≤ x (h ≤ 1/2: every distance up to a quarter of the circumference),
+  // fdlibm's atan2 (V8's Math.atan2) reduces to atan(y / x) and returns it unchanged
+  // (from memory of fdlibm's e_atan2.c); calling atan directly gives the same bits at
+  // about half the cost. Tests hold this to haversineKm bit for bit.
+  return twoR * (h <= 0.5 ? Math.atan(Math.sqrt(h) / Math.sqrt(1 - h)) : Math.atan2(Math.sqrt(h), Math.sqrt(1 - h)));
+}
+
+/** Plane distance in km from (x, y) to (px, py), as the grid measures it. */
+export function planeKm(x: number, y: number, px: number, py: number): number {
+  return Math.hypot(px - x, py - y);
+}
+
+/** `Math.cos(latDeg · π/180)`, as the grid keeps it per point for {@link sphereKm}. */
+export function cosDeg(latDeg: number): number {
+  return Math.cos(latDeg * DEG);
 }
 
 /**

@@ -65,8 +65,11 @@ export class OccurrenceLedger {
   ignoredWithdraws = 0;
 
   private readonly config: PairflowConfig;
-  /** Per unit (side, market, id): the index of its occurrence with the largest `t`. */
-  private readonly tails = new Map<string, Map<string, number>>();
+  /**
+   * Per unit (side, market, id): the index of its occurrence with the largest `t`, by
+   * market, then side (demand, supply), then id.
+   */
+  private readonly tails = new Map<string, [Map<string, number>, Map<string, number>]>();
   /** prev[i] / next[i]: the unit's occurrence before / after occurrence i in time, or -1. */
   private prev: Int32Array = new Int32Array(1024);
   private next: Int32Array = new Int32Array(1024);
@@ -87,7 +90,7 @@ export class OccurrenceLedger {
   /** The unit's occurrences, oldest first (for tests and diagnostics). */
   historyOf(side: Side, market: string, id: string): Occurrence[] {
     const out: Occurrence[] = [];
-    let i = this.tails.get(keyOf(side, market))?.get(id) ?? -1;
+    let i = this.tails.get(market)?.[side === 'supply' ? 1 : 0].get(id) ?? -1;
     while (i >= 0) {
       out.push(this.occurrences[i]!);
       i = this.prev[i]!;
@@ -169,13 +172,12 @@ export class OccurrenceLedger {
   }
 
   private unitsOf(side: Side, market: string): Map<string, number> {
-    const key = keyOf(side, market);
-    let units = this.tails.get(key);
-    if (units === undefined) {
-      units = new Map();
-      this.tails.set(key, units);
+    let sides = this.tails.get(market);
+    if (sides === undefined) {
+      sides = [new Map(), new Map()];
+      this.tails.set(market, sides);
     }
-    return units;
+    return sides[side === 'supply' ? 1 : 0];
   }
 
   private arrive(ev: ArrivalEvent, seq: number): LedgerOutcome {
@@ -234,10 +236,6 @@ export class OccurrenceLedger {
     if (changed) occ.end = w;
     return { kind: 'withdraw', ended: occ, changed };
   }
-}
-
-function keyOf(side: Side, market: string): string {
-  return side === 'supply' ? 's' + market : 'd' + market;
 }
 
 /**

@@ -767,3 +767,158 @@ describe('WindowEngine: snapshot() and restore()', () => {
     expect(done.snapshot('m').units.map((u) => [u.id, u.state])).toEqual([['d', 'done']]);
   });
 });
+
+describe('WindowEngine: the candidate pairs of every solve', () => {
+  interface Unit { side: 'demand' | 'supply'; t: number; a: number; b: number; needs: string[]; has: string[] }
+  interface Seen { rowPtr: Int32Array; colIdx: Int32Array; cost: Float64Array; tau: number; rows: string[]; cols: string[] }
+
+  /**
+   * A seeded market wider than the travel radius, with capabilities from `nTags` tags
+   * (past 31 the engine's bit masks give way to the lists), withdraws and re-arrivals.
+   */
+  function scenario(seed: number, sphere: boolean, nTags: number): { evs: Ev[]; config: PairflowConfig; units: Map<string, Unit> } {
+    const rand = mulberry32(seed);
+    const tags = Array.from({ length: nTags }, (_, i) => `cap${i}`);
+    const units = new Map<string, Unit>();
+    const evs: Ev[] = [];
+    for (let i = 0; i < 160; i++) {
+      const side = rand() < 0.5 ? 'demand' : 'supply';
+      const id = `${side[0]}${randInt(rand, 0, 60)}`;
+      const t = randInt(rand, 0, 20 * MIN);
+      // About 25 km across (radius 6.25 km): many pairs out of reach.
+      const a = sphere ? 46.4 + rand() * 0.22 : rand() * 25;
+      const b = sphere ? -31.3 + rand() * 0.32 : rand() * 25;
+      const e: Ev = { type: side, id, t, ...(sphere ? { lat: a, lon: b, x: undefined, y: undefined } : { x: a, y: b }) };
+      const pick = (): string[] => tags.filter(() => rand() < 3 / nTags);
+      if (side === 'demand' && rand() < 0.4) e.needs = pick();
+      if (side === 'supply' && rand() < 0.6) e.has = pick();
+      units.set(`${side} ${a},${b}`, { side, t, a, b, needs: e.needs ?? [], has: e.has ?? [] });
+      evs.push(e);
+      if (rand() < 0.1) evs.push({ type: 'withdraw', side, id, t: t + randInt(rand, 0, 5 * MIN) });
+    }
+    const config: PairflowConfig = {
+      ...base, metric: sphere ? 'haversine' : 'euclidean', speedKmh: 25, maxTravelMin: 15, windowMs: 10_000,
+      waitWeight: [0, 1, 2.5][seed % 3]!, commit: seed % 2 === 0 ? 'all' : 'due', demandPatienceMin: 6, supplyPatienceMin: 12,
+    };
+    return { evs, config, units };
+  }
+
+  /** Drives the engine and keeps a copy of every solve's instance with its rows' and columns' units. */
+  function observe(evs: Ev[], config: PairflowConfig): Seen[] {
+    const seen: Seen[] = [];
+    const sink = new Recorder() as Recorder & EngineSink;
+    sink.prices = (p) => {
+      const last = seen[seen.length - 1]!;
+      last.tau = p.epoch;
+      const keys = Array.from({ length: p.n }, (_, k) => `${p.side} ${p.a[k]},${p.b[k]}`);
+      if (p.side === 'demand') last.rows = keys;
+      else last.cols = keys;
+    };
+    const engine = new WindowEngine(config, sink, {
+      verify: true,
+      solve: (inst, o) => {
+        seen.push({ rowPtr: inst.rowPtr.slice(), colIdx: inst.colIdx.slice(), cost: inst.cost.slice(), tau: NaN, rows: [], cols: [] });
+        return solveSparse(inst, o);
+      },
+    });
+    for (const ev of sourced(evs).sort((x, y) => x.event.t - y.event.t || x.seq - y.seq)) {
+      engine.advanceTo(ev.event.t);
+      engine.ingest(ev);
+    }
+    engine.finish();
+    return seen;
+  }
+
+  for (const [name, sphere, nTags] of [['haversine, 3 tags', true, 3], ['euclidean, 3 tags', false, 3], ['haversine, 40 tags', true, 40]] as const) {
+    it(`each row holds exactly the allowed pairs (travel ≤ maxTravelMin, needs ⊆ has) in column order, at their exact costs (${name}, seeded)`, () => {
+      let pairs = 0;
+      for (let seed = 1; seed <= 12; seed++) {
+        const { evs, config, units } = scenario(seed, sphere, nTags);
+        const seen = observe(evs, config);
+        expect(seen.length, `seed ${seed}`).toBeGreaterThan(5);
+        for (const s of seen) {
+          const rowPtr = [0];
+          const colIdx: number[] = [];
+          const cost: number[] = [];
+          for (const rk of s.rows) {
+            const d = units.get(rk)!;
+            s.cols.forEach((ck, j) => {
+              const u = units.get(ck)!;
+              const km = sphere ? haversineKm(d.a, d.b, u.a, u.b) : Math.hypot(d.a - u.a, d.b - u.b);
+              const travel = (km / config.speedKmh) * 60;
+              if (travel <= config.maxTravelMin && d.needs.every((n) => u.has.includes(n))) {
+                colIdx.push(j);
+                cost.push(travel + (config.waitWeight / 60_000) * (s.tau - d.t));
+              }
+            });
+            rowPtr.push(colIdx.length);
+          }
+          expect([...s.rowPtr], `seed ${seed} epoch ${s.tau}`).toEqual(rowPtr);
+          expect([...s.colIdx], `seed ${seed} epoch ${s.tau}`).toEqual(colIdx);
+          expect([...s.cost], `seed ${seed} epoch ${s.tau}`).toEqual(cost);
+          pairs += colIdx.length;
+        }
+      }
+      // Enough pairs to mean something, and not every pair of every pool.
+      expect(pairs).toBeGreaterThan(500);
+    });
+  }
+
+  it('units leaving together are reported in (t, seq) order, also when their indices are reused out of order', () => {
+    for (const n of [20, 45]) {
+      const evs: Ev[] = [];
+      // First a crowd that expires and is forgotten: its indices are reused last-freed first.
+      for (let i = 0; i < 80; i++) evs.push({ type: 'demand', id: `old${i}`, t: i * 10, until: 2000 });
+      const rand = mulberry32(n);
+      const T = 10 * MIN;
+      for (let i = 0; i < n; i++) {
+        // Few distinct times, so seq (file order) breaks many ties.
+        evs.push({ type: 'demand', id: `d${i}`, t: T + 100 * randInt(rand, 0, 6), until: T + 2 * MIN });
+      }
+      const { rec } = replay(evs, { windowMs: 1000 });
+      const got = rec.expiries.filter((e) => e.id.startsWith('d')).map((e) => e.id);
+      const want = evs.map((e, seq) => ({ e, seq })).filter(({ e }) => e.id.startsWith('d'))
+        .sort((x, y) => x.e.t - y.e.t || x.seq - y.seq).map(({ e }) => e.id);
+      expect(got, `n = ${n}`).toEqual(want);
+      expect(new Set(rec.expiries.filter((e) => e.id.startsWith('d')).map((e) => e.epoch)).size).toBe(1);
+    }
+  });
+
+  it('a reported unit is in the snapshot exactly until an advance closes the epoch past its end plus the lateness (seeded)', () => {
+    for (let seed = 1; seed <= 6; seed++) {
+      const rand = mulberry32(seed);
+      const evs: Ev[] = [];
+      // Whole seconds and a lateness of 999 ms: ends plus the lateness plus one land on
+      // epochs, so the boundary itself is tested.
+      const sec = (lo: number, hi: number): number => 1000 * randInt(rand, lo, hi);
+      for (let i = 0; i < 30; i++) {
+        const t = sec(0, 60);
+        evs.push({ type: 'demand', id: `d${i}`, t, until: t + sec(1, 40), x: rand() * 3 });
+        evs.push({ type: 'supply', id: `s${i}`, t: sec(0, 60), until: t + sec(1, 90), x: rand() * 3 });
+        // Some end earlier after they are reported (a courier back after the job).
+        if (rand() < 0.3) evs.push({ type: 'withdraw', side: 'supply', id: `s${i}`, t: t + sec(2, 30) });
+      }
+      const config = { ...base, windowMs: 1000, allowedLatenessMs: 999 };
+      const rec = new Recorder();
+      const engine = new WindowEngine(config, rec);
+      const ends = new Map<string, number>();
+      const list = sourced(evs).sort((x, y) => x.event.t - y.event.t || x.seq - y.seq);
+      for (const ev of list) {
+        engine.advanceTo(ev.event.t);
+        engine.ingest(ev);
+        const e = ev.event;
+        const key = `${e.type === 'withdraw' ? e.side : e.type} ${e.id}`;
+        if (e.type === 'withdraw') ends.set(key, Math.min(ends.get(key)!, e.t));
+        else ends.set(key, e.until!);
+        const limit = engine.closedThrough('m');
+        const reported = new Set([
+          ...rec.assignments.flatMap((a) => [`demand ${a.demandId}`, `supply ${a.supplyId}`]),
+          ...rec.expiries.map((x) => `${x.side} ${x.id}`),
+        ]);
+        const done = engine.snapshot('m').units.filter((u) => u.state === 'done').map((u) => `${u.side} ${u.id}`).sort();
+        const want = [...reported].filter((k) => ends.get(k)! + config.allowedLatenessMs + 1 > limit).sort();
+        expect(done, `seed ${seed} at ${e.t}`).toEqual(want);
+      }
+    }
+  });
+});

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { euclideanKm, haversineKm } from '../../../src/window/geo.js';
-import { cellKmFor, SpatialGrid } from '../../../src/window/grid.js';
+import { cellKmFor, cosDeg, planeKm, SpatialGrid, sphereKm } from '../../../src/window/grid.js';
+import { EARTH_RADIUS_KM } from '../../../src/window/geo.js';
 import { mulberry32 } from '../../helpers/random.js';
 
 interface Pt { id: number; a: number; b: number }
@@ -130,6 +131,114 @@ describe('SpatialGrid (euclidean)', () => {
     g.insert(2, 2, 3.5);
     expect(query(g, 2, 3, 0)).toEqual([[1, 0]]);
     expect(query(g, 2, 3, 1).map((x) => x[0])).toEqual([1, 2]);
+  });
+});
+
+/** What a caller of bucketsNear() finds by measuring every point of the cells it names. */
+function viaBuckets(g: SpatialGrid, pts: Map<number, Pt>, a: number, b: number, r: number, metric: 'haversine' | 'euclidean'): Array<[number, number]> {
+  const buckets: number[][] = [];
+  const nb = g.bucketsNear(a, b, r, buckets);
+  const out: Array<[number, number]> = [];
+  const seen = new Set<number>();
+  for (let k = 0; k < nb; k++) {
+    expect(buckets[k]!.length).toBeGreaterThan(0);
+    for (const id of buckets[k]!) {
+      expect(seen.has(id), `id ${id} in two cells`).toBe(false);
+      seen.add(id);
+      const p = pts.get(id)!;
+      const d = metric === 'haversine'
+        ? sphereKm(a, b, cosDeg(a), p.a, p.b, cosDeg(p.a), 2 * EARTH_RADIUS_KM)
+        : planeKm(a, b, p.a, p.b);
+      if (d <= r) out.push([id, d]);
+    }
+  }
+  return out.sort((x, y) => x[0] - y[0]);
+}
+
+describe('SpatialGrid.bucketsNear() and the distances it is scanned with', () => {
+  it('scanning the cells it names finds exactly the brute-force neighbours, to the last bit (seeded)', () => {
+    const regions: Array<[number, number, number]> = [[46.5, -31.2, 0.2], [10, 179.95, 0.3], [89.7, 0, 0.5]];
+    for (const [lat0, lon0, spread] of regions) {
+      for (let seed = 1; seed <= 4; seed++) {
+        const pts = spherePoints(seed * 31 + Math.round(lat0), 250, lat0, lon0, spread);
+        const byId = new Map(pts.map((p) => [p.id, p]));
+        const cellKm = 1 + seed * 2;
+        const g = SpatialGrid.fromPoints({ metric: 'haversine', cellKm }, pts.map((p) => p.id), pts.map((p) => p.a), pts.map((p) => p.b));
+        for (const q of spherePoints(seed * 101, 30, lat0, lon0, spread)) {
+          for (const r of [cellKm, cellKm / 4, cellKm * 3, 30_000]) {
+            const want = brute(pts, q.a, q.b, r, 'haversine');
+            expect(viaBuckets(g, byId, q.a, q.b, r, 'haversine'), `seed ${seed} q=(${q.a},${q.b}) r=${r}`).toEqual(want);
+            expect(query(g, q.a, q.b, r)).toEqual(want);
+          }
+        }
+      }
+    }
+    for (let seed = 1; seed <= 4; seed++) {
+      const rand = mulberry32(seed + 500);
+      const pts: Pt[] = [];
+      for (let i = 0; i < 300; i++) pts.push({ id: i, a: (rand() - 0.5) * 30, b: (rand() - 0.5) * 30 });
+      const byId = new Map(pts.map((p) => [p.id, p]));
+      const g = SpatialGrid.fromPoints({ metric: 'euclidean', cellKm: 2 }, pts.map((p) => p.id), pts.map((p) => p.a), pts.map((p) => p.b));
+      for (let k = 0; k < 40; k++) {
+        const q = { a: (rand() - 0.5) * 34, b: (rand() - 0.5) * 34 };
+        for (const r of [0.5, 2, 7, 100]) expect(viaBuckets(g, byId, q.a, q.b, r, 'euclidean'), `seed ${seed}`).toEqual(brute(pts, q.a, q.b, r, 'euclidean'));
+      }
+    }
+  });
+
+  it('sphereKm() equals haversineKm() bit for bit, from a few metres to antipodes, either way round (seeded)', () => {
+    const rand = mulberry32(77);
+    for (let k = 0; k < 20_000; k++) {
+      const lat1 = (rand() - 0.5) * 180, lon1 = (rand() - 0.5) * 360;
+      // Every scale of distance: log-uniform offsets from 1e-7° up to the whole sphere.
+      const scale = 10 ** (rand() * 9.5 - 7);
+      const lat2 = Math.max(-90, Math.min(90, lat1 + (rand() - 0.5) * scale));
+      const lon2 = lon1 + (rand() - 0.5) * scale * 2;
+      const want = haversineKm(lat1, lon1, lat2, lon2);
+      expect(sphereKm(lat1, lon1, cosDeg(lat1), lat2, lon2, cosDeg(lat2), 2 * EARTH_RADIUS_KM), `(${lat1},${lon1})-(${lat2},${lon2})`).toBe(want);
+      expect(sphereKm(lat2, lon2, cosDeg(lat2), lat1, lon1, cosDeg(lat1), 2 * EARTH_RADIUS_KM)).toBe(want);
+    }
+    expect(sphereKm(0, 0, 1, 0, 180, 1, 2 * EARTH_RADIUS_KM)).toBe(haversineKm(0, 0, 0, 180));
+    expect(sphereKm(10, 20, cosDeg(10), 10, 20, cosDeg(10), 2 * EARTH_RADIUS_KM)).toBe(0);
+  });
+
+  it('cells emptied and filled again, or swept out, keep every query equal to brute force (seeded)', () => {
+    const rand = mulberry32(9);
+    const g = new SpatialGrid({ metric: 'euclidean', cellKm: 1 });
+    const held = new Map<number, Pt>();
+    for (let round = 0; round < 6; round++) {
+      // Spread over ~400 cells, then thin out to a few: empty cells pile up and get swept.
+      for (let i = 0; i < 400; i++) {
+        const p = { id: i, a: rand() * 20, b: rand() * 20 };
+        g.insert(p.id, p.a, p.b);
+        held.set(p.id, p);
+      }
+      for (let i = 0; i < 400; i++) {
+        if (rand() < 0.97) {
+          expect(g.remove(i)).toBe(true);
+          held.delete(i);
+        }
+      }
+      const pts = [...held.values()];
+      for (let k = 0; k < 30; k++) {
+        const q = { a: rand() * 20, b: rand() * 20 };
+        for (const r of [0.7, 3, 50]) {
+          expect(query(g, q.a, q.b, r), `round ${round}`).toEqual(brute(pts, q.a, q.b, r, 'euclidean'));
+          expect(viaBuckets(g, held, q.a, q.b, r, 'euclidean')).toEqual(brute(pts, q.a, q.b, r, 'euclidean'));
+        }
+      }
+      expect(g.size).toBe(held.size);
+    }
+  });
+
+  it('a point without a finite location is in no cell a query names', () => {
+    const g = new SpatialGrid({ metric: 'haversine', cellKm: 3 });
+    g.insert(1, NaN, 5);
+    g.insert(2, 0, 0);
+    const buckets: number[][] = [];
+    const nb = g.bucketsNear(0, 0, 20_000, buckets);
+    expect(buckets.slice(0, nb).flat()).toEqual([2]);
+    expect(g.bucketsNear(NaN, 0, 5, buckets)).toBe(0);
   });
 });
 
