@@ -170,10 +170,12 @@ function solveCold(inst: SparseInstance, now: () => number, t0: number): SolveRe
   const freeAtStart = new Int32Array(nRows);
   let nFreeAtStart = 0;
   for (r = 0; r < nRows; r++) if (rowToCol[r] === NONE) freeAtStart[nFreeAtStart++] = r;
+  // One view for every row the reduction scans (a view a call was a subarray each).
+  const rowsView = rowsOf(inst);
   const reduced = reduceRows(freeAtStart, nFreeAtStart, u, v, rowToCol, colToRow, {
     passes: 2,
     noDisplace: false,
-    cheapestTwo: (row, two) => cheapestTwoSparse(rowsOf(inst), delta, v, row, two),
+    cheapestTwo: (row, two) => cheapestTwoSparse(rowsView, delta, v, row, two),
     infeasible: infeasibleRow,
   });
   scannedPairs += reduced.scanned;
