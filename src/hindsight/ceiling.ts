@@ -10,9 +10,10 @@ import { plainColumns, type CompactGraph } from './graph.js';
  * Size of a maximum-cardinality matching of `g`, read straight from the graph's
  * 16-bit columns and row bases (graph.ts), so the ceiling needs no memory of its own
  * per pair; only a graph with wide rows is copied to plain columns first (4 bytes a
- * pair). Hopcroft–Karp seeds itself greedily with each row's first free pair: with
+ * pair). The matching seeds itself greedily with each row's first free pair: with
  * the optimum's pair moved first in each row, that seed is the optimum's matching,
- * and only the few rows it leaves short need augmenting. `g`'s columns are moved
+ * and depth-first passes augment the few rows it leaves short (no Hopcroft–Karp
+ * phase: cardinality.ts, `nearMaximumSeed`). `g`'s columns are moved
  * within their rows and its codes are not: `g` is spent afterwards.
  *
  * With `wantCover`, also a minimum vertex cover of the graph (König: as many units as

@@ -91,7 +91,7 @@ export interface HindsightPhases {
   pricingMs: number;
   /** Re-solves after violators were added (warm starts and their certificate checks). */
   resolveMs: number;
-  /** The match ceiling (Hopcroft–Karp). */
+  /** The match ceiling (augmenting paths from the optimum's matching, cardinality.ts). */
   ceilingMs: number;
 }
 
