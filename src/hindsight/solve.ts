@@ -54,7 +54,7 @@ export interface HindsightMarketResult {
   pairsPriced: number;
   /** Pairs in the final restricted solve (candidates plus the violators added). */
   pairsSolved: number;
-  /** Pricing passes over all allowed pairs, the last one finding no violator (the most any time segment needed). */
+  /** Pricing passes, the last one reading every allowed pair whose prices moved and finding no violator (the most any time segment needed; early passes may read the rows with violators in turns, pricing.ts). */
   pricingRounds: number;
   /** Maximum-cardinality matching of the same allowed graph: no policy matches more. */
   ceiling: number;
@@ -136,6 +136,12 @@ export interface HindsightMarketOptions {
    */
   addPerRow?: number;
   /**
+   * While a pricing pass finds many violators, the next reads the rows left with
+   * them in this many turns, one share a pass (pricing.ts). 1 reads them all.
+   * @default 3
+   */
+  pricingTurns?: number;
+  /**
    * Pairs kept per supply in each pricing round: its most negative reduced costs,
    * added where their demand did not take them (see pricing.ts). 0 adds by rows alone.
    * @default 1
@@ -172,6 +178,8 @@ export const DEFAULT_CANDIDATES_PER_DEMAND = 4;
 export const DEFAULT_ADD_PER_ROW = 4;
 /** @default addPerColumn */
 export const DEFAULT_ADD_PER_COLUMN = 1;
+/** @default pricingTurns */
+export const DEFAULT_PRICING_TURNS = 3;
 
 /** What one time segment of a market yields. */
 interface SegmentResult {
@@ -301,6 +309,7 @@ function solveSegment(
   const k = Math.max(1, Math.floor(opts.candidatesPerDemand ?? DEFAULT_CANDIDATES_PER_DEMAND));
   const addPerRow = Math.max(1, Math.floor(opts.addPerRow ?? DEFAULT_ADD_PER_ROW));
   const addPerColumn = Math.max(0, Math.floor(opts.addPerColumn ?? DEFAULT_ADD_PER_COLUMN));
+  const turns = Math.max(1, Math.floor(opts.pricingTurns ?? DEFAULT_PRICING_TURNS));
   const P = config.abandonPenalty;
   const phases = zeroPhases();
   let tPhase = now();
@@ -327,7 +336,7 @@ function solveSegment(
     if (c < P) restricted.add(r, col, c);
     else dropCandidate(codes, e);
   }
-  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config));
+  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config), turns);
   lap('setupMs');
 
   let pricingRounds = 0;

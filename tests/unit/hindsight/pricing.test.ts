@@ -156,6 +156,74 @@ describe('Pricer.pass() with many violators a row', () => {
   }
 });
 
+describe('Pricer.pass() in turns', () => {
+  // 120 demands and 150 supplies within 1.4 km of each other, all present together:
+  // under u = P and v in [−P/2, 0] every pair prices out, 150 violators a row.
+  const cfg: PairflowConfig = { ...config, waitWeight: 0 };
+  const P = cfg.abandonPenalty;
+  const setup = (turns: number) => {
+    const rnd = mulberry32(77);
+    const units: HindsightUnit[] = [];
+    for (let i = 0; i < 270; i++) units.push({ side: i < 120 ? 'demand' : 'supply', t: 0, end: 3_600_000, x: rnd() * 1.4, y: rnd() * 1.4 });
+    const m = packMarket(units, cfg);
+    const g = buildCompactGraph(m, cfg);
+    const colLo = new Int32Array(g.nRows);
+    const colHi = new Int32Array(g.nRows).fill(g.nCols - 1);
+    const pricer = new Pricer(g, pairCostOf(m, cfg), colLo, colHi, 2, P, 1, quickPairCostOf(m, cfg), turns);
+    const u = new Float64Array(g.nRows).fill(P);
+    const v = Float64Array.from({ length: g.nCols }, () => -rnd() * (P / 2));
+    return { g, pricer, u, v };
+  };
+  const rowsOf = (found: { n: number; rows: Int32Array }): Set<number> => new Set(Array.from(found.rows.subarray(0, found.n)));
+
+  it('reads one row in three a pass while violators are many, each in its turn, and every row when exhaustive', () => {
+    const { g, pricer, u, v } = setup(3);
+    const whole = setup(1);
+    const all = whole.pricer.pass(whole.u, whole.v);
+    expect(all.violators).toBe(g.nRows * g.nCols);
+    for (let turn = 0; turn < 3; turn++) {
+      const found = pricer.pass(u, v);
+      const rows = Array.from({ length: g.nRows }, (_, r) => r).filter((r) => r % 3 === turn);
+      // Every pair of the rows read prices out, and no other row is read.
+      expect(found.violators, `turn ${turn}`).toBe(rows.length * g.nCols);
+      expect([...rowsOf(found)].sort((a, b) => a - b), `turn ${turn}`).toEqual(rows);
+    }
+    // The exhaustive pass reads every row: every pair not yet a candidate prices out.
+    const candidates = countMarked(g);
+    const proof = pricer.pass(u, v, true);
+    expect(rowsOf(proof).size).toBe(g.nRows);
+    expect(proof.violators).toBe(g.nRows * g.nCols - candidates);
+  });
+
+  it('reads every row again once a pass finds few violators', () => {
+    const { g, pricer, u, v } = setup(3);
+    pricer.pass(u, v);
+    expect(pricer.rowsPriced).toBe(g.nRows / 3);
+    // Prices under which no pair prices out: the next third of the rows finds none.
+    const quiet = pricer.pass(new Float64Array(g.nRows), v);
+    expect(quiet.violators).toBe(0);
+    expect(pricer.rowsPriced).toBe((2 * g.nRows) / 3);
+    // After a pass that found few, the next reads every row, whatever it finds.
+    const back = pricer.pass(u, v);
+    expect(rowsOf(back).size).toBe(g.nRows);
+    expect(pricer.rowsPriced).toBe((5 * g.nRows) / 3);
+  });
+
+  it('refuses a share that is not a whole number ≥ 1', () => {
+    const { g } = setup(1);
+    for (const bad of [0, 1.5, Number.NaN]) {
+      expect(() => new Pricer(g, () => 0, new Int32Array(g.nRows), new Int32Array(g.nRows), 1, P, 0, () => 0, bad)).toThrow(/turns/);
+    }
+  });
+});
+
+/** Pairs marked candidates in a graph. */
+function countMarked(g: { codes: Uint8Array }): number {
+  let n = 0;
+  for (const b of g.codes) if (isMarked(b)) n++;
+  return n;
+}
+
 describe('Pricer.pass() skipping rows by their bounds', () => {
   /** The compact graph of `units`, each row's column range and the cost of its cheapest pair (P when none). */
   function graphWithRanges(units: readonly HindsightUnit[], cfg: PairflowConfig) {
