@@ -168,6 +168,7 @@ async function solvePacked(
   if (opts.candidatesPerDemand !== undefined) marketOpts.candidatesPerDemand = opts.candidatesPerDemand;
   if (opts.addPerRow !== undefined) marketOpts.addPerRow = opts.addPerRow;
   if (opts.addPerColumn !== undefined) marketOpts.addPerColumn = opts.addPerColumn;
+  if (opts.pricingTurns !== undefined) marketOpts.pricingTurns = opts.pricingTurns;
   if (opts.cover) marketOpts.cover = true;
   if (threads > 1 && !hindsightWorkerAvailable()) {
     const warn = opts.onWarning ?? ((msg: string) => process.emitWarning(msg, 'PairflowWarning'));

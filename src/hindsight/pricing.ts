@@ -44,7 +44,7 @@
  * a day at scale 4 (`gen --scale 4`, its four districts one after the other on one
  * thread, alternating runs): pricing and re-solves by one row in 1, 3, 4 and 6 took
  * 29.5–30.8 s, 27.8–28.3 s, 27.5–28.3 s and 27.3–28.0 s in all, the busiest district
- * 12 rounds against 14, 14–16 and 16 (more rounds of fewer pairs each), and at scale 1
+ * 12 rounds against 14, 16 and 16 (more rounds of fewer pairs each), and at scale 1
  * 2.64–2.65 s against 2.53–2.57 s by one in 3. The same optimum: which pairs are added
  * changes the work, never the result.
  */
@@ -197,7 +197,8 @@ export class Pricer {
       const u = rowDuals[r]!;
       const lo0 = colLo[r]!;
       const hi0 = colHi[r]!;
-      // (A row left with violators is read in full whenever it is read: nothing of it is stale.)
+      // (A row left with violators is never skipped by its bounds, so one skipped here
+      // needs no stale mark: it is read in full at its turn, or by the exhaustive pass.)
       if (inTurns && rowClean[r] === 0 && r % turns !== turn) continue;
       if (rowClean[r] === 1) {
         if (hi0 >= lo0) risen[r] = risen[r]! + maxOver(rise, nBlocks, lo0 >>> BLOCK_BITS, hi0 >>> BLOCK_BITS);
