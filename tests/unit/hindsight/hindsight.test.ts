@@ -115,6 +115,16 @@ function byMarket(occurrences: readonly Occurrence[]): Map<string, Occurrence[]>
   return out;
 }
 
+/** Every market of the small logs of `seeds` at `size`, with the config to solve it under (`tweak` may change the log's). */
+function* smallMarkets(seeds: readonly number[], size: number, tweak = (c: PairflowConfig): PairflowConfig => c): Generator<{ seed: number; config: PairflowConfig; occ: Occurrence[] }> {
+  for (const seed of seeds) {
+    const log = smallLog(seed, size);
+    const config = tweak(log.config);
+    const { occurrences } = buildOccurrences(sorted(log.events), config);
+    for (const occ of byMarket(occurrences).values()) yield { seed, config, occ };
+  }
+}
+
 interface RefMarket { cost: number; matched: number; ceiling: number; demandUnits: number; supplyUnits: number }
 interface RefResult { cost: number; ceiling: number; demandUnits: number; supplyUnits: number; markets: Record<string, RefMarket> }
 
@@ -147,21 +157,17 @@ const SEEDS = Array.from({ length: 60 }, (_, i) => 1000 + i);
 function sameOptimumEach(base: HindsightMarketOptions, variants: readonly HindsightMarketOptions[]): { fewer: number; more: number } {
   let fewer = 0;
   let more = 0;
-  for (const seed of SEEDS.slice(0, 20)) {
-    const log = smallLog(seed, 3);
-    const { occurrences } = buildOccurrences(sorted(log.events), log.config);
-    for (const occ of byMarket(occurrences).values()) {
-      const b = solveHindsightMarket(occ, log.config, base);
-      for (const opts of variants) {
-        const label = `seed ${seed}, ${JSON.stringify(opts)}`;
-        const r = solveHindsightMarketDetailed(occ, log.config, opts);
-        expect(close(r.cost, b.cost), `${label}: ${r.cost} vs ${b.cost}`).toBe(true);
-        expect(r.matched, label).toBe(b.matched);
-        const rep = certificateOf(r, log.config.abandonPenalty);
-        expect(rep.ok, `${label}: ${rep.problems.join('; ')}`).toBe(true);
-        if (r.pricingRounds < b.pricingRounds) fewer++;
-        if (r.pricingRounds > b.pricingRounds) more++;
-      }
+  for (const { seed, config, occ } of smallMarkets(SEEDS.slice(0, 20), 3)) {
+    const b = solveHindsightMarket(occ, config, base);
+    for (const opts of variants) {
+      const label = `seed ${seed}, ${JSON.stringify(opts)}`;
+      const r = solveHindsightMarketDetailed(occ, config, opts);
+      expect(close(r.cost, b.cost), `${label}: ${r.cost} vs ${b.cost}`).toBe(true);
+      expect(r.matched, label).toBe(b.matched);
+      const rep = certificateOf(r, config.abandonPenalty);
+      expect(rep.ok, `${label}: ${rep.problems.join('; ')}`).toBe(true);
+      if (r.pricingRounds < b.pricingRounds) fewer++;
+      if (r.pricingRounds > b.pricingRounds) more++;
     }
   }
   return { fewer, more };
@@ -204,18 +210,14 @@ describe('solveHindsight() against an independent scipy reference', () => {
 describe('solveHindsightMarket()', () => {
   it('gives the same optimum from a single candidate per demand, after more than one pricing round', () => {
     let multiRound = 0;
-    for (const seed of SEEDS.slice(0, 30)) {
-      const log = smallLog(seed, 3);
-      const { occurrences } = buildOccurrences(sorted(log.events), log.config);
-      for (const occ of byMarket(occurrences).values()) {
-        const tiny = solveHindsightMarket(occ, log.config, { candidatesPerDemand: 1 });
-        const full = solveHindsightMarket(occ, log.config, { candidatesPerDemand: 1_000_000 });
-        expect(full.pricingRounds, `seed ${seed}`).toBe(1);
-        expect(full.pairsSolved, `seed ${seed}`).toBeLessThanOrEqual(full.pairsPriced);
-        expect(close(tiny.cost, full.cost), `seed ${seed}: k=1 ${tiny.cost} vs all pairs ${full.cost}`).toBe(true);
-        expect(tiny.pairsSolved, `seed ${seed}`).toBeLessThanOrEqual(full.pairsSolved);
-        if (tiny.pricingRounds > 1) multiRound++;
-      }
+    for (const { seed, config, occ } of smallMarkets(SEEDS.slice(0, 30), 3)) {
+      const tiny = solveHindsightMarket(occ, config, { candidatesPerDemand: 1 });
+      const full = solveHindsightMarket(occ, config, { candidatesPerDemand: 1_000_000 });
+      expect(full.pricingRounds, `seed ${seed}`).toBe(1);
+      expect(full.pairsSolved, `seed ${seed}`).toBeLessThanOrEqual(full.pairsPriced);
+      expect(close(tiny.cost, full.cost), `seed ${seed}: k=1 ${tiny.cost} vs all pairs ${full.cost}`).toBe(true);
+      expect(tiny.pairsSolved, `seed ${seed}`).toBeLessThanOrEqual(full.pairsSolved);
+      if (tiny.pricingRounds > 1) multiRound++;
     }
     expect(multiRound).toBeGreaterThan(5);
   });
@@ -235,36 +237,28 @@ describe('solveHindsightMarket()', () => {
   });
 
   it('ends with dual prices that certify optimality over every allowed pair (SPEC §5)', () => {
-    for (const seed of SEEDS) {
-      const log = smallLog(seed, 2);
-      const { occurrences } = buildOccurrences(sorted(log.events), log.config);
-      for (const occ of byMarket(occurrences).values()) {
-        for (const k of [1, 3]) {
-          const r = solveHindsightMarketDetailed(occ, log.config, { candidatesPerDemand: k });
-          const rep = certificateOf(r, log.config.abandonPenalty);
-          expect(rep.ok, `seed ${seed} k=${k}: ${rep.problems.join('; ')}`).toBe(true);
-          expect(close(rep.primalCost, r.cost), `seed ${seed}`).toBe(true);
-        }
+    for (const { seed, config, occ } of smallMarkets(SEEDS, 2)) {
+      for (const k of [1, 3]) {
+        const r = solveHindsightMarketDetailed(occ, config, { candidatesPerDemand: k });
+        const rep = certificateOf(r, config.abandonPenalty);
+        expect(rep.ok, `seed ${seed} k=${k}: ${rep.problems.join('; ')}`).toBe(true);
+        expect(close(rep.primalCost, r.cost), `seed ${seed}`).toBe(true);
       }
     }
   });
 
   it('stays exact where float32 costs cannot tell pairs apart (costs near 1e6): such decisions go to the exact cost', () => {
     let rechecks = 0;
-    for (const seed of SEEDS.slice(0, 20)) {
-      const log = smallLog(seed, 3);
-      // A minute of waiting costs 2e5: the float32 cost of a pair is off by up to ~0.1,
-      // far more than the certificate's tolerance, so only exact rechecks keep it.
-      const config: PairflowConfig = { ...log.config, waitWeight: 2e5, abandonPenalty: 3e6 };
-      const { occurrences } = buildOccurrences(sorted(log.events), config);
-      for (const occ of byMarket(occurrences).values()) {
-        const r = solveHindsightMarketDetailed(occ, config, { candidatesPerDemand: 1 });
-        const full = solveHindsightMarket(occ, config, { candidatesPerDemand: 1_000_000 });
-        expect(close(r.cost, full.cost), `seed ${seed}: ${r.cost} vs all pairs ${full.cost}`).toBe(true);
-        const rep = certificateOf(r, config.abandonPenalty);
-        expect(rep.ok, `seed ${seed}: ${rep.problems.join('; ')}`).toBe(true);
-        rechecks += r.detail.rechecks;
-      }
+    // A minute of waiting costs 2e5: the float32 cost of a pair is off by up to ~0.1,
+    // far more than the certificate's tolerance, so only exact rechecks keep it.
+    const dear = (c: PairflowConfig): PairflowConfig => ({ ...c, waitWeight: 2e5, abandonPenalty: 3e6 });
+    for (const { seed, config, occ } of smallMarkets(SEEDS.slice(0, 20), 3, dear)) {
+      const r = solveHindsightMarketDetailed(occ, config, { candidatesPerDemand: 1 });
+      const full = solveHindsightMarket(occ, config, { candidatesPerDemand: 1_000_000 });
+      expect(close(r.cost, full.cost), `seed ${seed}: ${r.cost} vs all pairs ${full.cost}`).toBe(true);
+      const rep = certificateOf(r, config.abandonPenalty);
+      expect(rep.ok, `seed ${seed}: ${rep.problems.join('; ')}`).toBe(true);
+      rechecks += r.detail.rechecks;
     }
     expect(rechecks).toBeGreaterThan(0);
   });
@@ -272,18 +266,14 @@ describe('solveHindsightMarket()', () => {
   it('prices again only rows whose prices or columns moved, and still ends certified', () => {
     let full = 0;
     let priced = 0;
-    for (const seed of SEEDS.slice(0, 20)) {
-      const log = smallLog(seed, 4);
-      const { occurrences } = buildOccurrences(sorted(log.events), log.config);
-      for (const occ of byMarket(occurrences).values()) {
-        const r = solveHindsightMarketDetailed(occ, log.config, { candidatesPerDemand: 1, addPerRow: 1 });
-        const rep = certificateOf(r, log.config.abandonPenalty);
-        expect(rep.ok, `seed ${seed}: ${rep.problems.join('; ')}`).toBe(true);
-        // Without skipping, every round prices every row.
-        full += r.pricingRounds * r.demandUnits;
-        priced += r.detail.rowsPriced;
-        expect(r.detail.rowsPriced).toBeLessThanOrEqual(r.pricingRounds * r.demandUnits);
-      }
+    for (const { seed, config, occ } of smallMarkets(SEEDS.slice(0, 20), 4)) {
+      const r = solveHindsightMarketDetailed(occ, config, { candidatesPerDemand: 1, addPerRow: 1 });
+      const rep = certificateOf(r, config.abandonPenalty);
+      expect(rep.ok, `seed ${seed}: ${rep.problems.join('; ')}`).toBe(true);
+      // Without skipping, every round prices every row.
+      full += r.pricingRounds * r.demandUnits;
+      priced += r.detail.rowsPriced;
+      expect(r.detail.rowsPriced).toBeLessThanOrEqual(r.pricingRounds * r.demandUnits);
     }
     expect(priced).toBeLessThan(full);
   });
