@@ -18,7 +18,8 @@ import { releaseFreeColumns, type ColumnsView } from './warm.js';
  * c − u − v ≥ 0, a matched pair is tight, v ≤ 0, a free column has v = 0, and an
  * unmatched row has u = δ. Added pairs may break the first: a row with an added pair
  * of negative reduced cost (its only way to become infeasible) loses its pair and is
- * searched again; its column keeps its price, and if it is still free and below 0
+ * searched again; its column's price is first raised as far as the other rows allow
+ * ({@link GrowingAssignment.raiseFreedColumns}), and if it is still free and below 0
  * after the searches, the reverse search of warm.ts brings it back (step 3 there).
  * Every other row and price stays as it was, so a solve costs what the new pairs
  * disturb, not what the instance holds.
@@ -236,16 +237,20 @@ export class GrowingAssignment {
       for (let r = 0; r < nRows; r++) free[nFree++] = r;
     } else {
       free = new Int32Array(this.dirtyList.length);
+      const freed = new Int32Array(this.dirtyList.length);
+      let nFreed = 0;
       for (const r of this.dirtyList) {
-        this.dirty[r] = 0;
         free[nFree++] = r;
         const j = rowToCol[r]!;
         if (j !== NONE) {
           // The column keeps its price: every row but r already prices it feasibly.
           rowToCol[r] = NONE;
           colToRow[j] = NONE;
+          freed[nFreed++] = j;
         }
       }
+      this.raiseFreedColumns(freed, nFreed);
+      for (const r of this.dirtyList) this.dirty[r] = 0;
       this.dirtyList = [];
     }
     const rows = this.view();
@@ -277,6 +282,38 @@ export class GrowingAssignment {
     const warm = this.solved;
     this.solved = true;
     return { augmentations, scannedPairs: scanned, ms: this.now() - t0, warm, reverseSearches: rev.searches, searchedRows: reduced.nFree };
+  }
+
+  /**
+   * Raises the price of each column its dirty row just left as far as the other rows
+   * allow (to `min(0, min (c − u))` over its pairs with rows that are not dirty), before
+   * the searches. A column that went free keeps the price its row paid, and below 0 it
+   * must be brought back by a reverse search after the forward ones, which in a dense
+   * market explores wide (its price was set by the many rows that want it); raised
+   * first, it is a nearer end for the forward searches, and a reverse search that is
+   * still needed starts closer to 0. Every pair stays feasible: the dirty rows are
+   * free, and each gets a price of its own from its search (which reads its pairs at
+   * the prices raised). Measured on the busiest district of a generated day at scale 4
+   * (`gen --scale 4`, one thread): the re-solves took 3.1 s against 3.8 s, the reverse
+   * searches 15 k against 25 k and 49 M pairs scanned against 143 M; at scale 1 no
+   * change (0.28–0.29 s both). The same optimum: only the path to it changes.
+   */
+  private raiseFreedColumns(freed: Int32Array, nFreed: number): void {
+    if (nFreed === 0) return;
+    const { u, v, dirty } = this;
+    const { colStart, colEnd, colRow, colCost } = this.columns();
+    for (let q = 0; q < nFreed; q++) {
+      const j = freed[q]!;
+      const vj = v[j]!;
+      let room = -vj;
+      for (let e = colStart[j]!; e < colEnd[j]! && room > 0; e++) {
+        const i = colRow[e]!;
+        if (dirty[i] === 1) continue;
+        const slack = colCost[e]! - u[i]! - vj;
+        if (slack < room) room = slack;
+      }
+      if (room > 0) v[j] = vj + room;
+    }
   }
 
   /**

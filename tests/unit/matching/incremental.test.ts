@@ -92,6 +92,32 @@ describe('GrowingAssignment', () => {
     expect(sameCost(res.cost, solveSparse(a.instance()).cost)).toBe(true);
   });
 
+  it('raises a column its row left as far as the other rows allow, so no reverse search brings it back', () => {
+    // Row 0 holds column 0 at cost 1 with prices u = 4, v = −3 (an optimum: row 1 and
+    // column 1 have no pair, and column 0's price may lie anywhere in [−9, 0]). Pair
+    // (0, 1) at cost 2 prices out (2 − 4 − 0 < 0), so row 0 leaves column 0. No other
+    // row wants column 0, so its price goes to 0 before the search, where row 0 takes
+    // it back at 1 (against 2 for column 1). Left at −3, column 0 would cost row 0 4,
+    // it would take column 1, and a reverse search would follow.
+    const a = new GrowingAssignment(2, 2, Float64Array.of(10, 10));
+    a.add(0, 0, 1);
+    a.adopt({
+      cost: 11,
+      rowToCol: Int32Array.of(0, -1),
+      colToRow: Int32Array.of(0, -1),
+      rowDuals: Float64Array.of(4, 10),
+      colDuals: Float64Array.of(-3, 0),
+      stats: { augmentations: 0, scannedPairs: 0, ms: 0, warm: false },
+    });
+    a.add(0, 1, 2);
+    const st = a.solve();
+    const res = a.result(st);
+    expect(st.reverseSearches).toBe(0);
+    expect(Array.from(res.rowToCol)).toEqual([0, -1]);
+    expect(res.cost).toBe(11);
+    expect(checkCertificate(a.instance(), res).problems).toEqual([]);
+  });
+
   it('refuses a row that may not stay unmatched and a cost that is not finite (PAIRFLOW_ERR_SOLVER_INPUT)', () => {
     expect(() => new GrowingAssignment(2, 2, Float64Array.of(1, Infinity))).toThrow(expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' }));
     const a = new GrowingAssignment(1, 1, Float64Array.of(1));
