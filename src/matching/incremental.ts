@@ -293,10 +293,14 @@ export class GrowingAssignment {
    * first, it is a nearer end for the forward searches, and a reverse search that is
    * still needed starts closer to 0. Every pair stays feasible: the dirty rows are
    * free, and each gets a price of its own from its search (which reads its pairs at
-   * the prices raised). Measured on the busiest district of a generated day at scale 4
-   * (`gen --scale 4`, one thread): the re-solves took 3.1 s against 3.8 s, the reverse
-   * searches 15 k against 25 k and 49 M pairs scanned against 143 M; at scale 1 no
-   * change (0.28–0.29 s both). The same optimum: only the path to it changes.
+   * the prices raised). Measured on a generated day's four districts one after the
+   * other on one thread, alternating runs: at scale 4 (`gen --scale 4`) the re-solves
+   * took 6.7–6.9 s against 8.4–8.6 s and the hindsight 25.9 s against 26.6–27.3 s (on
+   * the busiest district 15 k reverse searches scanning 49 M pairs against 25 k and
+   * 143 M); at scale 1, where reverse searches are short, 0.75–0.77 s against
+   * 0.66–0.72 s (the forward searches scan about what the reverse ones save) and the
+   * hindsight 2.6–2.7 s against 2.5–2.65 s. The same optimum: only the path to it
+   * changes.
    */
   private raiseFreedColumns(freed: Int32Array, nFreed: number): void {
     if (nFreed === 0) return;
