@@ -23,7 +23,7 @@ import {
   type HindsightMarketResult,
   type HindsightPhases,
 } from './solve.js';
-import { BYTES_PER_HELD_PAIR, defaultMemoryBudget, heldPairs, nextMarket } from './schedule.js';
+import { BYTES_PER_HELD_PAIR, defaultMemoryBudget, heldPairs, nextMarket, workersBeside } from './schedule.js';
 import type { WorkerReply, WorkerTask } from './worker.js';
 
 export type { HindsightCover, HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail, HindsightPhases };
@@ -78,9 +78,12 @@ export interface HindsightOptions extends HindsightMarketOptions {
   /**
    * Memory the caller holds beside the workers until `until` settles (the replay's
    * online pass over a loaded log): counted against `memoryBudget` until then, so
-   * that the largest markets wait for it.
+   * that the largest markets wait for it. With `core`, the caller also computes on a
+   * core of its own until then (the replay's online pass): one worker fewer runs
+   * meanwhile where the workers and the caller would outnumber the cores
+   * ({@link workersBeside}).
    */
-  callerHolds?: { bytes: number; until: Promise<unknown> };
+  callerHolds?: { bytes: number; until: Promise<unknown>; core?: boolean };
   /** Called after each market is solved. */
   onProgress?: (done: number, total: number) => void;
   /** Where a warning goes (e.g. the compiled worker is missing). @default process.emitWarning */
@@ -296,6 +299,8 @@ async function runOnWorkers(
   let held = 0;
   let running = 0;
   let caller = callerHolds === undefined ? 0 : callerHolds.bytes / BYTES_PER_HELD_PAIR;
+  let callerBusy = callerHolds?.core === true;
+  const cores = availableParallelism();
   try {
     await new Promise<void>((resolve, reject) => {
       let settled = false;
@@ -346,7 +351,7 @@ async function runOnWorkers(
         (idle.pop() ?? spawn()).postMessage(task, transferables(p));
       };
       const fill = (): void => {
-        while (running < threads) {
+        while (running < workersBeside(threads, cores, callerBusy)) {
           const at = nextMarket(queue, pairs!, held, running, budget, caller);
           if (at < 0) break;
           start(at);
@@ -388,6 +393,7 @@ async function runOnWorkers(
       if (callerHolds !== undefined) {
         const release = (): void => {
           caller = 0;
+          callerBusy = false;
           dispatch();
         };
         callerHolds.until.then(release, release);

@@ -348,10 +348,11 @@ export async function replayLoadedFull(
     // makes of it: V8 lets that grow to about twice what was live after its last
     // full collection (here, the loaded log) before collecting again (from memory;
     // the online replay of a week at scale 4 alone grew from 1.0 to 1.6 GB). The
-    // largest markets wait for it (hindsight/schedule.ts).
+    // largest markets wait for it (hindsight/schedule.ts), and while it runs it takes
+    // a core of its own from the workers where they would outnumber the cores.
     const until = new Promise<void>((resolve) => (onlineDone = resolve));
     hindsightPromise = solveHindsight(loaded.events, config, {
-      callerHolds: { bytes: 2 * process.memoryUsage().heapUsed, until },
+      callerHolds: { bytes: 2 * process.memoryUsage().heapUsed, until, core: true },
       ...(opts.threads !== undefined ? { threads: opts.threads } : {}),
       ...(opts.digest ? { cover: true } : {}),
       onProgress: (done: number, total: number) => opts.onProgress?.({ phase: 'hindsight', done, total }),

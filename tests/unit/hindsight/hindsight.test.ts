@@ -1,6 +1,6 @@
 import { fileURLToPath } from 'node:url';
 
-import { describe, expect, it } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
 
 import { checkCertificate } from '../../../src/matching/index.js';
 import { DEFAULT_CONFIG, type PairflowConfig, type PairflowEvent, type SourcedEvent } from '../../../src/model.js';
@@ -13,9 +13,16 @@ import {
   type HindsightMarketOptions,
   type HindsightResult,
 } from '../../../src/hindsight/hindsight.js';
+import { workersBeside } from '../../../src/hindsight/schedule.js';
 import { buildOccurrences, type Occurrence } from '../../../src/window/occurrences.js';
 import { runPythonJson, scipyVersion } from '../../helpers/python.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
+
+// The real rule, watched: which limits the worker pool asked for (and when).
+vi.mock('../../../src/hindsight/schedule.js', async (importOriginal) => {
+  const actual = await importOriginal<typeof import('../../../src/hindsight/schedule.js')>();
+  return { ...actual, workersBeside: vi.fn(actual.workersBeside) };
+});
 
 interface SmallLog {
   seed: number;
@@ -421,6 +428,27 @@ describe('solveHindsight() threads', () => {
     const h = await pending;
     expect(doneAt.length).toBe(h.markets.length);
     expect(doneAt.every((after) => after)).toBe(true);
+    expect(h.cost).toBeCloseTo((await solveHindsight(events, log.config, { threads: 0 })).cost, 9);
+  });
+
+  it.skipIf(!available)('leaves the caller a core of its own while it computes (core: true), and every thread after', async () => {
+    const log = smallLog(4246, 8);
+    const events = sorted(log.events.flatMap((e) => [e, { ...e, market: `${e.market}x` }, { ...e, market: `${e.market}y` }]));
+    const limits = vi.mocked(workersBeside);
+    limits.mockClear();
+    let release = (): void => {};
+    const until = new Promise<void>((resolve) => (release = resolve));
+    const pending = solveHindsight(events, log.config, { threads: 2, callerHolds: { bytes: 0, until, core: true } });
+    // The first market is handed out at once, while the caller still computes.
+    await Promise.resolve();
+    const before = limits.mock.calls.length;
+    release();
+    const h = await pending;
+    const busy = limits.mock.calls.map(([, , callerBusy]) => callerBusy);
+    expect(before).toBeGreaterThan(0);
+    expect(busy.slice(0, before).every((b) => b)).toBe(true);
+    expect(busy.length).toBeGreaterThan(before);
+    expect(busy.slice(before).every((b) => !b)).toBe(true);
     expect(h.cost).toBeCloseTo((await solveHindsight(events, log.config, { threads: 0 })).cost, 9);
   });
 });

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 
 import { buildCompactGraph, packMarket, type HindsightUnit, type PackedMarket } from '../../../src/hindsight/graph.js';
-import { defaultMemoryBudget, estimatePeakPairs, heldPairs, nextMarket } from '../../../src/hindsight/schedule.js';
+import { defaultMemoryBudget, estimatePeakPairs, heldPairs, nextMarket, workersBeside } from '../../../src/hindsight/schedule.js';
 import { subMarket, timeSegments } from '../../../src/hindsight/segments.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
@@ -125,6 +125,22 @@ describe('nextMarket()', () => {
       expect(queue, `seed ${seed}`).toEqual([]);
       expect([...started].sort((a, b) => a - b), `seed ${seed}`).toEqual(pairs.map((_, i) => i));
     }
+  });
+});
+
+describe('workersBeside()', () => {
+  it('leaves a busy caller a core of its own only where workers and caller would outnumber the cores', () => {
+    expect(workersBeside(2, 2, true)).toBe(1);
+    expect(workersBeside(8, 8, true)).toBe(7);
+    expect(workersBeside(6, 4, true)).toBe(3);
+    // Room for the caller already: nothing held back.
+    expect(workersBeside(3, 4, true)).toBe(3);
+    expect(workersBeside(2, 8, true)).toBe(2);
+    // Never fewer than one worker, and all of them once the caller is done.
+    expect(workersBeside(1, 1, true)).toBe(1);
+    expect(workersBeside(2, 1, true)).toBe(1);
+    expect(workersBeside(2, 2, false)).toBe(2);
+    expect(workersBeside(8, 2, false)).toBe(8);
   });
 });
 

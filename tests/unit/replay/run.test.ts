@@ -2,7 +2,7 @@ import { createHash } from 'node:crypto';
 import { existsSync, mkdtempSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
 import { toJsonLine } from '../../../src/consume/index.js';
 import { RUN_FILES } from '../../../src/emit/index.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
@@ -12,6 +12,12 @@ import { runReplay, type ReplaySummary } from '../../../src/replay/run.js';
 import { MAX_REACH_KM, validateConfig } from '../../../src/config.js';
 import { runPythonJson, scipyVersion } from '../../helpers/python.js';
 import { mulberry32 } from '../../helpers/random.js';
+
+// The real hindsight, watched: what the replay asks of it.
+vi.mock('../../../src/hindsight/hindsight.js', async (importOriginal) => {
+  const actual = await importOriginal<typeof import('../../../src/hindsight/hindsight.js')>();
+  return { ...actual, solveHindsight: vi.fn(actual.solveHindsight) };
+});
 
 const tmp = (): string => mkdtempSync(join(tmpdir(), 'pairflow-replay-'));
 
@@ -77,6 +83,18 @@ describe('runReplay()', () => {
     expect(s.hindsight!.cost).toBeLessThanOrEqual(s.online.cost);
     expect(s.online.p95WaitMin!).toBeGreaterThanOrEqual(0);
     expect(Number.isFinite(s.online.p95WaitMin)).toBe(true);
+  });
+
+  it('tells the hindsight that its online pass takes a core of its own, and lets go of it when the pass ends', async () => {
+    const solve = vi.mocked(solveHindsight);
+    solve.mockClear();
+    const s = await runReplay([writeLog(tmp())], config, { hindsight: true, threads: 0 });
+    expect(s.hindsight).not.toBeNull();
+    expect(solve).toHaveBeenCalledTimes(1);
+    const holds = solve.mock.calls[0]![2]!.callerHolds!;
+    expect(holds.core).toBe(true);
+    // Settled by the time the replay returns (a pending promise would lose this race).
+    expect(await Promise.race([holds.until.then(() => 'settled'), new Promise((r) => setTimeout(() => r('pending'), 0))])).toBe('settled');
   });
 
   it('waits are (decidedAt − demandT) in minutes over the assignments; p95 as numpy.quantile (linear)', async () => {
