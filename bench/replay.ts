@@ -12,7 +12,9 @@
  * docs/benchmarks.md. Then the growth tables of density and length: one day at
  * `--scale` 1, 2, 4 and 8, and 1, 2, 4 and 7 days at scale 4 (replay with the
  * hindsight as users run it, and the hindsight alone in a child of its own,
- * bench/lib/hindsight-child.mjs, for where its time goes).
+ * bench/lib/hindsight-child.mjs, for where its time goes). The one-day rows up to
+ * scale 4, which the time ratio compares, are replayed three times, the scales
+ * alternating, and the median run stands for each.
  *
  *   tsx bench/replay.ts [--quick] [--no-write] [--no-growth] [--growth-cap SECONDS] [--root DIR] [--label TEXT]
  *                       [--json-out FILE] [--before FILE]
@@ -74,9 +76,11 @@ export interface GrowthRow {
   pairsPriced: number;
   pairsSolved: number;
   pricingRounds: number;
-  /** `pairflow replay LOG --json`: the whole process, hindsight included. */
+  /** `pairflow replay LOG --json`: the whole process, hindsight included (the median run where there were several). */
   replayWallMs: number;
   replayRssMb: number | null;
+  /** Wall time of each run, in the order run, where the row was run more than once. */
+  replayRunsMs?: number[];
   /** The hindsight alone (bench/lib/hindsight-child.mjs), when measured. */
   alone: { ms: number; phases: Phases; rssMb: number } | null;
   onlineCost: number;
@@ -455,6 +459,9 @@ function headOf(root: string): string {
   return head.length > 80 ? `${head.slice(0, 79)}…` : head;
 }
 
+/** Runs of each one-day row up to scale 4 in the growth table (the median stands for the row). */
+const DENSITY_REPEATS = 3;
+
 /** The hindsight alone in a child process (bench/lib/hindsight-child.mjs) of the measured checkout. */
 function hindsightAlone(file: string): { ms: number; phases: Phases; rssMb: number } {
   const script = fileURLToPath(new URL('./lib/hindsight-child.mjs', import.meta.url));
@@ -474,12 +481,19 @@ function measureGrowth(quick: boolean, outDir: string, log: (line: string) => vo
   const daysScale = quick ? 0.02 : 4;
   const daysList = quick ? [1] : [1, 2, 4, 7];
   const loadStart = loadavg()[0]!;
-  const row = (scale: number, days: number, alone: boolean): GrowthRow => {
+  const replay = (scale: number, days: number): ChildRun & { load: number } => {
     const file = ensureLog(outDir, days, scale);
     log(`bench:replay: growth: ${days} day(s) at scale ${scale}: replay with the hindsight`);
     const full = runChildCapped(['replay', file, '--window', '10s', '--json'], capS);
     const load = loadavg()[0]!;
     log(`bench:replay:   wall ${full.wallMs.toFixed(0)} ms rss ${full.peakRssMb} MB load ${load.toFixed(2)}${full.capped ? ' (stopped at the cap)' : ''}`);
+    return { ...full, load };
+  };
+  const row = (scale: number, days: number, alone: boolean, runs: Array<ChildRun & { load: number }> = [replay(scale, days)]): GrowthRow => {
+    const file = ensureLog(outDir, days, scale);
+    // The median run by wall time (the lower middle one of an even count) stands for the row.
+    const full = [...runs].sort((x, y) => x.wallMs - y.wallMs)[(runs.length - 1) >> 1]!;
+    const load = full.load;
     let a: GrowthRow['alone'] = null;
     if (full.capped) {
       return { scale, days, demandUnits: NaN, supplyUnits: NaN, pairsPriced: NaN, pairsSolved: NaN, pricingRounds: NaN, replayWallMs: full.wallMs,
@@ -500,13 +514,20 @@ function measureGrowth(quick: boolean, outDir: string, log: (line: string) => vo
       pricingRounds: num(full.json, 'hindsight.pricingRounds'),
       replayWallMs: full.wallMs,
       replayRssMb: full.peakRssMb,
+      ...(runs.length > 1 ? { replayRunsMs: runs.map((x) => x.wallMs) } : {}),
       alone: a,
       onlineCost: num(full.json, 'online.cost'),
       hindsightCost: num(full.json, 'hindsight.cost'),
       load,
     };
   };
-  const byScale = scales.map((scale) => row(scale, 1, true));
+  // The one-day rows up to scale 4 (the time ratio's) are run DENSITY_REPEATS times,
+  // the scales alternating, so that a noisy run sways neither side of the ratio.
+  const runs = new Map<number, Array<ChildRun & { load: number }>>(scales.map((scale) => [scale, []]));
+  for (let k = 0; k < (quick ? 1 : DENSITY_REPEATS); k++) {
+    for (const scale of scales) if (k === 0 || scale <= 4) runs.get(scale)!.push(replay(scale, 1));
+  }
+  const byScale = scales.map((scale) => row(scale, 1, true, runs.get(scale)!));
   const byDays = daysList.map((days, k) => (days === 1 ? byScale.find((r) => r.scale === daysScale) ?? row(daysScale, 1, false) : row(daysScale, days, k === daysList.length - 1)));
   return { label, date: new Date().toISOString().slice(0, 16).replace('T', ' ') + ' UTC', loadStart, loadEnd: loadavg()[0]!, byScale, byDays, demoWeekHindsightMs };
 }
@@ -521,7 +542,8 @@ function renderGrowth(g: GrowthResult, title: string | null, targets: string[] |
   md.push('');
   md.push(`Run ${g.date} of ${g.label}; 1-minute load average ${g.loadStart.toFixed(1)} at the start, ${g.loadEnd.toFixed(1)} at the end (each row gives its own). ` +
     '"wall s" and "peak MB" are the whole `pairflow replay LOG --window 10s --json` process (parsing, online replay and the hindsight on 2 worker threads alongside); ' +
-    '"alone s" is the hindsight by itself in a process of its own (bench/lib/hindsight-child.mjs, 2 threads), and its phases are thread time summed over markets.');
+    '"alone s" is the hindsight by itself in a process of its own (bench/lib/hindsight-child.mjs, 2 threads), and its phases are thread time summed over markets.' +
+    (g.byScale.some((r) => r.replayRunsMs) ? ' A one-day row with several runs (the scales alternating) gives the median run\'s wall time, peak and load, each run\'s wall time in brackets in the order run.' : ''));
   md.push('');
   const base = g.byScale.find((r) => r.scale === 1) ?? g.byScale[0]!;
   md.push('One day, `pairflow gen --days 1 --seed 1 --scale S`:');
@@ -529,7 +551,8 @@ function renderGrowth(g: GrowthResult, title: string | null, targets: string[] |
   md.push('| scale | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | peak MB | time ÷ scale 1 | memory ÷ scale 1 | alone s | alone peak MB | load |');
   md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
   // A row stopped at the cap shows its time and memory so far as lower bounds.
-  const wall = (r: GrowthRow): string => (r.capped ? `> ${s1(r.replayWallMs)} (stopped)` : s1(r.replayWallMs));
+  const wall = (r: GrowthRow): string =>
+    r.capped ? `> ${s1(r.replayWallMs)} (stopped)` : r.replayRunsMs ? `${s1(r.replayWallMs)} (${r.replayRunsMs.map((ms) => s1(ms)).join(', ')})` : s1(r.replayWallMs);
   const peak = (r: GrowthRow): string => (r.capped ? `≥ ${f1(r.replayRssMb)}` : f1(r.replayRssMb));
   const ge = (r: GrowthRow): string => (r.capped ? '> ' : '');
   for (const r of g.byScale) {
