@@ -137,8 +137,9 @@ export interface HindsightMarketOptions {
   addPerRow?: number;
   /**
    * While a pricing pass finds many violators, the next reads the rows left with
-   * them in this many turns, one share a pass (pricing.ts). 1 reads them all.
-   * @default 3
+   * them in this many turns, one share a pass (pricing.ts, where it is measured).
+   * 1 reads them all.
+   * @default 6
    */
   pricingTurns?: number;
   /**
@@ -179,7 +180,7 @@ export const DEFAULT_ADD_PER_ROW = 4;
 /** @default addPerColumn */
 export const DEFAULT_ADD_PER_COLUMN = 1;
 /** @default pricingTurns */
-export const DEFAULT_PRICING_TURNS = 3;
+export const DEFAULT_PRICING_TURNS = 6;
 
 /** What one time segment of a market yields. */
 interface SegmentResult {
