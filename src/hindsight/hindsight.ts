@@ -79,9 +79,8 @@ export interface HindsightOptions extends HindsightMarketOptions {
    * Memory the caller holds beside the workers until `until` settles (the replay's
    * online pass over a loaded log): counted against `memoryBudget` until then, so
    * that the largest markets wait for it. With `core`, the caller also computes on a
-   * core of its own until then (the replay's online pass): one worker fewer runs
-   * meanwhile where the workers and the caller would outnumber the cores
-   * ({@link workersBeside}).
+   * core of its own until then: one worker fewer runs meanwhile where the workers and
+   * the caller would outnumber the cores ({@link workersBeside}).
    */
   callerHolds?: { bytes: number; until: Promise<unknown>; core?: boolean };
   /** Called after each market is solved. */

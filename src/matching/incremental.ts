@@ -243,7 +243,8 @@ export class GrowingAssignment {
         free[nFree++] = r;
         const j = rowToCol[r]!;
         if (j !== NONE) {
-          // The column keeps its price: every row but r already prices it feasibly.
+          // The column keeps its price (every row but r already prices it feasibly)
+          // until it is raised below, before the searches.
           rowToCol[r] = NONE;
           colToRow[j] = NONE;
           freed[nFreed++] = j;
