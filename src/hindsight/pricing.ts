@@ -45,7 +45,7 @@
  * thread, alternating runs): pricing and re-solves by one row in 1, 3, 4 and 6 took
  * 29.5–30.8 s, 27.8–28.3 s, 27.5–28.3 s and 27.3–28.0 s in all, the busiest district
  * 12 rounds against 14, 16 and 16 (more rounds of fewer pairs each), and at scale 1
- * 2.64–2.65 s against 2.53–2.57 s by one in 3. Once the re-solves raised the columns
+ * 2.64–2.65 s by all rows against 2.53–2.57 s by one in 3. Once the re-solves raised the columns
  * their rows left (matching/incremental.ts), the rounds cost less and one in 6 came
  * out ahead at every density (the busiest district alone, alternating runs, pricing
  * and re-solves): at scale 4 6.07–6.21 s against 6.43–6.83 s by one in 3 (16 rounds

@@ -391,7 +391,7 @@ describe('solveHindsight() threads', () => {
     const inThread = await solveHindsight(events, log.config, { threads: 0, candidatesPerDemand: 1, pricingTurns: 1 });
     expect(close(allRows.cost, inTurns.cost)).toBe(true);
     expect(allRows.matched).toBe(inTurns.matched);
-    // In turns the first pass reads a third of the rows, so the rounds add other pairs.
+    // In turns the first pass reads a share of the rows (a sixth by default), so the rounds add other pairs.
     const work = (h: HindsightResult): number[][] => h.markets.map((m) => [m.pricingRounds, m.pairsSolved]);
     expect(work(allRows)).not.toEqual(work(inTurns));
     expect(work(allRows)).toEqual(work(inThread));
