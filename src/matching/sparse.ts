@@ -26,7 +26,7 @@ import { NONE, PRIVATE, reduceRows, shiftAlongPath } from './reduction.js';
 export function solveSparseCore(inst: SparseInstance, opts: SolveOptions): SolveResult {
   const now = opts.now ?? defaultNow;
   const t0 = now();
-  validateSparse(inst);
+  if (opts.check !== false) validateSparse(inst);
   validateWarm(opts.warm, inst.nRows, inst.nCols);
   if (opts.presolve === 'auction') {
     // Prices from the auction, then the exact solver warm from them (auction.ts).

@@ -78,6 +78,17 @@ export interface SolveOptions {
    * near-ties; the result is exact and certified either way. @default 'none'
    */
   readonly presolve?: 'none' | 'auction';
+  /**
+   * Whether `solveSparse` first checks that the instance is well formed (sizes,
+   * columns in range and once per row, costs finite and within the bound): a pass
+   * over every pair, which the window engine's epoch solves under `commit: "due"`
+   * (pools of hundreds of units, re-solved every epoch) spent a quarter of their
+   * time on. `false` is for callers whose instances are well formed by construction;
+   * a malformed one then gives an undefined result instead of
+   * PAIRFLOW_ERR_SOLVER_INPUT. Dense input is checked in its first pass anyway.
+   * @default true
+   */
+  readonly check?: boolean;
 }
 
 export interface SolveStats {

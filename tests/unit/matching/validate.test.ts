@@ -1,6 +1,13 @@
-import { describe, expect, it } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
 import { solveDense, solveSparse } from '../../../src/matching/index.js';
 import type { SparseInstance } from '../../../src/matching/types.js';
+import { validateSparse } from '../../../src/matching/validate.js';
+
+// The real check, watched: whether a solve ran it.
+vi.mock('../../../src/matching/validate.js', async (importOriginal) => {
+  const actual = await importOriginal<typeof import('../../../src/matching/validate.js')>();
+  return { ...actual, validateSparse: vi.fn(actual.validateSparse) };
+});
 
 const INPUT = expect.objectContaining({ code: 'PAIRFLOW_ERR_SOLVER_INPUT' });
 
@@ -42,6 +49,19 @@ describe('validateSparse() via solveSparse()', () => {
     ['unmatchedCost near the double limit', { unmatchedCost: Float64Array.of(1, -1e308) }],
   ])('rejects %s with PAIRFLOW_ERR_SOLVER_INPUT', (_name, patch) => {
     expect(() => solveSparse({ ...base(), ...patch } as SparseInstance)).toThrow(INPUT);
+  });
+
+  it('check: false leaves the pass over every pair out, and solves the same', () => {
+    const checked = vi.mocked(validateSparse);
+    checked.mockClear();
+    const a = solveSparse(base());
+    expect(checked).toHaveBeenCalledTimes(1);
+    const b = solveSparse(base(), { check: false });
+    expect(checked).toHaveBeenCalledTimes(1);
+    expect(b.cost).toBe(a.cost);
+    expect([...b.rowToCol]).toEqual([...a.rowToCol]);
+    // The warm arrays' lengths are still checked (they cost nothing to check).
+    expect(() => solveSparse(base(), { check: false, warm: { colPrices: new Float64Array(3) } })).toThrow(INPUT);
   });
 
   it('rejects warm arrays of the wrong length with PAIRFLOW_ERR_SOLVER_INPUT', () => {

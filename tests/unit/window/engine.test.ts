@@ -864,6 +864,27 @@ describe('WindowEngine: the candidate pairs of every solve', () => {
     });
   }
 
+  it('the solver skips its own pass over the pairs of these instances (held to the brute force above), but not when verifying', () => {
+    const { evs, config } = scenario(3, true, 3);
+    for (const verify of [false, true]) {
+      const asked: Array<boolean | undefined> = [];
+      const engine = new WindowEngine(config, new Recorder(), {
+        verify,
+        solve: (inst, o) => {
+          asked.push(o.check);
+          return solveSparse(inst, o);
+        },
+      });
+      for (const ev of sourced(evs).sort((x, y) => x.event.t - y.event.t || x.seq - y.seq)) {
+        engine.advanceTo(ev.event.t);
+        engine.ingest(ev);
+      }
+      engine.finish();
+      expect(asked.length).toBeGreaterThan(5);
+      expect(new Set(asked), `verify ${verify}`).toEqual(new Set([verify]));
+    }
+  });
+
   it('units leaving together are reported in (t, seq) order, also when their indices are reused out of order', () => {
     for (const n of [20, 45]) {
       const evs: Ev[] = [];
