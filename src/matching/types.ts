@@ -81,9 +81,9 @@ export interface SolveOptions {
   /**
    * Whether `solveSparse` first checks that the instance is well formed (sizes,
    * columns in range and once per row, costs finite and within the bound): a pass
-   * over every pair, which the window engine's epoch solves under `commit: "due"`
-   * (pools of hundreds of units, re-solved every epoch) spent a quarter of their
-   * time on. `false` is for callers whose instances are well formed by construction;
+   * over every pair, a quarter of the window engine's online replay of the demo day
+   * under `commit: "due"` (pools of hundreds of units, solved anew every epoch).
+   * `false` is for callers whose instances are well formed by construction;
    * a malformed one then gives an undefined result instead of
    * PAIRFLOW_ERR_SOLVER_INPUT. Dense input is checked in its first pass anyway.
    * @default true
