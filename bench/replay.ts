@@ -81,6 +81,8 @@ export interface GrowthRow {
   replayRssMb: number | null;
   /** Wall time of each run, in the order run, where the row was run more than once. */
   replayRunsMs?: number[];
+  /** That process's CPU time, every thread (`timings.cpuMs`; NaN from a checkout that does not report it). */
+  replayCpuMs?: number;
   /** The hindsight alone (bench/lib/hindsight-child.mjs), when measured. */
   alone: { ms: number; phases: Phases; rssMb: number } | null;
   onlineCost: number;
@@ -515,6 +517,7 @@ function measureGrowth(quick: boolean, outDir: string, log: (line: string) => vo
       replayWallMs: full.wallMs,
       replayRssMb: full.peakRssMb,
       ...(runs.length > 1 ? { replayRunsMs: runs.map((x) => x.wallMs) } : {}),
+      replayCpuMs: num(full.json, 'timings.cpuMs'),
       alone: a,
       onlineCost: num(full.json, 'online.cost'),
       hindsightCost: num(full.json, 'hindsight.cost'),
@@ -542,32 +545,35 @@ function renderGrowth(g: GrowthResult, title: string | null, targets: string[] |
   md.push('');
   md.push(`Run ${g.date} of ${g.label}; 1-minute load average ${g.loadStart.toFixed(1)} at the start, ${g.loadEnd.toFixed(1)} at the end (each row gives its own). ` +
     '"wall s" and "peak MB" are the whole `pairflow replay LOG --window 10s --json` process (parsing, online replay and the hindsight on 2 worker threads alongside); ' +
+    '"CPU s" is that process\'s CPU time, every thread (`timings.cpuMs`: the online replay, the hindsight\'s workers and V8\'s own). ' +
     '"alone s" is the hindsight by itself in a process of its own (bench/lib/hindsight-child.mjs, 2 threads), and its phases are thread time summed over markets.' +
     (g.byScale.some((r) => r.replayRunsMs) ? ' A one-day row with several runs (the scales alternating) gives the median run\'s wall time, peak and load, each run\'s wall time in brackets in the order run.' : ''));
   md.push('');
   const base = g.byScale.find((r) => r.scale === 1) ?? g.byScale[0]!;
   md.push('One day, `pairflow gen --days 1 --seed 1 --scale S`:');
   md.push('');
-  md.push('| scale | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | peak MB | time ÷ scale 1 | memory ÷ scale 1 | alone s | alone peak MB | load |');
-  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+  md.push('| scale | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | CPU s | peak MB | time ÷ scale 1 | CPU ÷ scale 1 | memory ÷ scale 1 | alone s | alone peak MB | load |');
+  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
   // A row stopped at the cap shows its time and memory so far as lower bounds.
   const wall = (r: GrowthRow): string =>
     r.capped ? `> ${s1(r.replayWallMs)} (stopped)` : r.replayRunsMs ? `${s1(r.replayWallMs)} (${r.replayRunsMs.map((ms) => s1(ms)).join(', ')})` : s1(r.replayWallMs);
   const peak = (r: GrowthRow): string => (r.capped ? `≥ ${f1(r.replayRssMb)}` : f1(r.replayRssMb));
   const ge = (r: GrowthRow): string => (r.capped ? '> ' : '');
+  const cpu = (r: GrowthRow): string => (r.capped ? '–' : s1(r.replayCpuMs));
   for (const r of g.byScale) {
-    md.push(`| ${r.scale} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${wall(r)} | ${peak(r)} | ` +
-      `${ge(r)}${f2(r.replayWallMs / base.replayWallMs)}× | ${r.capped ? '≥ ' : ''}${f2((r.replayRssMb ?? NaN) / (base.replayRssMb ?? NaN))}× | ${s1(r.alone?.ms)} | ${f1(r.alone?.rssMb)} | ${f1(r.load)} |`);
+    md.push(`| ${r.scale} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${wall(r)} | ${cpu(r)} | ${peak(r)} | ` +
+      `${ge(r)}${f2(r.replayWallMs / base.replayWallMs)}× | ${r.capped ? '–' : `${f2((r.replayCpuMs ?? NaN) / (base.replayCpuMs ?? NaN))}×`} | ` +
+      `${r.capped ? '≥ ' : ''}${f2((r.replayRssMb ?? NaN) / (base.replayRssMb ?? NaN))}× | ${s1(r.alone?.ms)} | ${f1(r.alone?.rssMb)} | ${f1(r.load)} |`);
   }
   md.push('');
   md.push('Where the hindsight\'s time went (alone, s of thread time): ' + g.byScale.filter((r) => r.alone).map((r) => `scale ${r.scale}: ${phaseLine(r.alone!.phases)}`).join('; ') + '.');
   md.push('');
   md.push(`${g.byDays[0] ? `At scale ${g.byDays[0].scale}` : ''}, \`pairflow gen --days N --seed 1\`:`);
   md.push('');
-  md.push('| days | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | peak MB | alone s | load |');
-  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+  md.push('| days | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | CPU s | peak MB | alone s | load |');
+  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
   for (const r of g.byDays) {
-    md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${wall(r)} | ${peak(r)} | ${s1(r.alone?.ms)} | ${f1(r.load)} |`);
+    md.push(`| ${r.days} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${wall(r)} | ${cpu(r)} | ${peak(r)} | ${s1(r.alone?.ms)} | ${f1(r.load)} |`);
   }
   if ([...g.byScale, ...g.byDays].some((r) => r.capped)) {
     md.push('');
@@ -596,8 +602,11 @@ function targetsOf(g: GrowthResult): string[] {
     : null;
   const spread = paired ? `, round by round ${f2(paired[0]!)}–${f2(paired[paired.length - 1]!)}×` : '';
   const mem = s1r && s4r && s1r.replayRssMb && s4r.replayRssMb ? s4r.replayRssMb / s1r.replayRssMb : null;
+  // The same in CPU time (every thread): what the scale-4 day costs beside scale 1 whatever the cores.
+  const cpuRatio = s1r && s4r ? (s4r.replayCpuMs ?? NaN) / (s1r.replayCpuMs ?? NaN) : NaN;
+  const inCpu = Number.isFinite(cpuRatio) ? `; in CPU time ${f2(cpuRatio)}×` : '';
   return [
-    `Targets: one day at scale 4 ≤ 5× the time of scale 1 — ${f2(time)}× (${ok(time === null ? null : time <= 5)}${spread}), ≤ 4× the memory — ${f2(mem)}× (${ok(mem === null ? null : mem <= 4)}); ` +
+    `Targets: one day at scale 4 ≤ 5× the time of scale 1 — ${f2(time)}× (${ok(time === null ? null : time <= 5)}${spread}${inCpu}), ≤ 4× the memory — ${f2(mem)}× (${ok(mem === null ? null : mem <= 4)}); ` +
       `7 days at scale 4, replay with the exact hindsight ≤ 4 min — ${week?.capped ? '> ' : ''}${s1(week?.replayWallMs)} s (${ok(week ? week.replayWallMs <= 240_000 && !week.capped : null)}) and ≤ 4 GB — ${week?.capped ? '≥ ' : ''}${f1(week?.replayRssMb)} MB (${ok(week?.replayRssMb ? week.replayRssMb <= 4096 : null)}); ` +
       `the demo week's hindsight (scale 1, alone, as the sweep computes it) ≤ 20 s — ${s1(g.demoWeekHindsightMs)} s (${ok(Number.isFinite(g.demoWeekHindsightMs) ? g.demoWeekHindsightMs! <= 20_000 : null)}).`,
   ];

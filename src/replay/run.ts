@@ -26,6 +26,11 @@ export type { OnlineRun } from './stats.js';
 export { fileSource } from '../pipeline/drive.js';
 
 const defaultNow = (): number => performance.now();
+/** CPU time of the whole process so far, ms: user and system, summed over its threads (getrusage). */
+const defaultCpuNow = (): number => {
+  const { user, system } = process.cpuUsage();
+  return (user + system) / 1000;
+};
 
 /** Progress of a replay phase, for a progress bar or log line. */
 export interface ReplayProgress {
@@ -135,6 +140,8 @@ export interface ReplayOptions {
   hindsight?: boolean | HindsightResult;
   /** Wall clock for timings. @default performance.now */
   now?: () => number;
+  /** The process's CPU time in ms, every thread (for `timings.cpuMs`). @default process.cpuUsage, user + system */
+  cpuNow?: () => number;
   /** Check every epoch's certificate (tests). @default false */
   verify?: boolean;
   /** The command line, recorded in manifest.json. @default ['runReplay'] */
@@ -204,7 +211,7 @@ export function buildSummary(args: {
   rejects: number;
   inputs: readonly LogInput[];
   warm: boolean;
-  timings: { loadMs: number; hindsightMs: number | null; totalMs: number };
+  timings: { loadMs: number; hindsightMs: number | null; totalMs: number; cpuMs: number };
 }): ReplaySummary {
   const { run, hindsight: h } = args;
   const { regret, ratio } = regretAndRatio(run.online.cost, h ? h.cost : null);
@@ -244,6 +251,7 @@ export function buildSummary(args: {
       onlineMs: run.ms,
       hindsightMs: args.timings.hindsightMs,
       totalMs: args.timings.totalMs,
+      cpuMs: args.timings.cpuMs,
       epochSolve: run.epochSolve,
     },
   };
@@ -257,6 +265,7 @@ export function buildSummary(args: {
 export async function runReplay(paths: readonly string[], config: PairflowConfig, opts: ReplayOptions = {}): Promise<ReplaySummary> {
   const now = opts.now ?? defaultNow;
   const start = now();
+  const cpuStart = (opts.cpuNow ?? defaultCpuNow)();
   let runDir: RunDirSink | null = null;
   const sinks: OutputSink[] = [];
   let sink: OutputSink | null = null;
@@ -284,7 +293,7 @@ export async function runReplay(paths: readonly string[], config: PairflowConfig
     checkLoadedLog(loaded, opts.maxRejects);
     const loadMs = now() - start;
     const { summary, digest } = await replayLoadedFull(loaded, config, {
-      ...opts, now, ...(out ? { sink: out } : {}), loadMs, start, digest: opts.digest ?? runDir !== null, releaseEvents: true,
+      ...opts, now, ...(out ? { sink: out } : {}), loadMs, start, cpuStart, digest: opts.digest ?? runDir !== null, releaseEvents: true,
     });
     sink = null;
     // Close every output even when one fails, then report the first failure.
@@ -332,10 +341,12 @@ export async function replayLoaded(
 export async function replayLoadedFull(
   loaded: LoadedLog,
   config: PairflowConfig,
-  opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number; releaseEvents?: boolean } = {},
+  opts: ReplayOptions & { sink?: OutputSink; loadMs?: number; start?: number; cpuStart?: number; releaseEvents?: boolean } = {},
 ): Promise<{ summary: ReplaySummary; digest: RunDigest | null }> {
   const now = opts.now ?? defaultNow;
   const start = opts.start ?? now();
+  const cpuNow = opts.cpuNow ?? defaultCpuNow;
+  const cpuStart = opts.cpuStart ?? cpuNow();
   const warm = opts.warm ?? true;
   // The hindsight runs on worker threads: start it first so it overlaps the online replay.
   let hindsightPromise: Promise<HindsightResult | null>;
@@ -393,6 +404,7 @@ export async function replayLoadedFull(
       // A reused hindsight result was not computed by this run.
       hindsightMs: hindsight && !reused ? hindsight.ms : null,
       totalMs: now() - start,
+      cpuMs: cpuNow() - cpuStart,
     },
   });
   // Nothing is lost (docs/principles.md rule 4): books that do not close are a bug.

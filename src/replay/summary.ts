@@ -149,6 +149,12 @@ export interface ReplaySummary {
     onlineMs: number;
     hindsightMs: number | null;
     totalMs: number;
+    /**
+     * CPU time of the whole process over the run, user and system, every thread
+     * (the online replay, the hindsight's workers, V8's own): with `totalMs`, how many
+     * cores the run kept busy. Not reproducible, like every timing.
+     */
+    cpuMs: number;
     epochSolve: { warm: EpochSolveTimes; cold: EpochSolveTimes };
   };
 }
@@ -262,7 +268,7 @@ export function formatReplaySummary(s: ReplaySummary): string {
   lines.push('');
   const t = s.timings;
   const es = (e: EpochSolveTimes): string => (e.count === 0 ? 'none' : `${fmtInt(e.count)} × ${fmtMs(e.meanMs)} mean, p95 ${fmtMs(e.p95Ms)}`);
-  lines.push(`timings: load ${fmtMs(t.loadMs)}, online ${fmtMs(t.onlineMs)}, hindsight ${fmtMs(t.hindsightMs)}, total ${fmtMs(t.totalMs)}`);
+  lines.push(`timings: load ${fmtMs(t.loadMs)}, online ${fmtMs(t.onlineMs)}, hindsight ${fmtMs(t.hindsightMs)}, total ${fmtMs(t.totalMs)} (CPU ${fmtMs(t.cpuMs)}, all threads)`);
   lines.push(`epoch solves: warm ${es(t.epochSolve.warm)}; cold ${es(t.epochSolve.cold)}`);
   return lines.join('\n') + '\n';
 }

@@ -9,6 +9,7 @@ import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
 import { generateEvents } from '../../../src/gen/gen.js';
 import { solveHindsight } from '../../../src/hindsight/hindsight.js';
 import { runReplay, type ReplaySummary } from '../../../src/replay/run.js';
+import { formatReplaySummary } from '../../../src/replay/summary.js';
 import { MAX_REACH_KM, validateConfig } from '../../../src/config.js';
 import { runPythonJson, scipyVersion } from '../../helpers/python.js';
 import { mulberry32 } from '../../helpers/random.js';
@@ -95,6 +96,26 @@ describe('runReplay()', () => {
     expect(holds.core).toBe(true);
     // Settled by the time the replay returns (a pending promise would lose this race).
     expect(await Promise.race([holds.until.then(() => 'settled'), new Promise((r) => setTimeout(() => r('pending'), 0))])).toBe('settled');
+  });
+
+  it('timings.cpuMs is the CPU the process spent over the whole run, load included: its last reading less its first', async () => {
+    const path = writeLog(tmp());
+    const readings: number[] = [];
+    const cpuNow = (): number => {
+      readings.push(readings.length === 0 ? 500 : 2000);
+      return readings[readings.length - 1]!;
+    };
+    const s = await runReplay([path], config, { threads: 0, cpuNow });
+    expect(readings).toEqual([500, 2000]);
+    expect(s.timings.cpuMs).toBe(1500);
+    // The real clock: all of the process's threads, so never more than the process
+    // spent around the call (other test files' threads included).
+    const before = process.cpuUsage();
+    const real = await runReplay([path], config, { threads: 0 });
+    const spent = process.cpuUsage(before);
+    expect(real.timings.cpuMs).toBeGreaterThan(0);
+    expect(real.timings.cpuMs).toBeLessThanOrEqual((spent.user + spent.system) / 1000 + 1);
+    expect(formatReplaySummary(real)).toMatch(/total [\d.]+ m?s \(CPU [\d.]+ m?s, all threads\)/);
   });
 
   it('waits are (decidedAt − demandT) in minutes over the assignments; p95 as numpy.quantile (linear)', async () => {
