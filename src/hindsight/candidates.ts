@@ -83,10 +83,8 @@ export class FirstCandidates implements RowVisitor {
     this.bestEdge = new Int32Array(k);
   }
 
-  row(r: number, _demand: number, cols: Int32Array, codes: Uint8Array, len: number, start: number, marks: Uint8Array): void {
+  row(r: number, _demand: number, cols: Int32Array, codes: Uint8Array, len: number, start: number, marks: Uint8Array, lo: number, hi: number): void {
     const { k, colCode, colEdge, colBar, bestCode, bestEdge, taken, supplyEnd } = this;
-    let lo = this.nCols;
-    let hi = -1;
     let n = 0;
     // The earliest-deadline pick: the free column that leaves first (cheapest on a tie).
     let bestI = -1;
@@ -94,8 +92,6 @@ export class FirstCandidates implements RowVisitor {
     let bestC = CODE_TOP;
     for (let i = 0; i < len; i++) {
       const j = cols[i]!;
-      if (j < lo) lo = j;
-      if (j > hi) hi = j;
       const c = codes[i]!;
       if (c === CODE_TOP) continue;
       const e = start + i;

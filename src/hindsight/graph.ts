@@ -415,12 +415,13 @@ export class GraphStore {
 /**
  * Sees each graph row once, as its pairs are written: their columns and cost codes
  * are `cols` / `codes` over `[0, n)`, and pair i of them is pair `start + i` of the
- * graph, whose byte in `marks` (the graph's `codes`) is where a candidate is marked.
+ * graph, whose byte in `marks` (the graph's `codes`) is where a candidate is marked;
+ * `lo` and `hi` are the lowest and highest of the columns (lo > hi when there are none).
  * What must look at every pair (the first candidates) does it here, while the row is
  * in cache, instead of in a pass of its own over the whole graph.
  */
 export interface RowVisitor {
-  row(r: number, demand: number, cols: Int32Array, codes: Uint8Array, n: number, start: number, marks: Uint8Array): void;
+  row(r: number, demand: number, cols: Int32Array, codes: Uint8Array, n: number, start: number, marks: Uint8Array, lo: number, hi: number): void;
 }
 
 /**
@@ -548,6 +549,8 @@ export function buildCompactGraph(
   const minPerKm = 60 / speed;
   const waitMinPerMs = waitWeight / 60_000;
   const cut = limit * SLACK_SQ;
+  // Below this a travel is farther than EDGE from the limit, with room for rounding.
+  const edgeBelow = ((maxTravel * (1 - EDGE)) / (1 + EDGE)) * (1 - 1e-12);
 
   const rowDemand = new Int32Array(nDemand);
   const demandRow = new Int32Array(nDemand);
@@ -649,7 +652,11 @@ export function buildCompactGraph(
           }
           const travel = km * minPerKm;
           let c: number;
-          if (Math.abs(travel - maxTravel) <= EDGE * (maxTravel + travel) || travel !== travel) {
+          if (travel < edgeBelow) {
+            // Clear of the limit (the test below, answered at once for most pairs).
+            const wait = sTerms[o + T_T]! - t;
+            c = travel + (wait > 0 ? waitMinPerMs * wait : 0);
+          } else if (Math.abs(travel - maxTravel) <= EDGE * (maxTravel + travel) || travel !== travel) {
             // Near the limit the exact formula decides (and gives the cost).
             c = exact(d, j);
             if (c !== c) continue;
@@ -674,11 +681,13 @@ export function buildCompactGraph(
     }
     // Write the row: columns less the row's lowest, and the cost codes.
     const start = nnz;
+    let lo = nSupply;
+    let hi = -1;
     if (len > 0) {
       store.ensure(nnz + len, nnz);
       const { cols, codes } = store;
-      let lo = rowCols[0]!;
-      let hi = lo;
+      lo = rowCols[0]!;
+      hi = lo;
       for (let i = 1; i < len; i++) {
         const c = rowCols[i]!;
         if (c < lo) lo = c;
@@ -693,7 +702,7 @@ export function buildCompactGraph(
       }
       codes.set(rowCodes.subarray(0, len), start);
     }
-    visitor?.row(r, d, rowCols, rowCodes, len, start, store.codes);
+    visitor?.row(r, d, rowCols, rowCodes, len, start, store.codes, lo, hi);
     nnz += len;
     rowDemand[r] = d;
     demandRow[d] = r;
