@@ -388,6 +388,13 @@ export class GraphStore {
   cols = new Uint16Array(0);
   codes = new Uint8Array(0);
 
+  /**
+   * @param shared keep the pairs in SharedArrayBuffers, so that a second thread can
+   *   read a pricing pass's share of the rows (pricing-split.ts); their pages too are
+   *   made resident only as they are written
+   */
+  constructor(readonly shared = false) {}
+
   /** Room for at least `n` pairs, keeping the first `keep`. */
   ensure(n: number, keep: number): void {
     if (n <= this.cols.length) return;
@@ -397,8 +404,8 @@ export class GraphStore {
     // A system that will not promise that much address space gets a smaller reservation.
     while (codes === null) {
       try {
-        cols = new Uint16Array(cap);
-        codes = new Uint8Array(cap);
+        cols = this.shared ? (new Uint16Array(new SharedArrayBuffer(2 * cap)) as unknown as Uint16Array<ArrayBuffer>) : new Uint16Array(cap);
+        codes = this.shared ? (new Uint8Array(new SharedArrayBuffer(cap)) as unknown as Uint8Array<ArrayBuffer>) : new Uint8Array(cap);
       } catch (err) {
         cols = null;
         if (!(err instanceof RangeError) || cap <= n) throw err;

@@ -300,6 +300,10 @@ async function runOnWorkers(
   let caller = callerHolds === undefined ? 0 : callerHolds.bytes / BYTES_PER_HELD_PAIR;
   let callerBusy = callerHolds?.core === true;
   const cores = availableParallelism();
+  // Busy threads for the workers' pricing helpers (pricing-split.ts): [0] markets
+  // running and the caller computing, kept here; [1] helpers in a pass, kept by them.
+  const busy = new Int32Array(new SharedArrayBuffer(8));
+  const count = (): void => void Atomics.store(busy, 0, running + (callerBusy ? 1 : 0));
   try {
     await new Promise<void>((resolve, reject) => {
       let settled = false;
@@ -326,6 +330,7 @@ async function runOnWorkers(
             return;
           }
           running--;
+          count();
           const mine = pairs![reply.index]!;
           held -= mine;
           // Its pair store would stay resident for the next market: a fresh worker starts empty.
@@ -346,7 +351,8 @@ async function runOnWorkers(
         packed[i] = null;
         held += pairs![i]!;
         running++;
-        const task: WorkerTask = { index: i, market: markets[i]!, packed: p, config, opts: marketOpts };
+        count();
+        const task: WorkerTask = { index: i, market: markets[i]!, packed: p, config, opts: marketOpts, busy, cores };
         (idle.pop() ?? spawn()).postMessage(task, transferables(p));
       };
       const fill = (): void => {
@@ -393,6 +399,7 @@ async function runOnWorkers(
         const release = (): void => {
           caller = 0;
           callerBusy = false;
+          count();
           dispatch();
         };
         callerHolds.until.then(release, release);

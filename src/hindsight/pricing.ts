@@ -81,42 +81,138 @@ export interface PricedOut {
   readonly costs: Float64Array;
 }
 
+/**
+ * The state a pricer keeps between passes, per row and per column: what a split pass's
+ * two threads both read and write (in SharedArrayBuffers then, see PricingSplit).
+ */
+export interface PricerTables {
+  /** Per row: 1 when its last pricing left no violator out. */
+  readonly rowClean: Uint8Array;
+  /** Per row: its price when last priced. */
+  readonly pricedU: Float64Array;
+  /** Per row: the least `lo − v` over its pairs left out when last priced (+Infinity when none; lo the closest known lower bound of the cost). */
+  readonly floor: Float64Array;
+  /** Per row: how far its columns' prices may have risen since it was last priced. */
+  readonly risen: Float64Array;
+  /** Per row: 1 when skipped by its bound since it was last priced (its numbers are not the priced ones). */
+  readonly stale: Uint8Array;
+  /** Per column: its price at the last pass. */
+  readonly pricedV: Float64Array;
+  /** Length nCols + 1: how many columns before each moved at the last pass. */
+  readonly movedBefore: Int32Array;
+  /** Blocks of {@link BLOCK} columns; level k of the table holds the largest rise over 2^k blocks from each. */
+  readonly rise: Float64Array;
+}
+
+/** Per column, its most negative violators of one pass and one thread, `addPerColumn` slots each, ascending. */
+export interface ColumnPicks {
+  /** Reduced cost of each pick. */
+  readonly red: Float64Array;
+  /** Its pair. */
+  readonly edge: Int32Array;
+  /** Its row. */
+  readonly row: Int32Array;
+  /** Its exact cost (NaN: not computed). */
+  readonly cost: Float64Array;
+  /** Picks per column. */
+  readonly count: Int32Array;
+}
+
+/** Row-scan counters of one pass and one thread. */
+export interface ScanCounts {
+  violators: number;
+  rechecks: number;
+  exactRechecks: number;
+  rowsPriced: number;
+  /** Pairs its rows add (the first of the scanner's `rows` / `cols` / `costs`). */
+  n: number;
+}
+
+/** What the rows of one pass are read with (the same for both threads of a split pass). */
+export interface ScanParams {
+  readonly exhaustive: boolean;
+  readonly maxAbsV: number;
+  readonly inTurns: boolean;
+  readonly turn: number;
+}
+
+/**
+ * A second thread for the row scan of a pass (pricing-split.ts): the two take chunks
+ * of {@link SCAN_CHUNK} rows as they go, over the same graph and tables.
+ */
+export interface PricingSplit {
+  /** Whether the other thread has started on this pass (false: this thread reads every row). */
+  start(u: Float64Array, v: Float64Array, params: ScanParams): boolean;
+  /** The next chunk for this thread (a number past the last chunk once all are taken). */
+  claim(): number;
+  /** Waits for the other thread: its counts, its rows' pairs (rows ascending) and its column picks. */
+  finish(): { counts: ScanCounts; rows: Int32Array; cols: Int32Array; costs: Float64Array; picks: ColumnPicks };
+}
+
+const f64Of = (n: number, shared: boolean): Float64Array => (shared ? new Float64Array(new SharedArrayBuffer(8 * n)) : new Float64Array(n));
+const i32Of = (n: number, shared: boolean): Int32Array => (shared ? new Int32Array(new SharedArrayBuffer(4 * n)) : new Int32Array(n));
+const u8Of = (n: number, shared: boolean): Uint8Array => (shared ? new Uint8Array(new SharedArrayBuffer(n)) : new Uint8Array(n));
+
+/** Fresh {@link PricerTables} for a graph of nRows × nCols, in SharedArrayBuffers when `shared`. */
+export function pricerTables(nRows: number, nCols: number, shared = false): PricerTables {
+  const nBlocks = Math.ceil(nCols / BLOCK);
+  return {
+    rowClean: u8Of(nRows, shared),
+    pricedU: f64Of(nRows, shared),
+    floor: f64Of(nRows, shared).fill(Infinity),
+    risen: f64Of(nRows, shared),
+    stale: u8Of(nRows, shared),
+    pricedV: f64Of(nCols, shared),
+    movedBefore: i32Of(nCols + 1, shared),
+    rise: f64Of(nBlocks * levels(nBlocks), shared),
+  };
+}
+
+/** Fresh {@link ColumnPicks} for nCols columns, `perCol` slots each. */
+export function columnPicks(nCols: number, perCol: number, shared = false): ColumnPicks {
+  const slots = nCols * perCol;
+  return {
+    red: f64Of(slots, shared),
+    edge: i32Of(slots, shared),
+    row: i32Of(slots, shared),
+    cost: f64Of(slots, shared),
+    count: i32Of(perCol > 0 ? nCols : 0, shared),
+  };
+}
+
+/** Where a pricer's rows put the pairs they add: growable, or fixed (a helper thread's, shared). */
+export interface RowAdds {
+  rows: Int32Array;
+  cols: Int32Array;
+  costs: Float64Array;
+  /** Whether the arrays may be replaced by larger ones (not when another thread reads them). */
+  readonly growable: boolean;
+}
+
+/** Fresh {@link RowAdds}: `capacity` pairs, growable unless shared. */
+export function rowAdds(capacity: number, shared = false): RowAdds {
+  return { rows: i32Of(capacity, shared), cols: i32Of(capacity, shared), costs: f64Of(capacity, shared), growable: !shared };
+}
+
 export class Pricer {
-  private readonly rowClean: Uint8Array;
-  private readonly pricedU: Float64Array;
-  private readonly pricedV: Float64Array;
-  private readonly movedBefore: Int32Array;
   private readonly addRed: Float64Array;
   private readonly addEdge: Int32Array;
   private readonly addCol: Int32Array;
   private readonly addCost: Float64Array;
-  /** Per column its most negative violators of this pass, `addPerColumn` slots each, ascending: reduced cost, pair, row, cost (NaN: not computed). */
-  private readonly colRed: Float64Array;
-  private readonly colEdge: Int32Array;
-  private readonly colRow: Int32Array;
-  private readonly colCost: Float64Array;
-  private readonly colCount: Int32Array;
-  /** Per row: the least `lo − v` over its pairs left out when last priced (+Infinity when none; lo the closest known lower bound of the cost). */
-  private readonly floor: Float64Array;
-  /** Per row: how far its columns' prices may have risen since it was last priced. */
-  private readonly risen: Float64Array;
-  /** Per row: 1 when skipped by its bound since it was last priced (its numbers are not the priced ones). */
-  private readonly stale: Uint8Array;
-  /** Blocks of {@link BLOCK} columns; level k of the table holds the largest rise over 2^k blocks from each. */
   private readonly nBlocks: number;
-  private readonly rise: Float64Array;
-  private newRow = new Int32Array(1024);
-  private newCol = new Int32Array(1024);
-  private newCost = new Float64Array(1024);
   private passes = 0;
   /** Violators the last pass found, scaled to all rows when it read them in turns (before any pass: as many as can be). */
   private lastViolators = Infinity;
+  /** A second thread for the row scans, when one is attached. */
+  private split: PricingSplit | null = null;
   /** Row pricings over all passes (a clean row whose prices stood still is skipped). */
   rowsPriced = 0;
   /** Decisions too close to call on a pair's code, settled on the build's cost. */
   rechecks = 0;
   /** Of those, decisions too close to call on the build's cost too, settled on the exact cost. */
   exactRechecks = 0;
+  /** Passes whose rows were read on two threads. */
+  splitPasses = 0;
 
   /**
    * @param colLo per row, its lowest column (see FirstCandidates)
@@ -129,6 +225,9 @@ export class Pricer {
    *   quickPairCostOf), for decisions its code cannot make
    * @param turns read the rows left with violators in this many turns while they
    *   are many (see the module comment); 1 reads them all in every pass
+   * @param tables the state kept between passes (shared with a helper thread's pricer)
+   * @param picks this pricer's column picks (a helper thread's, shared)
+   * @param adds where this pricer's rows put their pairs (a helper thread's, shared)
    */
   constructor(
     private readonly g: CompactGraph,
@@ -140,27 +239,24 @@ export class Pricer {
     private readonly addPerColumn = 0,
     private readonly quick: PairCost = exact,
     private readonly turns = 1,
+    readonly tables: PricerTables = pricerTables(g.nRows, g.nCols),
+    readonly picks: ColumnPicks = columnPicks(g.nCols, addPerColumn),
+    readonly adds: RowAdds = rowAdds(1024),
   ) {
     if (!(Number.isInteger(turns) && turns >= 1)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `pricing turns must be a whole number ≥ 1, got ${turns}` });
-    this.rowClean = new Uint8Array(g.nRows);
-    this.pricedU = new Float64Array(g.nRows);
-    this.pricedV = new Float64Array(g.nCols);
-    this.movedBefore = new Int32Array(g.nCols + 1);
     this.addRed = new Float64Array(addPerRow);
     this.addEdge = new Int32Array(addPerRow);
     this.addCol = new Int32Array(addPerRow);
     this.addCost = new Float64Array(addPerRow);
-    const slots = g.nCols * addPerColumn;
-    this.colRed = new Float64Array(slots);
-    this.colEdge = new Int32Array(slots);
-    this.colRow = new Int32Array(slots);
-    this.colCost = new Float64Array(slots);
-    this.colCount = new Int32Array(addPerColumn > 0 ? g.nCols : 0);
-    this.floor = new Float64Array(g.nRows).fill(Infinity);
-    this.risen = new Float64Array(g.nRows);
-    this.stale = new Uint8Array(g.nRows);
     this.nBlocks = Math.ceil(g.nCols / BLOCK);
-    this.rise = new Float64Array(this.nBlocks * levels(this.nBlocks));
+  }
+
+  /**
+   * Reads the rows of later passes on two threads where `split` says so (null: on
+   * this one alone). Either way a pass finds the same pairs in the same order.
+   */
+  attach(split: PricingSplit | null): void {
+    this.split = split;
   }
 
   /**
@@ -170,13 +266,65 @@ export class Pricer {
    * every pair (see the module comment).
    */
   pass(rowDuals: Float64Array, colDuals: Float64Array, exhaustive = false): PricedOut {
-    const { g, exact, quick, colLo, colHi, addPerRow, P, rowClean, pricedU, pricedV, movedBefore, addRed, addEdge, addCol, addCost, floor, risen, stale, rise, nBlocks } = this;
-    const { addPerColumn: perCol, colRed, colEdge, colRow, colCost, colCount } = this;
-    colCount.fill(0);
-    const { nRows, nCols, rowPtr, rowBase, cols, codes, wide, step, rowDemand } = g;
+    const { g, exact, P, addPerColumn: perCol, picks } = this;
+    const { nRows, nCols, rowDemand, codes } = g;
     const first = this.passes++ === 0;
-    // Columns whose price moved since the previous pass (every one, the first time),
-    // and the largest rise per block of columns.
+    const maxAbsV = this.prepareColumns(colDuals, first);
+    const { turns } = this;
+    const inTurns = turns > 1 && !exhaustive && this.lastViolators > TURNS_ABOVE * nRows;
+    const params: ScanParams = { exhaustive, maxAbsV, inTurns, turn: (this.passes - 1) % turns };
+    picks.count.fill(0);
+    const split = this.split !== null && this.split.start(rowDuals, colDuals, params);
+    const counts = split ? this.scanChunks(() => this.split!.claim(), rowDuals, colDuals, params) : this.scan(0, nRows, rowDuals, colDuals, params);
+    let nNew = counts.n;
+    if (split) {
+      // Put together as one thread reading every row in order would have: the pairs
+      // by row, and each column's most negative picks of both, the earlier row's
+      // first on a tie (a column has one pair a row).
+      const other = this.split!.finish();
+      this.splitPasses++;
+      counts.violators += other.counts.violators;
+      counts.rechecks += other.counts.rechecks;
+      counts.exactRechecks += other.counts.exactRechecks;
+      counts.rowsPriced += other.counts.rowsPriced;
+      nNew = this.mergeAdds(nNew, other.rows, other.cols, other.costs, other.counts.n);
+      if (perCol > 0) mergePicks(picks, other.picks, nCols, perCol);
+    }
+    // Then each column's own, where its row did not take it (a pair its row added is
+    // marked by now). Such a row was not clean: it left out a violator.
+    const { edge: colEdge, row: colRow, cost: colCost, count: colCount } = picks;
+    for (let col = 0; perCol > 0 && col < nCols; col++) {
+      const n = colCount[col]!;
+      for (let q = col * perCol; q < col * perCol + n; q++) {
+        const e = colEdge[q]!;
+        if (codes[e]! === MARK) continue;
+        const r = colRow[q]!;
+        const c = Number.isNaN(colCost[q]!) ? exact(rowDemand[r]!, col) : colCost[q]!;
+        if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
+        markCandidate(codes, e);
+        if (nNew + 1 > this.adds.rows.length) this.grow(nNew + 1);
+        this.adds.rows[nNew] = r;
+        this.adds.cols[nNew] = col;
+        this.adds.costs[nNew] = c;
+        nNew++;
+      }
+    }
+    this.rechecks += counts.rechecks;
+    this.exactRechecks += counts.exactRechecks;
+    this.rowsPriced += counts.rowsPriced;
+    this.lastViolators = inTurns ? turns * counts.violators : counts.violators;
+    return { violators: counts.violators, n: nNew, rows: this.adds.rows, cols: this.adds.cols, costs: this.adds.costs };
+  }
+
+  /**
+   * Columns whose price moved since the previous pass (every one, the first time),
+   * and the largest rise per block of columns; returns the largest |v|, for a slack
+   * per row that holds for every pair of it.
+   */
+  private prepareColumns(colDuals: Float64Array, first: boolean): number {
+    const { pricedV, movedBefore, rise } = this.tables;
+    const { nBlocks } = this;
+    const nCols = this.g.nCols;
     rise.fill(0, 0, nBlocks);
     for (let c = 0; c < nCols; c++) {
       const v = colDuals[c]!;
@@ -187,18 +335,31 @@ export class Pricer {
       pricedV[c] = v;
     }
     buildLevels(rise, nBlocks);
-    // The largest |v|, for a slack per row that holds for every pair of it.
     let maxAbsV = 0;
     for (let c = 0; c < nCols; c++) maxAbsV = Math.max(maxAbsV, Math.abs(colDuals[c]!));
+    return maxAbsV;
+  }
+
+  /**
+   * Reads rows [r0, r1) of a pass whose columns are prepared: each row's pairs that
+   * price out, its most negative added (to this pricer's `adds`, from the first) and
+   * marked, and each column's most negative in this pricer's `picks` (cleared by the
+   * caller). What the pass of one thread over every row does, for a share of them.
+   */
+  scan(r0: number, r1: number, rowDuals: Float64Array, colDuals: Float64Array, params: ScanParams, added = 0): ScanCounts {
+    const { g, exact, quick, colLo, colHi, addPerRow, P, addRed, addEdge, addCol, addCost, nBlocks } = this;
+    const { rowClean, pricedU, movedBefore, floor, risen, stale, rise } = this.tables;
+    const { addPerColumn: perCol } = this;
+    const { red: colRed, edge: colEdge, row: colRow, cost: colCost, count: colCount } = this.picks;
+    const { rowPtr, rowBase, cols, codes, wide, step, rowDemand } = g;
+    const { exhaustive, maxAbsV, inTurns, turn } = params;
+    const { turns } = this;
     let violators = 0;
-    let nNew = 0;
+    let nNew = added;
     let rechecks = 0;
     let exactRechecks = 0;
     let rowsPriced = 0;
-    const { turns } = this;
-    const inTurns = turns > 1 && !exhaustive && this.lastViolators > TURNS_ABOVE * nRows;
-    const turn = (this.passes - 1) % turns;
-    for (let r = 0; r < nRows; r++) {
+    for (let r = r0; r < r1; r++) {
       const u = rowDuals[r]!;
       const lo0 = colLo[r]!;
       const hi0 = colHi[r]!;
@@ -357,57 +518,130 @@ export class Pricer {
       rowClean[r] = rowViolators > nb ? 0 : 1;
       floor[r] = least;
       if (nb === 0) continue;
-      if (nNew + nb > this.newRow.length) this.grow(nNew + nb);
+      if (nNew + nb > this.adds.rows.length) this.grow(nNew + nb);
       for (let q = 0; q < nb; q++) {
         const col = addCol[q]!;
         const c = Number.isNaN(addCost[q]!) ? exact(d, col) : addCost[q]!;
         // A violator has c < u + v ≤ P; anything else is a bug in the prices.
         if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
         markCandidate(codes, addEdge[q]!);
-        this.newRow[nNew] = r;
-        this.newCol[nNew] = col;
-        this.newCost[nNew] = c;
+        this.adds.rows[nNew] = r;
+        this.adds.cols[nNew] = col;
+        this.adds.costs[nNew] = c;
         nNew++;
       }
     }
-    // Then each column's own, where its row did not take it (a pair its row added is
-    // marked by now). Such a row was not clean: it left out a violator.
-    for (let col = 0; perCol > 0 && col < nCols; col++) {
-      const n = colCount[col]!;
-      for (let q = col * perCol; q < col * perCol + n; q++) {
-        const e = colEdge[q]!;
-        if (codes[e]! === MARK) continue;
-        const r = colRow[q]!;
-        const c = Number.isNaN(colCost[q]!) ? exact(rowDemand[r]!, col) : colCost[q]!;
-        if (!(c < P)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: pair of cost ${c} ≥ P priced out` });
-        markCandidate(codes, e);
-        if (nNew + 1 > this.newRow.length) this.grow(nNew + 1);
-        this.newRow[nNew] = r;
-        this.newCol[nNew] = col;
-        this.newCost[nNew] = c;
-        nNew++;
+    return { violators, rechecks, exactRechecks, rowsPriced, n: nNew };
+  }
+
+  private mergeRows = new Int32Array(0);
+  private mergeCols = new Int32Array(0);
+  private mergeCosts = new Float64Array(0);
+
+  /** Merges another thread's `m` added pairs (rows ascending) with this pricer's first `n` by row; returns the count. */
+  private mergeAdds(n: number, rows: Int32Array, cols: Int32Array, costs: Float64Array, m: number): number {
+    if (m === 0) return n;
+    if (this.mergeRows.length < n) {
+      const size = Math.max(n, 2 * this.mergeRows.length);
+      this.mergeRows = new Int32Array(size);
+      this.mergeCols = new Int32Array(size);
+      this.mergeCosts = new Float64Array(size);
+    }
+    const { mergeRows: aRows, mergeCols: aCols, mergeCosts: aCosts } = this;
+    aRows.set(this.adds.rows.subarray(0, n));
+    aCols.set(this.adds.cols.subarray(0, n));
+    aCosts.set(this.adds.costs.subarray(0, n));
+    if (n + m > this.adds.rows.length) this.grow(n + m);
+    const { rows: out, cols: outCols, costs: outCosts } = this.adds;
+    let i = 0;
+    let j = 0;
+    for (let k = 0; k < n + m; k++) {
+      if (j >= m || (i < n && aRows[i]! < rows[j]!)) {
+        out[k] = aRows[i]!;
+        outCols[k] = aCols[i]!;
+        outCosts[k] = aCosts[i++]!;
+      } else {
+        out[k] = rows[j]!;
+        outCols[k] = cols[j]!;
+        outCosts[k] = costs[j++]!;
       }
     }
-    this.rechecks += rechecks;
-    this.exactRechecks += exactRechecks;
-    this.rowsPriced += rowsPriced;
-    this.lastViolators = inTurns ? turns * violators : violators;
-    return { violators, n: nNew, rows: this.newRow, cols: this.newCol, costs: this.newCost };
+    return n + m;
+  }
+
+  /**
+   * Reads the rows of a pass chunk by chunk, {@link SCAN_CHUNK} rows a chunk, taking
+   * chunk numbers from `claim` until it gives one past the last row: the share of a
+   * pass that one of two threads reads (their chunks interleave, each thread's in
+   * ascending order). The pairs added follow the first `added` of `adds`.
+   */
+  scanChunks(claim: () => number, rowDuals: Float64Array, colDuals: Float64Array, params: ScanParams, added = 0): ScanCounts {
+    const { nRows } = this.g;
+    const total: ScanCounts = { violators: 0, rechecks: 0, exactRechecks: 0, rowsPriced: 0, n: added };
+    for (;;) {
+      const r0 = claim() * SCAN_CHUNK;
+      if (r0 >= nRows) return total;
+      const c = this.scan(r0, Math.min(nRows, r0 + SCAN_CHUNK), rowDuals, colDuals, params, total.n);
+      total.violators += c.violators;
+      total.rechecks += c.rechecks;
+      total.exactRechecks += c.exactRechecks;
+      total.rowsPriced += c.rowsPriced;
+      total.n = c.n;
+    }
   }
 
   private grow(need: number): void {
-    const size = Math.max(2 * this.newRow.length, need);
+    if (!this.adds.growable) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `pricing: ${need} pairs added, room for ${this.adds.rows.length}` });
+    const size = Math.max(2 * this.adds.rows.length, need);
     const rows = new Int32Array(size);
-    rows.set(this.newRow);
+    rows.set(this.adds.rows);
     const cols = new Int32Array(size);
-    cols.set(this.newCol);
+    cols.set(this.adds.cols);
     const costs = new Float64Array(size);
-    costs.set(this.newCost);
-    this.newRow = rows;
-    this.newCol = cols;
-    this.newCost = costs;
+    costs.set(this.adds.costs);
+    this.adds.rows = rows;
+    this.adds.cols = cols;
+    this.adds.costs = costs;
   }
 }
+
+/**
+ * Merges column picks `b` into `a` (each of their own rows, in row order): per column
+ * the `perCol` most negative of both, ascending, the earlier row first on a tie.
+ */
+export function mergePicks(a: ColumnPicks, b: ColumnPicks, nCols: number, perCol: number): void {
+  const red = new Float64Array(perCol);
+  const edge = new Int32Array(perCol);
+  const row = new Int32Array(perCol);
+  const cost = new Float64Array(perCol);
+  for (let col = 0; col < nCols; col++) {
+    const nb = b.count[col]!;
+    if (nb === 0) continue;
+    const na = a.count[col]!;
+    const at = col * perCol;
+    let i = 0;
+    let j = 0;
+    let n = 0;
+    while (n < perCol && (i < na || j < nb)) {
+      const takeA = j >= nb || (i < na && (a.red[at + i]! < b.red[at + j]! || (a.red[at + i] === b.red[at + j] && a.row[at + i]! < b.row[at + j]!)));
+      const src = takeA ? a : b;
+      const k = at + (takeA ? i++ : j++);
+      red[n] = src.red[k]!;
+      edge[n] = src.edge[k]!;
+      row[n] = src.row[k]!;
+      cost[n] = src.cost[k]!;
+      n++;
+    }
+    a.red.set(red.subarray(0, n), at);
+    a.edge.set(edge.subarray(0, n), at);
+    a.row.set(row.subarray(0, n), at);
+    a.cost.set(cost.subarray(0, n), at);
+    a.count[col] = n;
+  }
+}
+
+/** Rows per chunk of a split pass (a chunk of a busy district's day reads about half a million pairs). */
+export const SCAN_CHUNK = 256;
 
 /** Violators a row in the last pass above which a pass reads the rows left with violators in turns. */
 const TURNS_ABOVE = 100;

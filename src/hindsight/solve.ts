@@ -32,7 +32,8 @@ import type { PairflowConfig } from '../model.js';
 import { dropCandidate, FirstCandidates, markCandidate } from './candidates.js';
 import { matchCeiling } from './ceiling.js';
 import { buildCompactGraph, columnOf, expandGraph, GraphStore, isMarked, pairCostOf, quickPairCostOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
-import { Pricer } from './pricing.js';
+import { Pricer, pricerTables } from './pricing.js';
+import type { PricingSplitter } from './pricing-split.js';
 import { mergeProofs, subMarket, timeSegments, type SegmentProof } from './segments.js';
 
 /** A sparse assignment solver with the contract of src/matching/types.ts. */
@@ -171,6 +172,8 @@ export interface HindsightMarketDetail {
   rechecks: number;
   /** Row pricings over all rounds (a row whose prices stood still is not priced again). */
   rowsPriced: number;
+  /** Pricing passes whose rows were read on two threads (pricing-split.ts). */
+  splitPasses: number;
 }
 
 /** @default candidatesPerDemand */
@@ -197,6 +200,7 @@ interface SegmentResult {
   retries: number;
   rechecks: number;
   rowsPriced: number;
+  splitPasses: number;
   /** With `wantDetail`: the segment's graph and prices, rows in its demand order. */
   proof: SegmentProof | null;
 }
@@ -210,6 +214,8 @@ const zeroPhases = (): HindsightPhases => ({ graphMs: 0, setupMs: 0, firstSolveM
  * segments' graphs and prices are put back together into market-wide ones. `store`
  * holds the pairs; a worker passes the same one for market after market, so the
  * memory of one market's pairs is reused by the next instead of waiting for the GC.
+ * `splitter` gives large segments' pricing passes a second thread while a core is
+ * free (pricing-split.ts; its store must then be shared): the result is the same.
  */
 export function solvePackedMarket(
   market: string,
@@ -219,6 +225,7 @@ export function solvePackedMarket(
   opts: HindsightMarketOptions = {},
   wantDetail = false,
   store: GraphStore = new GraphStore(),
+  splitter: PricingSplitter | null = null,
 ): HindsightMarketResult & HindsightDemandCosts & { detail: HindsightMarketDetail | null } {
   // Costs ≥ 0 (the config check asks waitWeight ≥ 0) let a sign mark the candidates.
   if (!(config.waitWeight >= 0)) {
@@ -251,13 +258,14 @@ export function solvePackedMarket(
   let retries = 0;
   let rechecks = 0;
   let rowsPriced = 0;
+  let splitPasses = 0;
   // Each segment's graph is done with before the next is built, so they share `store`.
   for (let q = 0; q < seg.count; q++) {
     const dIdx = seg.demand.idx.subarray(seg.demand.start[q]!, seg.demand.start[q + 1]!);
     const sIdx = seg.supply.idx.subarray(seg.supply.start[q]!, seg.supply.start[q + 1]!);
     if (dIdx.length === 0 && !wantDetail) continue;
     const sub = seg.count === 1 ? m : subMarket(m, dIdx, sIdx);
-    const r = solveSegment(sub, config, solve, opts, now, store, wantDetail);
+    const r = solveSegment(sub, config, solve, opts, now, store, wantDetail, splitter);
     for (let i = 0; i < dIdx.length; i++) {
       out.demandCost[dIdx[i]!] = r.demandCost[i]!;
       out.demandWait[dIdx[i]!] = r.demandWait[i]!;
@@ -273,13 +281,14 @@ export function solvePackedMarket(
     retries += r.retries;
     rechecks += r.rechecks;
     rowsPriced += r.rowsPriced;
+    splitPasses += r.splitPasses;
     if (wantDetail) parts.push({ dIdx, sIdx, proof: r.proof! });
   }
   // Summed in occurrence order, so the total does not depend on how segments fell.
   for (let i = 0; i < m.nDemand; i++) out.cost += out.demandCost[i]!;
   out.abandoned = m.nDemand - out.matched;
   if (opts.cover) out.cover = joinCovers(coverParts);
-  if (wantDetail) out.detail = { ...mergeProofs(m, parts), solves, retries, rechecks, rowsPriced };
+  if (wantDetail) out.detail = { ...mergeProofs(m, parts), solves, retries, rechecks, rowsPriced, splitPasses };
   out.ms = now() - t0;
   return out;
 }
@@ -306,6 +315,7 @@ function solveSegment(
   now: () => number,
   store: GraphStore,
   wantDetail: boolean,
+  splitter: PricingSplitter | null,
 ): SegmentResult {
   const k = Math.max(1, Math.floor(opts.candidatesPerDemand ?? DEFAULT_CANDIDATES_PER_DEMAND));
   const addPerRow = Math.max(1, Math.floor(opts.addPerRow ?? DEFAULT_ADD_PER_ROW));
@@ -337,7 +347,11 @@ function solveSegment(
     if (c < P) restricted.add(r, col, c);
     else dropCandidate(codes, e);
   }
-  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config), turns);
+  // A large segment's passes may read half their rows on a helper thread: its tables are shared then.
+  const split = splitter !== null && splitter.wants(g);
+  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config), turns, pricerTables(nRows, nCols, split));
+  const helper = split ? splitter.open({ g, m, config, colLo: first.colLo, colHi: first.colHi, addPerRow, P, addPerColumn, turns, tables: pricer.tables }) : null;
+  pricer.attach(helper);
   lap('setupMs');
 
   let pricingRounds = 0;
@@ -349,32 +363,36 @@ function solveSegment(
   // from where the last one stood.
   restricted.adopt(certified(restricted.instance(), solve(restricted.instance(), { now }), solve, now, () => retries++));
   solves++;
-  for (;;) {
-    lap(pricingRounds === 0 ? 'firstSolveMs' : 'resolveMs');
-    pricingRounds++;
-    let found = pricer.pass(restricted.u, restricted.v);
-    // A pass that skipped rows by their bounds proves nothing; the proof is one that reads them.
-    if (found.violators === 0) found = pricer.pass(restricted.u, restricted.v, true);
-    for (let q = 0; q < found.n; q++) restricted.add(found.rows[q]!, found.cols[q]!, found.costs[q]!);
-    if (pricingRounds === 1) addGreedyPairs(g, first, exact, P, restricted);
-    lap('pricingMs');
-    if (found.violators === 0) {
-      // No allowed pair prices out: the prices prove the optimum once they certify
-      // the restricted assignment itself (SPEC §5). Prices that do not are found again
-      // cold and priced once more.
-      const inst = restricted.instance();
-      const res = restricted.result({ augmentations: 0, scannedPairs: 0, ms: 0, warm: true });
-      if (checkCertificate(inst, res).ok) {
-        final = res;
-        finalInst = inst;
-        break;
+  try {
+    for (;;) {
+      lap(pricingRounds === 0 ? 'firstSolveMs' : 'resolveMs');
+      pricingRounds++;
+      let found = pricer.pass(restricted.u, restricted.v);
+      // A pass that skipped rows by their bounds proves nothing; the proof is one that reads them.
+      if (found.violators === 0) found = pricer.pass(restricted.u, restricted.v, true);
+      for (let q = 0; q < found.n; q++) restricted.add(found.rows[q]!, found.cols[q]!, found.costs[q]!);
+      if (pricingRounds === 1) addGreedyPairs(g, first, exact, P, restricted);
+      lap('pricingMs');
+      if (found.violators === 0) {
+        // No allowed pair prices out: the prices prove the optimum once they certify
+        // the restricted assignment itself (SPEC §5). Prices that do not are found again
+        // cold and priced once more.
+        const inst = restricted.instance();
+        const res = restricted.result({ augmentations: 0, scannedPairs: 0, ms: 0, warm: true });
+        if (checkCertificate(inst, res).ok) {
+          final = res;
+          finalInst = inst;
+          break;
+        }
+        retries++;
+        restricted.adopt(certified(inst, solve(inst, { now }), solve, now, () => {}));
+      } else {
+        restricted.solve();
       }
-      retries++;
-      restricted.adopt(certified(inst, solve(inst, { now }), solve, now, () => {}));
-    } else {
-      restricted.solve();
+      solves++;
     }
-    solves++;
+  } finally {
+    helper?.close();
   }
   lap('resolveMs');
 
@@ -441,6 +459,7 @@ function solveSegment(
     retries,
     rechecks: pricer.rechecks,
     rowsPriced: pricer.rowsPriced,
+    splitPasses: pricer.splitPasses,
     proof,
   };
 }

@@ -10,6 +10,7 @@ import { PairflowError } from '../errors.js';
 import { solveSparse } from '../matching/index.js';
 import type { PairflowConfig } from '../model.js';
 import { GraphStore, type PackedMarket } from './graph.js';
+import { PricingHelper, sharedGauge } from './pricing-split.js';
 import {
   solvePackedMarket,
   type HindsightDemandCosts,
@@ -24,6 +25,9 @@ export interface WorkerTask {
   readonly packed: PackedMarket;
   readonly config: PairflowConfig;
   readonly opts: HindsightMarketOptions;
+  /** The pool's counts of busy threads (pricing-split.ts sharedGauge), and the cores they share. */
+  readonly busy: Int32Array;
+  readonly cores: number;
 }
 
 /** The answer to a {@link WorkerTask}. */
@@ -32,12 +36,15 @@ export type WorkerReply =
   | { readonly ok: false; readonly index: number; readonly message: string; readonly code?: string; readonly params?: unknown };
 
 const port = parentPort;
-// One pair store for every market this worker solves (one at a time).
-const store = new GraphStore();
+// One pair store for every market this worker solves (one at a time), shared with
+// the pricing helper, which starts with the first market large enough for it.
+const store = new GraphStore(true);
+let helper: PricingHelper | null = null;
 if (port !== null) {
   port.on('message', (task: WorkerTask) => {
     try {
-      const { detail: _detail, ...result } = solvePackedMarket(task.market, task.packed, task.config, solveSparse, task.opts, false, store);
+      helper ??= new PricingHelper(sharedGauge(task.busy, task.cores));
+      const { detail: _detail, ...result } = solvePackedMarket(task.market, task.packed, task.config, solveSparse, task.opts, false, store, helper);
       const reply: WorkerReply = { ok: true, index: task.index, result };
       port.postMessage(reply, [result.demandT.buffer as ArrayBuffer, result.demandCost.buffer as ArrayBuffer, result.demandWait.buffer as ArrayBuffer]);
     } catch (err) {
