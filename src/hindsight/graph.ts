@@ -446,9 +446,9 @@ const T_END = 5;
 const T_T = 6;
 const T_CAPS = 7;
 
-function termsOf(lat: Float64Array, lon: Float64Array, t: Float64Array, end: Float64Array, caps: Uint32Array, capWords: number, sphere: boolean): Float64Array {
+function termsOf(lat: Float64Array, lon: Float64Array, t: Float64Array, end: Float64Array, caps: Uint32Array, capWords: number, sphere: boolean, shared = false): Float64Array {
   const n = lat.length;
-  const out = new Float64Array(n * STRIDE);
+  const out = shared ? new Float64Array(new SharedArrayBuffer(8 * n * STRIDE)) : new Float64Array(n * STRIDE);
   for (let i = 0; i < n; i++) {
     const o = i * STRIDE;
     if (sphere) {
@@ -739,23 +739,42 @@ const SLACK_SQ = 1 + 4e-9;
  */
 export const QUICK_COST_SLACK = 2 ** -22;
 
+/** The per-unit terms {@link quickPairCostOf} reads. */
+export interface QuickTerms {
+  readonly demand: Float64Array;
+  readonly supply: Float64Array;
+}
+
+/**
+ * The terms of {@link quickPairCostOf} for market `m`, in SharedArrayBuffers when
+ * `shared`; null where it takes the exact cost (distances off the series' range,
+ * where the build took the exact formula too).
+ */
+export function quickTermsOf(m: PackedMarket, config: PairflowConfig, shared = false): QuickTerms | null {
+  const euclid = config.metric === 'euclidean';
+  const limit = euclid ? Infinity : Math.sin(maxDistanceKm(config) / EARTH_RADIUS_KM / 2) ** 2;
+  if (!euclid && !(limit <= SERIES_MAX_H)) return null;
+  const none = new Uint32Array(0);
+  return {
+    demand: termsOf(m.demandA, m.demandB, m.demandT, m.demandEnd, none, 0, !euclid, shared),
+    supply: termsOf(m.supplyA, m.supplyB, m.supplyT, m.supplyEnd, none, 0, !euclid, shared),
+  };
+}
+
 /**
  * The cost of an allowed pair (demand d, supply s) as the graph build computed it:
  * the fast distance, and the same wait term. Within {@link QUICK_COST_SLACK} of
  * {@link pairCostOf}'s, at a sixth of its time (no sine per pair on the sphere):
  * for the many decisions a pair's 7-bit code cannot make and its cost can by far
  * (pricing.ts). Allowedness is not checked; for a pair off the graph the number is
- * meaningless. Its per-unit terms take 64 bytes a unit.
+ * meaningless. Its per-unit terms ({@link quickTermsOf}) take 64 bytes a unit; a
+ * second thread pricing the same market is handed them rather than making its own.
  */
-export function quickPairCostOf(m: PackedMarket, config: PairflowConfig): PairCost {
+export function quickPairCostOf(m: PackedMarket, config: PairflowConfig, terms: QuickTerms | null = quickTermsOf(m, config)): PairCost {
   const euclid = config.metric === 'euclidean';
   const exact = pairCostOf(m, config);
-  const limit = euclid ? Infinity : Math.sin(maxDistanceKm(config) / EARTH_RADIUS_KM / 2) ** 2;
-  // Off the series' range the build took the exact formula too.
-  if (!euclid && !(limit <= SERIES_MAX_H)) return exact;
-  const none = new Uint32Array(0);
-  const dTerms = termsOf(m.demandA, m.demandB, m.demandT, m.demandEnd, none, 0, !euclid);
-  const sTerms = termsOf(m.supplyA, m.supplyB, m.supplyT, m.supplyEnd, none, 0, !euclid);
+  if (terms === null) return exact;
+  const { demand: dTerms, supply: sTerms } = terms;
   const minPerKm = 60 / config.speedKmh;
   const waitMinPerMs = config.waitWeight / 60_000;
   return (d: number, s: number): number => {

@@ -11,6 +11,6 @@ import { serveSegment, type HelperSetup } from './pricing-split.js';
 const port = parentPort;
 if (port !== null) {
   port.on('message', (setup: HelperSetup) => {
-    serveSegment(setup, pairCostOf(setup.packed, setup.config), quickPairCostOf(setup.packed, setup.config));
+    serveSegment(setup, pairCostOf(setup.packed, setup.config), quickPairCostOf(setup.packed, setup.config, setup.quick));
   });
 }

@@ -25,7 +25,7 @@ import { Worker } from 'node:worker_threads';
 
 import { pairflowError } from '../errors.js';
 import type { PairflowConfig } from '../model.js';
-import type { CompactGraph, PackedMarket, PairCost } from './graph.js';
+import type { CompactGraph, PackedMarket, PairCost, QuickTerms } from './graph.js';
 import { columnPicks, Pricer, rowAdds, type ColumnPicks, type PricerTables, type PricingSplit, type RowAdds, type ScanCounts, type ScanParams } from './pricing.js';
 
 /** Command words (Int32). */
@@ -56,6 +56,9 @@ export const ERROR_BYTES = 2048;
  * code) once per worker and its tables once per segment.
  */
 export const SPLIT_MIN_PAIRS = 8_000_000;
+
+/** How long a pass waits for a helper to set up for a segment (a thread starts in tens of milliseconds). */
+const READY_WAIT_MS = 5000;
 
 /** How long a pass may wait for the helper before the solve gives up (a helper that stopped answering). */
 const WAIT_LIMIT_MS = 10 * 60_000;
@@ -99,6 +102,7 @@ export interface HelperSetup {
   readonly addPerColumn: number;
   readonly turns: number;
   readonly tables: PricerTables;
+  readonly quick: QuickTerms | null;
   readonly picks: ColumnPicks;
   readonly adds: RowAdds;
 }
@@ -116,6 +120,8 @@ export interface SplitSegment {
   readonly turns: number;
   /** The pricer's tables, in SharedArrayBuffers. */
   readonly tables: PricerTables;
+  /** The terms of its quick costs (graph.ts quickTermsOf), in SharedArrayBuffers. */
+  readonly quick: QuickTerms | null;
 }
 
 /** A split of one segment's passes; `close` when the segment's passes are over. */
@@ -152,7 +158,12 @@ export class PricingHelper implements PricingSplitter {
   }
 
   open(seg: SplitSegment): SegmentSplit | null {
-    if (!this.wants(seg.g)) return null;
+    return this.wants(seg.g) ? new ThreadSplit(seg, this.gauge, () => this.thread()) : null;
+  }
+
+  /** The helper thread, started now if it is not running (null once it has failed). */
+  private thread(): Worker | null {
+    if (this.broken) return null;
     if (this.worker === null) {
       const w = new Worker(this.url);
       w.unref();
@@ -165,23 +176,7 @@ export class PricingHelper implements PricingSplitter {
       });
       this.worker = w;
     }
-    const { g } = seg;
-    const ctl = new Int32Array(new SharedArrayBuffer(4 * CTL_WORDS));
-    const num = new Float64Array(new SharedArrayBuffer(8 * NUM_WORDS));
-    const error = new Uint8Array(new SharedArrayBuffer(ERROR_BYTES));
-    const u = new Float64Array(new SharedArrayBuffer(8 * g.nRows));
-    const v = new Float64Array(new SharedArrayBuffer(8 * g.nCols));
-    const picks = columnPicks(g.nCols, seg.addPerColumn, true);
-    const adds = rowAdds(seg.addPerRow * g.nRows, true);
-    const setup: HelperSetup = {
-      ctl, num, error, u, v,
-      graph: { nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, rowBase: g.rowBase, rowDemand: g.rowDemand, cols: g.cols, codes: g.codes, step: g.step },
-      packed: seg.m, config: seg.config, colLo: seg.colLo, colHi: seg.colHi,
-      addPerRow: seg.addPerRow, P: seg.P, addPerColumn: seg.addPerColumn, turns: seg.turns,
-      tables: seg.tables, picks, adds,
-    };
-    this.worker.postMessage(setup);
-    return new ThreadSplit(g, ctl, num, error, u, v, picks, adds, this.gauge);
+    return this.worker;
   }
 
   /** Ends the helper thread. */
@@ -192,29 +187,50 @@ export class PricingHelper implements PricingSplitter {
   }
 }
 
+/**
+ * The helper's part in one segment. Nothing is sent to it until a pass finds a core
+ * free: a segment solved while the cores are busy costs no thread and no copies
+ * (the market, the row tables); the passes after that use it while a core is free.
+ */
 class ThreadSplit implements SegmentSplit {
   private seq = 0;
   private running = false;
+  /** 0: not sent to the helper yet; 1: sent; -1: no helper to be had. */
+  private engaged = 0;
+  private waitReady = false;
+  private readonly ctl = new Int32Array(new SharedArrayBuffer(4 * CTL_WORDS));
+  private readonly num = new Float64Array(new SharedArrayBuffer(8 * NUM_WORDS));
+  private readonly error = new Uint8Array(new SharedArrayBuffer(ERROR_BYTES));
+  private u: Float64Array | null = null;
+  private v: Float64Array | null = null;
+  private picks: ColumnPicks | null = null;
+  private adds: RowAdds | null = null;
 
   constructor(
-    private readonly g: CompactGraph,
-    private readonly ctl: Int32Array,
-    private readonly num: Float64Array,
-    private readonly error: Uint8Array,
-    private readonly u: Float64Array,
-    private readonly v: Float64Array,
-    private readonly picks: ColumnPicks,
-    private readonly adds: RowAdds,
+    private readonly seg: SplitSegment,
     private readonly gauge: Gauge,
+    private readonly thread: () => Worker | null,
   ) {}
 
   start(u: Float64Array, v: Float64Array, params: ScanParams): boolean {
     const { ctl } = this;
+    if (this.engaged !== 1) {
+      // The helper gets the segment the first time a core is free, and joins the passes once it has set up.
+      if (this.engaged === 0 && this.gauge.idle()) this.engage();
+      return false;
+    }
+    if (this.waitReady) {
+      // The pass after the one that sent the segment waits for the helper to set up
+      // (its first segment: its thread to start), within reason.
+      this.waitReady = false;
+      Atomics.wait(ctl, READY, 0, READY_WAIT_MS);
+    }
     if (Atomics.load(ctl, READY) !== 1 || Atomics.load(ctl, STOP) === 1 || !this.gauge.idle()) return false;
     this.gauge.take();
     this.running = true;
-    this.u.set(u.subarray(0, this.g.nRows));
-    this.v.set(v.subarray(0, this.g.nCols));
+    const { nRows, nCols } = this.seg.g;
+    this.u!.set(u.subarray(0, nRows));
+    this.v!.set(v.subarray(0, nCols));
     Atomics.store(ctl, NEXT_CHUNK, 0);
     ctl[EXHAUSTIVE] = params.exhaustive ? 1 : 0;
     ctl[IN_TURNS] = params.inTurns ? 1 : 0;
@@ -223,6 +239,30 @@ class ThreadSplit implements SegmentSplit {
     Atomics.store(ctl, CMD, ++this.seq);
     Atomics.notify(ctl, CMD);
     return true;
+  }
+
+  private engage(): void {
+    const w = this.thread();
+    if (w === null) {
+      this.engaged = -1;
+      return;
+    }
+    const { seg } = this;
+    const { g } = seg;
+    this.u = new Float64Array(new SharedArrayBuffer(8 * g.nRows));
+    this.v = new Float64Array(new SharedArrayBuffer(8 * g.nCols));
+    this.picks = columnPicks(g.nCols, seg.addPerColumn, true);
+    this.adds = rowAdds(seg.addPerRow * g.nRows, true);
+    const setup: HelperSetup = {
+      ctl: this.ctl, num: this.num, error: this.error, u: this.u, v: this.v,
+      graph: { nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, rowBase: g.rowBase, rowDemand: g.rowDemand, cols: g.cols, codes: g.codes, step: g.step },
+      packed: seg.m, config: seg.config, colLo: seg.colLo, colHi: seg.colHi,
+      addPerRow: seg.addPerRow, P: seg.P, addPerColumn: seg.addPerColumn, turns: seg.turns,
+      tables: seg.tables, quick: seg.quick, picks: this.picks, adds: this.adds,
+    };
+    w.postMessage(setup);
+    this.engaged = 1;
+    this.waitReady = true;
   }
 
   claim(): number {
@@ -253,7 +293,7 @@ class ThreadSplit implements SegmentSplit {
       rowsPriced: num[ROWS_PRICED]!,
       n: num[ADDED]!,
     };
-    return { counts, rows: this.adds.rows, cols: this.adds.cols, costs: this.adds.costs, picks: this.picks };
+    return { counts, rows: this.adds!.rows, cols: this.adds!.cols, costs: this.adds!.costs, picks: this.picks! };
   }
 
   close(): void {
@@ -282,6 +322,7 @@ export function serveSegment(s: HelperSetup, exact: PairCost, quick: PairCost): 
   };
   const pricer = new Pricer(g, exact, s.colLo, s.colHi, s.addPerRow, s.P, s.addPerColumn, quick, s.turns, s.tables, s.picks, s.adds);
   Atomics.store(ctl, READY, 1);
+  Atomics.notify(ctl, READY);
   let seen = 0;
   for (;;) {
     if (Atomics.load(ctl, STOP) === 1) return;

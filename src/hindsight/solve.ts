@@ -31,7 +31,7 @@ import type { SolveOptions, SolveResult, SparseInstance } from '../matching/type
 import type { PairflowConfig } from '../model.js';
 import { dropCandidate, FirstCandidates, markCandidate } from './candidates.js';
 import { matchCeiling } from './ceiling.js';
-import { buildCompactGraph, columnOf, expandGraph, GraphStore, isMarked, pairCostOf, quickPairCostOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
+import { buildCompactGraph, columnOf, expandGraph, GraphStore, isMarked, pairCostOf, quickPairCostOf, quickTermsOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
 import { Pricer, pricerTables } from './pricing.js';
 import type { PricingSplitter } from './pricing-split.js';
 import { mergeProofs, subMarket, timeSegments, type SegmentProof } from './segments.js';
@@ -349,8 +349,9 @@ function solveSegment(
   }
   // A large segment's passes may read half their rows on a helper thread: its tables are shared then.
   const split = splitter !== null && splitter.wants(g);
-  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config), turns, pricerTables(nRows, nCols, split));
-  const helper = split ? splitter.open({ g, m, config, colLo: first.colLo, colHi: first.colHi, addPerRow, P, addPerColumn, turns, tables: pricer.tables }) : null;
+  const quick = quickTermsOf(m, config, split);
+  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config, quick), turns, pricerTables(nRows, nCols, split));
+  const helper = split ? splitter.open({ g, m, config, colLo: first.colLo, colHi: first.colHi, addPerRow, P, addPerColumn, turns, tables: pricer.tables, quick }) : null;
   pricer.attach(helper);
   lap('setupMs');
 
