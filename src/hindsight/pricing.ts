@@ -52,6 +52,12 @@
  * against 15; one in 8: 5.67–5.80 s, 17 rounds), at scale 2 1.45–1.56 s against
  * 1.60–1.73 s, at scale 1 0.47–0.48 s against 0.52–0.55 s (one in 8: 0.49–0.50 s).
  * The same optimum: which pairs are added changes the work, never the result.
+ *
+ * On two threads: while a core is free, a pass's rows are read by this thread and a
+ * helper thread together, chunk by chunk (pricing-split.ts); each row is read by one
+ * of them, and their pairs and column picks are put together in row order, so the
+ * pass finds what one thread would. The state kept per row and per column between
+ * passes ({@link PricerTables}) is what the two share.
  */
 
 import { pairflowError } from '../errors.js';

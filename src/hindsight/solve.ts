@@ -17,7 +17,9 @@
  * before may skip rows by a bound, pricing.ts). The final prices and pairs are then
  * checked against the certificate of SPEC §5 on the candidates: feasible for every allowed pair (the last
  * pricing pass) with an objective equal to the primal cost, which proves the optimum
- * exact. Last, the match ceiling (ceiling.ts).
+ * exact. Last, the match ceiling (ceiling.ts). In a worker, a large segment's pricing
+ * passes read their rows on a second thread while a core is free (pricing-split.ts:
+ * the same pairs found, so the same result).
  *
  * Pairs costing at least P are never needed: with `u_d ≤ P` and `v_s ≤ 0` their
  * reduced cost is ≥ 0 under any certified prices, and swapping such a pair for an
