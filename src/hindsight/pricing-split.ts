@@ -28,27 +28,12 @@ import type { PairflowConfig } from '../model.js';
 import type { CompactGraph, PackedMarket, PairCost, QuickTerms } from './graph.js';
 import { columnPicks, Pricer, rowAdds, type ColumnPicks, type PricerTables, type PricingSplit, type RowAdds, type ScanCounts, type ScanParams } from './pricing.js';
 
-/** Command words (Int32). */
-export const CMD = 0;
-export const DONE = 1;
-export const READY = 2;
-export const STOP = 3;
-export const NEXT_CHUNK = 4;
-export const EXHAUSTIVE = 5;
-export const IN_TURNS = 6;
-export const TURN = 7;
-export const FAILED = 8;
-const CTL_WORDS = 16;
-/** Number words (Float64): the pass's largest |v|, then the helper's counts. */
-export const MAX_ABS_V = 0;
-export const VIOLATORS = 1;
-export const RECHECKS = 2;
-export const EXACT_RECHECKS = 3;
-export const ROWS_PRICED = 4;
-export const ADDED = 5;
-const NUM_WORDS = 8;
+/** The handshake's words: commands and flags (Int32), then numbers (Float64). */
+const CTL = { cmd: 0, done: 1, ready: 2, stop: 3, nextChunk: 4, exhaustive: 5, inTurns: 6, turn: 7, failed: 8, words: 16 } as const;
+/** The pass's largest |v|, then the helper's counts. */
+const NUM = { maxAbsV: 0, violators: 1, rechecks: 2, exactRechecks: 3, rowsPriced: 4, added: 5, words: 8 } as const;
 /** Bytes for a helper's error message. */
-export const ERROR_BYTES = 2048;
+const ERROR_BYTES = 2048;
 
 /**
  * Segments with fewer pairs are priced on one thread: a pass over them takes a few
@@ -198,8 +183,8 @@ class ThreadSplit implements SegmentSplit {
   /** 0: not sent to the helper yet; 1: sent; -1: no helper to be had. */
   private engaged = 0;
   private waitReady = false;
-  private readonly ctl = new Int32Array(new SharedArrayBuffer(4 * CTL_WORDS));
-  private readonly num = new Float64Array(new SharedArrayBuffer(8 * NUM_WORDS));
+  private readonly ctl = new Int32Array(new SharedArrayBuffer(4 * CTL.words));
+  private readonly num = new Float64Array(new SharedArrayBuffer(8 * NUM.words));
   private readonly error = new Uint8Array(new SharedArrayBuffer(ERROR_BYTES));
   private u: Float64Array | null = null;
   private v: Float64Array | null = null;
@@ -223,21 +208,21 @@ class ThreadSplit implements SegmentSplit {
       // The pass after the one that sent the segment waits for the helper to set up
       // (its first segment: its thread to start), within reason.
       this.waitReady = false;
-      Atomics.wait(ctl, READY, 0, READY_WAIT_MS);
+      Atomics.wait(ctl, CTL.ready, 0, READY_WAIT_MS);
     }
-    if (Atomics.load(ctl, READY) !== 1 || Atomics.load(ctl, STOP) === 1 || !this.gauge.idle()) return false;
+    if (Atomics.load(ctl, CTL.ready) !== 1 || Atomics.load(ctl, CTL.stop) === 1 || !this.gauge.idle()) return false;
     this.gauge.take();
     this.running = true;
     const { nRows, nCols } = this.seg.g;
     this.u!.set(u.subarray(0, nRows));
     this.v!.set(v.subarray(0, nCols));
-    Atomics.store(ctl, NEXT_CHUNK, 0);
-    ctl[EXHAUSTIVE] = params.exhaustive ? 1 : 0;
-    ctl[IN_TURNS] = params.inTurns ? 1 : 0;
-    ctl[TURN] = params.turn;
-    this.num[MAX_ABS_V] = params.maxAbsV;
-    Atomics.store(ctl, CMD, ++this.seq);
-    Atomics.notify(ctl, CMD);
+    Atomics.store(ctl, CTL.nextChunk, 0);
+    ctl[CTL.exhaustive] = params.exhaustive ? 1 : 0;
+    ctl[CTL.inTurns] = params.inTurns ? 1 : 0;
+    ctl[CTL.turn] = params.turn;
+    this.num[NUM.maxAbsV] = params.maxAbsV;
+    Atomics.store(ctl, CTL.cmd, ++this.seq);
+    Atomics.notify(ctl, CTL.cmd);
     return true;
   }
 
@@ -266,40 +251,40 @@ class ThreadSplit implements SegmentSplit {
   }
 
   claim(): number {
-    return Atomics.add(this.ctl, NEXT_CHUNK, 1);
+    return Atomics.add(this.ctl, CTL.nextChunk, 1);
   }
 
   finish(): { counts: ScanCounts; rows: Int32Array; cols: Int32Array; costs: Float64Array; picks: ColumnPicks } {
     const { ctl, num } = this;
     const t0 = Date.now();
     for (;;) {
-      const done = Atomics.load(ctl, DONE);
+      const done = Atomics.load(ctl, CTL.done);
       if (done === this.seq) break;
       if (Date.now() - t0 > WAIT_LIMIT_MS) {
         this.end();
         throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: 'hindsight: the pricing helper thread stopped answering' });
       }
-      Atomics.wait(ctl, DONE, done, 1000);
+      Atomics.wait(ctl, CTL.done, done, 1000);
     }
     this.end();
-    if (Atomics.load(ctl, FAILED) === 1) {
+    if (Atomics.load(ctl, CTL.failed) === 1) {
       const text = new TextDecoder().decode(this.error.slice().subarray(0, this.error.indexOf(0) < 0 ? ERROR_BYTES : this.error.indexOf(0)));
       throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: the pricing helper failed: ${text}` });
     }
     const counts: ScanCounts = {
-      violators: num[VIOLATORS]!,
-      rechecks: num[RECHECKS]!,
-      exactRechecks: num[EXACT_RECHECKS]!,
-      rowsPriced: num[ROWS_PRICED]!,
-      n: num[ADDED]!,
+      violators: num[NUM.violators]!,
+      rechecks: num[NUM.rechecks]!,
+      exactRechecks: num[NUM.exactRechecks]!,
+      rowsPriced: num[NUM.rowsPriced]!,
+      n: num[NUM.added]!,
     };
     return { counts, rows: this.adds!.rows, cols: this.adds!.cols, costs: this.adds!.costs, picks: this.picks! };
   }
 
   close(): void {
-    Atomics.store(this.ctl, STOP, 1);
-    Atomics.store(this.ctl, CMD, ++this.seq);
-    Atomics.notify(this.ctl, CMD);
+    Atomics.store(this.ctl, CTL.stop, 1);
+    Atomics.store(this.ctl, CTL.cmd, ++this.seq);
+    Atomics.notify(this.ctl, CTL.cmd);
   }
 
   private end(): void {
@@ -321,31 +306,31 @@ export function serveSegment(s: HelperSetup, exact: PairCost, quick: PairCost): 
     wide: new Map(),
   };
   const pricer = new Pricer(g, exact, s.colLo, s.colHi, s.addPerRow, s.P, s.addPerColumn, quick, s.turns, s.tables, s.picks, s.adds);
-  Atomics.store(ctl, READY, 1);
-  Atomics.notify(ctl, READY);
+  Atomics.store(ctl, CTL.ready, 1);
+  Atomics.notify(ctl, CTL.ready);
   let seen = 0;
   for (;;) {
-    if (Atomics.load(ctl, STOP) === 1) return;
-    Atomics.wait(ctl, CMD, seen);
-    seen = Atomics.load(ctl, CMD);
-    if (Atomics.load(ctl, STOP) === 1) return;
+    if (Atomics.load(ctl, CTL.stop) === 1) return;
+    Atomics.wait(ctl, CTL.cmd, seen);
+    seen = Atomics.load(ctl, CTL.cmd);
+    if (Atomics.load(ctl, CTL.stop) === 1) return;
     try {
       s.picks.count.fill(0);
-      const params: ScanParams = { exhaustive: ctl[EXHAUSTIVE] === 1, maxAbsV: num[MAX_ABS_V]!, inTurns: ctl[IN_TURNS] === 1, turn: ctl[TURN]! };
-      const c = pricer.scanChunks(() => Atomics.add(ctl, NEXT_CHUNK, 1), s.u, s.v, params);
-      num[VIOLATORS] = c.violators;
-      num[RECHECKS] = c.rechecks;
-      num[EXACT_RECHECKS] = c.exactRechecks;
-      num[ROWS_PRICED] = c.rowsPriced;
-      num[ADDED] = c.n;
+      const params: ScanParams = { exhaustive: ctl[CTL.exhaustive] === 1, maxAbsV: num[NUM.maxAbsV]!, inTurns: ctl[CTL.inTurns] === 1, turn: ctl[CTL.turn]! };
+      const c = pricer.scanChunks(() => Atomics.add(ctl, CTL.nextChunk, 1), s.u, s.v, params);
+      num[NUM.violators] = c.violators;
+      num[NUM.rechecks] = c.rechecks;
+      num[NUM.exactRechecks] = c.exactRechecks;
+      num[NUM.rowsPriced] = c.rowsPriced;
+      num[NUM.added] = c.n;
     } catch (err) {
       const text = new TextEncoder().encode(err instanceof Error ? (err.stack ?? err.message) : String(err)).subarray(0, ERROR_BYTES - 1);
       s.error.fill(0);
       s.error.set(text);
-      Atomics.store(ctl, FAILED, 1);
+      Atomics.store(ctl, CTL.failed, 1);
     }
-    Atomics.store(ctl, DONE, seen);
-    Atomics.notify(ctl, DONE);
+    Atomics.store(ctl, CTL.done, seen);
+    Atomics.notify(ctl, CTL.done);
   }
 }
 
