@@ -139,7 +139,9 @@ export class PricingHelper implements PricingSplitter {
   ) {}
 
   wants(g: CompactGraph): boolean {
-    return !this.broken && g.wide.size === 0 && g.cols.length >= this.minPairs && existsSync(fileURLToPath(this.url));
+    // The helper marks its rows' candidates in the graph itself: only pairs in shared memory will do.
+    const shared = g.codes.buffer instanceof SharedArrayBuffer && g.cols.buffer instanceof SharedArrayBuffer;
+    return shared && !this.broken && g.wide.size === 0 && g.cols.length >= this.minPairs && existsSync(fileURLToPath(this.url));
   }
 
   open(seg: SplitSegment): SegmentSplit | null {

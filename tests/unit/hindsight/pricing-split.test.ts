@@ -139,6 +139,12 @@ describe('PricingHelper (a second thread)', () => {
     expect(Atomics.load(counts, 1)).toBe(0);
   });
 
+  it.skipIf(!available)('is not wanted for a graph outside shared memory (its marks would not reach it)', () => {
+    const m = market(35, 600, 2, 3);
+    expect(helper.wants(buildCompactGraph(m, config, new GraphStore(true)))).toBe(true);
+    expect(helper.wants(buildCompactGraph(m, config, new GraphStore(false)))).toBe(false);
+  });
+
   it.skipIf(!available)('leaves the passes to one thread while no core is free', () => {
     free = false;
     const m = market(34, 2000, 6, 4);
