@@ -70,27 +70,6 @@ export function sharedGauge(count: Int32Array, cores: number): Gauge {
   };
 }
 
-/** What a helper thread is sent for one segment. */
-export interface HelperSetup {
-  readonly ctl: Int32Array;
-  readonly num: Float64Array;
-  readonly error: Uint8Array;
-  readonly u: Float64Array;
-  readonly v: Float64Array;
-  readonly graph: Pick<CompactGraph, 'nRows' | 'nCols' | 'rowPtr' | 'rowBase' | 'rowDemand' | 'cols' | 'codes' | 'step'>;
-  readonly packed: PackedMarket;
-  readonly config: PairflowConfig;
-  readonly colLo: Int32Array;
-  readonly colHi: Int32Array;
-  readonly addPerRow: number;
-  readonly P: number;
-  readonly addPerColumn: number;
-  readonly turns: number;
-  readonly tables: PricerTables;
-  readonly quick: QuickTerms | null;
-  readonly picks: ColumnPicks;
-  readonly adds: RowAdds;
-}
 
 /** What a segment's pricer is built with. */
 export interface SplitSegment {
@@ -107,6 +86,19 @@ export interface SplitSegment {
   readonly tables: PricerTables;
   /** The terms of its quick costs (graph.ts quickTermsOf), in SharedArrayBuffers. */
   readonly quick: QuickTerms | null;
+}
+
+/** What a helper thread is sent for one segment: the segment's pricer, less its graph's map of wide rows (it has none). */
+export interface HelperSetup extends Omit<SplitSegment, 'g' | 'm'> {
+  readonly ctl: Int32Array;
+  readonly num: Float64Array;
+  readonly error: Uint8Array;
+  readonly u: Float64Array;
+  readonly v: Float64Array;
+  readonly graph: Pick<CompactGraph, 'nRows' | 'nCols' | 'rowPtr' | 'rowBase' | 'rowDemand' | 'cols' | 'codes' | 'step'>;
+  readonly packed: PackedMarket;
+  readonly picks: ColumnPicks;
+  readonly adds: RowAdds;
 }
 
 /** A split of one segment's passes; `close` when the segment's passes are over. */
@@ -234,18 +226,16 @@ class ThreadSplit implements SegmentSplit {
       this.engaged = -1;
       return;
     }
-    const { seg } = this;
-    const { g } = seg;
+    const { g, m, ...pricer } = this.seg;
     this.u = new Float64Array(new SharedArrayBuffer(8 * g.nRows));
     this.v = new Float64Array(new SharedArrayBuffer(8 * g.nCols));
-    this.picks = columnPicks(g.nCols, seg.addPerColumn, true);
-    this.adds = rowAdds(seg.addPerRow * g.nRows, true);
+    this.picks = columnPicks(g.nCols, pricer.addPerColumn, true);
+    this.adds = rowAdds(pricer.addPerRow * g.nRows, true);
     const setup: HelperSetup = {
+      ...pricer,
       ctl: this.ctl, num: this.num, error: this.error, u: this.u, v: this.v,
       graph: { nRows: g.nRows, nCols: g.nCols, rowPtr: g.rowPtr, rowBase: g.rowBase, rowDemand: g.rowDemand, cols: g.cols, codes: g.codes, step: g.step },
-      packed: seg.m, config: seg.config, colLo: seg.colLo, colHi: seg.colHi,
-      addPerRow: seg.addPerRow, P: seg.P, addPerColumn: seg.addPerColumn, turns: seg.turns,
-      tables: seg.tables, quick: seg.quick, picks: this.picks, adds: this.adds,
+      packed: m, picks: this.picks, adds: this.adds,
     };
     w.postMessage(setup);
     this.engaged = 1;
