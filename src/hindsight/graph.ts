@@ -379,6 +379,11 @@ export function plainColumns(g: CompactGraph): Int32Array {
 // 2^27 took three copies, the last holding 2 GB of old pairs beside the new ones.
 const RESERVE_PAIRS = 1 << 30;
 
+/** The pairs a build of market `m` first makes room for (without a `reserve`). */
+export function firstReserve(m: PackedMarket): number {
+  return Math.max(1024, Math.min(RESERVE_PAIRS, m.nDemand * m.nSupply));
+}
+
 /**
  * Buffers for the pairs of one build after another (the time segments of a market):
  * a new build overwrites the previous graph, so only callers done with one graph
@@ -510,6 +515,9 @@ const EDGE = 1e-9;
  *
  * @param reserve expected pairs, to size the buffers (a hint; they grow if needed)
  * @param visitor sees each row once its pairs are written
+ * @param progress where the pairs written so far are published after each row
+ *   (`progress[0]`), for a thread that makes the store's next pages resident ahead
+ *   of the build (pricing-split.ts); -1 once the build is done
  */
 export function buildCompactGraph(
   m: PackedMarket,
@@ -517,6 +525,7 @@ export function buildCompactGraph(
   store: GraphStore = new GraphStore(),
   reserve = 0,
   visitor: RowVisitor | null = null,
+  progress: Int32Array | null = null,
 ): CompactGraph {
   const { nDemand, nSupply, capWords } = m;
   const { demandCell, supplyCell, ny, wrap } = assignCells(m, config);
@@ -568,7 +577,7 @@ export function buildCompactGraph(
   const step = codeStep(P);
   const perStep = 1 / step;
   let nnz = 0;
-  store.ensure(reserve > 0 ? reserve : Math.max(1024, Math.min(RESERVE_PAIRS, nDemand * nSupply)), 0);
+  store.ensure(reserve > 0 ? reserve : firstReserve(m), 0);
   // One row's pairs while it is scanned (its lowest column, the row's base, is known only after).
   let rowCols = new Int32Array(1024);
   let rowCodes = new Uint8Array(1024);
@@ -714,7 +723,9 @@ export function buildCompactGraph(
     rowDemand[r] = d;
     demandRow[d] = r;
     rowPtr[r + 1] = nnz;
+    if (progress !== null) Atomics.store(progress, 0, nnz);
   }
+  if (progress !== null) Atomics.store(progress, 0, -1);
   return {
     nRows: nDemand,
     nCols: nSupply,

@@ -295,6 +295,8 @@ async function runOnWorkers(
   const workers = new Set<Worker>();
   const idle: Worker[] = [];
   let pairs: Float64Array | null = null;
+  // Whether `pairs` holds estimates (sampled builds) rather than the bounds nDemand·nSupply.
+  let estimated = false;
   let held = 0;
   let running = 0;
   let caller = callerHolds === undefined ? 0 : callerHolds.bytes / BYTES_PER_HELD_PAIR;
@@ -352,7 +354,7 @@ async function runOnWorkers(
         held += pairs![i]!;
         running++;
         count();
-        const task: WorkerTask = { index: i, market: markets[i]!, packed: p, config, opts: marketOpts, busy, cores };
+        const task: WorkerTask = { index: i, market: markets[i]!, packed: p, config, opts: marketOpts, busy, cores, pairs: estimated ? pairs![i]! : 0 };
         (idle.pop() ?? spawn()).postMessage(task, transferables(p));
       };
       const fill = (): void => {
@@ -377,6 +379,7 @@ async function runOnWorkers(
           let bounds = 0;
           for (const i of queue) bounds += (pairs[i] = packed[i]!.nDemand * packed[i]!.nSupply);
           if (bounds + caller > budget) {
+            estimated = true;
             // Estimated largest first, each market free to start as soon as its own
             // estimate is in: the largest starts at once, the next while the rest are
             // estimated.

@@ -1,16 +1,18 @@
 /**
  * Worker-thread entry of the pricing helper (pricing-split.ts): each message is one
- * segment to serve; between segments it waits for the next message.
+ * job, a segment to serve or a build to run ahead of; between jobs it waits for the
+ * next message.
  */
 
 import { parentPort } from 'node:worker_threads';
 
 import { pairCostOf, quickPairCostOf } from './graph.js';
-import { serveSegment, type HelperSetup } from './pricing-split.js';
+import { prefault, serveSegment, type HelperSetup, type PrefaultJob } from './pricing-split.js';
 
 const port = parentPort;
 if (port !== null) {
-  port.on('message', (setup: HelperSetup) => {
-    serveSegment(setup, pairCostOf(setup.packed, setup.config), quickPairCostOf(setup.packed, setup.config, setup.quick));
+  port.on('message', (job: HelperSetup | PrefaultJob) => {
+    if (job.job === 'prefault') prefault(job);
+    else serveSegment(job, pairCostOf(job.packed, job.config), quickPairCostOf(job.packed, job.config, job.quick));
   });
 }

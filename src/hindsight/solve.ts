@@ -33,7 +33,7 @@ import type { SolveOptions, SolveResult, SparseInstance } from '../matching/type
 import type { PairflowConfig } from '../model.js';
 import { dropCandidate, FirstCandidates, markCandidate } from './candidates.js';
 import { matchCeiling } from './ceiling.js';
-import { buildCompactGraph, columnOf, expandGraph, GraphStore, isMarked, pairCostOf, quickPairCostOf, quickTermsOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
+import { buildCompactGraph, columnOf, expandGraph, firstReserve, GraphStore, isMarked, pairCostOf, quickPairCostOf, quickTermsOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
 import { Pricer, pricerTables } from './pricing.js';
 import type { PricingSplitter } from './pricing-split.js';
 import { mergeProofs, subMarket, timeSegments, type SegmentProof } from './segments.js';
@@ -332,7 +332,15 @@ function solveSegment(
     tPhase = t;
   };
   const first = new FirstCandidates(m.nDemand, m.nSupply, k, m.supplyEnd);
-  const g = buildCompactGraph(m, config, store, 0, first);
+  // A helper may make the store's pages resident ahead of the build (pricing-split.ts).
+  store.ensure(firstReserve(m), 0);
+  const ahead = splitter?.prefault?.(store) ?? null;
+  let g: CompactGraph;
+  try {
+    g = buildCompactGraph(m, config, store, 0, first, ahead?.progress ?? null);
+  } finally {
+    ahead?.done();
+  }
   const exact = pairCostOf(m, config);
   lap('graphMs');
   const { nRows, nCols, rowPtr, codes, rowDemand } = g;

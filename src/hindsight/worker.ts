@@ -28,6 +28,8 @@ export interface WorkerTask {
   /** The pool's counts of busy threads (pricing-split.ts sharedGauge), and the cores they share. */
   readonly busy: Int32Array;
   readonly cores: number;
+  /** The pool's estimate of the pairs the market holds at once (schedule.ts). */
+  readonly pairs: number;
 }
 
 /** The answer to a {@link WorkerTask}. */
@@ -44,6 +46,7 @@ if (port !== null) {
   port.on('message', (task: WorkerTask) => {
     try {
       helper ??= new PricingHelper(sharedGauge(task.busy, task.cores));
+      helper.expectedPairs = task.pairs;
       const { detail: _detail, ...result } = solvePackedMarket(task.market, task.packed, task.config, solveSparse, task.opts, false, store, helper);
       const reply: WorkerReply = { ok: true, index: task.index, result };
       port.postMessage(reply, [result.demandT.buffer as ArrayBuffer, result.demandCost.buffer as ArrayBuffer, result.demandWait.buffer as ArrayBuffer]);

@@ -139,6 +139,41 @@ describe('PricingHelper (a second thread)', () => {
     expect(Atomics.load(counts, 1)).toBe(0);
   });
 
+  it.skipIf(!available)('makes a build\'s pages resident ahead of it without changing a pair the build wrote', () => {
+    const store = new GraphStore(true);
+    store.ensure(1 << 22, 0);
+    helper.expectedPairs = 1e9;
+    const ahead = helper.prefault(store);
+    helper.expectedPairs = 0;
+    expect(ahead).not.toBeNull();
+    // The build's writes go on while the helper runs ahead: a pattern with zeros in it.
+    const n = 3_000_000;
+    for (let i = 0; i < n; i++) {
+      store.cols[i] = (i * 7) & 0xffff;
+      store.codes[i] = i % 5 === 0 ? 0 : i & 0xff;
+      if ((i & 0xffff) === 0) Atomics.store(ahead!.progress, 0, i);
+    }
+    ahead!.done();
+    ahead!.done();
+    let bad = 0;
+    for (let i = 0; i < n; i++) if (store.cols[i] !== ((i * 7) & 0xffff) || store.codes[i] !== (i % 5 === 0 ? 0 : i & 0xff)) bad++;
+    expect(bad).toBe(0);
+    expect(Atomics.load(counts, 1)).toBe(0);
+    // A market expected to be small gets no help.
+    expect(helper.prefault(store)).toBeNull();
+  });
+
+  it.skipIf(!available)('gives the same result when the helper ran ahead of the build', () => {
+    const m = market(36, 3000, 8, 4);
+    helper.expectedPairs = 1e9;
+    const r = solvePackedMarket('m', m, config, solveSparse, {}, true, new GraphStore(true), helper);
+    helper.expectedPairs = 0;
+    const alone = solvePackedMarket('m', m, config, solveSparse, {}, true);
+    expect(r.cost).toBe(alone.cost);
+    expect(Array.from(r.demandCost)).toEqual(Array.from(alone.demandCost));
+    expect(Array.from(r.detail!.rowToCol)).toEqual(Array.from(alone.detail!.rowToCol));
+  });
+
   it.skipIf(!available)('is not wanted for a graph outside shared memory (its marks would not reach it)', () => {
     const m = market(35, 600, 2, 3);
     expect(helper.wants(buildCompactGraph(m, config, new GraphStore(true)))).toBe(true);
