@@ -344,7 +344,9 @@ class ThreadSplit implements SegmentSplit {
     }
     this.end();
     if (Atomics.load(ctl, CTL.failed) === 1) {
-      const text = new TextDecoder().decode(this.error.slice().subarray(0, this.error.indexOf(0) < 0 ? ERROR_BYTES : this.error.indexOf(0)));
+      // (A copy: TextDecoder reads no shared memory.)
+      const end = this.error.indexOf(0);
+      const text = new TextDecoder().decode(this.error.slice(0, end < 0 ? ERROR_BYTES : end));
       throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `hindsight: the pricing helper failed: ${text}` });
     }
     const counts: ScanCounts = {
@@ -408,45 +410,4 @@ export function serveSegment(s: HelperSetup, exact: PairCost, quick: PairCost): 
     Atomics.store(ctl, CTL.done, seen);
     Atomics.notify(ctl, CTL.done);
   }
-}
-
-/**
- * A split whose second share is read on this same thread, by a second pricer over the
- * same tables, when the pass ends: the first pricer takes the even chunks, the second
- * the odd ones. The same bookkeeping as a helper thread's, for tests of the merge.
- */
-export class InlineSplit implements SegmentSplit {
-  private readonly other: Pricer;
-  private readonly picks: ColumnPicks;
-  private readonly adds: RowAdds;
-  private pending: { u: Float64Array; v: Float64Array; params: ScanParams } | null = null;
-  private mine = 0;
-
-  constructor(seg: SplitSegment, exact: PairCost, quick: PairCost) {
-    const { g } = seg;
-    this.picks = columnPicks(g.nCols, seg.addPerColumn);
-    this.adds = rowAdds(seg.addPerRow * g.nRows, true);
-    this.other = new Pricer(g, exact, seg.colLo, seg.colHi, seg.addPerRow, seg.P, seg.addPerColumn, quick, seg.turns, seg.tables, this.picks, this.adds);
-  }
-
-  start(u: Float64Array, v: Float64Array, params: ScanParams): boolean {
-    this.pending = { u, v, params };
-    this.mine = 0;
-    return true;
-  }
-
-  claim(): number {
-    return 2 * this.mine++;
-  }
-
-  finish(): { counts: ScanCounts; rows: Int32Array; cols: Int32Array; costs: Float64Array; picks: ColumnPicks } {
-    const { u, v, params } = this.pending!;
-    this.pending = null;
-    this.picks.count.fill(0);
-    let k = 0;
-    const counts = this.other.scanChunks(() => 2 * k++ + 1, u, v, params);
-    return { counts, rows: this.adds.rows, cols: this.adds.cols, costs: this.adds.costs, picks: this.picks };
-  }
-
-  close(): void {}
 }

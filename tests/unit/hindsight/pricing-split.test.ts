@@ -4,9 +4,9 @@ import { fileURLToPath } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
 
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
-import { buildCompactGraph, GraphStore, packMarket, pairCostOf, quickPairCostOf, type HindsightUnit, type PackedMarket } from '../../../src/hindsight/graph.js';
-import { Pricer, pricerTables, SCAN_CHUNK } from '../../../src/hindsight/pricing.js';
-import { InlineSplit, PricingHelper, type Gauge, type PricingSplitter, type SplitSegment } from '../../../src/hindsight/pricing-split.js';
+import { buildCompactGraph, GraphStore, packMarket, pairCostOf, quickPairCostOf, type HindsightUnit, type PackedMarket, type PairCost } from '../../../src/hindsight/graph.js';
+import { columnPicks, Pricer, pricerTables, rowAdds, SCAN_CHUNK, type ColumnPicks, type RowAdds, type ScanCounts, type ScanParams } from '../../../src/hindsight/pricing.js';
+import { PricingHelper, type Gauge, type PricingSplitter, type SegmentSplit, type SplitSegment } from '../../../src/hindsight/pricing-split.js';
 import { solvePackedMarket } from '../../../src/hindsight/solve.js';
 import { solveSparse } from '../../../src/matching/index.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
@@ -28,6 +28,47 @@ function market(seed: number, n: number, hours: number, km: number, grid = 0): P
     units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 300_000, 1_800_000), x: place(), y: place() });
   }
   return packMarket(units, config);
+}
+
+/**
+ * A split whose second share is read on this same thread, by a second pricer over the
+ * same tables, when the pass ends: the first pricer takes the even chunks, the second
+ * the odd ones. The same bookkeeping as a helper thread's, for tests of the merge.
+ */
+class InlineSplit implements SegmentSplit {
+  private readonly other: Pricer;
+  private readonly picks: ColumnPicks;
+  private readonly adds: RowAdds;
+  private pending: { u: Float64Array; v: Float64Array; params: ScanParams } | null = null;
+  private mine = 0;
+
+  constructor(seg: SplitSegment, exact: PairCost, quick: PairCost) {
+    const { g } = seg;
+    this.picks = columnPicks(g.nCols, seg.addPerColumn);
+    this.adds = rowAdds(seg.addPerRow * g.nRows, true);
+    this.other = new Pricer(g, exact, seg.colLo, seg.colHi, seg.addPerRow, seg.P, seg.addPerColumn, quick, seg.turns, seg.tables, this.picks, this.adds);
+  }
+
+  start(u: Float64Array, v: Float64Array, params: ScanParams): boolean {
+    this.pending = { u, v, params };
+    this.mine = 0;
+    return true;
+  }
+
+  claim(): number {
+    return 2 * this.mine++;
+  }
+
+  finish(): { counts: ScanCounts; rows: Int32Array; cols: Int32Array; costs: Float64Array; picks: ColumnPicks } {
+    const { u, v, params } = this.pending!;
+    this.pending = null;
+    this.picks.count.fill(0);
+    let k = 0;
+    const counts = this.other.scanChunks(() => 2 * k++ + 1, u, v, params);
+    return { counts, rows: this.adds.rows, cols: this.adds.cols, costs: this.adds.costs, picks: this.picks };
+  }
+
+  close(): void {}
 }
 
 const inlineSplitter: PricingSplitter = {
