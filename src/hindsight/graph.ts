@@ -19,6 +19,7 @@
 
 import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
 import type { PairflowConfig, UnitPlace } from '../model.js';
+import { orderBy } from './segments.js';
 
 /** The fields of a unit occurrence the hindsight needs (a window `Occurrence` fits). */
 export interface HindsightUnit extends UnitPlace {
@@ -538,14 +539,9 @@ export function buildCompactGraph(
 
   // Supplies by arrival, demands by departure (rows are written in that order), and
   // demands by arrival (for the oldest one not written yet).
-  const sortedBy = (t: Float64Array): Int32Array => {
-    const idx = new Int32Array(t.length);
-    for (let i = 0; i < idx.length; i++) idx[i] = i;
-    return idx.sort((a, b) => t[a]! - t[b]! || a - b);
-  };
-  const supplyOrder = sortedBy(supplyT);
-  const leaveOrder = sortedBy(demandEnd);
-  const demandOrder = sortedBy(demandT);
+  const supplyOrder = orderBy(supplyT);
+  const leaveOrder = orderBy(demandEnd);
+  const demandOrder = orderBy(demandT);
   const written = new Uint8Array(nDemand);
   let oldest = 0;
 

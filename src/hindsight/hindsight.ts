@@ -23,7 +23,7 @@ import {
   type HindsightMarketResult,
   type HindsightPhases,
 } from './solve.js';
-import { BYTES_PER_HELD_PAIR, defaultMemoryBudget, heldPairs, nextMarket, workersBeside } from './schedule.js';
+import { BYTES_PER_HELD_PAIR, defaultMemoryBudget, heldPairs, nextMarket, presentPairs, workersBeside } from './schedule.js';
 import type { WorkerReply, WorkerTask } from './worker.js';
 
 export type { HindsightCover, HindsightMarketResult, HindsightDemandCosts, HindsightMarketOptions, HindsightMarketDetail, HindsightPhases };
@@ -295,7 +295,7 @@ async function runOnWorkers(
   const workers = new Set<Worker>();
   const idle: Worker[] = [];
   let pairs: Float64Array | null = null;
-  // Whether `pairs` holds estimates (sampled builds) rather than the bounds nDemand·nSupply.
+  // Whether `pairs` holds estimates (present bounds or sampled builds) rather than the bounds nDemand·nSupply.
   let estimated = false;
   let held = 0;
   let running = 0;
@@ -378,14 +378,31 @@ async function runOnWorkers(
           pairs = new Float64Array(markets.length);
           let bounds = 0;
           for (const i of queue) bounds += (pairs[i] = packed[i]!.nDemand * packed[i]!.nSupply);
+          // Over the budget by nDemand·nSupply: the pairs present together bound them
+          // closer, and where those fit no market need be estimated by a sampled build
+          // (largest first, given up once they are over the budget all the same).
+          let present: Float64Array | null = null;
           if (bounds + caller > budget) {
             estimated = true;
+            present = new Float64Array(markets.length).fill(Infinity);
+            let sum = 0;
+            for (const i of queue) {
+              present[i] = presentPairs(packed[i]!);
+              sum += Math.min(pairs[i]!, present[i]!);
+              if (sum + caller > budget) break;
+            }
+            if (sum + caller <= budget) {
+              for (const i of queue) pairs[i] = Math.min(pairs[i]!, present[i]!);
+              bounds = sum;
+            }
+          }
+          if (bounds + caller > budget) {
             // Estimated largest first, each market free to start as soon as its own
             // estimate is in: the largest starts at once, the next while the rest are
             // estimated.
             for (const i of queue.slice()) {
               if (packed[i] === null) continue;
-              pairs[i] = heldPairs(packed[i]!, config, budget);
+              pairs[i] = heldPairs(packed[i]!, config, budget, present![i]!);
               fill();
             }
           }

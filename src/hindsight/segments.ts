@@ -23,9 +23,7 @@ export function timeSegments(m: PackedMarket): Segments {
   const at = new Float64Array(n);
   at.set(m.demandT, 0);
   at.set(m.supplyT, m.nDemand);
-  const order = new Int32Array(n);
-  for (let i = 0; i < n; i++) order[i] = i;
-  order.sort((a, b) => at[a]! - at[b]! || a - b);
+  const order = mergedOrder(m.demandT, m.supplyT) ?? orderBy(at);
   const demandSeg = new Int32Array(m.nDemand);
   const supplySeg = new Int32Array(m.nSupply);
   let count = 0;
@@ -42,6 +40,41 @@ export function timeSegments(m: PackedMarket): Segments {
     else supplySeg[i] = count - 1;
   }
   return { count, demand: group(demandSeg, count), supply: group(supplySeg, count) };
+}
+
+/**
+ * Indices 0..n−1 of `keys` by key, the lower index first on a tie. Occurrences come
+ * in time order, so arrival times are mostly in order already: then it is one pass
+ * (against 38–40 ms for a comparator sort of a week's district, 406,350 supplies).
+ */
+export function orderBy(keys: Float64Array): Int32Array {
+  const n = keys.length;
+  const order = new Int32Array(n);
+  for (let i = 0; i < n; i++) order[i] = i;
+  if (!inOrder(keys)) order.sort((a, b) => keys[a]! - keys[b]! || a - b);
+  return order;
+}
+
+/** Whether `keys` never decrease (and hold no NaN). */
+function inOrder(keys: Float64Array): boolean {
+  for (let i = 1; i < keys.length; i++) if (!(keys[i]! >= keys[i - 1]!)) return false;
+  return keys.length === 0 || keys[0] === keys[0];
+}
+
+/**
+ * {@link orderBy} of `a` followed by `b` when each is in order already (a merge, a's
+ * first on a tie: its indices are the lower), else null.
+ */
+function mergedOrder(a: Float64Array, b: Float64Array): Int32Array | null {
+  if (!inOrder(a) || !inOrder(b)) return null;
+  const order = new Int32Array(a.length + b.length);
+  let i = 0;
+  let j = 0;
+  for (let q = 0; q < order.length; q++) {
+    if (j >= b.length || (i < a.length && a[i]! <= b[j]!)) order[q] = i++;
+    else order[q] = a.length + j++;
+  }
+  return order;
 }
 
 /** Unit indices per segment, by counting sort (indices stay ascending). */

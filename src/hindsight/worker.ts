@@ -28,7 +28,7 @@ export interface WorkerTask {
   /** The pool's counts of busy threads (pricing-split.ts sharedGauge), and the cores they share. */
   readonly busy: Int32Array;
   readonly cores: number;
-  /** The pool's estimate of the pairs the market holds at once (schedule.ts), 0 when the log was small enough to need none. */
+  /** The pool's estimate (or bound) of the pairs the market holds at once (schedule.ts), 0 when the log was small enough to need none. */
   readonly pairs: number;
 }
 

@@ -6,6 +6,7 @@ import { checkCertificate } from '../../../src/matching/index.js';
 import { DEFAULT_CONFIG, type PairflowConfig, type PairflowEvent, type SourcedEvent } from '../../../src/model.js';
 import {
   hindsightWorkerAvailable,
+  occurrencesByMarket,
   solveHindsight,
   solveHindsightMarket,
   solveHindsightMarketDetailed,
@@ -13,7 +14,8 @@ import {
   type HindsightMarketOptions,
   type HindsightResult,
 } from '../../../src/hindsight/hindsight.js';
-import { workersBeside } from '../../../src/hindsight/schedule.js';
+import { packMarket } from '../../../src/hindsight/graph.js';
+import { BYTES_PER_HELD_PAIR, heldPairs, presentPairs, workersBeside } from '../../../src/hindsight/schedule.js';
 import { buildOccurrences, type Occurrence } from '../../../src/window/occurrences.js';
 import { runPythonJson, scipyVersion } from '../../helpers/python.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
@@ -21,7 +23,7 @@ import { mulberry32, randInt } from '../../helpers/random.js';
 // The real rule, watched: which limits the worker pool asked for (and when).
 vi.mock('../../../src/hindsight/schedule.js', async (importOriginal) => {
   const actual = await importOriginal<typeof import('../../../src/hindsight/schedule.js')>();
-  return { ...actual, workersBeside: vi.fn(actual.workersBeside) };
+  return { ...actual, workersBeside: vi.fn(actual.workersBeside), heldPairs: vi.fn(actual.heldPairs) };
 });
 
 interface SmallLog {
@@ -407,6 +409,27 @@ describe('solveHindsight() threads', () => {
     const oneByOne = await solveHindsight(events, log.config, { threads: 3, memoryBudget: 1 });
     expect(oneByOne.markets.length).toBeGreaterThanOrEqual(3);
     expect(strip(oneByOne)).toEqual(strip(inThread));
+  });
+
+  it.skipIf(!available)('makes no sampled estimate where the pairs present together fit the budget', async () => {
+    const log = smallLog(4247, 12);
+    const events = sorted(log.events.flatMap((e) => [e, { ...e, market: `${e.market}x` }, { ...e, market: `${e.market}y` }]));
+    const packed = [...occurrencesByMarket(buildOccurrences(events, log.config).occurrences).values()].map((o) => packMarket(o, log.config));
+    const present = packed.reduce((n, m) => n + presentPairs(m), 0);
+    const bounds = packed.reduce((n, m) => n + m.nDemand * m.nSupply, 0);
+    expect(present).toBeLessThan(bounds / 2);
+    const held = vi.mocked(heldPairs);
+    const inThread = await solveHindsight(events, log.config, { threads: 0 });
+    // Between the two: over the budget by nDemand·nSupply, within it by the pairs present together.
+    held.mockClear();
+    const fits = await solveHindsight(events, log.config, { threads: 2, memoryBudget: (present + bounds) / 2 * BYTES_PER_HELD_PAIR });
+    expect(held).not.toHaveBeenCalled();
+    // Below both: estimated (all but a market small enough to start on its bound beside the first).
+    held.mockClear();
+    const tight = await solveHindsight(events, log.config, { threads: 2, memoryBudget: (present / 2) * BYTES_PER_HELD_PAIR });
+    expect(held.mock.calls.length).toBeGreaterThanOrEqual(packed.length - 1);
+    expect(fits.cost).toBeCloseTo(inThread.cost, 9);
+    expect(tight.cost).toBeCloseTo(inThread.cost, 9);
   });
 
   it.skipIf(!available)('starts no market while the caller holds more than the budget, then solves them all', async () => {

@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
 
 import { buildCompactGraph, packMarket, type HindsightUnit, type PackedMarket } from '../../../src/hindsight/graph.js';
-import { defaultMemoryBudget, estimatePeakPairs, heldPairs, nextMarket, workersBeside } from '../../../src/hindsight/schedule.js';
-import { subMarket, timeSegments } from '../../../src/hindsight/segments.js';
+import { defaultMemoryBudget, estimatePeakPairs, heldPairs, nextMarket, presentPairs, workersBeside } from '../../../src/hindsight/schedule.js';
+import { orderBy, subMarket, timeSegments } from '../../../src/hindsight/segments.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
@@ -66,11 +66,74 @@ describe('estimatePeakPairs()', () => {
   });
 });
 
+describe('presentPairs()', () => {
+  it('is the largest segment\'s allowed pairs where the reach spans the whole map, and above them where it does not', () => {
+    // Ended before it began: such a supply meets nobody, nor such a demand.
+    const broken = (m: PackedMarket): PackedMarket => {
+      const supplyEnd = Float64Array.from(m.supplyEnd);
+      const demandEnd = Float64Array.from(m.demandEnd);
+      for (let j = 0; j < m.nSupply; j += 7) supplyEnd[j] = m.supplyT[j]! - 1;
+      for (let d = 0; d < m.nDemand; d += 11) demandEnd[d] = m.demandT[d]! - 1;
+      return { ...m, supplyEnd, demandEnd };
+    };
+    const everywhere: PairflowConfig = { ...config, maxTravelMin: 1e4 };
+    for (const seed of [11, 12, 13]) {
+      const m = broken(twoBursts(seed, 900, 300));
+      const present = presentPairs(m);
+      const exact = timeSegments(m);
+      const peak = (c: PairflowConfig): number => {
+        let best = 0;
+        for (let q = 0; q < exact.count; q++) {
+          const sub = subMarket(m, exact.demand.idx.subarray(exact.demand.start[q]!, exact.demand.start[q + 1]!), exact.supply.idx.subarray(exact.supply.start[q]!, exact.supply.start[q + 1]!));
+          best = Math.max(best, buildCompactGraph(sub, c).codes.length);
+        }
+        return best;
+      };
+      expect(present).toBe(peak(everywhere));
+      expect(present).toBeGreaterThan(peak(config));
+    }
+  });
+
+  it('caps what heldPairs() counts', () => {
+    const m = twoBursts(14, 900, 300);
+    const present = presentPairs(m);
+    expect(heldPairs(m, config, 1, present)).toBe(Math.min(present, estimatePeakPairs(m, config)));
+    expect(heldPairs(m, config, 1, 10)).toBe(10);
+  });
+});
+
 describe('heldPairs()', () => {
   it('counts a market too small to matter at its bound, without building', () => {
     const m = twoBursts(8, 400, 100);
     expect(heldPairs(m, config, m.nDemand * m.nSupply * 1001)).toBe(m.nDemand * m.nSupply);
     expect(heldPairs(m, config, 1)).toBe(estimatePeakPairs(m, config));
+  });
+});
+
+describe('orderBy()', () => {
+  it('orders indices by key, the lower first on a tie, whether the keys come in order or not', () => {
+    const rand = mulberry32(15);
+    const byComparator = (k: Float64Array): number[] => [...k.keys()].sort((a, b) => k[a]! - k[b]! || a - b);
+    for (let n = 0; n < 60; n += 7) {
+      const ascending = Float64Array.from({ length: n }, (_, i) => Math.floor(i / 3));
+      const shuffled = Float64Array.from({ length: n }, () => randInt(rand, 0, 5));
+      expect([...orderBy(ascending)]).toEqual(byComparator(ascending));
+      expect([...orderBy(shuffled)]).toEqual(byComparator(shuffled));
+    }
+  });
+
+  it('gives the same time segments for a market whose arrivals are out of order', () => {
+    const m = twoBursts(16, 500, 200);
+    // Reversed, the demands and supplies are out of order: the merge of the ordered case does not apply.
+    const reversed = subMarket(m, Int32Array.from({ length: m.nDemand }, (_, i) => m.nDemand - 1 - i), Int32Array.from({ length: m.nSupply }, (_, i) => m.nSupply - 1 - i));
+    const a = timeSegments(m);
+    const b = timeSegments(reversed);
+    expect(b.count).toBe(a.count);
+    for (let q = 0; q < a.count; q++) {
+      const back = (idx: Int32Array, n: number): number[] => [...idx].map((i) => n - 1 - i).sort((x, y) => x - y);
+      expect(back(b.demand.idx.subarray(b.demand.start[q]!, b.demand.start[q + 1]!), m.nDemand)).toEqual([...a.demand.idx.subarray(a.demand.start[q]!, a.demand.start[q + 1]!)]);
+      expect(back(b.supply.idx.subarray(b.supply.start[q]!, b.supply.start[q + 1]!), m.nSupply)).toEqual([...a.supply.idx.subarray(a.supply.start[q]!, a.supply.start[q + 1]!)]);
+    }
   });
 });
 
