@@ -535,6 +535,13 @@ function measureGrowth(quick: boolean, outDir: string, log: (line: string) => vo
   return { label, date: new Date().toISOString().slice(0, 16).replace('T', ' ') + ' UTC', loadStart, loadEnd: loadavg()[0]!, byScale, byDays, demoWeekHindsightMs };
 }
 
+/** The hindsight's thread time (alone, all phases) per allowed pair, in ns: NaN when not measured. */
+const nsPerPair = (r: GrowthRow): number => {
+  const ph = r.alone?.phases;
+  if (!ph || !(r.pairsPriced > 0)) return NaN;
+  return ((ph.graphMs + ph.setupMs + ph.firstSolveMs + ph.pricingMs + ph.resolveMs + ph.ceilingMs) * 1e6) / r.pairsPriced;
+};
+
 const phaseLine = (ph: Phases): string =>
   `graph ${s1(ph.graphMs)}, setup ${s1(ph.setupMs)}, first solves ${s1(ph.firstSolveMs)}, pricing ${s1(ph.pricingMs)}, re-solves ${s1(ph.resolveMs)}, ceiling ${s1(ph.ceilingMs)}`;
 
@@ -552,8 +559,8 @@ function renderGrowth(g: GrowthResult, title: string | null, targets: string[] |
   const base = g.byScale.find((r) => r.scale === 1) ?? g.byScale[0]!;
   md.push('One day, `pairflow gen --days 1 --seed 1 --scale S`:');
   md.push('');
-  md.push('| scale | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | CPU s | peak MB | time ÷ scale 1 | CPU ÷ scale 1 | memory ÷ scale 1 | alone s | alone peak MB | load |');
-  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
+  md.push('| scale | demand | supply | allowed pairs | pairs solved | pricing rounds | wall s | CPU s | peak MB | time ÷ scale 1 | CPU ÷ scale 1 | memory ÷ scale 1 | alone s | alone peak MB | alone ns a pair | load |');
+  md.push('|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|---:|');
   // A row stopped at the cap shows its time and memory so far as lower bounds.
   const wall = (r: GrowthRow): string =>
     r.capped ? `> ${s1(r.replayWallMs)} (stopped)` : r.replayRunsMs ? `${s1(r.replayWallMs)} (${r.replayRunsMs.map((ms) => s1(ms)).join(', ')})` : s1(r.replayWallMs);
@@ -563,8 +570,10 @@ function renderGrowth(g: GrowthResult, title: string | null, targets: string[] |
   for (const r of g.byScale) {
     md.push(`| ${r.scale} | ${int(r.demandUnits)} | ${int(r.supplyUnits)} | ${int(r.pairsPriced)} | ${int(r.pairsSolved)} | ${int(r.pricingRounds)} | ${wall(r)} | ${cpu(r)} | ${peak(r)} | ` +
       `${ge(r)}${f2(r.replayWallMs / base.replayWallMs)}× | ${r.capped ? '–' : `${f2((r.replayCpuMs ?? NaN) / (base.replayCpuMs ?? NaN))}×`} | ` +
-      `${r.capped ? '≥ ' : ''}${f2((r.replayRssMb ?? NaN) / (base.replayRssMb ?? NaN))}× | ${s1(r.alone?.ms)} | ${f1(r.alone?.rssMb)} | ${f1(r.load)} |`);
+      `${r.capped ? '≥ ' : ''}${f2((r.replayRssMb ?? NaN) / (base.replayRssMb ?? NaN))}× | ${s1(r.alone?.ms)} | ${f1(r.alone?.rssMb)} | ${Number.isFinite(nsPerPair(r)) ? Math.round(nsPerPair(r)) : '–'} | ${f1(r.load)} |`);
   }
+  md.push('');
+  md.push('"alone ns a pair": that run\'s thread time over its allowed pairs, all phases: what the exact hindsight costs a pair as the density grows (the pairs grow with the square of the units).');
   md.push('');
   md.push('Where the hindsight\'s time went (alone, s of thread time): ' + g.byScale.filter((r) => r.alone).map((r) => `scale ${r.scale}: ${phaseLine(r.alone!.phases)}`).join('; ') + '.');
   md.push('');
@@ -605,8 +614,11 @@ function targetsOf(g: GrowthResult): string[] {
   // The same in CPU time (every thread): what the scale-4 day costs beside scale 1 whatever the cores.
   const cpuRatio = s1r && s4r ? (s4r.replayCpuMs ?? NaN) / (s1r.replayCpuMs ?? NaN) : NaN;
   const inCpu = Number.isFinite(cpuRatio) ? `; in CPU time ${f2(cpuRatio)}×` : '';
+  // And per allowed pair (the hindsight alone): the units grow 4×, the pairs about 16×.
+  const perPair = s1r && s4r ? nsPerPair(s4r) / nsPerPair(s1r) : NaN;
+  const inPairs = Number.isFinite(perPair) ? `; the hindsight's thread time per allowed pair ${f2(perPair)}× scale 1's, for ${f1(s4r!.pairsPriced / s1r!.pairsPriced)}× the pairs` : '';
   return [
-    `Targets: one day at scale 4 ≤ 5× the time of scale 1 — ${f2(time)}× (${ok(time === null ? null : time <= 5)}${spread}${inCpu}), ≤ 4× the memory — ${f2(mem)}× (${ok(mem === null ? null : mem <= 4)}); ` +
+    `Targets: one day at scale 4 ≤ 5× the time of scale 1 — ${f2(time)}× (${ok(time === null ? null : time <= 5)}${spread}${inCpu}${inPairs}), ≤ 4× the memory — ${f2(mem)}× (${ok(mem === null ? null : mem <= 4)}); ` +
       `7 days at scale 4, replay with the exact hindsight ≤ 4 min — ${week?.capped ? '> ' : ''}${s1(week?.replayWallMs)} s (${ok(week ? week.replayWallMs <= 240_000 && !week.capped : null)}) and ≤ 4 GB — ${week?.capped ? '≥ ' : ''}${f1(week?.replayRssMb)} MB (${ok(week?.replayRssMb ? week.replayRssMb <= 4096 : null)}); ` +
       `the demo week's hindsight (scale 1, alone, as the sweep computes it) ≤ 20 s — ${s1(g.demoWeekHindsightMs)} s (${ok(Number.isFinite(g.demoWeekHindsightMs) ? g.demoWeekHindsightMs! <= 20_000 : null)}).`,
   ];
