@@ -105,32 +105,20 @@ export function presentPairs(m: PackedMarket): number {
       const t = m.demandT[d]!;
       const end = m.demandEnd[d]!;
       // Arrived by its end, less those gone before it came.
-      if (end >= t) pairs += countAtMost(arrived, end) - countBelow(left, t);
+      if (end >= t) pairs += countBelow(arrived, end, true) - countBelow(left, t);
     }
     peak = Math.max(peak, pairs);
   }
   return peak;
 }
 
-/** Entries of ascending `a` at most `x`. */
-function countAtMost(a: Float64Array, x: number): number {
+/** Entries of ascending `a` below `x` (or at most `x`, `orEqual`): a binary search. */
+function countBelow(a: Float64Array, x: number, orEqual = false): number {
   let lo = 0;
   let hi = a.length;
   while (lo < hi) {
     const mid = (lo + hi) >>> 1;
-    if (a[mid]! <= x) lo = mid + 1;
-    else hi = mid;
-  }
-  return lo;
-}
-
-/** Entries of ascending `a` below `x`. */
-function countBelow(a: Float64Array, x: number): number {
-  let lo = 0;
-  let hi = a.length;
-  while (lo < hi) {
-    const mid = (lo + hi) >>> 1;
-    if (a[mid]! < x) lo = mid + 1;
+    if (a[mid]! < x || (orEqual && a[mid] === x)) lo = mid + 1;
     else hi = mid;
   }
   return lo;
