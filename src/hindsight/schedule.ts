@@ -48,9 +48,9 @@ export function estimatePeakPairs(m: PackedMarket, config: PairflowConfig, sampl
   const stride = Math.max(1, Math.ceil(m.nDemand / Math.max(1, sampleRows)));
   const dIdx = new Int32Array(Math.ceil(m.nDemand / stride));
   for (let i = 0; i < dIdx.length; i++) dIdx[i] = i * stride;
-  const sIdx = new Int32Array(m.nSupply);
-  for (let j = 0; j < sIdx.length; j++) sIdx[j] = j;
-  const sample = subMarket(m, dIdx, sIdx);
+  // The sampled demands with every supply (the market's own arrays, not copies).
+  const rows = subMarket(m, dIdx, new Int32Array(0));
+  const sample: PackedMarket = { ...m, nDemand: rows.nDemand, demandT: rows.demandT, demandEnd: rows.demandEnd, demandA: rows.demandA, demandB: rows.demandB, demandNeeds: rows.demandNeeds };
   const g = buildCompactGraph(sample, config, new GraphStore(), Math.min(dIdx.length * m.nSupply, 1 << 22));
 
   const seg = timeSegments(m);
