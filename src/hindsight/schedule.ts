@@ -51,7 +51,7 @@ export function estimatePeakPairs(m: PackedMarket, config: PairflowConfig, sampl
   // The sampled demands with every supply (the market's own arrays, not copies).
   const rows = subMarket(m, dIdx, new Int32Array(0));
   const sample: PackedMarket = { ...m, nDemand: rows.nDemand, demandT: rows.demandT, demandEnd: rows.demandEnd, demandA: rows.demandA, demandB: rows.demandB, demandNeeds: rows.demandNeeds };
-  const g = buildCompactGraph(sample, config, new GraphStore(), Math.min(dIdx.length * m.nSupply, 1 << 22));
+  const g = buildCompactGraph(sample, config, new GraphStore(), Math.min(dIdx.length * m.nSupply, 1 << 20));
 
   const seg = timeSegments(m);
   const segOf = new Int32Array(m.nDemand);
