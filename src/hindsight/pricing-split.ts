@@ -76,7 +76,6 @@ export function sharedGauge(count: Int32Array, cores: number): Gauge {
   };
 }
 
-
 /** What a segment's pricer is built with. */
 export interface SplitSegment {
   readonly g: CompactGraph;
@@ -184,6 +183,8 @@ const HELPER_URL = new URL('../../dist/hindsight/pricing-helper.js', import.meta
 export class PricingHelper implements PricingSplitter {
   private worker: Worker | null = null;
   private broken = false;
+  /** Whether the helper's compiled script exists (looked up once). */
+  private script: boolean | null = null;
   /** The pairs the market being solved is expected to hold at once (the pool's estimate). */
   expectedPairs = 0;
 
@@ -196,7 +197,7 @@ export class PricingHelper implements PricingSplitter {
   wants(g: CompactGraph): boolean {
     // The helper marks its rows' candidates in the graph itself: only pairs in shared memory will do.
     const shared = g.codes.buffer instanceof SharedArrayBuffer && g.cols.buffer instanceof SharedArrayBuffer;
-    return shared && !this.broken && g.wide.size === 0 && g.cols.length >= this.minPairs && existsSync(fileURLToPath(this.url));
+    return shared && !this.broken && g.wide.size === 0 && g.cols.length >= this.minPairs && this.hasScript();
   }
 
   open(seg: SplitSegment): SegmentSplit | null {
@@ -204,7 +205,7 @@ export class PricingHelper implements PricingSplitter {
   }
 
   prefault(store: GraphStore): { progress: Int32Array; done(): void } | null {
-    if (!store.shared || this.expectedPairs < PREFAULT_MIN_PAIRS || this.broken || !this.gauge.idle() || !existsSync(fileURLToPath(this.url))) return null;
+    if (!store.shared || this.expectedPairs < PREFAULT_MIN_PAIRS || this.broken || !this.gauge.idle() || !this.hasScript()) return null;
     const w = this.thread();
     if (w === null) return null;
     this.gauge.take();
@@ -221,6 +222,10 @@ export class PricingHelper implements PricingSplitter {
         this.gauge.give();
       },
     };
+  }
+
+  private hasScript(): boolean {
+    return (this.script ??= existsSync(fileURLToPath(this.url)));
   }
 
   /** The helper thread, started now if it is not running (null once it has failed). */
