@@ -1,5 +1,5 @@
-// Assembles src/matching/wasm/*.wat into src/matching/wasm/*.wasm.ts (the bytes as
-// base64, so the solver needs no assembler at run time). Run after editing a .wat:
+// Assembles src/matching/wasm/*.wat and src/hindsight/wasm/*.wat into the *.wasm.ts
+// beside them (the bytes as base64, so nothing needs an assembler at run time). Run after editing a .wat:
 //   node scripts/build-wasm.mjs          (writes)
 //   node scripts/build-wasm.mjs --check  (exits 1 when a .wasm.ts is out of date)
 // Uses the `wabt` package (the WebAssembly Binary Toolkit's wat2wasm).
@@ -11,9 +11,11 @@ import wabtInit from 'wabt';
 /** The text of NAME.wasm.ts for DIR/NAME.wat. */
 export async function assembledModuleText(dir, name) {
   const wabt = await wabtInit();
-  const mod = wabt.parseWat(`${name}.wat`, readFileSync(join(dir, `${name}.wat`), 'utf8'), { simd: true, bulk_memory: true });
+  // (threads: a shared memory, for a kernel that reads what other threads write.)
+  const features = { simd: true, bulk_memory: true, threads: true };
+  const mod = wabt.parseWat(`${name}.wat`, readFileSync(join(dir, `${name}.wat`), 'utf8'), features);
   try {
-    mod.validate();
+    mod.validate(features);
     const b64 = Buffer.from(mod.toBinary({}).buffer).toString('base64');
     const lines = [];
     for (let i = 0; i < b64.length; i += 100) lines.push(`  '${b64.slice(i, i + 100)}'`);
@@ -24,10 +26,10 @@ export async function assembledModuleText(dir, name) {
 }
 
 async function main() {
-  const dir = fileURLToPath(new URL('../src/matching/wasm/', import.meta.url));
+  const dirs = ['../src/matching/wasm/', '../src/hindsight/wasm/'].map((d) => fileURLToPath(new URL(d, import.meta.url)));
   const check = process.argv.includes('--check');
   let stale = 0;
-  for (const f of readdirSync(dir).filter((f) => f.endsWith('.wat'))) {
+  for (const [dir, f] of dirs.flatMap((dir) => readdirSync(dir).filter((f) => f.endsWith('.wat')).map((f) => [dir, f]))) {
     const name = f.slice(0, -4);
     const text = await assembledModuleText(dir, name);
     const out = join(dir, `${name}.wasm.ts`);

@@ -20,6 +20,7 @@
 import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
 import type { PairflowConfig, UnitPlace } from '../model.js';
 import { orderBy } from './segments.js';
+import { kernelMemory, MAX_KERNEL_BYTES, PAGE_BYTES, type KernelColumns, type KernelMemory } from './wasm/pricing-scan.js';
 
 /** The fields of a unit occurrence the hindsight needs (a window `Occurrence` fits). */
 export interface HindsightUnit extends UnitPlace {
@@ -393,13 +394,26 @@ export function firstReserve(m: PackedMarket): number {
 export class GraphStore {
   cols = new Uint16Array(0);
   codes = new Uint8Array(0);
+  /**
+   * The shared WebAssembly memory the pairs live in, columns from byte 0 and codes
+   * after them, where the pricing kernel reads them in place (wasm/pricing-scan.ts);
+   * null: plain buffers, priced in JavaScript.
+   */
+  memory: KernelMemory | null = null;
+  /** Where the pairs end in {@link memory}: the pricers' column slots follow. */
+  private slotsAt = 0;
 
   /**
    * @param shared keep the pairs in SharedArrayBuffers, so that a second thread can
    *   read a pricing pass's share of the rows (pricing-split.ts); their pages too are
    *   made resident only as they are written
+   * @param kernel keep them in a shared WebAssembly memory where one can be had (a
+   *   store of more than about 1.4 G pairs cannot be: 32-bit addresses)
    */
-  constructor(readonly shared = false) {}
+  constructor(
+    readonly shared = false,
+    private readonly kernel = false,
+  ) {}
 
   /** Room for at least `n` pairs, keeping the first `keep`. */
   ensure(n: number, keep: number): void {
@@ -407,11 +421,18 @@ export class GraphStore {
     let cap = Math.max(n, Math.min(RESERVE_PAIRS, 2 * n), 2 * this.cols.length);
     let cols: Uint16Array<ArrayBuffer> | null = null;
     let codes: Uint8Array<ArrayBuffer> | null = null;
+    let memory: KernelMemory | null = null;
     // A system that will not promise that much address space gets a smaller reservation.
     while (codes === null) {
       try {
-        cols = this.shared ? (new Uint16Array(new SharedArrayBuffer(2 * cap)) as unknown as Uint16Array<ArrayBuffer>) : new Uint16Array(cap);
-        codes = this.shared ? (new Uint8Array(new SharedArrayBuffer(cap)) as unknown as Uint8Array<ArrayBuffer>) : new Uint8Array(cap);
+        memory = this.kernel && this.shared ? kernelMemory(pageAligned(3 * cap) + SLOT_ROOM) : null;
+        if (memory !== null) {
+          cols = new Uint16Array(memory.buffer, 0, cap) as unknown as Uint16Array<ArrayBuffer>;
+          codes = new Uint8Array(memory.buffer, 2 * cap, cap) as unknown as Uint8Array<ArrayBuffer>;
+        } else {
+          cols = this.shared ? (new Uint16Array(new SharedArrayBuffer(2 * cap)) as unknown as Uint16Array<ArrayBuffer>) : new Uint16Array(cap);
+          codes = this.shared ? (new Uint8Array(new SharedArrayBuffer(cap)) as unknown as Uint8Array<ArrayBuffer>) : new Uint8Array(cap);
+        }
       } catch (err) {
         cols = null;
         if (!(err instanceof RangeError) || cap <= n) throw err;
@@ -422,7 +443,57 @@ export class GraphStore {
     codes.set(this.codes.subarray(0, keep));
     this.cols = cols!;
     this.codes = codes;
+    this.memory = memory;
+    this.slotsAt = memory === null ? 0 : pageAligned(3 * cap);
   }
+
+  /**
+   * Slot `k` of the column numbers a pricing kernel reads (one slot per thread that
+   * prices the same graph: 0 its worker, 1 its helper), for a graph of `nCols` columns
+   * and `perCol` picks a column; null when the pairs are not in a kernel memory or
+   * there is no room for the slot. Its picks' arrays start cleared.
+   */
+  columns(k: number, nCols: number, perCol: number): KernelColumns | null {
+    const memory = this.memory;
+    if (memory === null) return null;
+    const duals = 8 * nCols;
+    const counts = 8 * Math.ceil(nCols / 2);
+    const size = OUT_BYTES + duals + counts + 8 * nCols * perCol;
+    const at = this.slotsAt + k * size;
+    const need = at + size;
+    if (need > MAX_KERNEL_BYTES) return null;
+    if (need > memory.buffer.byteLength) {
+      try {
+        memory.grow(Math.ceil((need - memory.buffer.byteLength) / PAGE_BYTES));
+      } catch {
+        return null;
+      }
+    }
+    const buf = memory.buffer;
+    const slot: KernelColumns = {
+      memory,
+      out: new Float64Array(buf, at, 2),
+      duals: new Float64Array(buf, at + OUT_BYTES, nCols),
+      count: new Int32Array(buf, at + OUT_BYTES + duals, nCols),
+      red: new Float64Array(buf, at + OUT_BYTES + duals + counts, nCols * perCol),
+    };
+    slot.count.fill(0);
+    return slot;
+  }
+
+  /** Whether graph `g`'s pairs are this store's, in its kernel memory. */
+  holds(g: Pick<CompactGraph, 'cols' | 'codes'>): boolean {
+    return this.memory !== null && g.cols.buffer === this.cols.buffer && g.codes.buffer === this.codes.buffer;
+  }
+}
+
+/** Room past the pairs a kernel memory starts with, for the pricers' column slots (it grows for larger markets). */
+const SLOT_ROOM = 1 << 24;
+/** A slot's first bytes: where a kernel call leaves its results (a cache line of its own). */
+const OUT_BYTES = 64;
+
+function pageAligned(bytes: number): number {
+  return Math.ceil(bytes / PAGE_BYTES) * PAGE_BYTES;
 }
 
 /**

@@ -32,12 +32,13 @@ import { Worker } from 'node:worker_threads';
 import { pairflowError } from '../errors.js';
 import type { PairflowConfig } from '../model.js';
 import type { CompactGraph, GraphStore, PackedMarket, PairCost, QuickTerms } from './graph.js';
-import { columnPicks, Pricer, rowAdds, type ColumnPicks, type PricerTables, type PricingSplit, type RowAdds, type ScanCounts, type ScanParams } from './pricing.js';
+import type { KernelColumns } from './wasm/pricing-scan.js';
+import { columnPicks, kernelPicks, Pricer, rowAdds, type ColumnPicks, type PricerTables, type PricingSplit, type RowAdds, type ScanCounts, type ScanParams } from './pricing.js';
 
 /** The handshake's words: commands and flags (Int32), then numbers (Float64). */
 const CTL = { cmd: 0, done: 1, ready: 2, stop: 3, nextChunk: 4, exhaustive: 5, inTurns: 6, turn: 7, failed: 8, words: 16 } as const;
 /** The pass's largest |v|, then the helper's counts. */
-const NUM = { maxAbsV: 0, violators: 1, rechecks: 2, exactRechecks: 3, rowsPriced: 4, added: 5, words: 8 } as const;
+const NUM = { maxAbsV: 0, violators: 1, rechecks: 2, exactRechecks: 3, rowsPriced: 4, added: 5, kernelRows: 6, words: 8 } as const;
 /** Bytes for a helper's error message. */
 const ERROR_BYTES = 2048;
 
@@ -91,6 +92,8 @@ export interface SplitSegment {
   readonly tables: PricerTables;
   /** The terms of its quick costs (graph.ts quickTermsOf), in SharedArrayBuffers. */
   readonly quick: QuickTerms | null;
+  /** The helper's kernel slot (graph.ts GraphStore.columns), where the pairs are in a kernel memory. */
+  readonly columns: KernelColumns | null;
 }
 
 /** What a helper thread is sent for one segment: the segment's pricer, less its graph's map of wide rows (it has none). */
@@ -317,7 +320,7 @@ class ThreadSplit implements SegmentSplit {
     const { g, m, ...pricer } = this.seg;
     this.u = new Float64Array(new SharedArrayBuffer(8 * g.nRows));
     this.v = new Float64Array(new SharedArrayBuffer(8 * g.nCols));
-    this.picks = columnPicks(g.nCols, pricer.addPerColumn, true);
+    this.picks = pricer.columns !== null ? kernelPicks(pricer.columns, g.nCols, pricer.addPerColumn, true) : columnPicks(g.nCols, pricer.addPerColumn, true);
     this.adds = rowAdds(pricer.addPerRow * g.nRows, true);
     const setup: HelperSetup = {
       ...pricer,
@@ -359,6 +362,7 @@ class ThreadSplit implements SegmentSplit {
       rechecks: num[NUM.rechecks]!,
       exactRechecks: num[NUM.exactRechecks]!,
       rowsPriced: num[NUM.rowsPriced]!,
+      kernelRows: num[NUM.kernelRows]!,
       n: num[NUM.added]!,
     };
     return { counts, rows: this.adds!.rows, cols: this.adds!.cols, costs: this.adds!.costs, picks: this.picks! };
@@ -388,7 +392,7 @@ export function serveSegment(s: HelperSetup, exact: PairCost, quick: PairCost): 
     demandRow: new Int32Array(0),
     wide: new Map(),
   };
-  const pricer = new Pricer(g, exact, s.colLo, s.colHi, s.addPerRow, s.P, s.addPerColumn, quick, s.turns, s.tables, s.picks, s.adds);
+  const pricer = new Pricer(g, exact, s.colLo, s.colHi, s.addPerRow, s.P, s.addPerColumn, quick, s.turns, s.tables, s.picks, s.adds, s.columns);
   Atomics.store(ctl, CTL.ready, 1);
   Atomics.notify(ctl, CTL.ready);
   let seen = 0;
@@ -399,12 +403,14 @@ export function serveSegment(s: HelperSetup, exact: PairCost, quick: PairCost): 
     if (Atomics.load(ctl, CTL.stop) === 1) return;
     try {
       s.picks.count.fill(0);
+      pricer.beginScan(s.v);
       const params: ScanParams = { exhaustive: ctl[CTL.exhaustive] === 1, maxAbsV: num[NUM.maxAbsV]!, inTurns: ctl[CTL.inTurns] === 1, turn: ctl[CTL.turn]! };
       const c = pricer.scanChunks(() => Atomics.add(ctl, CTL.nextChunk, 1), s.u, s.v, params);
       num[NUM.violators] = c.violators;
       num[NUM.rechecks] = c.rechecks;
       num[NUM.exactRechecks] = c.exactRechecks;
       num[NUM.rowsPriced] = c.rowsPriced;
+      num[NUM.kernelRows] = c.kernelRows;
       num[NUM.added] = c.n;
     } catch (err) {
       const text = new TextEncoder().encode(err instanceof Error ? (err.stack ?? err.message) : String(err)).subarray(0, ERROR_BYTES - 1);

@@ -63,6 +63,7 @@
 import { pairflowError } from '../errors.js';
 import { markCandidate } from './candidates.js';
 import { CODE_TOP, MARK, QUICK_COST_SLACK, type CompactGraph, type PairCost } from './graph.js';
+import { ScanKernel, type KernelColumns } from './wasm/pricing-scan.js';
 
 // A non-candidate pair prices out below this (relative to its cost): well under the
 // certificate's 1e-9 yet above the rounding of duals built from sums of costs.
@@ -130,6 +131,8 @@ export interface ScanCounts {
   rechecks: number;
   exactRechecks: number;
   rowsPriced: number;
+  /** Of those, rows read by the WebAssembly kernel. */
+  kernelRows: number;
   /** Pairs its rows add (the first of the scanner's `rows` / `cols` / `costs`). */
   n: number;
 }
@@ -186,6 +189,16 @@ export function columnPicks(nCols: number, perCol: number, shared = false): Colu
   };
 }
 
+/**
+ * {@link ColumnPicks} whose counts and reduced costs are a kernel slot's (graph.ts
+ * GraphStore.columns), where the pricing kernel reads them; the rest in
+ * SharedArrayBuffers when `shared`.
+ */
+export function kernelPicks(slot: KernelColumns, nCols: number, perCol: number, shared = false): ColumnPicks {
+  const slots = nCols * perCol;
+  return { red: slot.red, edge: i32Of(slots, shared), row: i32Of(slots, shared), cost: f64Of(slots, shared), count: slot.count };
+}
+
 /** Where a pricer's rows put the pairs they add: growable, or fixed (a helper thread's, shared). */
 export interface RowAdds {
   rows: Int32Array;
@@ -219,6 +232,13 @@ export class Pricer {
   exactRechecks = 0;
   /** Passes whose rows were read on two threads. */
   splitPasses = 0;
+  /** Row pricings read by the WebAssembly kernel (on either thread). */
+  kernelRows = 0;
+  /** The tight loop in WebAssembly (null: in JavaScript). */
+  private readonly kernel: ScanKernel | null;
+  /** Byte offsets of the graph's codes and columns in the kernel's memory. */
+  private readonly codesAt: number;
+  private readonly colsAt: number;
 
   /**
    * @param colLo per row, its lowest column (see FirstCandidates)
@@ -234,6 +254,9 @@ export class Pricer {
    * @param tables the state kept between passes (shared with a helper thread's pricer)
    * @param picks this pricer's column picks (a helper thread's, shared)
    * @param adds where this pricer's rows put their pairs (a helper thread's, shared)
+   * @param columns a kernel slot over the memory that holds the graph's pairs (graph.ts
+   *   GraphStore.columns; `picks` then from {@link kernelPicks} over it): the rows'
+   *   tight loop runs in WebAssembly, with the same results (null: in JavaScript)
    */
   constructor(
     private readonly g: CompactGraph,
@@ -248,8 +271,15 @@ export class Pricer {
     readonly tables: PricerTables = pricerTables(g.nRows, g.nCols),
     readonly picks: ColumnPicks = columnPicks(g.nCols, addPerColumn),
     readonly adds: RowAdds = rowAdds(1024),
+    columns: KernelColumns | null = null,
   ) {
     if (!(Number.isInteger(turns) && turns >= 1)) throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: `pricing turns must be a whole number ≥ 1, got ${turns}` });
+    if (columns !== null && (picks.count !== columns.count || picks.red !== columns.red || columns.duals.length !== g.nCols)) {
+      throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: 'pricing: a kernel slot must hold the pricer\'s column picks and one price a column' });
+    }
+    this.kernel = columns === null || g.wide.size > 0 ? null : ScanKernel.over(columns);
+    this.codesAt = g.codes.byteOffset;
+    this.colsAt = g.cols.byteOffset;
     this.addRed = new Float64Array(addPerRow);
     this.addEdge = new Int32Array(addPerRow);
     this.addCol = new Int32Array(addPerRow);
@@ -263,6 +293,20 @@ export class Pricer {
    */
   attach(split: PricingSplit | null): void {
     this.split = split;
+  }
+
+  /** Whether the rows' tight loop runs in WebAssembly. */
+  get inKernel(): boolean {
+    return this.kernel !== null;
+  }
+
+  /**
+   * Readies this thread's reading of a pass's rows under column prices `colDuals`
+   * (the kernel reads a copy of them): {@link pass} does it, and so must a helper
+   * thread before its {@link scanChunks}.
+   */
+  beginScan(colDuals: Float64Array): void {
+    this.kernel?.loadDuals(colDuals);
   }
 
   /**
@@ -280,6 +324,7 @@ export class Pricer {
     const inTurns = turns > 1 && !exhaustive && this.lastViolators > TURNS_ABOVE * nRows;
     const params: ScanParams = { exhaustive, maxAbsV, inTurns, turn: (this.passes - 1) % turns };
     picks.count.fill(0);
+    this.beginScan(colDuals);
     const split = this.split !== null && this.split.start(rowDuals, colDuals, params);
     const counts = split ? this.scanChunks(() => this.split!.claim(), rowDuals, colDuals, params) : this.scan(0, nRows, rowDuals, colDuals, params);
     let nNew = counts.n;
@@ -293,6 +338,7 @@ export class Pricer {
       counts.rechecks += other.counts.rechecks;
       counts.exactRechecks += other.counts.exactRechecks;
       counts.rowsPriced += other.counts.rowsPriced;
+      counts.kernelRows += other.counts.kernelRows;
       nNew = this.mergeAdds(nNew, other.rows, other.cols, other.costs, other.counts.n);
       if (perCol > 0) mergePicks(picks, other.picks, nCols, perCol);
     }
@@ -318,6 +364,7 @@ export class Pricer {
     this.rechecks += counts.rechecks;
     this.exactRechecks += counts.exactRechecks;
     this.rowsPriced += counts.rowsPriced;
+    this.kernelRows += counts.kernelRows;
     this.lastViolators = inTurns ? turns * counts.violators : counts.violators;
     return { violators: counts.violators, n: nNew, rows: this.adds.rows, cols: this.adds.cols, costs: this.adds.costs };
   }
@@ -359,12 +406,13 @@ export class Pricer {
     const { red: colRed, edge: colEdge, row: colRow, cost: colCost, count: colCount } = this.picks;
     const { rowPtr, rowBase, cols, codes, wide, step, rowDemand } = g;
     const { exhaustive, maxAbsV, inTurns, turn } = params;
-    const { turns } = this;
+    const { turns, kernel, codesAt, colsAt } = this;
     let violators = 0;
     let nNew = added;
     let rechecks = 0;
     let exactRechecks = 0;
     let rowsPriced = 0;
+    let kernelRows = 0;
     for (let r = r0; r < r1; r++) {
       const u = rowDuals[r]!;
       const lo0 = colLo[r]!;
@@ -389,6 +437,7 @@ export class Pricer {
       const d = rowDemand[r]!;
       const base = rowBase[r]!;
       const wideCols = wide.size === 0 ? undefined : wide.get(r);
+      if (kernel !== null && wideCols === undefined) kernelRows++;
       const start = rowPtr[r]!;
       const end = rowPtr[r + 1]!;
       // The code says the pair's cost lies in [lo, lo + step), lo = code · step: it
@@ -405,7 +454,15 @@ export class Pricer {
       let least = Infinity;
       let e = start;
       for (;;) {
-        if (wideCols === undefined) {
+        if (wideCols === undefined && kernel !== null) {
+          // The loop below, in WebAssembly (wasm/pricing-scan.wat): the same tests in
+          // the same order, so the same pairs stop it and the same floor comes out.
+          e = kernel.clear(codesAt, colsAt, perCol, e, end, base, CODE_TOP, step, u, bar, deep, nb < addPerRow ? Infinity : addRed[addPerRow - 1]!, least);
+          least = kernel.least();
+          const counted = kernel.violators();
+          violators += counted;
+          rowViolators += counted;
+        } else if (wideCols === undefined) {
           // Most pairs stand clear of pricing out (or are candidates, code ≥
           // CODE_TOP) and only lower the row's floor: a tight loop for them, without
           // the wide-row lookup; a pair that does not goes through the full handling
@@ -537,7 +594,7 @@ export class Pricer {
         nNew++;
       }
     }
-    return { violators, rechecks, exactRechecks, rowsPriced, n: nNew };
+    return { violators, rechecks, exactRechecks, rowsPriced, kernelRows, n: nNew };
   }
 
   private mergeRows = new Int32Array(0);
@@ -583,7 +640,7 @@ export class Pricer {
    */
   scanChunks(claim: () => number, rowDuals: Float64Array, colDuals: Float64Array, params: ScanParams, added = 0): ScanCounts {
     const { nRows } = this.g;
-    const total: ScanCounts = { violators: 0, rechecks: 0, exactRechecks: 0, rowsPriced: 0, n: added };
+    const total: ScanCounts = { violators: 0, rechecks: 0, exactRechecks: 0, rowsPriced: 0, kernelRows: 0, n: added };
     for (;;) {
       const r0 = claim() * SCAN_CHUNK;
       if (r0 >= nRows) return total;
@@ -592,6 +649,7 @@ export class Pricer {
       total.rechecks += c.rechecks;
       total.exactRechecks += c.exactRechecks;
       total.rowsPriced += c.rowsPriced;
+      total.kernelRows += c.kernelRows;
       total.n = c.n;
     }
   }

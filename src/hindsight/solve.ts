@@ -34,7 +34,7 @@ import type { PairflowConfig } from '../model.js';
 import { dropCandidate, FirstCandidates, markCandidate } from './candidates.js';
 import { matchCeiling } from './ceiling.js';
 import { buildCompactGraph, columnOf, expandGraph, firstReserve, GraphStore, isMarked, pairCostOf, quickPairCostOf, quickTermsOf, type AllowedGraph, type CompactGraph, type PackedMarket, type PairCost } from './graph.js';
-import { Pricer, pricerTables } from './pricing.js';
+import { columnPicks, kernelPicks, Pricer, pricerTables, rowAdds } from './pricing.js';
 import type { PricingSplitter } from './pricing-split.js';
 import { mergeProofs, subMarket, timeSegments, type SegmentProof } from './segments.js';
 
@@ -176,6 +176,8 @@ export interface HindsightMarketDetail {
   rowsPriced: number;
   /** Pricing passes whose rows were read on two threads (pricing-split.ts). */
   splitPasses: number;
+  /** Row pricings read by the WebAssembly kernel (wasm/pricing-scan.ts): all, where the pairs were in a kernel memory. */
+  kernelRows: number;
 }
 
 /** @default candidatesPerDemand */
@@ -203,6 +205,7 @@ interface SegmentResult {
   rechecks: number;
   rowsPriced: number;
   splitPasses: number;
+  kernelRows: number;
   /** With `wantDetail`: the segment's graph and prices, rows in its demand order. */
   proof: SegmentProof | null;
 }
@@ -261,6 +264,7 @@ export function solvePackedMarket(
   let rechecks = 0;
   let rowsPriced = 0;
   let splitPasses = 0;
+  let kernelRows = 0;
   // Each segment's graph is done with before the next is built, so they share `store`.
   for (let q = 0; q < seg.count; q++) {
     const dIdx = seg.demand.idx.subarray(seg.demand.start[q]!, seg.demand.start[q + 1]!);
@@ -284,13 +288,14 @@ export function solvePackedMarket(
     rechecks += r.rechecks;
     rowsPriced += r.rowsPriced;
     splitPasses += r.splitPasses;
+    kernelRows += r.kernelRows;
     if (wantDetail) parts.push({ dIdx, sIdx, proof: r.proof! });
   }
   // Summed in occurrence order, so the total does not depend on how segments fell.
   for (let i = 0; i < m.nDemand; i++) out.cost += out.demandCost[i]!;
   out.abandoned = m.nDemand - out.matched;
   if (opts.cover) out.cover = joinCovers(coverParts);
-  if (wantDetail) out.detail = { ...mergeProofs(m, parts), solves, retries, rechecks, rowsPriced, splitPasses };
+  if (wantDetail) out.detail = { ...mergeProofs(m, parts), solves, retries, rechecks, rowsPriced, splitPasses, kernelRows };
   out.ms = now() - t0;
   return out;
 }
@@ -360,8 +365,12 @@ function solveSegment(
   // A large segment's passes may read half their rows on a helper thread: its tables are shared then.
   const split = splitter !== null && splitter.wants(g);
   const quick = quickTermsOf(m, config, split);
-  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config, quick), turns, pricerTables(nRows, nCols, split));
-  const helper = split ? splitter.open({ g, m, config, colLo: first.colLo, colHi: first.colHi, addPerRow, P, addPerColumn, turns, tables: pricer.tables, quick }) : null;
+  // Pairs in a kernel memory are read by the pricing kernel (wasm/pricing-scan.ts), a slot a thread.
+  const slot = store.holds(g) ? store.columns(0, nCols, addPerColumn) : null;
+  const picks = slot !== null ? kernelPicks(slot, nCols, addPerColumn) : columnPicks(nCols, addPerColumn);
+  const pricer = new Pricer(g, exact, first.colLo, first.colHi, addPerRow, P, addPerColumn, quickPairCostOf(m, config, quick), turns, pricerTables(nRows, nCols, split), picks, rowAdds(1024), slot);
+  const columns = split && slot !== null ? store.columns(1, nCols, addPerColumn) : null;
+  const helper = split ? splitter.open({ g, m, config, colLo: first.colLo, colHi: first.colHi, addPerRow, P, addPerColumn, turns, tables: pricer.tables, quick, columns }) : null;
   pricer.attach(helper);
   lap('setupMs');
 
@@ -471,6 +480,7 @@ function solveSegment(
     rechecks: pricer.rechecks,
     rowsPriced: pricer.rowsPriced,
     splitPasses: pricer.splitPasses,
+    kernelRows: pricer.kernelRows,
     proof,
   };
 }

@@ -39,8 +39,9 @@ export type WorkerReply =
 
 const port = parentPort;
 // One pair store for every market this worker solves (one at a time), shared with
-// the pricing helper, which starts with the first market large enough for it.
-const store = new GraphStore(true);
+// the pricing helper, which starts with the first market large enough for it; its
+// pairs live in a WebAssembly memory where the pricing kernel reads them.
+const store = new GraphStore(true, true);
 let helper: PricingHelper | null = null;
 if (port !== null) {
   port.on('message', (task: WorkerTask) => {

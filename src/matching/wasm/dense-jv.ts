@@ -90,7 +90,7 @@ const nodeBuffer = (globalThis as unknown as { Buffer?: { from: (text: string, e
  * loop (measured in a process's first solve: atob and Uint8Array.from with a mapping
  * function took 0.5–1.5 ms for the kernel's 4.6 KB, Buffer.from 0.1 ms).
  */
-function decodeBase64(text: string): Uint8Array {
+export function decodeBase64(text: string): Uint8Array {
   if (nodeBuffer !== undefined) return nodeBuffer.from(text, 'base64');
   const s = atob(text);
   const out = new Uint8Array(s.length);

@@ -137,6 +137,16 @@ describe('a split pricing pass', () => {
     expect(Array.from(split.detail!.rowDuals)).toEqual(Array.from(alone.detail!.rowDuals));
     expect(Array.from(split.detail!.colDuals)).toEqual(Array.from(alone.detail!.colDuals));
     expect(Array.from(split.detail!.rowToCol)).toEqual(Array.from(alone.detail!.rowToCol));
+    // With the pairs in a kernel memory this thread's share is read by the WebAssembly
+    // kernel and the other share (a plain pricer here) in JavaScript: still the same.
+    const mixed = solvePackedMarket('m', m, config, solveSparse, {}, true, new GraphStore(true, true), inlineSplitter);
+    expect(mixed.cost).toBe(alone.cost);
+    expect(mixed.detail!.rowsPriced).toBe(alone.detail!.rowsPriced);
+    expect(mixed.detail!.kernelRows).toBeGreaterThan(0);
+    expect(mixed.detail!.kernelRows).toBeLessThan(mixed.detail!.rowsPriced);
+    expect(alone.detail!.kernelRows).toBe(0);
+    expect(Array.from(mixed.detail!.rowDuals)).toEqual(Array.from(alone.detail!.rowDuals));
+    expect(Array.from(mixed.detail!.rowToCol)).toEqual(Array.from(alone.detail!.rowToCol));
   });
 });
 
@@ -168,21 +178,26 @@ describe('PricingHelper (a second thread)', () => {
     // next waits for it to set up (its thread to start, the first time).
     const first = solvePackedMarket('m', m, config, solveSparse, {}, true, new GraphStore(true), helper);
     const again = solvePackedMarket('m', m, config, solveSparse, {}, true, new GraphStore(true), helper);
-    for (const r of [first, again]) {
+    // Pairs in a kernel memory: both threads read their rows with the WebAssembly kernel.
+    const kernel = solvePackedMarket('m', m, config, solveSparse, {}, true, new GraphStore(true, true), helper);
+    expect(kernel.detail!.kernelRows).toBe(kernel.detail!.rowsPriced);
+    expect(first.detail!.kernelRows).toBe(0);
+    for (const r of [first, again, kernel]) {
       expect(r.cost).toBe(alone.cost);
       expect(Array.from(r.demandCost)).toEqual(Array.from(alone.demandCost));
       expect(Array.from(r.detail!.rowDuals)).toEqual(Array.from(alone.detail!.rowDuals));
       expect(Array.from(r.detail!.rowToCol)).toEqual(Array.from(alone.detail!.rowToCol));
       expect(r.detail!.rowsPriced).toBe(alone.detail!.rowsPriced);
     }
-    for (const r of [first, again]) expect(r.detail!.splitPasses).toBe(r.pricingRounds);
+    for (const r of [first, again, kernel]) expect(r.detail!.splitPasses).toBe(r.pricingRounds);
     expect(peak).toBe(1);
     expect(Atomics.load(counts, 1)).toBe(0);
   });
 
-  it.skipIf(!available)('makes a build\'s pages resident ahead of it without changing a pair the build wrote', () => {
-    const store = new GraphStore(true);
+  it.skipIf(!available).each([false, true])('makes a build\'s pages resident ahead of it without changing a pair the build wrote (kernel memory: %s)', (kernel) => {
+    const store = new GraphStore(true, kernel);
     store.ensure(1 << 22, 0);
+    expect(store.memory !== null).toBe(kernel);
     helper.expectedPairs = 1e9;
     const ahead = helper.prefault(store);
     helper.expectedPairs = 0;

@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
 
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
-import { buildCompactGraph, columnOf, isMarked, packMarket, pairCostOf, quickPairCostOf, type HindsightUnit } from '../../../src/hindsight/graph.js';
-import { Pricer } from '../../../src/hindsight/pricing.js';
+import { buildCompactGraph, columnOf, GraphStore, isMarked, packMarket, pairCostOf, quickPairCostOf, type HindsightUnit } from '../../../src/hindsight/graph.js';
+import { columnPicks, kernelPicks, Pricer } from '../../../src/hindsight/pricing.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 
 const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', speedKmh: 20, abandonPenalty: 25 };
@@ -372,4 +372,76 @@ describe('Pricer.pass() deciding within a step of zero', () => {
       }
     });
   }
+});
+
+describe('Pricer.pass() with its pairs in a kernel memory', () => {
+  // The same market built twice, into plain buffers and into a store whose pairs live
+  // in a WebAssembly memory (GraphStore(true, true)): the kernel's passes must find
+  // what JavaScript's find, pair for pair, through rounds of moving prices, in turns,
+  // adding by rows and by columns, skipping rows by their bounds, and exhaustive.
+  for (const metric of ['euclidean', 'haversine'] as const) {
+    it(`finds the same pairs, counts and floors as the JavaScript loop (${metric}, seeded)`, () => {
+      const cfg: PairflowConfig = { ...DEFAULT_CONFIG, metric, waitWeight: 0.5, abandonPenalty: 30 };
+      const P = cfg.abandonPenalty;
+      const rnd = mulberry32(metric === 'euclidean' ? 21 : 22);
+      const units: HindsightUnit[] = [];
+      for (let i = 0; i < 700; i++) {
+        const t = randInt(rnd, 0, 5_400_000);
+        const place = metric === 'euclidean' ? { x: rnd() * 5, y: rnd() * 5 } : { lat: 52.3 + rnd() * 0.04, lon: 4.85 + rnd() * 0.06 };
+        units.push({ side: i % 2 === 0 ? 'demand' : 'supply', t, end: t + randInt(rnd, 60_000, 2_400_000), ...place });
+      }
+      const m = packMarket(units, cfg);
+      const store = new GraphStore(true, true);
+      const pricers = [buildCompactGraph(m, cfg), buildCompactGraph(m, cfg, store)].map((g) => {
+        const colLo = new Int32Array(g.nRows).fill(g.nCols);
+        const colHi = new Int32Array(g.nRows).fill(-1);
+        for (let r = 0; r < g.nRows; r++) {
+          for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) {
+            colLo[r] = Math.min(colLo[r]!, columnOf(g, r, e));
+            colHi[r] = Math.max(colHi[r]!, columnOf(g, r, e));
+          }
+        }
+        const slot = store.holds(g) ? store.columns(0, g.nCols, 1) : null;
+        const picks = slot !== null ? kernelPicks(slot, g.nCols, 1) : columnPicks(g.nCols, 1);
+        return { g, pricer: new Pricer(g, pairCostOf(m, cfg), colLo, colHi, 2, P, 1, quickPairCostOf(m, cfg), 3, undefined, picks, undefined, slot) };
+      });
+      const [plain, kernel] = pricers as [(typeof pricers)[0], (typeof pricers)[0]];
+      expect(plain.pricer.inKernel).toBe(false);
+      expect(kernel.pricer.inKernel).toBe(true);
+      expect(kernel.g.codes).toEqual(plain.g.codes);
+      const g = plain.g;
+      // Far-off prices first (many violators: passes in turns), then nearer ones.
+      const u = new Float64Array(g.nRows).fill(P);
+      const v = Float64Array.from({ length: g.nCols }, () => -rnd() * 10);
+      let violators = 0;
+      for (let p = 0; p < 14; p++) {
+        const got = pricers.map(({ pricer }) => {
+          const f = pricer.pass(u, v, p === 13);
+          return { violators: f.violators, pairs: Array.from({ length: f.n }, (_, q) => [f.rows[q], f.cols[q], f.costs[q]]) };
+        });
+        expect(got[1], `pass ${p}`).toEqual(got[0]);
+        violators += got[0]!.violators;
+        expect(kernel.pricer.tables.floor, `pass ${p}`).toEqual(plain.pricer.tables.floor);
+        expect(kernel.pricer.tables.rowClean, `pass ${p}`).toEqual(plain.pricer.tables.rowClean);
+        for (let r = 0; r < g.nRows; r++) u[r] = Math.min(P, u[r]! - rnd() * 3);
+        for (let j = 0; j < g.nCols; j++) if (rnd() < 0.3) v[j] = Math.min(0, v[j]! + (rnd() - 0.4) * 2);
+      }
+      expect(kernel.g.codes).toEqual(plain.g.codes);
+      expect(kernel.pricer.rowsPriced).toBe(plain.pricer.rowsPriced);
+      expect(kernel.pricer.rechecks).toBe(plain.pricer.rechecks);
+      // The passes did find violators, and the bounds did skip rows (else this tests little).
+      expect(violators).toBeGreaterThan(10 * g.nRows);
+      expect(plain.pricer.rowsPriced).toBeLessThan(14 * g.nRows);
+    });
+  }
+
+  it('refuses a kernel slot that does not hold its column picks', () => {
+    const m = packMarket([{ side: 'supply', t: 0, end: 1000, x: 0, y: 0 }, { side: 'demand', t: 0, end: 1000, x: 0, y: 0 }], config);
+    const store = new GraphStore(true, true);
+    const g = buildCompactGraph(m, config, store);
+    const slot = store.columns(0, g.nCols, 1)!;
+    expect(slot).not.toBeNull();
+    const lone = new Int32Array(g.nRows);
+    expect(() => new Pricer(g, pairCostOf(m, config), lone, lone, 1, 25, 1, undefined, 1, undefined, columnPicks(g.nCols, 1), undefined, slot)).toThrow(/kernel slot/);
+  });
 });

@@ -325,6 +325,12 @@ describe.skipIf(!wabtFound)('the committed kernel bytes', () => {
     const dir = new URL('../../../src/matching/wasm/', import.meta.url).pathname;
     expect(await assembledModuleText(dir, 'dense-jv')).toBe(readFileSync(`${dir}dense-jv.wasm.ts`, 'utf8'));
   });
+
+  it('of the hindsight\'s pricing kernel are the assembly of pricing-scan.wat', async () => {
+    const { assembledModuleText } = (await import('../../../scripts/build-wasm.mjs')) as { assembledModuleText: (dir: string, name: string) => Promise<string> };
+    const dir = new URL('../../../src/hindsight/wasm/', import.meta.url).pathname;
+    expect(await assembledModuleText(dir, 'pricing-scan')).toBe(readFileSync(`${dir}pricing-scan.wasm.ts`, 'utf8'));
+  });
 });
 
 describe('denseCosts(): a matrix that lives in the kernel\'s memory', () => {
