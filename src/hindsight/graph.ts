@@ -20,6 +20,7 @@
 import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
 import type { PairflowConfig, UnitPlace } from '../model.js';
 import { orderBy } from './segments.js';
+import { KernelRows, type ScratchSpace } from './wasm/graph-rows.js';
 import { kernelMemory, MAX_KERNEL_BYTES, PAGE_BYTES, type KernelColumns, type KernelMemory } from './wasm/pricing-scan.js';
 
 /** The fields of a unit occurrence the hindsight needs (a window `Occurrence` fits). */
@@ -309,6 +310,8 @@ export interface CompactGraph {
   readonly wide: ReadonlyMap<number, Int32Array>;
   /** Cost of one code step: code q means a cost in [q·step, (q + 1)·step); {@link CODE_TOP} means ≥ P. */
   readonly step: number;
+  /** Whether the rows were scanned by the WebAssembly row kernel (wasm/graph-rows.ts); the same graph either way. */
+  readonly byKernel?: boolean;
 }
 
 /**
@@ -448,6 +451,27 @@ export class GraphStore {
   }
 
   /**
+   * The room past the pairs of the memory the store now has, for a build's kernel
+   * (wasm/graph-rows.ts); it keeps to that memory should the store move to a larger
+   * one meanwhile. Null without a kernel memory.
+   */
+  scratchSpace(): ScratchSpace | null {
+    const memory = this.memory;
+    if (memory === null) return null;
+    const at = this.slotsAt;
+    return { memory, scratch: (bytes) => roomIn(memory, at, bytes) };
+  }
+
+  /**
+   * The byte offset past the pairs in {@link memory} from which at least `bytes` are
+   * free for a build's or a pricer's working arrays (the memory grows to hold them),
+   * or -1 when they cannot be had. What is there is overwritten by the next user.
+   */
+  scratch(bytes: number): number {
+    return this.memory === null ? -1 : roomIn(this.memory, this.slotsAt, bytes);
+  }
+
+  /**
    * Slot `k` of the column numbers a pricing kernel reads (one slot per thread that
    * prices the same graph: 0 its worker, 1 its helper), for a graph of `nCols` columns
    * and `perCol` picks a column; null when the pairs are not in a kernel memory or
@@ -459,16 +483,9 @@ export class GraphStore {
     const duals = 8 * nCols;
     const counts = 8 * Math.ceil(nCols / 2);
     const size = OUT_BYTES + duals + counts + 8 * nCols * perCol;
-    const at = this.slotsAt + k * size;
-    const need = at + size;
-    if (need > MAX_KERNEL_BYTES) return null;
-    if (need > memory.buffer.byteLength) {
-      try {
-        memory.grow(Math.ceil((need - memory.buffer.byteLength) / PAGE_BYTES));
-      } catch {
-        return null;
-      }
-    }
+    const base = this.scratch((k + 1) * size);
+    if (base < 0) return null;
+    const at = base + k * size;
     const buf = memory.buffer;
     const slot: KernelColumns = {
       memory,
@@ -491,6 +508,20 @@ export class GraphStore {
 const SLOT_ROOM = 1 << 24;
 /** A slot's first bytes: where a kernel call leaves its results (a cache line of its own). */
 const OUT_BYTES = 64;
+
+/** `at` once `memory` holds `bytes` from there (grown if need be), else -1. */
+function roomIn(memory: KernelMemory, at: number, bytes: number): number {
+  const need = at + bytes;
+  if (!(need <= MAX_KERNEL_BYTES)) return -1;
+  if (need > memory.buffer.byteLength) {
+    try {
+      memory.grow(Math.ceil((need - memory.buffer.byteLength) / PAGE_BYTES));
+    } catch {
+      return -1;
+    }
+  }
+  return at;
+}
 
 function pageAligned(bytes: number): number {
   return Math.ceil(bytes / PAGE_BYTES) * PAGE_BYTES;
@@ -646,8 +677,20 @@ export function buildCompactGraph(
   let nnz = 0;
   store.ensure(reserve > 0 ? reserve : firstReserve(m), 0);
   // One row's pairs while it is scanned (its lowest column, the row's base, is known only after).
-  let rowCols = new Int32Array(1024);
-  let rowCodes = new Uint8Array(1024);
+  let rowCols: Int32Array = new Int32Array(1024);
+  let rowCodes: Uint8Array = new Uint8Array(1024);
+  // Where the pairs live in a kernel memory, its row kernel scans the cells (the same
+  // pairs, codes and order: wasm/graph-rows.wat); not for several capability words, or
+  // distances past the series' range (their exact formula stays in JavaScript).
+  const space = capWords <= 1 && (euclid || useSeries) ? store.scratchSpace() : null;
+  const kernel = space === null ? null : KernelRows.open(space, nSupply, sTerms, {
+    euclid, oneCapWord: capWords === 1, cut, twoR: 2 * EARTH_RADIUS_KM, sixth: SIXTH, minPerKm, waitPerMs: waitMinPerMs,
+    edgeBelow, maxTravel, edge: EDGE, P, perStep, top: CODE_TOP,
+  });
+  if (kernel !== null) {
+    rowCols = kernel.cols;
+    rowCodes = kernel.codes;
+  }
 
   let next = 0;
   for (let r = 0; r < nDemand; r++) {
@@ -660,6 +703,10 @@ export function buildCompactGraph(
       const key = supplyCell[s]!;
       // A unit with no location, or ended before it began, can meet nobody.
       if (Number.isNaN(key) || m.supplyEnd[s]! < supplyT[s]!) continue;
+      if (kernel !== null) {
+        kernel.add(s, key);
+        continue;
+      }
       const bucket = supplyGrid.get(key);
       if (bucket === undefined) supplyGrid.set(key, [s]);
       else bucket.push(s);
@@ -694,7 +741,11 @@ export function buildCompactGraph(
       const u3 = dTerms[uo + 3]!;
       const u4 = dTerms[uo + 4]!;
       const needs1 = dTerms[uo + T_CAPS]!;
-      for (let q = 0; q < neighbours.length; q++) {
+      if (kernel !== null) {
+        len = kernel.scan(neighbours, needs1, u0, u1, u2, u3, u4, t, gone);
+        len = settleDeferred(kernel, len, d, exact, P, perStep);
+      }
+      for (let q = 0; kernel === null && q < neighbours.length; q++) {
         const bucket = supplyGrid.get(neighbours[q]!);
         if (bucket === undefined) continue;
         let keep = 0;
@@ -804,7 +855,34 @@ export function buildCompactGraph(
     codes: store.codes.subarray(0, nnz),
     wide,
     step,
+    byKernel: kernel !== null,
   };
+}
+
+/**
+ * The row kernel's pairs near the limit (code 255 until now), decided by the exact
+ * formula as the JavaScript loop decides them: a pair it does not allow leaves the
+ * row, the others keep their order. Returns the row's length.
+ */
+function settleDeferred(kernel: KernelRows, len: number, d: number, exact: PairCost, P: number, perStep: number): number {
+  const n = kernel.deferred();
+  if (n === 0) return len;
+  const { cols, codes, defer } = kernel;
+  let gone = 0;
+  for (let q = 0; q < n; q++) {
+    const at = defer[q]!;
+    const c = exact(d, cols[at]!);
+    if (c !== c) gone++;
+    else codes[at] = costCode(c, P, perStep);
+  }
+  if (gone === 0) return len;
+  let w = 0;
+  for (let i = 0; i < len; i++) {
+    if (codes[i] === MARK) continue;
+    cols[w] = cols[i]!;
+    codes[w++] = codes[i]!;
+  }
+  return w;
 }
 
 // The prefilter passes pairs a hair beyond the limit; the travel test then decides.

@@ -325,3 +325,74 @@ describe('buildCompactGraph()', () => {
     }
   });
 });
+
+describe('buildCompactGraph() with its pairs in a kernel memory', () => {
+  /** The graph's arrays, for comparing two builds element by element. */
+  const arrays = (g: CompactGraph) => ({
+    rowDemand: Array.from(g.rowDemand),
+    rowPtr: Array.from(g.rowPtr),
+    rowBase: Array.from(g.rowBase),
+    cols: Array.from(g.cols),
+    codes: Array.from(g.codes),
+    wide: [...g.wide].map(([r, c]) => [r, Array.from(c)]),
+  });
+
+  for (const metric of ['euclidean', 'haversine'] as const) {
+    it(`scans the rows in WebAssembly into the same graph as JavaScript, pair for pair and code for code (${metric}, seeded)`, () => {
+      const cfg: PairflowConfig = { ...DEFAULT_CONFIG, metric, maxTravelMin: 12, speedKmh: 24, waitWeight: 1.3 };
+      const limitKm = (cfg.maxTravelMin * cfg.speedKmh) / 60;
+      const store = new GraphStore(true, true);
+      let deferred = 0;
+      for (let seed = 1; seed <= 6; seed++) {
+        const rand = mulberry32(seed * 7919);
+        const place = metric === 'euclidean'
+          ? (r: () => number): Partial<HindsightUnit> => ({ x: r() * 9, y: r() * 9 })
+          : (r: () => number): Partial<HindsightUnit> => ({ lat: 48.1 + r() * 0.08, lon: 11.5 + r() * 0.12 });
+        const units = randomUnits(seed, place, 400);
+        // A crowd at one spot (its cell's bucket moves to larger room again and
+        // again), units with no place, and pairs within a hair of the distance limit
+        // (decided by the exact formula: some allowed, some not).
+        for (let i = 0; i < 300; i++) units.push({ side: 'supply', t: randInt(rand, 0, 3_600_000), end: 4_000_000, ...place(() => 0.5) } as HindsightUnit);
+        units.push({ side: 'supply', t: 0, end: 4_000_000 } as HindsightUnit, { side: 'demand', t: 0, end: 4_000_000 } as HindsightUnit);
+        const near: HindsightUnit[][] = [];
+        for (let i = 0; i < 40; i++) {
+          const off = (i - 20) * 1e-13 * limitKm;
+          const t = randInt(rand, 0, 3_000_000);
+          if (metric === 'euclidean') {
+            near.push([{ side: 'demand', t, end: t + 600_000, x: 4, y: 4 }, { side: 'supply', t, end: t + 600_000, x: 4 + limitKm + off, y: 4 }]);
+          } else {
+            const dLat = ((limitKm + off) / 6371.0088) * (180 / Math.PI);
+            near.push([{ side: 'demand', t, end: t + 600_000, lat: 48.14, lon: 11.56 }, { side: 'supply', t, end: t + 600_000, lat: 48.14 + dLat, lon: 11.56 }]);
+          }
+        }
+        units.push(...near.flat());
+        const m = packMarket(units, cfg);
+        const plain = buildCompactGraph(m, cfg);
+        const kernel = buildCompactGraph(m, cfg, store);
+        expect(plain.byKernel).toBe(false);
+        expect(kernel.byKernel, `seed ${seed}`).toBe(true);
+        expect(arrays(kernel), `seed ${seed}`).toEqual(arrays(plain));
+        expect(compactPairs(kernel).size).toBe(allPairs(units, cfg).size);
+        // Near-limit pairs both allowed and not: the exact formula had work to do.
+        const allowed = near.filter((pair) => allPairs(pair, cfg).size === 1).length;
+        expect(allowed, `seed ${seed}`).toBeGreaterThan(0);
+        expect(allowed, `seed ${seed}`).toBeLessThan(40);
+        deferred += allowed;
+      }
+      expect(deferred).toBeGreaterThan(0);
+    });
+  }
+
+  it('leaves the rows to JavaScript where the kernel cannot scan them (several capability words)', () => {
+    const cfg: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean' };
+    const names = Array.from({ length: 40 }, (_, i) => `c${i}`);
+    const units: HindsightUnit[] = [
+      { side: 'supply', t: 0, end: 1000, x: 0, y: 0, has: names },
+      { side: 'demand', t: 0, end: 1000, x: 0, y: 0, needs: ['c39'] },
+    ];
+    const m = packMarket(units, cfg);
+    const g = buildCompactGraph(m, cfg, new GraphStore(true, true));
+    expect(g.byKernel).toBe(false);
+    expect(g.rowPtr[1]! - g.rowPtr[0]!).toBe(1);
+  });
+});

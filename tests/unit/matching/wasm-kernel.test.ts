@@ -326,10 +326,10 @@ describe.skipIf(!wabtFound)('the committed kernel bytes', () => {
     expect(await assembledModuleText(dir, 'dense-jv')).toBe(readFileSync(`${dir}dense-jv.wasm.ts`, 'utf8'));
   });
 
-  it('of the hindsight\'s pricing kernel are the assembly of pricing-scan.wat', async () => {
+  it.each(['pricing-scan', 'graph-rows'])('of the hindsight\'s kernel %s are the assembly of its .wat', async (name) => {
     const { assembledModuleText } = (await import('../../../scripts/build-wasm.mjs')) as { assembledModuleText: (dir: string, name: string) => Promise<string> };
     const dir = new URL('../../../src/hindsight/wasm/', import.meta.url).pathname;
-    expect(await assembledModuleText(dir, 'pricing-scan')).toBe(readFileSync(`${dir}pricing-scan.wasm.ts`, 'utf8'));
+    expect(await assembledModuleText(dir, name)).toBe(readFileSync(`${dir}${name}.wasm.ts`, 'utf8'));
   });
 });
 

@@ -1,0 +1,242 @@
+import { decodeBase64 } from '../../matching/wasm/dense-jv.js';
+import type { KernelMemory } from './pricing-scan.js';
+import { WASM_BASE64 } from './graph-rows.wasm.js';
+
+/*
+ * The pair loop of the hindsight's graph build (graph.ts buildCompactGraph) in
+ * WebAssembly: graph-rows.wat, assembled by scripts/build-wasm.mjs into
+ * graph-rows.wasm.ts. The build's sweep stays in JavaScript (supplies join the grid,
+ * rows are written in order, the first candidates see each row); what moves is the
+ * scan of one row's cells, pair by pair, with the grid's buckets, the supplies'
+ * terms and the row's output held in the kernel memory of the pair store, past its
+ * pairs (GraphStore.scratch): the same memory the pricing kernel reads.
+ *
+ * Measured on a busy district's day (`gen --scale 4`, 114 M pairs, one thread, the
+ * pairs in a kernel memory either way): the graph phase (build and first candidates)
+ * took 1.80 s against 2.49–2.54 s with the rows scanned in JavaScript; the graph is
+ * the same array for array (tests/unit/hindsight/graph.test.ts).
+ */
+
+interface WasmApi {
+  readonly Module: new (bytes: Uint8Array) => object;
+  readonly Instance: new (mod: object, imports: object) => { readonly exports: unknown };
+}
+const wasmApi = (globalThis as unknown as { WebAssembly?: WasmApi }).WebAssembly;
+
+type RowFn = (
+  terms: number, cells: number, pool: number, nbr: number, nNbr: number,
+  outCols: number, outCodes: number, defer: number, out: number,
+  euclid: number, capMode: number, needs: number,
+  u0: number, u1: number, u2: number, u3: number, u4: number,
+  t: number, gone: number, cut: number, twoR: number, sixth: number,
+  minPerKm: number, waitPerMs: number, edgeBelow: number, maxTravel: number, edge: number,
+  P: number, perStep: number, top: number,
+) => number;
+
+let compiled: object | null | undefined;
+
+function module(): object | null {
+  if (compiled === undefined) {
+    try {
+      compiled = wasmApi === undefined ? null : new wasmApi.Module(decodeBase64(WASM_BASE64));
+    } catch {
+      compiled = null;
+    }
+  }
+  return compiled;
+}
+
+/** Room in a kernel memory past a store's pairs, for the build's working arrays. */
+export interface ScratchSpace {
+  readonly memory: KernelMemory;
+  /** The byte offset where at least `bytes` are free (growing the memory as needed); -1 when they cannot be had. */
+  scratch(bytes: number): number;
+}
+
+/** The numbers a row's pair test uses, as graph.ts computes them for the build. */
+export interface RowConstants {
+  readonly euclid: boolean;
+  /** Whether each unit has one capability word to test (graph.ts capWords === 1). */
+  readonly oneCapWord: boolean;
+  readonly cut: number;
+  readonly twoR: number;
+  readonly sixth: number;
+  readonly minPerKm: number;
+  readonly waitPerMs: number;
+  readonly edgeBelow: number;
+  readonly maxTravel: number;
+  readonly edge: number;
+  readonly P: number;
+  readonly perStep: number;
+  readonly top: number;
+}
+
+/** Bytes of the call's result area and of the cell list (at most 25 cells of a 5 × 5 block). */
+const OUT_BYTES = 64;
+const NBR_CELLS = 32;
+/** First room of a new cell's bucket (supplies). */
+const FIRST_ROOM = 4;
+
+/**
+ * The grid of one build's supplies and the row kernel over it, all in a kernel
+ * memory. Cells are numbered as they first get a supply; each cell's bucket is a
+ * slice of one pool, moved to the pool's end with twice the room when it fills.
+ */
+export class KernelRows {
+  private readonly row: RowFn;
+  private readonly cellOf = new Map<number, number>();
+  private nCells = 0;
+  private room: Int32Array;
+  private poolEnd = 0;
+  private poolRoom: number;
+  private readonly termsAt: number;
+  private readonly cellsAt: number;
+  private readonly nbrAt: number;
+  private readonly deferAt: number;
+  private readonly outAt: number;
+  private readonly poolAt: number;
+  private readonly colsAt: number;
+  private readonly codesAt: number;
+  private views!: { cells: Int32Array; pool: Int32Array; nbr: Int32Array; out: Int32Array };
+  /** The row's columns and codes after {@link scan} (views into the kernel memory, room for every supply). */
+  cols!: Int32Array;
+  codes!: Uint8Array;
+  /** Places in the row of the pairs the exact formula must decide ({@link deferred} of them). */
+  defer!: Int32Array;
+
+  private constructor(
+    private readonly space: ScratchSpace,
+    row: RowFn,
+    base: number,
+    nSupply: number,
+    private readonly k: RowConstants,
+  ) {
+    this.row = row;
+    this.room = new Int32Array(Math.max(16, nSupply));
+    const n = Math.max(1, nSupply);
+    this.outAt = base;
+    this.nbrAt = base + OUT_BYTES;
+    this.termsAt = this.nbrAt + 4 * NBR_CELLS;
+    this.cellsAt = this.termsAt + 64 * n;
+    this.deferAt = this.cellsAt + 8 * n;
+    this.colsAt = this.deferAt + 4 * n;
+    this.codesAt = this.colsAt + 4 * n;
+    this.poolAt = align8(this.codesAt + n);
+    this.poolRoom = 4 * n + 1024;
+    this.refresh(n);
+  }
+
+  /**
+   * The kernel over `space` for a market of `nSupply` supplies with terms `sTerms`
+   * (graph.ts termsOf), or null where it cannot run or its room cannot be had.
+   */
+  static open(space: ScratchSpace, nSupply: number, sTerms: Float64Array, k: RowConstants): KernelRows | null {
+    const mod = module();
+    if (mod === null || wasmApi === undefined) return null;
+    const n = Math.max(1, nSupply);
+    const bytes = OUT_BYTES + 4 * NBR_CELLS + 64 * n + 8 * n + 4 * n + 4 * n + n + 8 + 4 * (4 * n + 1024);
+    const base = space.scratch(bytes);
+    if (base < 0) return null;
+    let row: RowFn;
+    try {
+      row = (new wasmApi.Instance(mod, { env: { memory: space.memory } }).exports as { row: RowFn }).row;
+    } catch {
+      return null;
+    }
+    const rows = new KernelRows(space, row, base, nSupply, k);
+    new Float64Array(space.memory.buffer, rows.termsAt, sTerms.length).set(sTerms);
+    return rows;
+  }
+
+  /** Views over the memory as it now stands (after it grew, the old ones end short). */
+  private refresh(n: number): void {
+    const buf = this.space.memory.buffer;
+    this.views = {
+      cells: new Int32Array(buf, this.cellsAt, 2 * n),
+      pool: new Int32Array(buf, this.poolAt, this.poolRoom),
+      nbr: new Int32Array(buf, this.nbrAt, NBR_CELLS),
+      out: new Int32Array(buf, this.outAt, OUT_BYTES / 4),
+    };
+    this.defer = new Int32Array(buf, this.deferAt, n);
+    this.cols = new Int32Array(buf, this.colsAt, n);
+    this.codes = new Uint8Array(buf, this.codesAt, n);
+  }
+
+  /** Supply s joins grid cell `key`. */
+  add(s: number, key: number): void {
+    let c = this.cellOf.get(key);
+    const { cells } = this.views;
+    if (c === undefined) {
+      c = this.nCells++;
+      this.cellOf.set(key, c);
+      cells[2 * c] = this.take(FIRST_ROOM);
+      cells[2 * c + 1] = 0;
+      this.room[c] = FIRST_ROOM;
+    }
+    const len = this.views.cells[2 * c + 1]!;
+    if (len === this.room[c]!) {
+      // Full: to the pool's end with twice the room.
+      const at = this.take(2 * len);
+      const { pool } = this.views;
+      pool.copyWithin(at, this.views.cells[2 * c]!, this.views.cells[2 * c]! + len);
+      this.views.cells[2 * c] = at;
+      this.room[c] = 2 * len;
+    }
+    this.views.pool[this.views.cells[2 * c]! + len] = s;
+    this.views.cells[2 * c + 1] = len + 1;
+  }
+
+  /** `n` entries at the pool's end (the pool grows, and the memory with it, when they do not fit). */
+  private take(n: number): number {
+    const at = this.poolEnd;
+    if (at + n > this.poolRoom) {
+      const want = Math.max(2 * this.poolRoom, at + n);
+      if (this.space.scratch(this.poolAt - this.outAt + 4 * want) < 0) throw new RangeError('hindsight: no room for the graph build\'s grid in its kernel memory');
+      this.poolRoom = want;
+      this.refresh(this.cols.length);
+    }
+    this.poolEnd = at + n;
+    return at;
+  }
+
+  /**
+   * Scans the cells `keys` (those holding supplies) for demand terms u0..u4, capability
+   * word `needs`, arrival `t`, with supplies ended before `gone` dropped from their
+   * buckets; returns the row's length. Its pairs are {@link cols} / {@link codes};
+   * {@link deferred} of them, at the places in {@link defer}, await the exact formula
+   * (code 255 until then).
+   */
+  scan(keys: readonly number[], needs: number, u0: number, u1: number, u2: number, u3: number, u4: number, t: number, gone: number): number {
+    const { nbr } = this.views;
+    let nNbr = 0;
+    for (let q = 0; q < keys.length; q++) {
+      const c = this.cellOf.get(keys[q]!);
+      if (c !== undefined) nbr[nNbr++] = c;
+    }
+    if (nNbr === 0) {
+      this.views.out[0] = 0;
+      return 0;
+    }
+    const k = this.k;
+    return this.row(
+      this.termsAt, this.cellsAt, this.poolAt, this.nbrAt, nNbr,
+      this.colsAt, this.codesAt, this.deferAt, this.outAt,
+      k.euclid ? 1 : 0, k.oneCapWord ? 1 : 0, needs | 0,
+      u0, u1, u2, u3, u4,
+      t, gone, k.cut, k.twoR, k.sixth,
+      k.minPerKm, k.waitPerMs, k.edgeBelow, k.maxTravel, k.edge,
+      k.P, k.perStep, k.top,
+    );
+  }
+
+  /** Pairs of the last {@link scan} that the exact formula must decide. */
+  deferred(): number {
+    return this.views.out[0]!;
+  }
+}
+
+/** n rounded up to a multiple of 8 (byte offsets pass 2^31: no 32-bit arithmetic). */
+function align8(n: number): number {
+  return Math.ceil(n / 8) * 8;
+}
+
