@@ -817,7 +817,13 @@ export function buildCompactGraph(
     const start = nnz;
     let lo = nSupply;
     let hi = -1;
-    if (len > 0) {
+    if (len > 0 && kernel !== null && (store.ensure(nnz + len, nnz), kernel.writes(store.memory))) {
+      // The row kernel writes it where it stands (same numbers as below).
+      if (kernel.place(len, store.cols.byteOffset + 2 * start, store.codes.byteOffset + start, SPAN)) wide.set(r, rowCols.slice(0, len));
+      lo = kernel.lo();
+      hi = kernel.hi();
+      rowBase[r] = lo;
+    } else if (len > 0) {
       store.ensure(nnz + len, nnz);
       const { cols, codes } = store;
       lo = rowCols[0]!;

@@ -33,6 +33,8 @@ type RowFn = (
   P: number, perStep: number, top: number,
 ) => number;
 
+type PlaceFn = (cols: number, codes: number, len: number, dstCols: number, dstCodes: number, span: number, out: number) => number;
+
 let compiled: object | null | undefined;
 
 function module(): object | null {
@@ -84,6 +86,7 @@ const FIRST_ROOM = 4;
  */
 export class KernelRows {
   private readonly row: RowFn;
+  private readonly placeRow: PlaceFn;
   private readonly cellOf = new Map<number, number>();
   private nCells = 0;
   private room: Int32Array;
@@ -106,12 +109,13 @@ export class KernelRows {
 
   private constructor(
     private readonly space: ScratchSpace,
-    row: RowFn,
+    exp: { row: RowFn; place: PlaceFn },
     base: number,
     nSupply: number,
     private readonly k: RowConstants,
   ) {
-    this.row = row;
+    this.row = exp.row;
+    this.placeRow = exp.place;
     this.room = new Int32Array(Math.max(16, nSupply));
     const n = Math.max(1, nSupply);
     this.outAt = base;
@@ -137,13 +141,13 @@ export class KernelRows {
     const bytes = OUT_BYTES + 4 * NBR_CELLS + 64 * n + 8 * n + 4 * n + 4 * n + n + 8 + 4 * (4 * n + 1024);
     const base = space.scratch(bytes);
     if (base < 0) return null;
-    let row: RowFn;
+    let exp: { row: RowFn; place: PlaceFn };
     try {
-      row = (new wasmApi.Instance(mod, { env: { memory: space.memory } }).exports as { row: RowFn }).row;
+      exp = new wasmApi.Instance(mod, { env: { memory: space.memory } }).exports as { row: RowFn; place: PlaceFn };
     } catch {
       return null;
     }
-    const rows = new KernelRows(space, row, base, nSupply, k);
+    const rows = new KernelRows(space, exp, base, nSupply, k);
     new Float64Array(space.memory.buffer, rows.termsAt, sTerms.length).set(sTerms);
     return rows;
   }
@@ -232,6 +236,29 @@ export class KernelRows {
   /** Pairs of the last {@link scan} that the exact formula must decide. */
   deferred(): number {
     return this.views.out[0]!;
+  }
+
+  /** Whether the pairs of a store at `memory` can be written by {@link place}. */
+  writes(memory: KernelMemory | null): boolean {
+    return memory === this.space.memory;
+  }
+
+  /**
+   * Writes the row's `len` pairs (settled) into the store at byte offsets `colsAt`
+   * (u16 columns less the row's lowest, zeros for a row spanning more than `span`)
+   * and `codesAt`; returns whether it spans more. Its lowest and highest column are
+   * then {@link lo} and {@link hi}.
+   */
+  place(len: number, colsAt: number, codesAt: number, span: number): boolean {
+    return this.placeRow(this.colsAt, this.codesAt, len, colsAt, codesAt, span, this.outAt) !== 0;
+  }
+
+  lo(): number {
+    return this.views.out[2]!;
+  }
+
+  hi(): number {
+    return this.views.out[3]!;
   }
 }
 

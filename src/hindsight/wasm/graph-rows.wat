@@ -12,6 +12,10 @@
 ;; noted in $defer: the caller decides it by the exact formula.
 ;;
 ;; Returns the row's length; the count of deferred pairs goes to $out (an i32).
+;;
+;; $place then writes a finished row into the store: its columns less the row's lowest
+;; as u16 (zeros for a row spanning more than $span columns, kept apart by the caller)
+;; and its codes; the lowest and highest columns go to $out + 8 and $out + 12.
 (module
   (import "env" "memory" (memory 1 65536 shared))
   (func (export "row")
@@ -103,4 +107,36 @@
         (local.set $q (i32.add (local.get $q) (i32.const 1)))
         (br $nextCell)))
     (i32.store (local.get $out) (local.get $nDefer))
-    (local.get $len)))
+    (local.get $len))
+
+  ;; Returns 1 when the row spans more than $span columns (its u16 columns are zeros).
+  (func (export "place")
+    (param $cols i32) (param $codes i32) (param $len i32) (param $dstCols i32) (param $dstCodes i32) (param $span i32) (param $out i32)
+    (result i32)
+    (local $i i32) (local $j i32) (local $lo i32) (local $hi i32) (local $wide i32)
+    (local.set $lo (i32.load (local.get $cols)))
+    (local.set $hi (local.get $lo))
+    (local.set $i (i32.const 1))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $i) (local.get $len)))
+        (local.set $j (i32.load (i32.add (local.get $cols) (i32.shl (local.get $i) (i32.const 2)))))
+        (if (i32.lt_s (local.get $j) (local.get $lo)) (then (local.set $lo (local.get $j))))
+        (if (i32.gt_s (local.get $j) (local.get $hi)) (then (local.set $hi (local.get $j))))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (br $next)))
+    (i32.store offset=8 (local.get $out) (local.get $lo))
+    (i32.store offset=12 (local.get $out) (local.get $hi))
+    (local.set $wide (i32.gt_s (i32.sub (local.get $hi) (local.get $lo)) (local.get $span)))
+    (local.set $i (i32.const 0))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $i) (local.get $len)))
+        (i32.store16 (i32.add (local.get $dstCols) (i32.shl (local.get $i) (i32.const 1)))
+          (select (i32.const 0)
+            (i32.sub (i32.load (i32.add (local.get $cols) (i32.shl (local.get $i) (i32.const 2)))) (local.get $lo))
+            (local.get $wide)))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (br $next)))
+    (memory.copy (local.get $dstCodes) (local.get $codes) (local.get $len))
+    (local.get $wide)))

@@ -383,6 +383,20 @@ describe('buildCompactGraph() with its pairs in a kernel memory', () => {
     });
   }
 
+  it('writes a row spanning more than 65 535 columns as JavaScript does (kept apart, zeros in place)', () => {
+    const cfg: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean' };
+    const units: HindsightUnit[] = [
+      ...Array.from({ length: 70_000 }, (_, i) => ({ side: 'supply', t: 0, end: i < 69_990 ? 500 : 2000, x: 1, y: 1 }) as HindsightUnit),
+      { side: 'demand', t: 100, end: 400, x: 1, y: 1.5 },
+      { side: 'demand', t: 1000, end: 1500, x: 1.2, y: 1 },
+    ];
+    const m = packMarket(units, cfg);
+    const kernel = buildCompactGraph(m, cfg, new GraphStore(true, true));
+    expect(kernel.byKernel).toBe(true);
+    expect(kernel.wide.size).toBe(1);
+    expect(arrays(kernel)).toEqual(arrays(buildCompactGraph(m, cfg)));
+  });
+
   it('leaves the rows to JavaScript where the kernel cannot scan them (several capability words)', () => {
     const cfg: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean' };
     const names = Array.from({ length: 40 }, (_, i) => `c${i}`);
