@@ -21,7 +21,8 @@ import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/
 import type { PairflowConfig, UnitPlace } from '../model.js';
 import { orderBy } from './segments.js';
 import { KernelRows, type ScratchSpace } from './wasm/graph-rows.js';
-import { kernelMemory, MAX_KERNEL_BYTES, PAGE_BYTES, type KernelColumns, type KernelMemory } from './wasm/pricing-scan.js';
+import type { KernelColumns } from './wasm/pricing-scan.js';
+import { holdBytes, kernelMemory, type KernelMemory } from '../matching/wasm/shared-memory.js';
 
 /** The fields of a unit occurrence the hindsight needs (a window `Occurrence` fits). */
 export interface HindsightUnit extends UnitPlace {
@@ -511,20 +512,11 @@ const OUT_BYTES = 64;
 
 /** `at` once `memory` holds `bytes` from there (grown if need be), else -1. */
 function roomIn(memory: KernelMemory, at: number, bytes: number): number {
-  const need = at + bytes;
-  if (!(need <= MAX_KERNEL_BYTES)) return -1;
-  if (need > memory.buffer.byteLength) {
-    try {
-      memory.grow(Math.ceil((need - memory.buffer.byteLength) / PAGE_BYTES));
-    } catch {
-      return -1;
-    }
-  }
-  return at;
+  return holdBytes(memory, at + bytes) ? at : -1;
 }
 
 function pageAligned(bytes: number): number {
-  return Math.ceil(bytes / PAGE_BYTES) * PAGE_BYTES;
+  return Math.ceil(bytes / 65536) * 65536;
 }
 
 /**

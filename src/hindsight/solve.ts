@@ -180,6 +180,12 @@ export interface HindsightMarketDetail {
   kernelRows: number;
 }
 
+/**
+ * Segments with fewer allowed pairs re-solve in JavaScript: each kernel memory
+ * reserves address space until it is collected, and their searches are short.
+ */
+const KERNEL_SEARCH_MIN_PAIRS = 1_000_000;
+
 /** @default candidatesPerDemand */
 export const DEFAULT_CANDIDATES_PER_DEMAND = 4;
 /** @default addPerRow */
@@ -353,7 +359,10 @@ function solveSegment(
   // The restricted assignment over graph rows, every row free to stay unmatched at P;
   // its pairs are the marked ones, at their exact costs (a pair whose code could not
   // tell and is not below P after all takes the top code).
-  const restricted = new GrowingAssignment(nRows, nCols, new Float64Array(nRows).fill(P), now);
+  // A large segment's re-solves search in WebAssembly where its pairs are in a kernel
+  // memory (the worker's store): room for 64 pairs a row, growing past it if need be.
+  const kernelPairs = store.memory !== null && codes.length >= KERNEL_SEARCH_MIN_PAIRS ? Math.min(codes.length, 64 * nRows + (1 << 20)) : 0;
+  const restricted = new GrowingAssignment(nRows, nCols, new Float64Array(nRows).fill(P), now, kernelPairs);
   for (let q = 0, r = 0; q < picked.length; q++) {
     const e = picked[q]!;
     while (rowPtr[r + 1]! <= e) r++;

@@ -4,6 +4,8 @@ import { NONE, reduceRows } from './reduction.js';
 import { cheapestTwoSparse, infeasibleRow, SparseSearch, type RowsView } from './sparse.js';
 import type { SolveResult, SolveStats, SparseInstance } from './types.js';
 import { releaseFreeColumns, type ColumnsView } from './warm.js';
+import { KernelSearch } from './wasm/sparse-search.js';
+import { KernelArena } from './wasm/shared-memory.js';
 
 /*
  * An assignment that grows: pairs are added between solves, and each solve starts
@@ -27,6 +29,8 @@ import { releaseFreeColumns, type ColumnsView } from './warm.js';
 
 /** Room for pending pairs kept after a merge (more is let go: a later round grows it again). */
 const PENDING_KEPT = 1 << 16;
+/** The most pairs a kernel memory reserves room for (12 bytes each, within its 4 GiB). */
+const MAX_KERNEL_PAIRS = 1 << 27;
 
 /**
  * Pair storage by rows (or by columns): each line a slice of one pool, lines back to
@@ -44,8 +48,8 @@ class Lines {
   /** Line l's pairs are `index`/`cost` over `[start[l], end[l])`. */
   readonly start: Int32Array;
   readonly end: Int32Array;
-  index = new Int32Array(0);
-  cost = new Float64Array(0);
+  index: Int32Array = new Int32Array(0);
+  cost: Float64Array = new Float64Array(0);
   private used = 0;
   private pendLine = new Int32Array(1024);
   private pendIndex = new Int32Array(1024);
@@ -54,10 +58,19 @@ class Lines {
   /** Per line, where its pending pairs start in the sorted pending arrays (length lines + 1). */
   private readonly first: Int32Array;
 
-  constructor(n: number) {
-    this.start = new Int32Array(n);
-    this.end = new Int32Array(n);
+  /**
+   * @param arena where the lines live when a kernel reads them (then with `room` pairs
+   *   reserved from the start: pages never written cost nothing, and the pool grows
+   *   in place up to `room`, never copied)
+   */
+  constructor(n: number, private readonly arena: KernelArena | null = null, room = 0) {
+    this.start = arena === null ? new Int32Array(n) : arena.i32(n);
+    this.end = arena === null ? new Int32Array(n) : arena.i32(n);
     this.first = new Int32Array(n + 1);
+    if (arena !== null && room > 0) {
+      this.index = arena.i32(room);
+      this.cost = arena.f64(room);
+    }
   }
 
   /** Appends (index, cost) to line l, once the lines are next {@link merge}d. */
@@ -100,9 +113,9 @@ class Lines {
     const total = this.used + n;
     if (total > this.index.length) {
       const size = total + (total >> 2);
-      const index = new Int32Array(size);
+      const index = this.arena === null ? new Int32Array(size) : this.arena.i32(size);
       index.set(this.index.subarray(0, this.used));
-      const cost = new Float64Array(size);
+      const cost = this.arena === null ? new Float64Array(size) : this.arena.f64(size);
       cost.set(this.cost.subarray(0, this.used));
       this.index = index;
       this.cost = cost;
@@ -171,25 +184,51 @@ export class GrowingAssignment {
   private readonly dirty: Uint8Array;
   private dirtyList: number[] = [];
   private solved = false;
+  /** The searches in WebAssembly (null: in JavaScript, sparse.ts). */
+  private readonly kernel: KernelSearch | null = null;
 
+  /**
+   * @param kernelPairs with a number, the searches run in WebAssembly
+   *   (wasm/sparse-search.ts) over arrays in a kernel memory of their own, with room
+   *   for this many pairs reserved (more are copied to a larger pool); the same
+   *   results. Where no kernel memory can be had, in JavaScript.
+   */
   constructor(
     readonly nRows: number,
     readonly nCols: number,
     private readonly delta: Float64Array,
     private readonly now: () => number = defaultNow,
+    kernelPairs = 0,
   ) {
     for (let r = 0; r < nRows; r++) {
       if (!(delta[r]! < Infinity) || Number.isNaN(delta[r]!)) {
         throw pairflowError('PAIRFLOW_ERR_SOLVER_INPUT', { detail: `unmatchedCost[${r}]: got ${delta[r]}, expected a finite number (a growing assignment lets every row go unmatched)` });
       }
     }
-    this.rows = new Lines(nRows);
+    const room = Math.min(Math.max(kernelPairs, 1024), MAX_KERNEL_PAIRS);
+    const arena = kernelPairs > 0 ? KernelArena.create(12 * room + 64 * (nRows + nCols) + 65536) : null;
+    this.rows = new Lines(nRows, arena, room);
     this.cols = new Lines(nCols);
-    this.u = Float64Array.from(delta);
     this.v = new Float64Array(nCols);
-    this.rowToCol = new Int32Array(nRows).fill(NONE);
-    this.colToRow = new Int32Array(nCols).fill(NONE);
     this.dirty = new Uint8Array(nRows);
+    if (arena === null) {
+      this.u = Float64Array.from(delta);
+      this.rowToCol = new Int32Array(nRows).fill(NONE);
+      this.colToRow = new Int32Array(nCols).fill(NONE);
+      return;
+    }
+    this.u = arena.f64(nRows);
+    this.u.set(delta);
+    this.rowToCol = arena.i32(nRows).fill(NONE);
+    this.colToRow = arena.i32(nCols).fill(NONE);
+    const kernelDelta = arena.f64(nRows);
+    kernelDelta.set(delta);
+    this.kernel = KernelSearch.over(arena, nCols, { delta: kernelDelta, u: this.u, rowToCol: this.rowToCol, colToRow: this.colToRow });
+  }
+
+  /** Whether the searches run in WebAssembly. */
+  get inKernel(): boolean {
+    return this.kernel !== null;
   }
 
   /** Adds pair (row r, column j) at cost c (finite). */
@@ -265,7 +304,22 @@ export class GrowingAssignment {
     });
     let scanned = reduced.scanned;
     let augmentations = 0;
-    if (reduced.nFree > 0) {
+    if (reduced.nFree > 0 && this.kernel !== null) {
+      // The same searches in WebAssembly, over the arena's arrays.
+      const k = this.kernel;
+      k.load(v);
+      try {
+        for (let f = 0; f < reduced.nFree; f++) {
+          augmentations++;
+          const r = reduced.freeRows[f]!;
+          const n = k.search(rows, r);
+          if (n < 0) throw infeasibleRow(r);
+          scanned += n;
+        }
+      } finally {
+        k.flush(v);
+      }
+    } else if (reduced.nFree > 0) {
       const search = new SparseSearch(rows, nCols, delta, u, v, rowToCol, colToRow);
       try {
         for (let f = 0; f < reduced.nFree; f++) {

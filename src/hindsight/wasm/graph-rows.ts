@@ -1,5 +1,4 @@
-import { decodeBase64 } from '../../matching/wasm/dense-jv.js';
-import type { KernelMemory } from './pricing-scan.js';
+import { instantiate, lazyModule, type KernelMemory } from '../../matching/wasm/shared-memory.js';
 import { WASM_BASE64 } from './graph-rows.wasm.js';
 
 /*
@@ -17,12 +16,6 @@ import { WASM_BASE64 } from './graph-rows.wasm.js';
  * the same array for array (tests/unit/hindsight/graph.test.ts).
  */
 
-interface WasmApi {
-  readonly Module: new (bytes: Uint8Array) => object;
-  readonly Instance: new (mod: object, imports: object) => { readonly exports: unknown };
-}
-const wasmApi = (globalThis as unknown as { WebAssembly?: WasmApi }).WebAssembly;
-
 type RowFn = (
   terms: number, cells: number, pool: number, nbr: number, nNbr: number,
   outCols: number, outCodes: number, defer: number, out: number,
@@ -35,18 +28,7 @@ type RowFn = (
 
 type PlaceFn = (cols: number, codes: number, len: number, dstCols: number, dstCodes: number, span: number, out: number) => number;
 
-let compiled: object | null | undefined;
-
-function module(): object | null {
-  if (compiled === undefined) {
-    try {
-      compiled = wasmApi === undefined ? null : new wasmApi.Module(decodeBase64(WASM_BASE64));
-    } catch {
-      compiled = null;
-    }
-  }
-  return compiled;
-}
+const kernelModule = lazyModule(WASM_BASE64);
 
 /** Room in a kernel memory past a store's pairs, for the build's working arrays. */
 export interface ScratchSpace {
@@ -135,18 +117,12 @@ export class KernelRows {
    * (graph.ts termsOf), or null where it cannot run or its room cannot be had.
    */
   static open(space: ScratchSpace, nSupply: number, sTerms: Float64Array, k: RowConstants): KernelRows | null {
-    const mod = module();
-    if (mod === null || wasmApi === undefined) return null;
     const n = Math.max(1, nSupply);
     const bytes = OUT_BYTES + 4 * NBR_CELLS + 64 * n + 8 * n + 4 * n + 4 * n + n + 8 + 4 * (4 * n + 1024);
     const base = space.scratch(bytes);
     if (base < 0) return null;
-    let exp: { row: RowFn; place: PlaceFn };
-    try {
-      exp = new wasmApi.Instance(mod, { env: { memory: space.memory } }).exports as { row: RowFn; place: PlaceFn };
-    } catch {
-      return null;
-    }
+    const exp = instantiate<{ row: RowFn; place: PlaceFn }>(kernelModule.get(), space.memory);
+    if (exp === null) return null;
     const rows = new KernelRows(space, exp, base, nSupply, k);
     new Float64Array(space.memory.buffer, rows.termsAt, sTerms.length).set(sTerms);
     return rows;

@@ -1,4 +1,4 @@
-import { decodeBase64 } from '../../matching/wasm/dense-jv.js';
+import { instantiate, lazyModule, type KernelMemory } from '../../matching/wasm/shared-memory.js';
 import { WASM_BASE64 } from './pricing-scan.wasm.js';
 
 /*
@@ -20,26 +20,6 @@ import { WASM_BASE64 } from './pricing-scan.wasm.js';
  * 9.0–9.4 s, to the same optimum. The results go back through memory (`out`): reading
  * an exported global from JavaScript cost 0.4 s of those passes.
  */
-
-/** The parts of the WebAssembly API used here (the project's TS libs do not declare it). */
-interface WasmApi {
-  readonly Module: new (bytes: Uint8Array) => object;
-  readonly Instance: new (mod: object, imports: object) => { readonly exports: unknown };
-  readonly Memory: new (desc: { initial: number; maximum: number; shared: boolean }) => KernelMemory;
-}
-
-/** A shared WebAssembly memory: its buffer is a SharedArrayBuffer, and growing it detaches nothing. */
-export interface KernelMemory {
-  readonly buffer: ArrayBufferLike;
-  grow(pages: number): number;
-}
-
-const wasmApi = (globalThis as unknown as { WebAssembly?: WasmApi }).WebAssembly;
-
-/** Bytes of a WebAssembly page. */
-export const PAGE_BYTES = 65536;
-/** The most a 32-bit memory can address. */
-export const MAX_KERNEL_BYTES = 65536 * PAGE_BYTES;
 
 /**
  * Where one pricer's kernel reads column numbers: views into a kernel memory, past
@@ -65,32 +45,7 @@ interface Exports {
   ) => number;
 }
 
-let compiled: object | null | undefined;
-
-function module(): object | null {
-  if (compiled === undefined) {
-    try {
-      compiled = wasmApi === undefined ? null : new wasmApi.Module(decodeBase64(WASM_BASE64));
-    } catch {
-      compiled = null;
-    }
-  }
-  return compiled;
-}
-
-/**
- * A shared memory of at least `bytes` (at most 4 GiB can be addressed), or null where
- * there is no WebAssembly, the kernel does not compile, or the system will not
- * reserve it.
- */
-export function kernelMemory(bytes: number): KernelMemory | null {
-  if (wasmApi === undefined || !(bytes <= MAX_KERNEL_BYTES) || module() === null) return null;
-  try {
-    return new wasmApi.Memory({ initial: Math.max(1, Math.ceil(bytes / PAGE_BYTES)), maximum: MAX_KERNEL_BYTES / PAGE_BYTES, shared: true });
-  } catch {
-    return null;
-  }
-}
+const kernelModule = lazyModule(WASM_BASE64);
 
 /** One pricer's kernel: the module instantiated over the memory of its columns. */
 export class ScanKernel {
@@ -113,14 +68,8 @@ export class ScanKernel {
 
   /** The kernel over `columns`' memory, or null where it cannot run. */
   static over(columns: KernelColumns): ScanKernel | null {
-    const mod = module();
-    if (mod === null || wasmApi === undefined) return null;
-    try {
-      const inst = new wasmApi.Instance(mod, { env: { memory: columns.memory } });
-      return new ScanKernel(columns, inst.exports as Exports);
-    } catch {
-      return null;
-    }
+    const x = instantiate<Exports>(kernelModule.get(), columns.memory);
+    return x === null ? null : new ScanKernel(columns, x);
   }
 
   /** Copies the pass's column prices where the kernel reads them. */

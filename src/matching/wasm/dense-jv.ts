@@ -1,4 +1,5 @@
 import { WASM_BASE64 } from './dense-jv.wasm.js';
+import { decodeBase64 } from './shared-memory.js';
 
 /*
  * The dense shortest-augmenting-path kernel of dense-jv.wat (assembled by
@@ -80,22 +81,6 @@ function newKernel(bytes: number): Kernel | null {
     // no memory to be had of that size
     return null;
   }
-}
-
-/** Node's Buffer where there is one: its base64 decoder is native. */
-const nodeBuffer = (globalThis as unknown as { Buffer?: { from: (text: string, encoding: 'base64') => Uint8Array } }).Buffer;
-
-/**
- * The bytes of base64 text: by Buffer where there is one, else by atob and a plain
- * loop (measured in a process's first solve: atob and Uint8Array.from with a mapping
- * function took 0.5–1.5 ms for the kernel's 4.6 KB, Buffer.from 0.1 ms).
- */
-export function decodeBase64(text: string): Uint8Array {
-  if (nodeBuffer !== undefined) return nodeBuffer.from(text, 'base64');
-  const s = atob(text);
-  const out = new Uint8Array(s.length);
-  for (let i = 0; i < s.length; i++) out[i] = s.charCodeAt(i);
-  return out;
 }
 
 /** Where the kernel's arrays start after an n × n matrix at offset 0 (and the 16 cells of padding its row scans read past the last row). */

@@ -326,9 +326,13 @@ describe.skipIf(!wabtFound)('the committed kernel bytes', () => {
     expect(await assembledModuleText(dir, 'dense-jv')).toBe(readFileSync(`${dir}dense-jv.wasm.ts`, 'utf8'));
   });
 
-  it.each(['pricing-scan', 'graph-rows'])('of the hindsight\'s kernel %s are the assembly of its .wat', async (name) => {
+  it.each([
+    ['matching', 'sparse-search'],
+    ['hindsight', 'pricing-scan'],
+    ['hindsight', 'graph-rows'],
+  ])('of src/%s/wasm/%s are the assembly of its .wat', async (area, name) => {
     const { assembledModuleText } = (await import('../../../scripts/build-wasm.mjs')) as { assembledModuleText: (dir: string, name: string) => Promise<string> };
-    const dir = new URL('../../../src/hindsight/wasm/', import.meta.url).pathname;
+    const dir = new URL(`../../../src/${area}/wasm/`, import.meta.url).pathname;
     expect(await assembledModuleText(dir, name)).toBe(readFileSync(`${dir}${name}.wasm.ts`, 'utf8'));
   });
 });
