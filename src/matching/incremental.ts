@@ -184,8 +184,9 @@ export class GrowingAssignment {
   private readonly dirty: Uint8Array;
   private dirtyList: number[] = [];
   private solved = false;
-  /** The searches in WebAssembly (null: in JavaScript, sparse.ts). */
+  /** The searches in WebAssembly (null: in JavaScript, sparse.ts), and the reverse ones. */
   private readonly kernel: KernelSearch | null = null;
+  private readonly reverse: KernelSearch | null = null;
 
   /**
    * @param kernelPairs with a number, the searches run in WebAssembly
@@ -206,24 +207,29 @@ export class GrowingAssignment {
       }
     }
     const room = Math.min(Math.max(kernelPairs, 1024), MAX_KERNEL_PAIRS);
-    const arena = kernelPairs > 0 ? KernelArena.create(12 * room + 64 * (nRows + nCols) + 65536) : null;
+    const arena = kernelPairs > 0 ? KernelArena.create(24 * room + 96 * (nRows + nCols) + 65536) : null;
     this.rows = new Lines(nRows, arena, room);
-    this.cols = new Lines(nCols);
-    this.v = new Float64Array(nCols);
+    this.cols = new Lines(nCols, arena, room);
     this.dirty = new Uint8Array(nRows);
     if (arena === null) {
       this.u = Float64Array.from(delta);
+      this.v = new Float64Array(nCols);
       this.rowToCol = new Int32Array(nRows).fill(NONE);
       this.colToRow = new Int32Array(nCols).fill(NONE);
       return;
     }
     this.u = arena.f64(nRows);
     this.u.set(delta);
+    this.v = arena.f64(nCols);
     this.rowToCol = arena.i32(nRows).fill(NONE);
     this.colToRow = arena.i32(nCols).fill(NONE);
     const kernelDelta = arena.f64(nRows);
     kernelDelta.set(delta);
     this.kernel = KernelSearch.over(arena, nCols, { delta: kernelDelta, u: this.u, rowToCol: this.rowToCol, colToRow: this.colToRow });
+    // The reverse searches (warm.ts releaseFreeColumns) are forward searches of the
+    // transposed instance: u and v swap, so do rowToCol and colToRow, and each column
+    // may go free at 0.
+    this.reverse = KernelSearch.over(arena, nRows, { delta: arena.f64(nCols), u: this.v, rowToCol: this.colToRow, colToRow: this.rowToCol });
   }
 
   /** Whether the searches run in WebAssembly. */
@@ -330,13 +336,38 @@ export class GrowingAssignment {
         search.flush();
       }
     }
-    const rev = releaseFreeColumns({ nRows, nCols, columns: () => this.columns() }, u, v, rowToCol, colToRow);
+    const rev = this.reverse !== null ? this.releaseInKernel(this.reverse) : releaseFreeColumns({ nRows, nCols, columns: () => this.columns() }, u, v, rowToCol, colToRow);
     scanned += rev.scanned;
     augmentations += rev.searches;
     this.settleRowPrices();
     const warm = this.solved;
     this.solved = true;
     return { augmentations, scannedPairs: scanned, ms: this.now() - t0, warm, reverseSearches: rev.searches, searchedRows: reduced.nFree };
+  }
+
+  /** What releaseFreeColumns (warm.ts) does, its searches in WebAssembly over the pairs by column. */
+  private releaseInKernel(k: KernelSearch): { searches: number; scanned: number } {
+    const { nCols, u, v, colToRow } = this;
+    let first = NONE;
+    for (let j = 0; j < nCols && first === NONE; j++) if (colToRow[j] === NONE && v[j]! < 0) first = j;
+    if (first === NONE) return { searches: 0, scanned: 0 };
+    const cols = this.columns();
+    const transposed: RowsView = { rowStart: cols.colStart, rowEnd: cols.colEnd, colIdx: cols.colRow, cost: cols.colCost };
+    let scanned = 0;
+    let searches = 0;
+    k.load(u);
+    try {
+      for (let j = first; j < nCols; j++) {
+        if (colToRow[j] !== NONE || !(v[j]! < 0)) continue;
+        searches++;
+        const n = k.search(transposed, j);
+        if (n < 0) throw infeasibleRow(j);
+        scanned += n;
+      }
+    } finally {
+      k.flush(u);
+    }
+    return { searches, scanned };
   }
 
   /**

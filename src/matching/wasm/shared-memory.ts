@@ -107,12 +107,15 @@ export class KernelArena {
     return at;
   }
 
+  // (The offset first: taking room may grow the memory, and only its buffer after that covers it.)
   i32(n: number): Int32Array {
-    return new Int32Array(this.memory.buffer, this.take(4 * n), n);
+    const at = this.take(4 * n);
+    return new Int32Array(this.memory.buffer, at, n);
   }
 
   f64(n: number): Float64Array {
-    return new Float64Array(this.memory.buffer, this.take(8 * n), n);
+    const at = this.take(8 * n);
+    return new Float64Array(this.memory.buffer, at, n);
   }
 }
 

@@ -58,8 +58,9 @@ describe('GrowingAssignment', () => {
     }
   });
 
-  it('searches in WebAssembly to the same prices and pairs as in JavaScript, round after round (40 seeded instances)', () => {
+  it('searches in WebAssembly, forward and reverse, to the same prices and pairs as in JavaScript, round after round (40 seeded instances)', () => {
     let searched = 0;
+    let reversed = 0;
     for (let seed = 1; seed <= 40; seed++) {
       const rand = mulberry32(9_300 + seed);
       const nRows = randInt(rand, 1, 150);
@@ -85,6 +86,7 @@ describe('GrowingAssignment', () => {
         const a = plain.solve();
         const b = kernel.solve();
         searched += b.searchedRows ?? 0;
+        reversed += b.reverseSearches ?? 0;
         const at = `seed ${seed} round ${round}`;
         expect({ ...b, ms: 0 }, at).toEqual({ ...a, ms: 0 });
         expect(Array.from(kernel.u), at).toEqual(Array.from(plain.u));
@@ -93,6 +95,7 @@ describe('GrowingAssignment', () => {
       }
     }
     expect(searched).toBeGreaterThan(1000);
+    expect(reversed).toBeGreaterThan(20);
   });
 
   it('reaches the exhaustive optimum on 300 tiny seeded instances grown pair by pair', () => {
