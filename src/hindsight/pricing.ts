@@ -277,7 +277,7 @@ export class Pricer {
     if (columns !== null && (picks.count !== columns.count || picks.red !== columns.red || columns.duals.length !== g.nCols)) {
       throw pairflowError('PAIRFLOW_ERR_INTERNAL_BUG', { detail: 'pricing: a kernel slot must hold the pricer\'s column picks and one price a column' });
     }
-    this.kernel = columns === null || g.wide.size > 0 ? null : ScanKernel.over(columns);
+    this.kernel = columns === null ? null : ScanKernel.over(columns);
     this.codesAt = g.codes.byteOffset;
     this.colsAt = g.cols.byteOffset;
     this.addRed = new Float64Array(addPerRow);

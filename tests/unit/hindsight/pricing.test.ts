@@ -435,6 +435,28 @@ describe('Pricer.pass() with its pairs in a kernel memory', () => {
     });
   }
 
+  it('reads the narrow rows of a graph with a wide one in the kernel, and the wide one in JavaScript, as JavaScript alone does', () => {
+    const units: HindsightUnit[] = [
+      ...Array.from({ length: 70_000 }, (_, i) => ({ side: 'supply', t: 0, end: i < 30 ? 2000 : 500, x: 1 + i * 1e-5, y: 1 }) as HindsightUnit),
+      { side: 'demand', t: 100, end: 400, x: 1, y: 1 },
+      { side: 'demand', t: 1000, end: 1500, x: 1, y: 1 },
+    ];
+    const m = packMarket(units, config);
+    const store = new GraphStore(true, true);
+    const run = (g: ReturnType<typeof buildCompactGraph>, kernel: boolean) => {
+      const slot = kernel ? store.columns(0, g.nCols, 1) : null;
+      const picks = slot !== null ? kernelPicks(slot, g.nCols, 1) : columnPicks(g.nCols, 1);
+      const pricer = new Pricer(g, pairCostOf(m, config), new Int32Array(g.nRows), new Int32Array(g.nRows).fill(m.nSupply - 1), 5, config.abandonPenalty, 1, undefined, 1, undefined, picks, undefined, slot);
+      const found = pricer.pass(new Float64Array(g.nRows).fill(config.abandonPenalty), new Float64Array(g.nCols));
+      return { pricer, found: { violators: found.violators, rows: Array.from(found.rows.subarray(0, found.n)), cols: Array.from(found.cols.subarray(0, found.n)) } };
+    };
+    const kernel = run(buildCompactGraph(m, config, store), true);
+    const plain = run(buildCompactGraph(m, config), false);
+    expect(kernel.pricer.inKernel).toBe(true);
+    expect(kernel.pricer.kernelRows).toBe(1);
+    expect(kernel.found).toEqual(plain.found);
+  });
+
   it('refuses a kernel slot that does not hold its column picks', () => {
     const m = packMarket([{ side: 'supply', t: 0, end: 1000, x: 0, y: 0 }, { side: 'demand', t: 0, end: 1000, x: 0, y: 0 }], config);
     const store = new GraphStore(true, true);
