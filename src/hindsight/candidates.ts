@@ -8,6 +8,7 @@
  */
 
 import { CODE_TOP, isMarked, MARK, type RowVisitor } from './graph.js';
+import type { CandidateArrays, KernelVisitor } from './wasm/graph-rows.js';
 
 /** Marks pair `e` a candidate in the graph's `codes` (its code is gone). */
 export function markCandidate(codes: Uint8Array, e: number): void {
@@ -45,18 +46,24 @@ export class FirstCandidates implements RowVisitor {
   /** Per row: the lowest and highest column among its pairs (lo > hi when none). */
   readonly colLo: Int32Array;
   readonly colHi: Int32Array;
-  private readonly colCode: Int32Array;
-  private readonly colEdge: Int32Array;
+  private colCode: Int32Array;
+  private colEdge: Int32Array;
   /** Per column, its k-th cheapest code so far (the heap's top), where most pairs stop. */
-  private readonly colBar: Int32Array;
-  private readonly bestCode: Int32Array;
-  private readonly bestEdge: Int32Array;
+  private colBar: Int32Array;
+  private bestCode: Int32Array;
+  private bestEdge: Int32Array;
+  /**
+   * Where the row kernel builds the graph (graph.ts), its look at each row: the arrays
+   * above then live in the kernel memory (see {@link kernelVisitor}).
+   */
+  private visit: ((len: number, start: number) => number) | null = null;
+  private picked: (() => number) | null = null;
 
   /** Rows the earliest-deadline greedy matched (see {@link row}). */
   greedy = 0;
   /** The greedy's pairs, rows ascending, for the caller to add (not marked here). */
   readonly greedyEdges: Int32Array;
-  private readonly taken: Uint8Array | null;
+  private taken: Uint8Array | null;
   /** The pairs marked so far, in the order marked (each once). */
   private marked = new Int32Array(1024);
   private nMarked = 0;
@@ -83,7 +90,37 @@ export class FirstCandidates implements RowVisitor {
     this.bestEdge = new Int32Array(k);
   }
 
+  /**
+   * The row kernel's way in (wasm/graph-rows.ts): it hands over arrays in its memory,
+   * which take the place of this visitor's own (as yet untouched), and from then on
+   * looks at each row itself, the same loop as {@link row}'s in WebAssembly.
+   */
+  get kernelVisitor(): KernelVisitor {
+    return {
+      k: this.k,
+      greedy: this.taken !== null,
+      adopt: (a: CandidateArrays, visit: (len: number, start: number) => number, picked: () => number): void => {
+        a.colCode.fill(CODE_TOP);
+        a.colEdge.fill(-1);
+        a.colBar.fill(CODE_TOP);
+        if (this.supplyEnd !== null) a.supplyEnd.set(this.supplyEnd);
+        this.colCode = a.colCode;
+        this.colEdge = a.colEdge;
+        this.colBar = a.colBar;
+        this.bestCode = a.bestCode;
+        this.bestEdge = a.bestEdge;
+        if (this.taken !== null) this.taken = a.taken;
+        this.visit = visit;
+        this.picked = picked;
+      },
+    };
+  }
+
   row(r: number, _demand: number, cols: Int32Array, codes: Uint8Array, len: number, start: number, marks: Uint8Array, lo: number, hi: number): void {
+    if (this.visit !== null) {
+      this.finishRow(r, cols, start, marks, lo, hi, this.visit(len, start), this.picked!());
+      return;
+    }
     const { k, colCode, colEdge, colBar, bestCode, bestEdge, taken, supplyEnd } = this;
     let n = 0;
     // The earliest-deadline pick: the free column that leaves first (cheapest on a tie).
@@ -132,13 +169,18 @@ export class FirstCandidates implements RowVisitor {
         colBar[j] = colCode[base]!;
       }
     }
+    this.finishRow(r, cols, start, marks, lo, hi, n, bestI);
+  }
+
+  /** A row's end: its column range, the greedy's pick (its place `bestI`, -1: none), and its `n` cheapest marked. */
+  private finishRow(r: number, cols: Int32Array, start: number, marks: Uint8Array, lo: number, hi: number, n: number, bestI: number): void {
     this.colLo[r] = lo;
     this.colHi[r] = hi;
     if (bestI >= 0) {
-      taken![cols[bestI]!] = 1;
+      this.taken![cols[bestI]!] = 1;
       this.greedyEdges[this.greedy++] = start + bestI;
     }
-    for (let q = 0; q < n; q++) this.mark(marks, bestEdge[q]!);
+    for (let q = 0; q < n; q++) this.mark(marks, this.bestEdge[q]!);
   }
 
   /**

@@ -20,7 +20,7 @@
 import { EARTH_RADIUS_KM, euclideanKm, haversineKm, travelMin } from '../window/geo.js';
 import type { PairflowConfig, UnitPlace } from '../model.js';
 import { orderBy } from './segments.js';
-import { KernelRows, type ScratchSpace } from './wasm/graph-rows.js';
+import { KernelRows, type KernelVisitor, type ScratchSpace } from './wasm/graph-rows.js';
 import type { KernelColumns } from './wasm/pricing-scan.js';
 import { holdBytes, kernelMemory, type KernelMemory } from '../matching/wasm/shared-memory.js';
 
@@ -529,6 +529,8 @@ function pageAligned(bytes: number): number {
  */
 export interface RowVisitor {
   row(r: number, demand: number, cols: Int32Array, codes: Uint8Array, n: number, start: number, marks: Uint8Array, lo: number, hi: number): void;
+  /** Where the row kernel builds the graph, it looks at each row for the visitor through this (wasm/graph-rows.ts). */
+  readonly kernelVisitor?: KernelVisitor;
 }
 
 /**
@@ -678,7 +680,7 @@ export function buildCompactGraph(
   const kernel = space === null ? null : KernelRows.open(space, nSupply, sTerms, {
     euclid, oneCapWord: capWords === 1, cut, twoR: 2 * EARTH_RADIUS_KM, sixth: SIXTH, minPerKm, waitPerMs: waitMinPerMs,
     edgeBelow, maxTravel, edge: EDGE, P, perStep, top: CODE_TOP,
-  });
+  }, visitor?.kernelVisitor ?? null);
   if (kernel !== null) {
     rowCols = kernel.cols;
     rowCodes = kernel.codes;

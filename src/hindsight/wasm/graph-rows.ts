@@ -27,8 +27,46 @@ type RowFn = (
 ) => number;
 
 type PlaceFn = (cols: number, codes: number, len: number, dstCols: number, dstCodes: number, span: number, out: number) => number;
+type VisitFn = (
+  cols: number, codes: number, len: number, start: number, k: number,
+  colCode: number, colEdge: number, colBar: number, bestCode: number, bestEdge: number,
+  greedy: number, taken: number, supplyEnd: number, top: number, out: number,
+) => number;
+
+/**
+ * The arrays of the first candidates (candidates.ts FirstCandidates) where the row
+ * kernel's `visit` reads and writes them: in the kernel memory, past the build's own.
+ */
+export interface CandidateArrays {
+  readonly colCode: Int32Array;
+  readonly colEdge: Int32Array;
+  readonly colBar: Int32Array;
+  readonly bestCode: Int32Array;
+  readonly bestEdge: Int32Array;
+  /** Per column, 1 once the earliest-deadline greedy took it (empty without the greedy). */
+  readonly taken: Uint8Array;
+  readonly supplyEnd: Float64Array;
+}
+
+/**
+ * A row visitor (graph.ts RowVisitor) that can look at rows through the kernel: it
+ * says what it needs, takes over arrays in the kernel memory, and from then on calls
+ * `visit(len, start)` for the row just written (the number of its cheapest it holds)
+ * and `picked()` for the greedy's place in the row (-1: none).
+ */
+export interface KernelVisitor {
+  readonly k: number;
+  readonly greedy: boolean;
+  adopt(arrays: CandidateArrays, visit: (len: number, start: number) => number, picked: () => number): void;
+}
 
 const kernelModule = lazyModule(WASM_BASE64);
+
+interface Exports {
+  readonly row: RowFn;
+  readonly place: PlaceFn;
+  readonly visit: VisitFn;
+}
 
 /** Room in a kernel memory past a store's pairs, for the build's working arrays. */
 export interface ScratchSpace {
@@ -69,6 +107,7 @@ const FIRST_ROOM = 4;
 export class KernelRows {
   private readonly row: RowFn;
   private readonly placeRow: PlaceFn;
+  private readonly visitRow: VisitFn;
   private readonly cellOf = new Map<number, number>();
   private nCells = 0;
   private room: Int32Array;
@@ -80,6 +119,7 @@ export class KernelRows {
   private readonly deferAt: number;
   private readonly outAt: number;
   private readonly poolAt: number;
+  private readonly candidatesAt: number;
   private readonly colsAt: number;
   private readonly codesAt: number;
   private views!: { cells: Int32Array; pool: Int32Array; nbr: Int32Array; out: Int32Array };
@@ -91,13 +131,15 @@ export class KernelRows {
 
   private constructor(
     private readonly space: ScratchSpace,
-    exp: { row: RowFn; place: PlaceFn },
+    exp: Exports,
     base: number,
     nSupply: number,
     private readonly k: RowConstants,
+    candidateBytes: number,
   ) {
     this.row = exp.row;
     this.placeRow = exp.place;
+    this.visitRow = exp.visit;
     this.room = new Int32Array(Math.max(16, nSupply));
     const n = Math.max(1, nSupply);
     this.outAt = base;
@@ -107,7 +149,8 @@ export class KernelRows {
     this.deferAt = this.cellsAt + 8 * n;
     this.colsAt = this.deferAt + 4 * n;
     this.codesAt = this.colsAt + 4 * n;
-    this.poolAt = align8(this.codesAt + n);
+    this.candidatesAt = align8(this.codesAt + n);
+    this.poolAt = align8(this.candidatesAt + candidateBytes);
     this.poolRoom = 4 * n + 1024;
     this.refresh(n);
   }
@@ -116,16 +159,49 @@ export class KernelRows {
    * The kernel over `space` for a market of `nSupply` supplies with terms `sTerms`
    * (graph.ts termsOf), or null where it cannot run or its room cannot be had.
    */
-  static open(space: ScratchSpace, nSupply: number, sTerms: Float64Array, k: RowConstants): KernelRows | null {
+  static open(space: ScratchSpace, nSupply: number, sTerms: Float64Array, k: RowConstants, visitor: KernelVisitor | null = null): KernelRows | null {
     const n = Math.max(1, nSupply);
-    const bytes = OUT_BYTES + 4 * NBR_CELLS + 64 * n + 8 * n + 4 * n + 4 * n + n + 8 + 4 * (4 * n + 1024);
+    // (Each of its seven arrays starts on 8 bytes: 64 for their padding.)
+    const candidateBytes = visitor === null ? 0 : 8 * n * visitor.k + 4 * n + 8 * visitor.k + (visitor.greedy ? n : 0) + 8 * n + 64;
+    const bytes = OUT_BYTES + 4 * NBR_CELLS + 64 * n + 8 * n + 4 * n + 4 * n + n + 16 + candidateBytes + 4 * (4 * n + 1024);
     const base = space.scratch(bytes);
     if (base < 0) return null;
-    const exp = instantiate<{ row: RowFn; place: PlaceFn }>(kernelModule.get(), space.memory);
+    const exp = instantiate<Exports>(kernelModule.get(), space.memory);
     if (exp === null) return null;
-    const rows = new KernelRows(space, exp, base, nSupply, k);
+    const rows = new KernelRows(space, exp, base, nSupply, k, candidateBytes);
     new Float64Array(space.memory.buffer, rows.termsAt, sTerms.length).set(sTerms);
+    if (visitor !== null) rows.lendTo(visitor, nSupply);
     return rows;
+  }
+
+  /** Hands `visitor` its arrays in the kernel memory and the kernel's look at each row. */
+  private lendTo(visitor: KernelVisitor, nSupply: number): void {
+    const buf = this.space.memory.buffer;
+    const { k, greedy } = visitor;
+    let at = this.candidatesAt;
+    const take = (bytes: number): number => {
+      const here = at;
+      at = align8(at + bytes);
+      return here;
+    };
+    const arrays: CandidateArrays = {
+      colCode: new Int32Array(buf, take(4 * nSupply * k), nSupply * k),
+      colEdge: new Int32Array(buf, take(4 * nSupply * k), nSupply * k),
+      colBar: new Int32Array(buf, take(4 * nSupply), nSupply),
+      bestCode: new Int32Array(buf, take(4 * k), k),
+      bestEdge: new Int32Array(buf, take(4 * k), k),
+      supplyEnd: new Float64Array(buf, take(8 * nSupply), nSupply),
+      taken: new Uint8Array(buf, take(greedy ? nSupply : 0), greedy ? nSupply : 0),
+    };
+    const top = this.k.top;
+    const ptrs = [arrays.colCode, arrays.colEdge, arrays.colBar, arrays.bestCode, arrays.bestEdge].map((a) => a.byteOffset) as [number, number, number, number, number];
+    const takenAt = arrays.taken.byteOffset;
+    const endAt = arrays.supplyEnd.byteOffset;
+    visitor.adopt(
+      arrays,
+      (len, start) => this.visitRow(this.colsAt, this.codesAt, len, start, k, ptrs[0], ptrs[1], ptrs[2], ptrs[3], ptrs[4], greedy ? 1 : 0, takenAt, endAt, top, this.outAt),
+      () => this.views.out[4]!,
+    );
   }
 
   /** Views over the memory as it now stands (after it grew, the old ones end short). */

@@ -13,6 +13,12 @@
 ;;
 ;; Returns the row's length; the count of deferred pairs goes to $out (an i32).
 ;;
+;; $visit is the first candidates' look at a finished row (candidates.ts
+;; FirstCandidates.row), over arrays the kernel memory holds for them: the row's k
+;; cheapest (by code) into $bestCode / $bestEdge, each column's k cheapest into its heap
+;; ($colCode / $colEdge, k a column, $colBar its top), and with $greedy the free column
+;; that leaves first ($taken, $supplyEnd), whose place in the row goes to $out + 16.
+;;
 ;; $place then writes a finished row into the store: its columns less the row's lowest
 ;; as u16 (zeros for a row spanning more than $span columns, kept apart by the caller)
 ;; and its codes; the lowest and highest columns go to $out + 8 and $out + 12.
@@ -108,6 +114,91 @@
         (br $nextCell)))
     (i32.store (local.get $out) (local.get $nDefer))
     (local.get $len))
+
+  ;; Returns how many of the row's cheapest it holds (at most $k).
+  (func (export "visit")
+    (param $cols i32) (param $codes i32) (param $len i32) (param $start i32) (param $k i32)
+    (param $colCode i32) (param $colEdge i32) (param $colBar i32) (param $bestCode i32) (param $bestEdge i32)
+    (param $greedy i32) (param $taken i32) (param $supplyEnd i32) (param $top i32) (param $out i32)
+    (result i32)
+    (local $i i32) (local $j i32) (local $c i32) (local $e i32) (local $n i32) (local $p i32) (local $ch i32) (local $base i32)
+    (local $bestI i32) (local $bestEnd f64) (local $bestC i32) (local $en f64) (local $at i32)
+    (local.set $bestI (i32.const -1))
+    (local.set $bestEnd (f64.const inf))
+    (local.set $bestC (local.get $top))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $i) (local.get $len)))
+        (block $pair
+          (local.set $j (i32.load (i32.add (local.get $cols) (i32.shl (local.get $i) (i32.const 2)))))
+          (local.set $c (i32.load8_u (i32.add (local.get $codes) (local.get $i))))
+          (br_if $pair (i32.eq (local.get $c) (local.get $top)))
+          (local.set $e (i32.add (local.get $start) (local.get $i)))
+          ;; The earliest-deadline pick: the free column that leaves first (cheapest on a tie).
+          (if (local.get $greedy)
+            (then
+              (if (i32.eqz (i32.load8_u (i32.add (local.get $taken) (local.get $j))))
+                (then
+                  (local.set $en (f64.load (i32.add (local.get $supplyEnd) (i32.shl (local.get $j) (i32.const 3)))))
+                  (if (i32.or (f64.lt (local.get $en) (local.get $bestEnd))
+                        (i32.and (f64.eq (local.get $en) (local.get $bestEnd)) (i32.lt_s (local.get $c) (local.get $bestC))))
+                    (then
+                      (local.set $bestEnd (local.get $en))
+                      (local.set $bestC (local.get $c))
+                      (local.set $bestI (local.get $i))))))))
+          ;; The row's k cheapest, by insertion into a small sorted buffer.
+          (if (i32.or (i32.lt_s (local.get $n) (local.get $k))
+                (i32.lt_s (local.get $c) (i32.load (i32.add (local.get $bestCode) (i32.shl (i32.sub (local.get $k) (i32.const 1)) (i32.const 2))))))
+            (then
+              (if (i32.lt_s (local.get $n) (local.get $k))
+                (then
+                  (local.set $p (local.get $n))
+                  (local.set $n (i32.add (local.get $n) (i32.const 1))))
+                (else (local.set $p (i32.sub (local.get $k) (i32.const 1)))))
+              (block $placed
+                (loop $shift
+                  (br_if $placed (i32.le_s (local.get $p) (i32.const 0)))
+                  (local.set $at (i32.add (local.get $bestCode) (i32.shl (i32.sub (local.get $p) (i32.const 1)) (i32.const 2))))
+                  (br_if $placed (i32.le_s (i32.load (local.get $at)) (local.get $c)))
+                  (i32.store offset=4 (local.get $at) (i32.load (local.get $at)))
+                  (local.set $at (i32.add (local.get $bestEdge) (i32.shl (i32.sub (local.get $p) (i32.const 1)) (i32.const 2))))
+                  (i32.store offset=4 (local.get $at) (i32.load (local.get $at)))
+                  (local.set $p (i32.sub (local.get $p) (i32.const 1)))
+                  (br $shift)))
+              (i32.store (i32.add (local.get $bestCode) (i32.shl (local.get $p) (i32.const 2))) (local.get $c))
+              (i32.store (i32.add (local.get $bestEdge) (i32.shl (local.get $p) (i32.const 2))) (local.get $e))))
+          ;; The column's k cheapest so far: its heap's top leaves, the pair sifts down.
+          (if (i32.lt_s (local.get $c) (i32.load (i32.add (local.get $colBar) (i32.shl (local.get $j) (i32.const 2)))))
+            (then
+              (local.set $base (i32.mul (local.get $j) (local.get $k)))
+              (local.set $p (i32.const 0))
+              (block $sifted
+                (loop $sift
+                  (local.set $ch (i32.add (i32.shl (local.get $p) (i32.const 1)) (i32.const 1)))
+                  (br_if $sifted (i32.ge_s (local.get $ch) (local.get $k)))
+                  (if (i32.lt_s (i32.add (local.get $ch) (i32.const 1)) (local.get $k))
+                    (then
+                      (if (i32.gt_s
+                            (i32.load (i32.add (local.get $colCode) (i32.shl (i32.add (i32.add (local.get $base) (local.get $ch)) (i32.const 1)) (i32.const 2))))
+                            (i32.load (i32.add (local.get $colCode) (i32.shl (i32.add (local.get $base) (local.get $ch)) (i32.const 2)))))
+                        (then (local.set $ch (i32.add (local.get $ch) (i32.const 1)))))))
+                  (br_if $sifted (i32.eqz (i32.gt_s
+                    (i32.load (i32.add (local.get $colCode) (i32.shl (i32.add (local.get $base) (local.get $ch)) (i32.const 2))))
+                    (local.get $c))))
+                  (i32.store (i32.add (local.get $colCode) (i32.shl (i32.add (local.get $base) (local.get $p)) (i32.const 2)))
+                    (i32.load (i32.add (local.get $colCode) (i32.shl (i32.add (local.get $base) (local.get $ch)) (i32.const 2)))))
+                  (i32.store (i32.add (local.get $colEdge) (i32.shl (i32.add (local.get $base) (local.get $p)) (i32.const 2)))
+                    (i32.load (i32.add (local.get $colEdge) (i32.shl (i32.add (local.get $base) (local.get $ch)) (i32.const 2)))))
+                  (local.set $p (local.get $ch))
+                  (br $sift)))
+              (i32.store (i32.add (local.get $colCode) (i32.shl (i32.add (local.get $base) (local.get $p)) (i32.const 2))) (local.get $c))
+              (i32.store (i32.add (local.get $colEdge) (i32.shl (i32.add (local.get $base) (local.get $p)) (i32.const 2))) (local.get $e))
+              (i32.store (i32.add (local.get $colBar) (i32.shl (local.get $j) (i32.const 2)))
+                (i32.load (i32.add (local.get $colCode) (i32.shl (local.get $base) (i32.const 2))))))))
+        (local.set $i (i32.add (local.get $i) (i32.const 1)))
+        (br $next)))
+    (i32.store offset=16 (local.get $out) (local.get $bestI))
+    (local.get $n))
 
   ;; Returns 1 when the row spans more than $span columns (its u16 columns are zeros).
   (func (export "place")

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 
 import { FirstCandidates } from '../../../src/hindsight/candidates.js';
-import { buildCompactGraph, plainColumns, packMarket, type HindsightUnit } from '../../../src/hindsight/graph.js';
+import { buildCompactGraph, GraphStore, plainColumns, packMarket, type HindsightUnit } from '../../../src/hindsight/graph.js';
 import { maxCardinalityMatching } from '../../../src/matching/cardinality.js';
 import { DEFAULT_CONFIG, type PairflowConfig } from '../../../src/model.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
@@ -51,4 +51,40 @@ describe('FirstCandidates: the earliest-deadline greedy', () => {
     expect(first.greedy).toBeLessThanOrEqual(max);
     expect(2 * first.greedy).toBeGreaterThanOrEqual(max);
   });
+});
+
+describe('FirstCandidates through the row kernel', () => {
+  // Built into a kernel memory (GraphStore(true, true)), the graph's rows are looked at
+  // by the kernel's `visit` over arrays in that memory: the same candidates must come
+  // out as from the JavaScript loop, with and without the greedy, for several k.
+  for (const [k, greedy] of [[1, true], [4, true], [3, false]] as const) {
+    it(`picks the same pairs, ranges and greedy as JavaScript (k = ${k}, greedy ${greedy}, seeded)`, () => {
+      const config: PairflowConfig = { ...DEFAULT_CONFIG, metric: 'euclidean', waitWeight: 0.7 };
+      for (let seed = 1; seed <= 5; seed++) {
+        const rnd = mulberry32(400 + seed);
+        const units: HindsightUnit[] = [];
+        for (let i = 0; i < 600; i++) {
+          const t = randInt(rnd, 0, 7_200_000);
+          // A few spots and ends on the quarter hour: equal codes and equal ends, so ties
+          // are broken the same way or not at all.
+          const end = Math.ceil((t + randInt(rnd, 0, 1_800_000)) / 900_000) * 900_000;
+          units.push({ side: rnd() < 0.5 ? 'demand' : 'supply', t, end, x: randInt(rnd, 0, 8), y: randInt(rnd, 0, 8) });
+        }
+        const m = packMarket(units, config);
+        const run = (store: GraphStore | undefined) => {
+          const first = new FirstCandidates(m.nDemand, m.nSupply, k, greedy ? m.supplyEnd : null);
+          const g = buildCompactGraph(m, config, store, 0, first);
+          const picked = Array.from(first.markColumns(g.codes));
+          return { byKernel: g.byKernel, picked, codes: Array.from(g.codes), colLo: Array.from(first.colLo), colHi: Array.from(first.colHi), greedy: first.greedy, greedyEdges: Array.from(first.greedyEdges) };
+        };
+        const plain = run(undefined);
+        const kernel = run(new GraphStore(true, true));
+        expect(plain.byKernel).toBe(false);
+        expect(kernel.byKernel).toBe(true);
+        expect({ ...kernel, byKernel: false }, `seed ${seed}`).toEqual(plain);
+        expect(plain.picked.length).toBeGreaterThan(m.nDemand / 2);
+        if (greedy) expect(plain.greedy).toBeGreaterThan(0);
+      }
+    });
+  }
 });
