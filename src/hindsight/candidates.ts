@@ -100,9 +100,11 @@ export class FirstCandidates implements RowVisitor {
       k: this.k,
       greedy: this.taken !== null,
       adopt: (a: CandidateArrays, visit: (len: number, start: number) => number, picked: () => number): void => {
+        // (The kernel memory's bytes may hold an earlier market's numbers.)
         a.colCode.fill(CODE_TOP);
         a.colEdge.fill(-1);
         a.colBar.fill(CODE_TOP);
+        a.taken.fill(0);
         if (this.supplyEnd !== null) a.supplyEnd.set(this.supplyEnd);
         this.colCode = a.colCode;
         this.colEdge = a.colEdge;

@@ -4,6 +4,7 @@
  */
 
 import { maxCardinalityMatching, minVertexCover, type BipartiteGraph, type VertexCover } from '../matching/cardinality.js';
+import type { KernelArena } from '../matching/wasm/shared-memory.js';
 import { plainColumns, type CompactGraph } from './graph.js';
 
 /**
@@ -17,11 +18,13 @@ import { plainColumns, type CompactGraph } from './graph.js';
  * within their rows and its codes are not: `g` is spent afterwards.
  *
  * With `wantCover`, also a minimum vertex cover of the graph (König: as many units as
- * the ceiling), in graph rows and columns.
+ * the ceiling), in graph rows and columns. With `arena` (in the kernel memory that
+ * holds the graph's pairs: graph.ts GraphStore.arena) the passes run in WebAssembly.
+ 
  *
  * @param rowToCol the optimum's column per graph row, -1 when unmatched
  */
-export function matchCeiling(g: CompactGraph, rowToCol: Int32Array, wantCover = false): { size: number; cover: VertexCover | null } {
+export function matchCeiling(g: CompactGraph, rowToCol: Int32Array, wantCover = false, arena: KernelArena | null = null): { size: number; cover: VertexCover | null } {
   const { nRows, nCols, rowPtr } = g;
   const plain: BipartiteGraph = g.wide.size === 0 ? { nRows, nCols, rowPtr, colIdx: g.cols, rowBase: g.rowBase } : { nRows, nCols, rowPtr, colIdx: plainColumns(g) };
   const { colIdx } = plain;
@@ -41,6 +44,6 @@ export function matchCeiling(g: CompactGraph, rowToCol: Int32Array, wantCover = 
   }
   // The graph is this module's own (columns in range by construction), and the
   // optimum's pairs seed it: depth-first passes from the start (cardinality.ts).
-  const matching = maxCardinalityMatching(plain, { nearMaximumSeed: true, check: false });
+  const matching = maxCardinalityMatching(plain, { nearMaximumSeed: true, check: false, arena });
   return { size: matching.size, cover: wantCover ? minVertexCover(plain, matching) : null };
 }

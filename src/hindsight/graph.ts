@@ -22,7 +22,7 @@ import type { PairflowConfig, UnitPlace } from '../model.js';
 import { orderBy } from './segments.js';
 import { KernelRows, type KernelVisitor, type ScratchSpace } from './wasm/graph-rows.js';
 import type { KernelColumns } from './wasm/pricing-scan.js';
-import { holdBytes, kernelMemory, type KernelMemory } from '../matching/wasm/shared-memory.js';
+import { holdBytes, KernelArena, kernelMemory, type KernelMemory } from '../matching/wasm/shared-memory.js';
 
 /** The fields of a unit occurrence the hindsight needs (a window `Occurrence` fits). */
 export interface HindsightUnit extends UnitPlace {
@@ -497,6 +497,15 @@ export class GraphStore {
     };
     slot.count.fill(0);
     return slot;
+  }
+
+  /**
+   * An arena past the pairs in {@link memory}, for work on a graph once its pricing is
+   * over (the match ceiling's depth-first passes, matching/wasm/depth-first.wat): what
+   * was there is overwritten. Null without a kernel memory.
+   */
+  arena(): KernelArena | null {
+    return this.memory === null ? null : KernelArena.within(this.memory, this.slotsAt);
   }
 
   /** Whether graph `g`'s pairs are this store's, in its kernel memory. */

@@ -454,7 +454,8 @@ function solveSegment(
     proof = { graph: expandGraph(g, exact), rowDuals: rd, colDuals, rowToCol: rc };
   }
   lap('setupMs');
-  const { size: ceiling, cover: vc } = matchCeiling(g, rowToCol, opts.cover === true);
+  // The pricing's kernel slots are done with: the ceiling's passes may take their room.
+  const { size: ceiling, cover: vc } = matchCeiling(g, rowToCol, opts.cover === true, store.holds(g) ? store.arena() : null);
   let cover: HindsightCover | null = null;
   if (vc) {
     const triples = (idx: Int32Array, map: Int32Array | null, t: Float64Array, a: Float64Array, b: Float64Array): Float64Array => {

@@ -9,6 +9,8 @@
  * paths (hundreds of thousands of rows) cannot exhaust the call stack.
  */
 
+import { kernelDepthFirst } from './wasm/depth-first.js';
+import type { KernelArena } from './wasm/shared-memory.js';
 import { pairflowError } from '../errors.js';
 
 /**
@@ -102,6 +104,12 @@ export interface CardinalityOptions {
    * @default true
    */
   check?: boolean;
+  /**
+   * An arena in the kernel memory that holds the graph's columns (16-bit, with row
+   * bases: the hindsight's pair store): the depth-first passes then run in
+   * WebAssembly (wasm/depth-first.wat), to the same matching.
+   */
+  arena?: KernelArena | null;
 }
 
 /**
@@ -146,7 +154,9 @@ export function maxCardinalityMatching(g: BipartiteGraph, opts: CardinalityOptio
 
   for (;;) {
     if (phaseAugments < DEPTH_FIRST_BELOW) {
-      size += depthFirstPasses(g, rowBase, rowToCol, colToRow);
+      const arena = opts.arena ?? null;
+      const inKernel = arena !== null && colIdx instanceof Uint16Array && g.rowBase !== undefined ? kernelDepthFirst(arena, nRows, nCols, rowPtr, rowBase, colIdx, rowToCol, colToRow) : -1;
+      size += inKernel >= 0 ? inKernel : depthFirstPasses(g, rowBase, rowToCol, colToRow);
       break;
     }
     phaseAugments = 0;

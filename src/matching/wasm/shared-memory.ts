@@ -100,6 +100,13 @@ export class KernelArena {
     return memory === null ? null : new KernelArena(memory);
   }
 
+  /** An arena over `memory` from byte `at` on (what was there is overwritten). */
+  static within(memory: KernelMemory, at: number): KernelArena {
+    const arena = new KernelArena(memory);
+    arena.top = at;
+    return arena;
+  }
+
   private take(bytes: number): number {
     const at = Math.ceil(this.top / 8) * 8;
     if (!holdBytes(this.memory, at + bytes)) throw new RangeError(`a kernel memory cannot hold ${at + bytes} bytes`);

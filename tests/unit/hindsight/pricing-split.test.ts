@@ -182,6 +182,8 @@ describe('PricingHelper (a second thread)', () => {
     const kernel = solvePackedMarket('m', m, config, solveSparse, {}, true, new GraphStore(true, true), helper);
     expect(kernel.detail!.kernelRows).toBe(kernel.detail!.rowsPriced);
     expect(first.detail!.kernelRows).toBe(0);
+    // (Its match ceiling's passes ran in WebAssembly too.)
+    expect(kernel.ceiling).toBe(alone.ceiling);
     for (const r of [first, again, kernel]) {
       expect(r.cost).toBe(alone.cost);
       expect(Array.from(r.demandCost)).toEqual(Array.from(alone.demandCost));

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { maxCardinalityMatching, minVertexCover, type BipartiteGraph, type CardinalityMatching } from '../../../src/matching/cardinality.js';
 import { mulberry32, randInt } from '../../helpers/random.js';
 import { runPythonJson, scipyVersion } from '../../helpers/python.js';
+import { KernelArena } from '../../../src/matching/wasm/shared-memory.js';
 
 function graphFromLists(nCols: number, lists: number[][]): BipartiteGraph {
   const rowPtr = new Int32Array(lists.length + 1);
@@ -151,6 +152,38 @@ describe('maxCardinalityMatching()', () => {
     }
     const seeded = { ...g, colIdx };
     expect(expectValidMatching(seeded, maxCardinalityMatching(seeded, { nearMaximumSeed: true }), 77)).toBe(best.size);
+  });
+
+  it('runs its depth-first passes in WebAssembly, over 16-bit columns in a kernel memory, to the same matching', () => {
+    let augmented = 0;
+    for (let seed = 5001; seed <= 5120; seed++) {
+      const rand = mulberry32(seed);
+      const nRows = randInt(rand, 1, 120);
+      const nCols = randInt(rand, 1, 120);
+      const g = randomGraph(seed, nRows, nCols, randInt(rand, 1, 8));
+      // As the hindsight's store holds them: 16-bit columns less each row's lowest.
+      const rowBase = new Int32Array(nRows);
+      for (let r = 0; r < nRows; r++) {
+        let lo = nCols;
+        for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) lo = Math.min(lo, g.colIdx[e]!);
+        rowBase[r] = g.rowPtr[r] === g.rowPtr[r + 1] ? 0 : lo;
+      }
+      const arena = KernelArena.create(1 << 20)!;
+      expect(arena).not.toBeNull();
+      const n = g.colIdx.length;
+      const words = arena.i32(Math.ceil(n / 2) + 1);
+      const cols16 = new Uint16Array(words.buffer, words.byteOffset, n);
+      for (let r = 0; r < nRows; r++) for (let e = g.rowPtr[r]!; e < g.rowPtr[r + 1]!; e++) cols16[e] = g.colIdx[e]! - rowBase[r]!;
+      // Leftover numbers where the passes' arrays will go: the kernel must not read them as its own.
+      arena.i32(4 * (nRows + nCols) + 64).fill(1);
+      const plain = maxCardinalityMatching({ ...g, colIdx: cols16, rowBase }, { nearMaximumSeed: true });
+      const kernel = maxCardinalityMatching({ ...g, colIdx: cols16, rowBase }, { nearMaximumSeed: true, arena: KernelArena.within(arena.memory, words.byteOffset + 4 * words.length) });
+      expect(kernel.size, `seed ${seed}`).toBe(plain.size);
+      expect(Array.from(kernel.rowToCol), `seed ${seed}`).toEqual(Array.from(plain.rowToCol));
+      expect(Array.from(kernel.colToRow), `seed ${seed}`).toEqual(Array.from(plain.colToRow));
+      augmented += plain.size;
+    }
+    expect(augmented).toBeGreaterThan(1000);
   });
 
   it('checks the graph unless told not to', () => {

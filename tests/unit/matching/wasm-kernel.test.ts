@@ -328,6 +328,7 @@ describe.skipIf(!wabtFound)('the committed kernel bytes', () => {
 
   it.each([
     ['matching', 'sparse-search'],
+    ['matching', 'depth-first'],
     ['hindsight', 'pricing-scan'],
     ['hindsight', 'graph-rows'],
   ])('of src/%s/wasm/%s are the assembly of its .wat', async (area, name) => {
