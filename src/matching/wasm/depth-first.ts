@@ -9,8 +9,8 @@ import { instantiate, lazyModule, type KernelArena } from './shared-memory.js';
  * matching comes out (tests/unit/matching/cardinality.test.ts holds them together).
  */
 
-type PassesFn = (
-  nRows: number, rowPtr: number, rowBase: number, colIdx: number, rowToCol: number, colToRow: number,
+type SearchFn = (
+  root: number, pass: number, forward: number, rowPtr: number, rowBase: number, colIdx: number, rowToCol: number, colToRow: number,
   look: number, next: number, stack: number, via: number, seen: number,
 ) => number;
 
@@ -25,7 +25,7 @@ const kernelModule = lazyModule(WASM_BASE64);
 export function kernelDepthFirst(
   arena: KernelArena, nRows: number, nCols: number, rowPtr: Int32Array, rowBase: Int32Array, colIdx: Uint16Array, rowToCol: Int32Array, colToRow: Int32Array,
 ): number {
-  const x = instantiate<{ passes: PassesFn }>(kernelModule.get(), arena.memory);
+  const x = instantiate<{ search: SearchFn }>(kernelModule.get(), arena.memory);
   if (x === null) return -1;
   const ptr = arena.i32(nRows + 1);
   ptr.set(rowPtr.subarray(0, nRows + 1));
@@ -42,7 +42,19 @@ export function kernelDepthFirst(
   const via = arena.i32(nRows);
   // (The arena's bytes may hold an earlier user's numbers: a pass number among them would skip a column.)
   const seen = arena.i32(nCols).fill(0);
-  const added = x.passes(nRows, ptr.byteOffset, base.byteOffset, colIdx.byteOffset, r2c.byteOffset, c2r.byteOffset, look.byteOffset, next.byteOffset, stack.byteOffset, via.byteOffset, seen.byteOffset);
+  // The passes and their roots here, one search a call (see depth-first.wat).
+  const at = [ptr, base, colIdx, r2c, c2r, look, next, stack, via, seen].map((a) => a.byteOffset) as [number, number, number, number, number, number, number, number, number, number];
+  let added = 0;
+  for (let pass = 1; ; pass++) {
+    const forward = pass & 1;
+    let found = 0;
+    for (let root = 0; root < nRows; root++) {
+      if (r2c[root] !== -1 || rowPtr[root] === rowPtr[root + 1]) continue;
+      found += x.search(root, pass, forward, at[0], at[1], at[2], at[3], at[4], at[5], at[6], at[7], at[8], at[9]);
+    }
+    added += found;
+    if (found === 0) break;
+  }
   rowToCol.set(r2c);
   colToRow.set(c2r);
   return added;
