@@ -20,7 +20,6 @@ import { plainColumns, type CompactGraph } from './graph.js';
  * With `wantCover`, also a minimum vertex cover of the graph (König: as many units as
  * the ceiling), in graph rows and columns. With `arena` (in the kernel memory that
  * holds the graph's pairs: graph.ts GraphStore.arena) the passes run in WebAssembly.
- 
  *
  * @param rowToCol the optimum's column per graph row, -1 when unmatched
  */
