@@ -22,7 +22,7 @@ import type { PairflowConfig, UnitPlace } from '../model.js';
 import { orderBy } from './segments.js';
 import { KernelRows, type KernelVisitor, type ScratchSpace } from './wasm/graph-rows.js';
 import type { KernelColumns } from './wasm/pricing-scan.js';
-import { holdBytes, KernelArena, kernelMemory, type KernelMemory } from '../matching/wasm/shared-memory.js';
+import { holdBytes, KernelArena, kernelMemory, PAGE_BYTES, type KernelMemory } from '../matching/wasm/shared-memory.js';
 
 /** The fields of a unit occurrence the hindsight needs (a window `Occurrence` fits). */
 export interface HindsightUnit extends UnitPlace {
@@ -525,7 +525,7 @@ function roomIn(memory: KernelMemory, at: number, bytes: number): number {
 }
 
 function pageAligned(bytes: number): number {
-  return Math.ceil(bytes / 65536) * 65536;
+  return Math.ceil(bytes / PAGE_BYTES) * PAGE_BYTES;
 }
 
 /**
@@ -820,14 +820,14 @@ export function buildCompactGraph(
     const start = nnz;
     let lo = nSupply;
     let hi = -1;
-    if (len > 0 && kernel !== null && (store.ensure(nnz + len, nnz), kernel.writes(store.memory))) {
+    if (len > 0) store.ensure(nnz + len, nnz);
+    if (len > 0 && kernel !== null && kernel.writes(store.memory)) {
       // The row kernel writes it where it stands (same numbers as below).
       if (kernel.place(len, store.cols.byteOffset + 2 * start, store.codes.byteOffset + start, SPAN)) wide.set(r, rowCols.slice(0, len));
       lo = kernel.lo();
       hi = kernel.hi();
       rowBase[r] = lo;
     } else if (len > 0) {
-      store.ensure(nnz + len, nnz);
       const { cols, codes } = store;
       lo = rowCols[0]!;
       hi = lo;

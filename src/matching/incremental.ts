@@ -310,23 +310,9 @@ export class GrowingAssignment {
     });
     let scanned = reduced.scanned;
     let augmentations = 0;
-    if (reduced.nFree > 0 && this.kernel !== null) {
-      // The same searches in WebAssembly, over the arena's arrays.
-      const k = this.kernel;
-      k.load(v);
-      try {
-        for (let f = 0; f < reduced.nFree; f++) {
-          augmentations++;
-          const r = reduced.freeRows[f]!;
-          const n = k.search(rows, r);
-          if (n < 0) throw infeasibleRow(r);
-          scanned += n;
-        }
-      } finally {
-        k.flush(v);
-      }
-    } else if (reduced.nFree > 0) {
-      const search = new SparseSearch(rows, nCols, delta, u, v, rowToCol, colToRow);
+    if (reduced.nFree > 0) {
+      // In WebAssembly over the arena's arrays where there is a kernel: the same searches.
+      const search = this.kernel !== null ? this.kernel.bind(rows, v) : new SparseSearch(rows, nCols, delta, u, v, rowToCol, colToRow);
       try {
         for (let f = 0; f < reduced.nFree; f++) {
           augmentations++;
@@ -336,38 +322,14 @@ export class GrowingAssignment {
         search.flush();
       }
     }
-    const rev = this.reverse !== null ? this.releaseInKernel(this.reverse) : releaseFreeColumns({ nRows, nCols, columns: () => this.columns() }, u, v, rowToCol, colToRow);
+    const reverse = this.reverse;
+    const rev = releaseFreeColumns({ nRows, nCols, columns: () => this.columns() }, u, v, rowToCol, colToRow, reverse !== null ? (t) => reverse.bind(t, u) : null);
     scanned += rev.scanned;
     augmentations += rev.searches;
     this.settleRowPrices();
     const warm = this.solved;
     this.solved = true;
     return { augmentations, scannedPairs: scanned, ms: this.now() - t0, warm, reverseSearches: rev.searches, searchedRows: reduced.nFree };
-  }
-
-  /** What releaseFreeColumns (warm.ts) does, its searches in WebAssembly over the pairs by column. */
-  private releaseInKernel(k: KernelSearch): { searches: number; scanned: number } {
-    const { nCols, u, v, colToRow } = this;
-    let first = NONE;
-    for (let j = 0; j < nCols && first === NONE; j++) if (colToRow[j] === NONE && v[j]! < 0) first = j;
-    if (first === NONE) return { searches: 0, scanned: 0 };
-    const cols = this.columns();
-    const transposed: RowsView = { rowStart: cols.colStart, rowEnd: cols.colEnd, colIdx: cols.colRow, cost: cols.colCost };
-    let scanned = 0;
-    let searches = 0;
-    k.load(u);
-    try {
-      for (let j = first; j < nCols; j++) {
-        if (colToRow[j] !== NONE || !(v[j]! < 0)) continue;
-        searches++;
-        const n = k.search(transposed, j);
-        if (n < 0) throw infeasibleRow(j);
-        scanned += n;
-      }
-    } finally {
-      k.flush(u);
-    }
-    return { searches, scanned };
   }
 
   /**

@@ -371,6 +371,14 @@ export function cheapestTwoSparse(rows: RowsView, delta: Float64Array | null, v:
   return end - start;
 }
 
+/** One search at a time from a free row over fixed arrays: {@link SparseSearch}, or its kernel (wasm/sparse-search.ts). */
+export interface RowSearch {
+  /** Augments from free row r0 (or settles it unmatched); returns the pairs scanned. */
+  run(r0: number): number;
+  /** Writes the column prices back. */
+  flush(): void;
+}
+
 /**
  * One shortest-augmenting-path search at a time, reusing its arrays: every search
  * resets only the columns it touched, so its cost follows what it reaches, not nCols.
@@ -379,7 +387,7 @@ export function cheapestTwoSparse(rows: RowsView, delta: Float64Array | null, v:
  * the distance is +Infinity until reached and -Infinity once settled), and the heap
  * keeps each key beside its column.
  */
-export class SparseSearch {
+export class SparseSearch implements RowSearch {
   private readonly pd: Float64Array;
   private readonly pred: Int32Array;
   private readonly hpos: Int32Array;

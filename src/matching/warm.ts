@@ -1,4 +1,4 @@
-import { SparseSearch, type RowsView } from './sparse.js';
+import { SparseSearch, type RowSearch, type RowsView } from './sparse.js';
 import type { SparseInstance, WarmStart } from './types.js';
 
 /*
@@ -190,7 +190,8 @@ export function columnsOf(inst: SparseInstance): ColumnsView {
  * search's code, rather than a reverse Dijkstra of its own, matters in short runs:
  * the forward search is already compiled and optimised by the time a warm start
  * needs it (a day of small markets: ~100 warm solves, too few to pay for compiling a
- * search of their own).
+ * search of their own). `searchOf` makes the search another way (incremental.ts: in
+ * WebAssembly), the same one over the transposed pairs.
  */
 export function releaseFreeColumns(
   inst: SparseInstance | { nRows: number; nCols: number; columns: () => ColumnsView },
@@ -198,6 +199,7 @@ export function releaseFreeColumns(
   v: Float64Array,
   rowToCol: Int32Array,
   colToRow: Int32Array,
+  searchOf: ((transposed: RowsView) => RowSearch) | null = null,
 ): { searches: number; scanned: number } {
   const nCols = inst.nCols;
   let first = NONE;
@@ -206,7 +208,7 @@ export function releaseFreeColumns(
   const cols = 'columns' in inst ? inst.columns() : columnsOf(inst);
   const transposed: RowsView = { rowStart: cols.colStart, rowEnd: cols.colEnd, colIdx: cols.colRow, cost: cols.colCost };
   // transposed: u and v swap, so do rowToCol and colToRow; each column may go free at 0
-  const search = new SparseSearch(transposed, inst.nRows, new Float64Array(nCols), v, u, colToRow, rowToCol);
+  const search = searchOf !== null ? searchOf(transposed) : new SparseSearch(transposed, inst.nRows, new Float64Array(nCols), v, u, colToRow, rowToCol);
   let scanned = 'rowPtr' in inst ? inst.rowPtr[inst.nRows]! : 0;
   let searches = 0;
   try {

@@ -1,4 +1,4 @@
-import type { RowsView } from '../sparse.js';
+import { infeasibleRow, type RowSearch, type RowsView } from '../sparse.js';
 import { instantiate, lazyModule, type KernelArena } from './shared-memory.js';
 import { WASM_BASE64 } from './sparse-search.wasm.js';
 
@@ -76,6 +76,23 @@ export class KernelSearch {
   flush(v: Float64Array): void {
     const { pd } = this;
     for (let j = 0; j < v.length; j++) v[j] = pd[2 * j]!;
+  }
+
+  /**
+   * The searches of one solve over pairs `rows` (arrays of the arena) from column
+   * prices `v`, which {@link RowSearch.flush} writes back: what a SparseSearch over the
+   * same arrays is.
+   */
+  bind(rows: RowsView, v: Float64Array): RowSearch {
+    this.load(v);
+    return {
+      run: (r0: number): number => {
+        const n = this.search(rows, r0);
+        if (n < 0) throw infeasibleRow(r0);
+        return n;
+      },
+      flush: (): void => this.flush(v),
+    };
   }
 
   /**
